@@ -1,0 +1,189 @@
+package experiment
+
+import "time"
+
+// Readout is the analysed result for one experiment: everything package
+// report renders as Markdown and JSON. Values that are undefined for the
+// given counts (a rate of an arm with no units, a lift over a zero control
+// rate) are nil pointers, never NaN or Inf. Slices are in readout order: arms
+// in spec order then first seen, metrics in spec order.
+type Readout struct {
+	Experiment    string          `json:"experiment"`
+	ExposureEvent string          `json:"exposure_event"`
+	Control       string          `json:"control"`
+	WindowStart   *time.Time      `json:"window_start"`
+	WindowEnd     *time.Time      `json:"window_end"`
+	Freshness     *time.Time      `json:"data_freshness"`
+	Settings      Settings        `json:"settings"`
+	Arms          []ArmUnits      `json:"arms"`
+	SampleRatio   SampleRatio     `json:"sample_ratio"`
+	Metrics       []MetricReadout `json:"metrics"`
+	Diagnostics   Diagnostics     `json:"diagnostics"`
+	// Warnings are readout-wide cautions (sample ratio, exclusions,
+	// conditions), deduplicated, in first-seen order.
+	Warnings []string `json:"warnings"`
+}
+
+// Settings echoes the analysis settings that shaped the numbers.
+type Settings struct {
+	Alpha                float64 `json:"alpha"`
+	ConfidenceLevel      float64 `json:"confidence_level"`
+	Alternative          string  `json:"alternative"`
+	MultiArmPolicy       string  `json:"multi_arm_policy"`
+	MaturityPolicy       string  `json:"maturity_policy"`
+	MinCount             int64   `json:"min_count"`
+	SampleRatioThreshold float64 `json:"sample_ratio_threshold"`
+}
+
+// ArmUnits is one arm of the analysis population (after multi-arm and tie
+// exclusions, before per-metric maturity exclusions).
+type ArmUnits struct {
+	Name          string  `json:"name"`
+	Units         int64   `json:"units"`
+	PlannedShare  float64 `json:"planned_share"`
+	ObservedShare float64 `json:"observed_share"`
+}
+
+// SampleRatio is the Pearson chi-square goodness-of-fit check of units per
+// arm against the planned split.
+type SampleRatio struct {
+	Method    string  `json:"method"`
+	Statistic float64 `json:"statistic"`
+	DF        int     `json:"df"`
+	PValue    float64 `json:"p_value"`
+	Threshold float64 `json:"threshold"`
+	// Mismatch is true when PValue < Threshold.
+	Mismatch bool `json:"mismatch"`
+	// Checked is false when fewer than two arms have units.
+	Checked bool `json:"checked"`
+}
+
+// MetricReadout holds one metric's per-arm rates and comparisons.
+type MetricReadout struct {
+	Name   string   `json:"name"`
+	Events []string `json:"events"`
+	// WindowSeconds is the attribution window in seconds; nil is unlimited.
+	WindowSeconds *int64       `json:"window_seconds"`
+	Target        *float64     `json:"target_rate"`
+	Arms          []ArmRate    `json:"arms"`
+	Comparisons   []Comparison `json:"comparisons"`
+	Warnings      []string     `json:"warnings"`
+}
+
+// ArmRate is one arm's conversion rate for one metric.
+type ArmRate struct {
+	Arm         string `json:"arm"`
+	Units       int64  `json:"units"`
+	Conversions int64  `json:"conversions"`
+	// Immature counts units left out because their attribution window had
+	// not closed (0 under the include policy, which keeps them in Units).
+	Immature int64     `json:"immature_units"`
+	Rate     *float64  `json:"rate"`
+	Interval *Interval `json:"interval"`
+	// TargetTest is set when the metric has a target rate.
+	TargetTest *TargetTest `json:"target_test,omitempty"`
+}
+
+// Interval is a two-sided confidence interval.
+type Interval struct {
+	Lower  float64 `json:"lower"`
+	Upper  float64 `json:"upper"`
+	Level  float64 `json:"level"`
+	Method string  `json:"method"`
+}
+
+// Test is a z test decided by both routes: the statistic against the
+// critical value, and the p-value against alpha.
+type Test struct {
+	Method            string  `json:"method"`
+	Statistic         float64 `json:"statistic"`
+	CriticalValue     float64 `json:"critical_value"`
+	PValue            float64 `json:"p_value"`
+	Alpha             float64 `json:"alpha"`
+	Alternative       string  `json:"alternative"`
+	RejectByStatistic bool    `json:"reject_by_statistic"`
+	RejectByPValue    bool    `json:"reject_by_p_value"`
+}
+
+// ExactTest is an exact test (Fisher's exact test for two arms, the exact
+// binomial test against a target).
+type ExactTest struct {
+	Method      string  `json:"method"`
+	PValue      float64 `json:"p_value"`
+	Alpha       float64 `json:"alpha"`
+	Alternative string  `json:"alternative"`
+	Reject      bool    `json:"reject"`
+}
+
+// TargetTest is one arm tested against a fixed target rate p0.
+type TargetTest struct {
+	Target float64 `json:"target_rate"`
+	Z      *Test   `json:"z_test"`
+	// ConditionMet is n p0 >= MinCount and n (1 - p0) >= MinCount.
+	ConditionMet bool       `json:"condition_met"`
+	Exact        *ExactTest `json:"exact_test"`
+	// Significant is the decision of the test relied on: the z test when
+	// the condition holds, the exact test otherwise.
+	Significant bool     `json:"significant"`
+	DecidedBy   string   `json:"decided_by"`
+	Warnings    []string `json:"warnings"`
+}
+
+// Comparison is one treatment arm against the control for one metric.
+type Comparison struct {
+	Treatment string `json:"treatment"`
+	Control   string `json:"control"`
+	// Difference is p_treatment - p_control.
+	Difference         *float64  `json:"difference"`
+	DifferenceInterval *Interval `json:"difference_interval"`
+	// RelativeLift is p_treatment / p_control - 1.
+	RelativeLift *float64  `json:"relative_lift"`
+	LiftInterval *Interval `json:"relative_lift_interval"`
+	Z            *Test     `json:"z_test"`
+	// ConditionMet is at least MinCount conversions and MinCount
+	// non-conversions in both arms.
+	ConditionMet bool       `json:"condition_met"`
+	Exact        *ExactTest `json:"exact_test"`
+	Significant  bool       `json:"significant"`
+	DecidedBy    string     `json:"decided_by"`
+	// IntervalAgrees is false when the difference interval's exclusion of
+	// zero disagrees with the test's decision.
+	IntervalAgrees bool     `json:"interval_agrees"`
+	Warnings       []string `json:"warnings"`
+}
+
+// Diagnostics accounts for every row read and every unit seen.
+type Diagnostics struct {
+	RowsRead int64         `json:"rows_read"`
+	BadRows  []ReasonCount `json:"bad_rows"`
+	// ExposureRows counts this experiment's exposure rows, inside the
+	// analysis window or not.
+	ExposureRows int64 `json:"exposure_rows"`
+	// UnitsExposed counts units with at least one in-window exposure.
+	UnitsExposed  int64 `json:"units_exposed"`
+	MultiArmUnits int64 `json:"multi_arm_units"`
+	// TiedUnits counts units whose earliest exposure rows carry two arms
+	// at the same instant (policy first only).
+	TiedUnits     int64         `json:"tied_units"`
+	UnitsPerArm   []ArmCount    `json:"units_per_arm"`
+	Immature      []MetricCount `json:"immature_units"`
+	IgnoredEvents []ReasonCount `json:"ignored_events"`
+}
+
+// ReasonCount is a count by reason; reasons are snake_case words.
+type ReasonCount struct {
+	Reason string `json:"reason"`
+	Count  int64  `json:"count"`
+}
+
+// ArmCount is a count of units by arm.
+type ArmCount struct {
+	Arm   string `json:"arm"`
+	Units int64  `json:"units"`
+}
+
+// MetricCount is a count of units by metric.
+type MetricCount struct {
+	Metric string `json:"metric"`
+	Units  int64  `json:"units"`
+}

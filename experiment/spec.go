@@ -1,0 +1,121 @@
+package experiment
+
+import (
+	"fmt"
+	"time"
+)
+
+// MultiArmPolicy says what happens to a unit with in-window exposure rows in
+// two or more distinct arms.
+type MultiArmPolicy int
+
+const (
+	// MultiArmExclude drops the unit from every metric and counts it in the
+	// diagnostics. It is the zero value and the default.
+	MultiArmExclude MultiArmPolicy = iota
+	// MultiArmFirst keeps the arm of the unit's first exposure. A unit whose
+	// earliest exposure rows carry two arms at the same instant is excluded
+	// and counted as tied.
+	MultiArmFirst
+)
+
+// String returns the policy's name as flags and readouts spell it.
+func (p MultiArmPolicy) String() string {
+	switch p {
+	case MultiArmExclude:
+		return "exclude"
+	case MultiArmFirst:
+		return "first"
+	}
+	return fmt.Sprintf("MultiArmPolicy(%d)", int(p))
+}
+
+// ParseMultiArmPolicy parses "exclude" or "first".
+func ParseMultiArmPolicy(s string) (MultiArmPolicy, error) {
+	switch s {
+	case "exclude":
+		return MultiArmExclude, nil
+	case "first":
+		return MultiArmFirst, nil
+	}
+	return 0, fmt.Errorf("unknown multi-arm policy %q (want exclude or first)", s)
+}
+
+// MaturityPolicy says what happens to a unit whose attribution window has not
+// closed by the end of the analysis window (or by the data's freshness when
+// the window has no end).
+type MaturityPolicy int
+
+const (
+	// MaturityExclude leaves immature units out of the metric and counts
+	// them. It is the zero value and the default.
+	MaturityExclude MaturityPolicy = iota
+	// MaturityInclude keeps immature units in the metric.
+	MaturityInclude
+)
+
+// String returns the policy's name as flags and readouts spell it.
+func (p MaturityPolicy) String() string {
+	switch p {
+	case MaturityExclude:
+		return "exclude"
+	case MaturityInclude:
+		return "include"
+	}
+	return fmt.Sprintf("MaturityPolicy(%d)", int(p))
+}
+
+// ParseMaturityPolicy parses "exclude" or "include".
+func ParseMaturityPolicy(s string) (MaturityPolicy, error) {
+	switch s {
+	case "exclude":
+		return MaturityExclude, nil
+	case "include":
+		return MaturityInclude, nil
+	}
+	return 0, fmt.Errorf("unknown maturity policy %q (want exclude or include)", s)
+}
+
+// Metric is one conversion metric: a unit converts when at least one event
+// whose name is in Events occurs in [t0, t0+Window) (and before the end of
+// the analysis window).
+type Metric struct {
+	// Name is the metric's label in the readout.
+	Name string
+	// Events is the set of event names that count as a conversion.
+	Events []string
+	// Window is the attribution window W; 0 means unlimited.
+	Window time.Duration
+	// Target, when non-nil, is a fixed rate p0 that every arm is tested
+	// against with the one-proportion z test.
+	Target *float64
+}
+
+// Spec describes one experiment: which rows are its exposures, which arm is
+// the control, the planned split, the analysis window, the policies and the
+// metrics. The zero values of the policies are the defaults of DESIGN.md.
+type Spec struct {
+	// Key is the experiment key matched against the experiment column of
+	// exposure rows. Empty means every exposure row belongs to this
+	// experiment (for logs without an experiment column).
+	Key string
+	// ExposureEvent is the event name of exposure rows.
+	ExposureEvent string
+	// Control is the control arm's name.
+	Control string
+	// Arms lists the planned arms in readout order. Arms seen in the data
+	// but not listed are appended in the order first seen (by first
+	// exposure time, then name). May be empty.
+	Arms []string
+	// Split holds the planned share of each arm in Arms (same length), or
+	// is empty for an equal split over the arms in the readout.
+	Split []float64
+	// Start and End bound the analysis window [Start, End); nil means
+	// unbounded on that side.
+	Start, End *time.Time
+	// MultiArm and Maturity are the exclusion policies.
+	MultiArm MultiArmPolicy
+	Maturity MaturityPolicy
+	// Metrics are analysed in this order.
+	Metrics []Metric
+}
