@@ -1,0 +1,465 @@
+package ingest
+
+import (
+	"errors"
+	"fmt"
+	"io"
+	"slices"
+	"strconv"
+	"strings"
+	"unsafe"
+
+	"github.com/parquet-go/parquet-go"
+	"github.com/parquet-go/parquet-go/deprecated"
+	"github.com/parquet-go/parquet-go/format"
+)
+
+// parquetReader reads one Parquet source with parquet-go: only the mapped
+// columns, row group by row group, page by page, keeping one page per column
+// in memory. Columns are read in step, one value of each per row.
+//
+// Mapped columns must be non-repeated leaves: top-level columns, or fields
+// of (non-repeated) groups named by a dotted path such as "device.os". Text columns (user,
+// event, experiment, arm, segments) may be BYTE_ARRAY (any annotation),
+// INT32 or INT64 (written in decimal) or BOOLEAN ("true", "false"). The ts
+// column may be INT64 TIMESTAMP (milli, micro, nano; not UTC-adjusted is
+// taken as UTC), INT96 (Impala and Spark), INT32 DATE (midnight UTC), a plain
+// INT32 or INT64 with Mapping.EpochUnit, or BYTE_ARRAY text for
+// ParseTimestamp.
+type parquetReader struct {
+	file string
+	src  *openedSource
+	pf   *parquet.File
+	p    *plan
+	cols []*pqColumn // per logical column
+
+	rowGroups []parquet.RowGroup
+	rg        int   // current row group, or -1 before the first
+	rgRows    int64 // rows in the current row group
+	rgDone    int64 // rows of the current row group already read
+	rowBase   int64 // rows of the file before the current row group
+	row       row
+}
+
+// textKind says how a column's values become text or time.
+type valueKind int
+
+const (
+	kindBytes     valueKind = iota + 1 // BYTE_ARRAY as text
+	kindInt32                          // INT32 in decimal
+	kindUint32                         // INT32 annotated unsigned
+	kindInt64                          // INT64 in decimal
+	kindUint64                         // INT64 annotated unsigned
+	kindBool                           // BOOLEAN as true/false
+	kindTSText                         // BYTE_ARRAY parsed by ParseTimestamp
+	kindTSEpoch64                      // INT64 count of unit nanoseconds
+	kindTSEpoch32                      // INT32 count of unit nanoseconds
+	kindTSDate                         // INT32 days
+	kindTSInt96                        // INT96 Julian day + nanoseconds
+)
+
+// pqColumn is the reading state of one mapped column in the current row group.
+type pqColumn struct {
+	name    string // physical
+	index   int    // leaf column index in the file
+	kind    valueKind
+	unit    int64 // nanoseconds per unit for kindTSEpoch*
+	scratch []byte
+
+	pages parquet.Pages
+	page  parquet.Page
+	vr    parquet.ValueReader
+	buf   []parquet.Value
+	pos   int
+	n     int
+}
+
+// errColumnShort marks a column chunk with fewer values than its row group
+// has rows.
+var errColumnShort = errors.New("fewer values than rows")
+
+// errPanicked marks an error made from a panic in parquet-go.
+var errPanicked = errors.New("parquet-go panicked")
+
+func newParquetReader(file string, src *openedSource, p *plan) (pr *parquetReader, err error) {
+	var pf *parquet.File
+	func() {
+		// Last-resort guard: parquet-go may panic on a corrupt footer.
+		// Turn that into an error naming the file.
+		defer func() {
+			if v := recover(); v != nil {
+				err = fmt.Errorf("%s: corrupt parquet file: %w reading the footer: %v", file, errPanicked, v)
+			}
+		}()
+		pf, err = parquet.OpenFile(src.r, src.size,
+			parquet.SkipPageIndex(true), parquet.SkipBloomFilters(true))
+	}()
+	if err != nil {
+		if !errors.Is(err, errPanicked) {
+			err = fmt.Errorf("%s: %w", file, err)
+		}
+		return nil, err
+	}
+	r := &parquetReader{file: file, src: src, pf: pf, p: p, rg: -1, rowGroups: pf.RowGroups()}
+	schema := pf.Schema()
+	var top []string
+	for _, f := range schema.Fields() {
+		top = append(top, f.Name())
+	}
+	for i, name := range p.physical {
+		leaf, ok := lookupLeaf(schema, name)
+		if !ok {
+			if slices.Contains(top, name) {
+				return nil, &ColumnError{File: file, Column: name, Err: ErrColumnType,
+					Detail: "a group: name one of its fields as " + name + ".field"}
+			}
+			return nil, missingColumn(file, name, top)
+		}
+		if leaf.MaxRepetitionLevel > 0 {
+			return nil, &ColumnError{File: file, Column: name, Err: ErrColumnType, Detail: "a repeated column"}
+		}
+		kind, unit, detail := columnKind(leaf.Node.Type(), i == colTS, p.epochUnit)
+		if detail != "" {
+			return nil, &ColumnError{File: file, Column: name, Err: ErrColumnType, Detail: detail}
+		}
+		r.cols = append(r.cols, &pqColumn{name: name, index: leaf.ColumnIndex, kind: kind, unit: unit,
+			buf: make([]parquet.Value, 1024)})
+	}
+	r.row.cells = make([]cell, len(p.physical))
+	return r, nil
+}
+
+// lookupLeaf finds the leaf column called name: a top-level column, or a
+// field inside groups written as a dotted path ("a.b").
+func lookupLeaf(schema *parquet.Schema, name string) (parquet.LeafColumn, bool) {
+	if leaf, ok := schema.Lookup(name); ok && leaf.Node.Leaf() {
+		return leaf, true
+	}
+	if strings.Contains(name, ".") {
+		if leaf, ok := schema.Lookup(strings.Split(name, ".")...); ok && leaf.Node.Leaf() {
+			return leaf, true
+		}
+	}
+	return parquet.LeafColumn{}, false
+}
+
+// columnKind decides how to read a column of type t. For a column it cannot
+// read it returns a non-empty detail for the error.
+func columnKind(t parquet.Type, isTS bool, epochUnit int64) (valueKind, int64, string) {
+	var lt format.LogicalTypeValue
+	if l := t.LogicalType(); l != nil {
+		lt = l.Value
+	}
+	var ct *deprecated.ConvertedType
+	if c := t.ConvertedType(); c != nil {
+		ct = c
+	}
+	physical := t.Kind().String()
+	if lt != nil {
+		physical += " " + lt.String()
+	}
+	if !isTS {
+		switch t.Kind() {
+		case parquet.ByteArray:
+			switch lt.(type) {
+			case nil, *format.StringType, *format.EnumType, *format.JsonType:
+				return kindBytes, 0, ""
+			}
+		case parquet.Int32, parquet.Int64:
+			unsigned := false
+			switch l := lt.(type) {
+			case nil:
+				if ct != nil && *ct != deprecated.Int32 && *ct != deprecated.Int64 &&
+					*ct != deprecated.Uint32 && *ct != deprecated.Uint64 &&
+					*ct != deprecated.Int8 && *ct != deprecated.Int16 &&
+					*ct != deprecated.Uint8 && *ct != deprecated.Uint16 {
+					return 0, 0, "cannot read " + physical + " as text"
+				}
+				unsigned = ct != nil && (*ct == deprecated.Uint32 || *ct == deprecated.Uint64 ||
+					*ct == deprecated.Uint8 || *ct == deprecated.Uint16)
+			case *format.IntType:
+				unsigned = !l.IsSigned
+			default:
+				return 0, 0, "cannot read " + physical + " as text"
+			}
+			switch {
+			case t.Kind() == parquet.Int32 && unsigned:
+				return kindUint32, 0, ""
+			case t.Kind() == parquet.Int32:
+				return kindInt32, 0, ""
+			case unsigned:
+				return kindUint64, 0, ""
+			default:
+				return kindInt64, 0, ""
+			}
+		case parquet.Boolean:
+			return kindBool, 0, ""
+		}
+		return 0, 0, "cannot read " + physical + " as text"
+	}
+
+	switch t.Kind() {
+	case parquet.Int96:
+		return kindTSInt96, 0, ""
+	case parquet.ByteArray:
+		switch lt.(type) {
+		case nil, *format.StringType:
+			return kindTSText, 0, ""
+		}
+	case parquet.Int64:
+		switch l := lt.(type) {
+		case *format.TimestampType:
+			// Not UTC-adjusted ("local") timestamps are taken as UTC.
+			switch l.Unit.Value.(type) {
+			case *format.MilliSeconds:
+				return kindTSEpoch64, epochUnitNanos("ms"), ""
+			case *format.MicroSeconds:
+				return kindTSEpoch64, epochUnitNanos("us"), ""
+			case *format.NanoSeconds:
+				return kindTSEpoch64, epochUnitNanos("ns"), ""
+			}
+		case nil, *format.IntType:
+			if ct != nil {
+				switch *ct {
+				case deprecated.TimestampMillis:
+					return kindTSEpoch64, epochUnitNanos("ms"), ""
+				case deprecated.TimestampMicros:
+					return kindTSEpoch64, epochUnitNanos("us"), ""
+				}
+			}
+			if epochUnit == 0 {
+				return 0, 0, "integer timestamps need an epoch unit (s, ms, us or ns)"
+			}
+			return kindTSEpoch64, epochUnit, ""
+		}
+	case parquet.Int32:
+		switch lt.(type) {
+		case *format.DateType:
+			return kindTSDate, 0, ""
+		case nil, *format.IntType:
+			if ct != nil && *ct == deprecated.Date {
+				return kindTSDate, 0, ""
+			}
+			if epochUnit == 0 {
+				return 0, 0, "integer timestamps need an epoch unit (s, ms, us or ns)"
+			}
+			return kindTSEpoch32, epochUnit, ""
+		}
+	}
+	return 0, 0, "cannot read " + physical + " as a timestamp"
+}
+
+func (r *parquetReader) read(b *batchBuilder, max int, st *Stats) (n int, err error) {
+	defer func() {
+		// Last-resort guard: parquet-go may panic while decoding the pages
+		// of a corrupt row group. Turn that into an error naming the file
+		// and row group; the reader stops there.
+		if v := recover(); v != nil {
+			err = fmt.Errorf("%s: row group %d: corrupt parquet data: %w: %v", r.file, r.rg, errPanicked, v)
+		}
+	}()
+	for n < max {
+		if r.rg < 0 || r.rgDone == r.rgRows {
+			if err := r.nextRowGroup(); err != nil {
+				return n, err
+			}
+			continue
+		}
+		row := &r.row
+		for i, c := range r.cols {
+			v, err := c.next()
+			if err != nil {
+				if err == errColumnShort {
+					return n, fmt.Errorf("%s: row group %d: column %q: %w (%d rows)", r.file, r.rg, c.name, err, r.rgRows)
+				}
+				return n, fmt.Errorf("%s: row group %d: column %q: %w", r.file, r.rg, c.name, err)
+			}
+			if i == colTS {
+				row.ts, row.tsErr, row.cells[i] = c.timestamp(v)
+				continue
+			}
+			row.cells[i] = c.text(v)
+		}
+		r.rgDone++
+		st.RowsRead++
+		if col, reason := r.p.check(row); reason != nil {
+			return n, r.p.rowError(r.file, r.rowBase+r.rgDone, r.rg, row, col, reason)
+		}
+		b.append(row)
+		n++
+	}
+	return n, nil
+}
+
+// nextRowGroup finishes the current row group and opens the pages of the
+// next one, or returns io.EOF after the last.
+func (r *parquetReader) nextRowGroup() error {
+	if r.rg >= 0 {
+		for _, c := range r.cols {
+			// A column with values beyond the row group's rows is corrupt.
+			if _, err := c.next(); err != errColumnShort {
+				if err == nil {
+					err = fmt.Errorf("more values than the %d rows of the row group", r.rgRows)
+				}
+				return fmt.Errorf("%s: row group %d: column %q: %w", r.file, r.rg, c.name, err)
+			}
+			c.closePages()
+		}
+		r.rowBase += r.rgRows
+	}
+	r.rg++
+	if r.rg >= len(r.rowGroups) {
+		return io.EOF
+	}
+	g := r.rowGroups[r.rg]
+	r.rgRows, r.rgDone = g.NumRows(), 0
+	if r.rgRows < 0 {
+		return fmt.Errorf("%s: row group %d: corrupt parquet metadata: %d rows", r.file, r.rg, r.rgRows)
+	}
+	chunks := g.ColumnChunks()
+	for _, c := range r.cols {
+		if c.index < 0 || c.index >= len(chunks) {
+			return fmt.Errorf("%s: row group %d: column %q: no column chunk", r.file, r.rg, c.name)
+		}
+		c.pages = chunks[c.index].Pages()
+		c.pos, c.n = 0, 0
+	}
+	return nil
+}
+
+func (r *parquetReader) close() error {
+	for _, c := range r.cols {
+		c.closePages()
+	}
+	return r.src.Close()
+}
+
+// next returns the column's next value, reading pages as needed. It returns
+// errColumnShort at the end of the column chunk.
+func (c *pqColumn) next() (parquet.Value, error) {
+	for c.pos >= c.n {
+		if c.vr == nil {
+			if c.pages == nil {
+				return parquet.Value{}, errColumnShort
+			}
+			page, err := c.pages.ReadPage()
+			if err == io.EOF {
+				return parquet.Value{}, errColumnShort
+			}
+			if err != nil {
+				return parquet.Value{}, err
+			}
+			c.page, c.vr = page, page.Values()
+		}
+		n, err := c.vr.ReadValues(c.buf)
+		if n < 0 || n > len(c.buf) {
+			return parquet.Value{}, fmt.Errorf("corrupt page: %d values", n)
+		}
+		c.pos, c.n = 0, n
+		if err != nil && err != io.EOF {
+			return parquet.Value{}, err
+		}
+		if n == 0 || err == io.EOF {
+			if n > 0 {
+				// Keep the page until its last values are used; the
+				// next read returns (0, io.EOF) and releases it.
+				break
+			}
+			c.releasePage()
+		}
+	}
+	v := c.buf[c.pos]
+	c.pos++
+	return v, nil
+}
+
+func (c *pqColumn) releasePage() {
+	if c.page != nil {
+		parquet.Release(c.page)
+	}
+	c.page, c.vr = nil, nil
+}
+
+func (c *pqColumn) closePages() {
+	c.releasePage()
+	if c.pages != nil {
+		c.pages.Close()
+		c.pages = nil
+	}
+	c.pos, c.n = 0, 0
+}
+
+// text converts a value of a text column. The string may point into the
+// current page or c.scratch; it is valid until the column's next value.
+func (c *pqColumn) text(v parquet.Value) cell {
+	if v.IsNull() {
+		return cell{null: true}
+	}
+	switch c.kind {
+	case kindBytes:
+		b := v.ByteArray()
+		return cell{s: unsafe.String(unsafe.SliceData(b), len(b))}
+	case kindInt32:
+		c.scratch = strconv.AppendInt(c.scratch[:0], int64(v.Int32()), 10)
+	case kindUint32:
+		c.scratch = strconv.AppendUint(c.scratch[:0], uint64(uint32(v.Int32())), 10)
+	case kindInt64:
+		c.scratch = strconv.AppendInt(c.scratch[:0], v.Int64(), 10)
+	case kindUint64:
+		c.scratch = strconv.AppendUint(c.scratch[:0], uint64(v.Int64()), 10)
+	case kindBool:
+		c.scratch = strconv.AppendBool(c.scratch[:0], v.Boolean())
+	}
+	return cell{s: unsafe.String(unsafe.SliceData(c.scratch), len(c.scratch))}
+}
+
+// timestamp converts a value of the ts column. The cell holds the raw value
+// as text for error messages, and is only filled when there is an error.
+func (c *pqColumn) timestamp(v parquet.Value) (int64, error, cell) {
+	if v.IsNull() {
+		return 0, ErrNullTimestamp, cell{null: true}
+	}
+	switch c.kind {
+	case kindTSText:
+		b := v.ByteArray()
+		ns, err := ParseTimestamp(b)
+		if err != nil {
+			return 0, err, cell{s: string(b)}
+		}
+		return ns, nil, cell{}
+	case kindTSEpoch64, kindTSEpoch32:
+		x := v.Int64()
+		if c.kind == kindTSEpoch32 {
+			x = int64(v.Int32())
+		}
+		ns, ok := fromEpoch(x, c.unit)
+		if !ok {
+			return 0, ErrTimestampRange, cell{s: strconv.FormatInt(x, 10) + " " + unitName(c.unit)}
+		}
+		return ns, nil, cell{}
+	case kindTSDate:
+		d := v.Int32()
+		ns, ok := fromDate(d)
+		if !ok {
+			return 0, ErrTimestampRange, cell{s: formatSecNsec(int64(d)*secPerDay, 0)}
+		}
+		return ns, nil, cell{}
+	case kindTSInt96:
+		sec, nsec := int96SecNsec(v.Int96())
+		ns, ok := fromSecNsec(sec, nsec)
+		if !ok {
+			return 0, ErrTimestampRange, cell{s: formatSecNsec(sec, nsec)}
+		}
+		return ns, nil, cell{}
+	}
+	return 0, ErrBadTimestamp, cell{}
+}
+
+func unitName(nanos int64) string {
+	for _, u := range []string{"s", "ms", "us", "ns"} {
+		if epochUnitNanos(u) == nanos {
+			return u
+		}
+	}
+	return "?"
+}

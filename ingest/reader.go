@@ -1,0 +1,406 @@
+package ingest
+
+import (
+	"errors"
+	"fmt"
+	"io"
+	"strings"
+	"unsafe"
+
+	"github.com/apache/arrow-go/v18/arrow"
+	"github.com/apache/arrow-go/v18/arrow/array"
+	"github.com/apache/arrow-go/v18/arrow/memory"
+
+	"github.com/armtally/armtally/experiment"
+)
+
+// Mapping names the physical columns that hold the logical columns.
+type Mapping struct {
+	// Physical column names. Experiment and Arm may be "" when the data
+	// has no such column; the logical table then lacks it too.
+	User, TS, Event, Experiment, Arm string
+	// Segments are physical columns read as segment dimensions. Each
+	// becomes a nullable utf8 column of the same name.
+	Segments []string
+	// EpochUnit is the unit of integer timestamps: "s", "ms", "us" or
+	// "ns". It applies to integer Parquet columns without a TIMESTAMP or
+	// DATE annotation and to CSV cells that are plain integers. With ""
+	// such a Parquet column is an error that asks for a unit, and such a
+	// CSV cell is a bad timestamp.
+	EpochUnit string
+}
+
+// DefaultMapping returns the mapping for columns named user_id, ts, event,
+// experiment and arm, with no segments and no epoch unit.
+func DefaultMapping() Mapping {
+	return Mapping{User: "user_id", TS: "ts", Event: "event", Experiment: "experiment", Arm: "arm"}
+}
+
+// Options configures a Reader.
+type Options struct {
+	Mapping Mapping
+	// ExposureEvent is the event name of exposure rows. Such a row must
+	// carry a non-empty arm; otherwise it is bad (ErrNoArm). "" turns the
+	// check off. Setting it requires Mapping.Arm.
+	ExposureEvent string
+	// BatchSize is the most rows per record batch; 0 means 65536.
+	BatchSize int
+	// Allocator allocates the record batches; nil means
+	// memory.DefaultAllocator.
+	Allocator memory.Allocator
+}
+
+// DefaultBatchSize is the number of rows per record batch when
+// Options.BatchSize is 0.
+const DefaultBatchSize = 65536
+
+// Stats counts what a Reader has read so far.
+type Stats struct {
+	// Files is the number of sources opened.
+	Files int
+	// RowsRead is the number of data rows taken from the sources, valid
+	// or not (the bad row that stopped the reader included).
+	RowsRead int64
+	// Rows is the number of rows delivered in record batches.
+	Rows int64
+}
+
+// Reader reads sources one after another and returns their rows as Arrow
+// record batches of the logical event table (see package experiment):
+//
+//	user        utf8, non-null, non-empty
+//	ts          timestamp[ns, tz=UTC], non-null
+//	event       utf8, non-null, non-empty
+//	experiment  utf8, nullable             only when Mapping.Experiment is set
+//	arm         utf8, nullable             only when Mapping.Arm is set
+//	<segment>   utf8, nullable             one per Mapping.Segments entry
+//
+// An empty experiment, arm or segment value becomes null. A batch holds rows
+// of one source only, in file order. The first bad row stops the reader:
+// Next returns false and Err returns a *RowError. Sources are opened one at
+// a time, when their first row is needed.
+//
+// A Reader is not safe for concurrent use.
+type Reader struct {
+	sources   []Source
+	plan      *plan
+	mem       memory.Allocator
+	batchSize int
+
+	next   int        // index of the next source to open
+	cur    fileReader // the source being read, or nil
+	bld    *batchBuilder
+	rec    arrow.RecordBatch
+	err    error
+	stats  Stats
+	closed bool
+}
+
+// fileReader reads the rows of one source.
+type fileReader interface {
+	// read appends up to max valid rows to b and returns how many it
+	// appended. At the end of the source it returns io.EOF (n may be > 0).
+	read(b *batchBuilder, max int, st *Stats) (n int, err error)
+	close() error
+}
+
+// NewReader returns a reader over sources. It checks the options and the
+// sources' extensions but opens no file: a missing column or a corrupt file
+// is reported by Err once Next reaches that source.
+func NewReader(sources []Source, opts Options) (*Reader, error) {
+	for _, s := range sources {
+		if s.kind == 0 {
+			return nil, fmt.Errorf("%s: unknown file type (want .csv, .parquet or .parq)", s.Name)
+		}
+	}
+	p, err := newPlan(opts)
+	if err != nil {
+		return nil, err
+	}
+	mem := opts.Allocator
+	if mem == nil {
+		mem = memory.DefaultAllocator
+	}
+	bs := opts.BatchSize
+	if bs == 0 {
+		bs = DefaultBatchSize
+	}
+	if bs < 0 {
+		return nil, fmt.Errorf("batch size %d: must be positive", bs)
+	}
+	return &Reader{sources: sources, plan: p, mem: mem, batchSize: bs}, nil
+}
+
+// Schema returns the schema of the record batches.
+func (r *Reader) Schema() *arrow.Schema { return r.plan.schema }
+
+// Next advances to the next record batch and reports whether there is one.
+// It returns false at the end of the input and on the first error.
+func (r *Reader) Next() bool {
+	if r.rec != nil {
+		r.rec.Release()
+		r.rec = nil
+	}
+	if r.err != nil || r.closed {
+		return false
+	}
+	if r.bld == nil {
+		r.bld = newBatchBuilder(r.mem, r.plan)
+	}
+	for {
+		if r.cur == nil {
+			if r.next >= len(r.sources) {
+				return false
+			}
+			src := r.sources[r.next]
+			r.next++
+			fr, err := openFile(src, r.plan)
+			if err != nil {
+				r.err = err
+				return false
+			}
+			r.stats.Files++
+			r.cur = fr
+		}
+		n, err := r.cur.read(r.bld, r.batchSize, &r.stats)
+		if err == io.EOF {
+			err = r.cur.close()
+			r.cur = nil
+		}
+		if err != nil {
+			r.bld.discard()
+			r.err = err
+			return false
+		}
+		if n > 0 {
+			r.rec = r.bld.newRecord()
+			r.stats.Rows += int64(n)
+			return true
+		}
+	}
+}
+
+// Record returns the current record batch. It is valid until the next call
+// to Next or Close; the Reader releases it. Call Retain to keep it longer.
+func (r *Reader) Record() arrow.RecordBatch { return r.rec }
+
+// Err returns the error that stopped the reader, or nil at a clean end. A
+// bad row gives a *RowError, a missing or unusable column a *ColumnError;
+// Parquet decoding errors wrap parquet-go's errors.
+func (r *Reader) Err() error { return r.err }
+
+// Stats returns the counts so far.
+func (r *Reader) Stats() Stats { return r.stats }
+
+// Close releases the current batch and closes the open source. It does not
+// report earlier read errors; use Err.
+func (r *Reader) Close() error {
+	if r.closed {
+		return nil
+	}
+	r.closed = true
+	if r.rec != nil {
+		r.rec.Release()
+		r.rec = nil
+	}
+	if r.bld != nil {
+		r.bld.release()
+		r.bld = nil
+	}
+	if r.cur != nil {
+		err := r.cur.close()
+		r.cur = nil
+		return err
+	}
+	return nil
+}
+
+func openFile(src Source, p *plan) (fileReader, error) {
+	o, err := src.open()
+	if err != nil {
+		return nil, err
+	}
+	var fr fileReader
+	switch src.kind {
+	case formatCSV:
+		fr, err = newCSVReader(src.Name, o, p)
+	case formatParquet:
+		fr, err = newParquetReader(src.Name, o, p)
+	default:
+		err = fmt.Errorf("%s: unknown file type", src.Name)
+	}
+	if err != nil {
+		o.Close()
+		return nil, err
+	}
+	return fr, nil
+}
+
+// Positions of the logical columns in a row. The optional experiment and arm
+// columns and the segments follow the three required ones; plan records
+// where (or -1).
+const (
+	colUser  = 0
+	colTS    = 1
+	colEvent = 2
+)
+
+// plan is the column layout shared by the format readers and the batch
+// builder.
+type plan struct {
+	physical  []string // physical column name per logical column
+	logical   []string // logical (output) name per logical column
+	expCol    int      // position of experiment, or -1
+	armCol    int      // position of arm, or -1
+	epochUnit int64    // nanoseconds per epoch unit, 0 when unset
+	exposure  string
+	schema    *arrow.Schema
+}
+
+func newPlan(opts Options) (*plan, error) {
+	m := opts.Mapping
+	for _, c := range []struct{ name, val string }{{"user", m.User}, {"ts", m.TS}, {"event", m.Event}} {
+		if c.val == "" {
+			return nil, fmt.Errorf("column mapping: no column named for %s", c.name)
+		}
+	}
+	p := &plan{expCol: -1, armCol: -1, exposure: opts.ExposureEvent}
+	if m.EpochUnit != "" {
+		p.epochUnit = epochUnitNanos(m.EpochUnit)
+		if p.epochUnit == 0 {
+			return nil, fmt.Errorf("epoch unit %q: want s, ms, us or ns", m.EpochUnit)
+		}
+	}
+	add := func(logical, physical string) {
+		p.logical = append(p.logical, logical)
+		p.physical = append(p.physical, physical)
+	}
+	add(experiment.ColUser, m.User)
+	add(experiment.ColTS, m.TS)
+	add(experiment.ColEvent, m.Event)
+	if m.Experiment != "" {
+		p.expCol = len(p.logical)
+		add(experiment.ColExperiment, m.Experiment)
+	}
+	if m.Arm != "" {
+		p.armCol = len(p.logical)
+		add(experiment.ColArm, m.Arm)
+	}
+	seen := map[string]bool{}
+	for _, n := range p.logical {
+		seen[n] = true
+	}
+	for _, s := range m.Segments {
+		if s == "" {
+			return nil, errors.New("column mapping: empty segment column name")
+		}
+		if seen[s] {
+			return nil, fmt.Errorf("column mapping: segment column %q clashes with another column of the event table", s)
+		}
+		seen[s] = true
+		add(s, s)
+	}
+	if p.exposure != "" && p.armCol < 0 {
+		return nil, fmt.Errorf("column mapping: exposure event %q needs an arm column", p.exposure)
+	}
+
+	fields := make([]arrow.Field, len(p.logical))
+	for i, n := range p.logical {
+		fields[i] = arrow.Field{Name: n, Type: arrow.BinaryTypes.String, Nullable: i > colEvent}
+	}
+	fields[colTS].Type = &arrow.TimestampType{Unit: arrow.Nanosecond, TimeZone: "UTC"}
+	p.schema = arrow.NewSchema(fields, nil)
+	return p, nil
+}
+
+// cell is one decoded value. s may point into a reader's buffers (a CSV
+// record, a Parquet page); it is valid until the row has been appended.
+type cell struct {
+	s    string
+	null bool
+}
+
+// row is one decoded row, filled by a format reader and then checked by
+// plan.check before it reaches the builder.
+type row struct {
+	cells []cell // per logical column; cells[colTS] holds the raw text of ts
+	ts    int64  // ts in nanoseconds, when tsErr is nil
+	tsErr error  // nil, ErrNullTimestamp, ErrBadTimestamp or ErrTimestampRange
+}
+
+// check decides whether a decoded row is valid. It is the one place that
+// decides a row's reason: it returns the logical column at fault and the
+// reason (one of the Err* row sentinels), or -1 and nil for a valid row.
+func (p *plan) check(r *row) (col int, reason error) {
+	if c := r.cells[colUser]; c.null || c.s == "" {
+		return colUser, ErrNullUser
+	}
+	if r.tsErr != nil {
+		return colTS, r.tsErr
+	}
+	ev := r.cells[colEvent]
+	if ev.null || ev.s == "" {
+		return colEvent, ErrNullEvent
+	}
+	if p.exposure != "" && ev.s == p.exposure {
+		if a := r.cells[p.armCol]; a.null || a.s == "" {
+			return p.armCol, ErrNoArm
+		}
+	}
+	return -1, nil
+}
+
+// batchBuilder accumulates valid rows into Arrow arrays.
+type batchBuilder struct {
+	p   *plan
+	rb  *array.RecordBuilder
+	str []*array.StringBuilder // per logical column; nil at colTS
+	ts  *array.TimestampBuilder
+}
+
+func newBatchBuilder(mem memory.Allocator, p *plan) *batchBuilder {
+	b := &batchBuilder{p: p, rb: array.NewRecordBuilder(mem, p.schema)}
+	b.str = make([]*array.StringBuilder, len(p.logical))
+	for i := range p.logical {
+		if i == colTS {
+			b.ts = b.rb.Field(i).(*array.TimestampBuilder)
+			continue
+		}
+		b.str[i] = b.rb.Field(i).(*array.StringBuilder)
+	}
+	return b
+}
+
+// append adds a row that plan.check accepted.
+func (b *batchBuilder) append(r *row) {
+	for i, sb := range b.str {
+		if sb == nil {
+			continue
+		}
+		c := r.cells[i]
+		if c.null || (i > colEvent && c.s == "") {
+			sb.AppendNull()
+			continue
+		}
+		sb.BinaryBuilder.Append(unsafe.Slice(unsafe.StringData(c.s), len(c.s))) // copied, not kept
+	}
+	b.ts.Append(arrow.Timestamp(r.ts))
+}
+
+// newRecord returns the rows appended so far as a record batch and starts
+// a new one.
+func (b *batchBuilder) newRecord() arrow.RecordBatch { return b.rb.NewRecordBatch() }
+
+// discard drops the rows appended so far.
+func (b *batchBuilder) discard() { b.rb.NewRecordBatch().Release() }
+
+func (b *batchBuilder) release() { b.rb.Release() }
+
+// rowError builds the error for a row that plan.check rejected.
+func (p *plan) rowError(file string, pos int64, rowGroup int, r *row, col int, reason error) *RowError {
+	e := &RowError{File: file, Row: pos, RowGroup: rowGroup, Column: p.physical[col], Err: reason}
+	if c := r.cells[col]; !c.null {
+		e.Value = strings.Clone(c.s) // c.s may point into a reader's buffers
+	}
+	return e
+}
