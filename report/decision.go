@@ -1,0 +1,210 @@
+// The decision rows of the comparison and target tables, and the
+// plain-language conclusions drawn from them.
+
+package report
+
+import (
+	"fmt"
+	"math"
+	"strings"
+
+	"github.com/armtally/armtally/experiment"
+)
+
+// zRows returns the z test's summary and its two decision routes.
+func zRows(z *experiment.Test) (summary, statRoute, pRoute string) {
+	if z == nil {
+		return "not computed", "n/a", "n/a"
+	}
+	summary = fmt.Sprintf("%s, %s: z = %s, critical value %s, p = %s",
+		z.Method, alternativeShort(z.Alternative), formatStatistic(z.Statistic),
+		formatStatistic(math.Abs(z.CriticalValue)), formatPValue(z.PValue))
+	statRoute = statAgainst(z.Statistic, z.CriticalValue, z.Alternative) + ": " + rejectText(z.RejectByStatistic)
+	pRoute = pAgainst(z.PValue, z.Alpha) + ": " + rejectText(z.RejectByPValue)
+	return summary, statRoute, pRoute
+}
+
+func alternativeShort(a string) string {
+	switch a {
+	case "greater", "less":
+		return "one-sided (" + a + ")"
+	}
+	return "two-sided"
+}
+
+func rejectText(reject bool) string {
+	if reject {
+		return "reject H0"
+	}
+	return "do not reject H0"
+}
+
+func conditionText(met bool, where string, z *experiment.Test, exact *experiment.ExactTest) string {
+	if !testRun(z, exact) {
+		return "n/a (no test was run)"
+	}
+	if met {
+		return "justified (enough conversions and non-conversions " + where + ")"
+	}
+	return "not justified; " + exactFallback(exact)
+}
+
+func exactText(e *experiment.ExactTest, conditionMet bool) string {
+	if e == nil {
+		if conditionMet {
+			return "not needed"
+		}
+		return "not run"
+	}
+	return fmt.Sprintf("%s, %s: %s: %s", e.Method, alternativeShort(e.Alternative), pAgainst(e.PValue, e.Alpha), rejectText(e.Reject))
+}
+
+// decisionText states the decision and which test made it.
+func decisionText(significant bool, decidedBy string, z *experiment.Test, e *experiment.ExactTest) string {
+	by := decider(decidedBy, z, e)
+	if by == "" {
+		return "no decision (no test could be run)"
+	}
+	alpha := formatAlpha(decisionAlpha(decidedBy, z, e))
+	if significant {
+		return "**significant** at alpha " + alpha + ", by " + by
+	}
+	return "not significant at alpha " + alpha + ", by " + by
+}
+
+// decisionAlpha is the alpha of the test that decided: the exact test's
+// when it decided, the z test's otherwise.
+func decisionAlpha(decidedBy string, z *experiment.Test, e *experiment.ExactTest) float64 {
+	switch {
+	case decidedBy == "exact_test" && e != nil:
+		return e.Alpha
+	case z != nil:
+		return z.Alpha
+	case e != nil:
+		return e.Alpha
+	}
+	return 0
+}
+
+// decider names the test behind a decision.
+func decider(decidedBy string, z *experiment.Test, e *experiment.ExactTest) string {
+	switch decidedBy {
+	case "":
+		return ""
+	case "z_test":
+		if z != nil {
+			return theMethod(z.Method)
+		}
+		return "the z test"
+	case "exact_test":
+		if e != nil {
+			return theMethod(e.Method)
+		}
+		return "the exact test"
+	}
+	return formatReason(decidedBy)
+}
+
+func (md *markdown) conclusion(r experiment.Readout, m experiment.MetricReadout) {
+	var lines []string
+	for _, c := range m.Comparisons {
+		lines = append(lines, comparisonConclusion(m, c))
+	}
+	for i := range m.Arms {
+		if m.Arms[i].TargetTest != nil {
+			lines = append(lines, targetConclusion(&m.Arms[i]))
+		}
+	}
+	if len(lines) == 0 {
+		md.para("**Conclusion:** no treatment to compare with the control and no target rate, so nothing was tested.")
+		return
+	}
+	intro := "**Conclusion:**"
+	if r.SampleRatio.Checked && r.SampleRatio.Mismatch {
+		intro += " the sample ratio check failed, so these numbers may be biased whatever they say."
+	}
+	md.para(intro)
+	for _, l := range lines {
+		md.line("- " + l)
+	}
+	md.line("")
+}
+
+func comparisonConclusion(m experiment.MetricReadout, c experiment.Comparison) string {
+	t, ctl := rateOf(m, c.Treatment), rateOf(m, c.Control)
+	if c.Difference == nil || t == nil || ctl == nil || t.Rate == nil || ctl.Rate == nil {
+		return fmt.Sprintf("%s cannot be compared with %s: %s.", code(c.Treatment), code(c.Control), noUnits(t, ctl, c))
+	}
+	var b strings.Builder
+	fmt.Fprintf(&b, "%s converted at %s vs %s for %s: %s points", code(c.Treatment), formatPercent(*t.Rate), formatPercent(*ctl.Rate), code(c.Control), formatPoints(*c.Difference))
+	if iv := c.DifferenceInterval; iv != nil {
+		fmt.Fprintf(&b, " (%s CI %s to %s)", formatLevel(iv.Level), formatPoints(iv.Lower), formatPoints(iv.Upper))
+	}
+	if c.RelativeLift != nil {
+		fmt.Fprintf(&b, ", a relative lift of %s", formatSignedPercent(*c.RelativeLift))
+		if iv := c.LiftInterval; iv != nil {
+			fmt.Fprintf(&b, " (%s CI %s to %s)", formatLevel(iv.Level), formatSignedPercent(iv.Lower), formatSignedPercent(iv.Upper))
+		}
+	} else {
+		b.WriteString(", relative lift undefined (" + liftUndefined(ctl, c) + ")")
+	}
+	b.WriteString("; ")
+	b.WriteString(verdict(c.Significant, c.DecidedBy, c.Z, c.Exact, "the data do not separate it from "+code(c.Control)))
+	if !c.IntervalAgrees {
+		b.WriteString("; the interval and the test disagree, so treat it as borderline")
+	}
+	b.WriteString(".")
+	return b.String()
+}
+
+func targetConclusion(a *experiment.ArmRate) string {
+	tt := a.TargetTest
+	if a.Rate == nil {
+		return fmt.Sprintf("%s has no units to test against the target %s.", code(a.Arm), formatPercent(tt.Target))
+	}
+	side := "above"
+	switch {
+	case *a.Rate < tt.Target:
+		side = "below"
+	case *a.Rate == tt.Target:
+		side = "exactly at"
+	}
+	return fmt.Sprintf("%s converted at %s, %s the target %s; %s.", code(a.Arm), formatPercent(*a.Rate), side, formatPercent(tt.Target),
+		verdict(tt.Significant, tt.DecidedBy, tt.Z, tt.Exact, "the data do not separate it from the target"))
+}
+
+// verdict is the plain-language decision: "significant at alpha 0.05" with
+// the sidedness when one-sided and the exact test when it decided.
+func verdict(significant bool, decidedBy string, z *experiment.Test, e *experiment.ExactTest, otherwise string) string {
+	if decider(decidedBy, z, e) == "" {
+		return "no test could be run"
+	}
+	var alpha float64
+	alt := ""
+	switch {
+	case decidedBy == "exact_test" && e != nil:
+		alpha, alt = e.Alpha, e.Alternative
+	case z != nil:
+		alpha, alt = z.Alpha, z.Alternative
+	case e != nil:
+		alpha, alt = e.Alpha, e.Alternative
+	}
+	s := "not significant at alpha " + formatAlpha(alpha)
+	if significant {
+		s = "significant at alpha " + formatAlpha(alpha)
+	}
+	var qual []string
+	if alt == "greater" || alt == "less" {
+		qual = append(qual, "one-sided, "+alt)
+	}
+	if decidedBy == "exact_test" && e != nil {
+		qual = append(qual, "by "+theMethod(e.Method))
+	}
+	if len(qual) > 0 {
+		s += " (" + strings.Join(qual, ", ") + ")"
+	}
+	if !significant {
+		s += ": " + otherwise
+	}
+	return s
+}

@@ -1,0 +1,29 @@
+// Package report renders experiment readouts (experiment.Readout) as a
+// Markdown readout for an experiment ticket and as versioned JSON for
+// dashboards and alerting.
+//
+// WriteMarkdown writes, per readout: a header (experiment, control arm,
+// analysis window, data freshness, settings); a block of warnings when the
+// sample ratio, exclusions, test conditions or a disagreement between
+// interval and test call for one; the arms with the sample-ratio check;
+// one section per metric with its per-arm rates and intervals, the
+// comparisons with the control (and with a target rate), both decision
+// routes written out, numbered notes under the table where they arise and
+// a plain-language conclusion; the usual cautions; and the diagnostics,
+// every count shown. All numbers pass through one set of formatters
+// (format.go): percentages, percentage points, p-values with a floor.
+//
+// WriteJSON writes a Document: the schema's $id and version, then the
+// readouts with the field names of experiment.Readout, floats at full
+// precision. Schema returns the JSON Schema (draft 2020-12) that describes
+// it exactly. Both writers reject NaN and infinity instead of writing them.
+//
+// Both writers are deterministic: the same readouts give the same bytes.
+// Nothing is written to w until the whole output is built, so a failed
+// call writes nothing. WriteFileAtomic puts either output in a file with a
+// temporary file and a rename, so that readers never see half a readout.
+//
+// Not checked: that the readouts are consistent with each other (shares
+// summing to one, comparisons naming arms of their metric). The report
+// prints what it is given and "n/a" where something is missing.
+package report

@@ -1,0 +1,274 @@
+package report
+
+import (
+	"math"
+	"strconv"
+	"strings"
+	"time"
+)
+
+// This file is the one place where numbers become text in the Markdown
+// readout. The JSON output never passes through here: it keeps every float
+// at full precision.
+
+// pFloor is the smallest p-value printed as a number; anything smaller is
+// printed as "< 0.0001".
+const pFloor = 0.0001
+
+// maxDecimals caps the digits after the decimal point of percentages,
+// percentage points and statistics.
+const maxDecimals = 6
+
+// formatCount prints a count with comma thousands separators: 1234567 is
+// "1,234,567".
+func formatCount(n int64) string {
+	s := strconv.FormatInt(n, 10)
+	neg := strings.HasPrefix(s, "-")
+	if neg {
+		s = s[1:]
+	}
+	var b strings.Builder
+	if neg {
+		b.WriteByte('-')
+	}
+	for i, c := range s {
+		if i > 0 && (len(s)-i)%3 == 0 {
+			b.WriteByte(',')
+		}
+		b.WriteRune(c)
+	}
+	return b.String()
+}
+
+// decimalsFor returns how many digits after the decimal point show v with
+// at least two significant digits, but never fewer than two decimals and
+// never more than maxDecimals: 12.345 gets 2, 0.345 gets 2, 0.0345 gets 3.
+func decimalsFor(v float64) int {
+	a := math.Abs(v)
+	if a == 0 || a >= 0.1 {
+		return 2
+	}
+	d := 1 - int(math.Floor(math.Log10(a)))
+	return min(max(d, 2), maxDecimals)
+}
+
+// fixed prints v with d decimals and drops the sign of a value that rounds
+// to zero, so that no "-0.00" appears.
+func fixed(v float64, d int) string {
+	s := strconv.FormatFloat(v, 'f', d, 64)
+	if strings.HasPrefix(s, "-") && strings.Trim(s, "-0.") == "" {
+		s = s[1:]
+	}
+	return s
+}
+
+// signed is fixed with an explicit "+" on positive values.
+func signed(v float64, d int) string {
+	s := fixed(v, d)
+	if !strings.HasPrefix(s, "-") && strings.Trim(s, "0.") != "" {
+		s = "+" + s
+	}
+	return s
+}
+
+// formatPercent prints a proportion as a percentage: 0.12234 is "12.23%",
+// 0.000342 is "0.034%".
+func formatPercent(p float64) string {
+	v := p * 100
+	return fixed(v, decimalsFor(v)) + "%"
+}
+
+// formatSignedPercent prints a relative change as a signed percentage:
+// 0.1108 is "+11.08%".
+func formatSignedPercent(p float64) string {
+	v := p * 100
+	return signed(v, decimalsFor(v)) + "%"
+}
+
+// formatPoints prints a difference of proportions in percentage points,
+// signed, without the unit: 0.0122 is "+1.22".
+func formatPoints(d float64) string {
+	v := d * 100
+	return signed(v, decimalsFor(v))
+}
+
+// formatLevel prints a confidence level as a percentage with no trailing
+// zeros: 0.95 is "95%", 0.999 is "99.9%".
+func formatLevel(level float64) string {
+	return strconv.FormatFloat(round(level*100, 6), 'f', -1, 64) + "%"
+}
+
+// formatAlpha prints a significance level or threshold as given, with the
+// shortest decimal that round-trips: 0.05 is "0.05".
+func formatAlpha(a float64) string {
+	return strconv.FormatFloat(a, 'f', -1, 64)
+}
+
+// formatShare prints a planned or observed share of units as a percentage:
+// 0.50123 is "50.12%".
+func formatShare(s float64) string {
+	return formatPercent(s)
+}
+
+// formatStatistic prints a test statistic with two decimals.
+func formatStatistic(x float64) string {
+	return fixed(x, 2)
+}
+
+// formatPValue prints a p-value with four decimals, or "< 0.0001" below the
+// floor.
+func formatPValue(p float64) string {
+	if p < pFloor {
+		return "< " + formatAlpha(pFloor)
+	}
+	return fixed(p, 4)
+}
+
+// pAgainst writes the p-value route of a decision: "p = 0.0080 ≤ 0.05" or
+// "p = 0.2301 > 0.05". The relation is that of the exact values; when four
+// decimals would blur it (p = 0.050004 against 0.05), more decimals are
+// printed until the printed numbers show the same relation.
+func pAgainst(p, alpha float64) string {
+	return pRoute(p, alpha, relation(p, alpha, "≤", ">"))
+}
+
+// pAgainstStrict is pAgainst for a threshold that p must fall strictly
+// below: "p = 0.0002 < 0.001" or "p = 0.5271 ≥ 0.001".
+func pAgainstStrict(p, threshold float64) string {
+	return pRoute(p, threshold, relation(p, threshold, "<", "≥"))
+}
+
+func pRoute(p, alpha float64, rel string) string {
+	a := formatAlpha(alpha)
+	if p < pFloor && alpha >= pFloor {
+		return "p < " + formatAlpha(pFloor) + " " + rel + " " + a
+	}
+	if p < pFloor {
+		for sig := 2; sig <= 17; sig++ {
+			s := strconv.FormatFloat(p, 'e', sig-1, 64)
+			if sameRelation(parse(s), alpha, p, alpha) {
+				return "p = " + s + " " + rel + " " + a
+			}
+		}
+	}
+	for d := 4; d <= 17; d++ {
+		s := fixed(p, d)
+		if sameRelation(parse(s), alpha, p, alpha) {
+			return "p = " + s + " " + rel + " " + a
+		}
+	}
+	return "p = " + strconv.FormatFloat(p, 'g', -1, 64) + " " + rel + " " + a
+}
+
+// statAgainst writes the statistic route of a decision, "|z| = 2.65 ≥ 1.96"
+// for a two-sided test, "z = 1.80 ≥ 1.64" for the alternative greater and
+// "z = -1.80 ≤ -1.64" for less. The critical value is taken by its size,
+// whatever sign the test stored. Two decimals are printed, more when two
+// decimals would blur the relation.
+func statAgainst(z, critical float64, alternative string) string {
+	c := math.Abs(critical)
+	var name string
+	var x, bound float64
+	var rel string
+	switch alternative {
+	case "greater":
+		name, x, bound = "z", z, c
+		rel = relation(x, bound, "<", "≥")
+	case "less":
+		name, x, bound = "z", z, -c
+		rel = relation(x, bound, "≤", ">")
+	default:
+		name, x, bound = "|z|", math.Abs(z), c
+		rel = relation(x, bound, "<", "≥")
+	}
+	for d := 2; d <= 17; d++ {
+		sx, sb := fixed(x, d), fixed(bound, d)
+		if sameRelation(parse(sx), parse(sb), x, bound) {
+			return name + " = " + sx + " " + rel + " " + sb
+		}
+	}
+	return name + " = " + strconv.FormatFloat(x, 'g', -1, 64) + " " + rel + " " + strconv.FormatFloat(bound, 'g', -1, 64)
+}
+
+// relation returns below when x < y (or x <= y when below is "≤") and
+// above otherwise.
+func relation(x, y float64, below, above string) string {
+	switch below {
+	case "≤":
+		if x <= y {
+			return below
+		}
+	default:
+		if x < y {
+			return below
+		}
+	}
+	return above
+}
+
+// sameRelation reports whether the printed pair (px, py) orders the same
+// way as the exact pair (x, y).
+func sameRelation(px, py, x, y float64) bool {
+	return cmpFloat(px, py) == cmpFloat(x, y)
+}
+
+func cmpFloat(x, y float64) int {
+	switch {
+	case x < y:
+		return -1
+	case x > y:
+		return 1
+	}
+	return 0
+}
+
+// parse reads back a number printed by this file; the strings it is given
+// always parse.
+func parse(s string) float64 {
+	v, err := strconv.ParseFloat(s, 64)
+	if err != nil {
+		panic("report: cannot parse formatted number " + strconv.Quote(s))
+	}
+	return v
+}
+
+func round(x float64, digits int) float64 {
+	p := math.Pow(10, float64(digits))
+	return math.Round(x*p) / p
+}
+
+// formatTime prints an instant in UTC, "2026-03-02 00:00:00 UTC", with a
+// fraction of a second only when there is one.
+func formatTime(t time.Time) string {
+	return t.UTC().Format("2006-01-02 15:04:05.999999999") + " UTC"
+}
+
+// formatDuration prints an attribution window in the largest whole unit
+// that divides it: 604800 is "7 days", 5400 is "90 minutes".
+func formatDuration(seconds int64) string {
+	units := []struct {
+		size int64
+		name string
+	}{
+		{86400, "day"},
+		{3600, "hour"},
+		{60, "minute"},
+		{1, "second"},
+	}
+	for _, u := range units {
+		if seconds != 0 && seconds%u.size == 0 {
+			n := seconds / u.size
+			if n == 1 {
+				return "1 " + u.name
+			}
+			return formatCount(n) + " " + u.name + "s"
+		}
+	}
+	return formatCount(seconds) + " seconds"
+}
+
+// formatReason turns a snake_case reason into words: "bad_timestamp" is
+// "bad timestamp".
+func formatReason(r string) string {
+	return strings.ReplaceAll(r, "_", " ")
+}

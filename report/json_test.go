@@ -1,0 +1,338 @@
+package report
+
+import (
+	"bytes"
+	"encoding/json"
+	"math"
+	"reflect"
+	"strings"
+	"testing"
+
+	"github.com/armtally/armtally/experiment"
+	"github.com/santhosh-tekuri/jsonschema/v6"
+)
+
+// compileSchema compiles Schema() with format assertions on, so that
+// "date-time" is checked too.
+func compileSchema(t *testing.T) *jsonschema.Schema {
+	t.Helper()
+	doc, err := jsonschema.UnmarshalJSON(bytes.NewReader(Schema()))
+	if err != nil {
+		t.Fatal(err)
+	}
+	c := jsonschema.NewCompiler()
+	c.AssertFormat()
+	if err := c.AddResource(SchemaID, doc); err != nil {
+		t.Fatal(err)
+	}
+	sch, err := c.Compile(SchemaID)
+	if err != nil {
+		t.Fatal(err)
+	}
+	return sch
+}
+
+func decode(t *testing.T, b []byte) any {
+	t.Helper()
+	v, err := jsonschema.UnmarshalJSON(bytes.NewReader(b))
+	if err != nil {
+		t.Fatal(err)
+	}
+	return v
+}
+
+func TestSchemaIdentity(t *testing.T) {
+	var s struct {
+		Schema     string `json:"$schema"`
+		ID         string `json:"$id"`
+		Properties struct {
+			Schema        struct{ Const string } `json:"schema"`
+			SchemaVersion struct{ Const string } `json:"schema_version"`
+		} `json:"properties"`
+	}
+	if err := json.Unmarshal(Schema(), &s); err != nil {
+		t.Fatal(err)
+	}
+	checks := []struct{ name, got, want string }{
+		{"$schema", s.Schema, "https://json-schema.org/draft/2020-12/schema"},
+		{"$id", s.ID, SchemaID},
+		{"schema const", s.Properties.Schema.Const, SchemaID},
+		{"schema_version const", s.Properties.SchemaVersion.Const, SchemaVersion},
+	}
+	for _, c := range checks {
+		if c.got != c.want {
+			t.Errorf("%s = %q, want %q", c.name, c.got, c.want)
+		}
+	}
+	if !strings.Contains(SchemaID, ".invalid/") {
+		t.Errorf("SchemaID %q should use a .invalid host", SchemaID)
+	}
+	// Schema returns a copy: changing it changes nothing for the next caller.
+	b := Schema()
+	b[0] = 'x'
+	if Schema()[0] != '{' {
+		t.Error("Schema() shares its bytes with callers")
+	}
+}
+
+// TestSchemaValidatesOutput validates every golden case's real WriteJSON
+// output against the schema.
+func TestSchemaValidatesOutput(t *testing.T) {
+	sch := compileSchema(t)
+	for _, tc := range goldenCases() {
+		t.Run(tc.name, func(t *testing.T) {
+			var buf bytes.Buffer
+			if err := WriteJSON(&buf, tc.readouts); err != nil {
+				t.Fatal(err)
+			}
+			if err := sch.Validate(decode(t, buf.Bytes())); err != nil {
+				t.Errorf("WriteJSON output does not follow the schema: %v", err)
+			}
+		})
+	}
+}
+
+// TestFixturesCoverNullableBranches checks that the outputs validated
+// above hold each nullable key both as null and as a value, and
+// target_test both present and absent; otherwise the schema test would
+// leave a branch unexercised.
+func TestFixturesCoverNullableBranches(t *testing.T) {
+	nullable := []string{
+		"window_start", "window_end", "data_freshness", "window_seconds", "target_rate",
+		"rate", "interval", "difference", "difference_interval", "relative_lift",
+		"relative_lift_interval", "z_test", "exact_test",
+	}
+	seenNull := map[string]bool{}
+	seenValue := map[string]bool{}
+	targetPresent, targetAbsent := false, false
+	var walk func(v any)
+	walk = func(v any) {
+		switch v := v.(type) {
+		case map[string]any:
+			if _, isArmRate := v["conversions"]; isArmRate {
+				if _, ok := v["target_test"]; ok {
+					targetPresent = true
+				} else {
+					targetAbsent = true
+				}
+			}
+			for k, x := range v {
+				if x == nil {
+					seenNull[k] = true
+				} else {
+					seenValue[k] = true
+				}
+				walk(x)
+			}
+		case []any:
+			for _, x := range v {
+				walk(x)
+			}
+		}
+	}
+	mismatch := false
+	for _, tc := range goldenCases() {
+		var buf bytes.Buffer
+		if err := WriteJSON(&buf, tc.readouts); err != nil {
+			t.Fatal(err)
+		}
+		doc := decode(t, buf.Bytes())
+		walk(doc)
+		for _, r := range doc.(map[string]any)["readouts"].([]any) {
+			if r.(map[string]any)["sample_ratio"].(map[string]any)["mismatch"] == true {
+				mismatch = true
+			}
+		}
+	}
+	for _, k := range nullable {
+		if !seenNull[k] || !seenValue[k] {
+			t.Errorf("key %q: seen as null %v, as a value %v; want both", k, seenNull[k], seenValue[k])
+		}
+	}
+	if !targetPresent || !targetAbsent {
+		t.Errorf("target_test present %v, absent %v; want both", targetPresent, targetAbsent)
+	}
+	if !mismatch {
+		t.Error("no fixture has a sample-ratio mismatch")
+	}
+}
+
+// TestSchemaRejectsBrokenDocuments shows that the schema check can fail:
+// each case breaks one thing in a valid document.
+func TestSchemaRejectsBrokenDocuments(t *testing.T) {
+	sch := compileSchema(t)
+	var buf bytes.Buffer
+	if err := WriteJSON(&buf, []experiment.Readout{threeArmReadout()}); err != nil {
+		t.Fatal(err)
+	}
+	good := buf.Bytes()
+	if err := sch.Validate(decode(t, good)); err != nil {
+		t.Fatalf("the unbroken document fails: %v", err)
+	}
+	readout := func(doc any) map[string]any {
+		return doc.(map[string]any)["readouts"].([]any)[0].(map[string]any)
+	}
+	tests := []struct {
+		name  string
+		spoil func(doc any)
+	}{
+		{"missing key", func(doc any) { delete(readout(doc), "control") }},
+		{"missing schema version", func(doc any) { delete(doc.(map[string]any), "schema_version") }},
+		{"wrong schema version", func(doc any) { doc.(map[string]any)["schema_version"] = "2.0.0" }},
+		{"wrong type", func(doc any) {
+			readout(doc)["arms"].([]any)[0].(map[string]any)["units"] = "1050"
+		}},
+		{"fractional count", func(doc any) {
+			readout(doc)["diagnostics"].(map[string]any)["rows_read"] = json.Number("1.5")
+		}},
+		{"extra key", func(doc any) { readout(doc)["lift_percent"] = json.Number("3") }},
+		{"unknown alternative", func(doc any) {
+			readout(doc)["settings"].(map[string]any)["alternative"] = "both"
+		}},
+		{"unknown policy", func(doc any) {
+			readout(doc)["settings"].(map[string]any)["multi_arm_policy"] = "last"
+		}},
+		{"null where not nullable", func(doc any) {
+			readout(doc)["sample_ratio"].(map[string]any)["p_value"] = nil
+		}},
+		{"rate above one", func(doc any) {
+			m := readout(doc)["metrics"].([]any)[0].(map[string]any)
+			m["arms"].([]any)[0].(map[string]any)["rate"] = json.Number("30")
+		}},
+		{"bad timestamp", func(doc any) { readout(doc)["window_start"] = "2026-02-01 00:00" }},
+		{"interval missing method", func(doc any) {
+			m := readout(doc)["metrics"].([]any)[0].(map[string]any)
+			c := m["comparisons"].([]any)[0].(map[string]any)
+			delete(c["difference_interval"].(map[string]any), "method")
+		}},
+	}
+	for _, tc := range tests {
+		t.Run(tc.name, func(t *testing.T) {
+			doc := decode(t, good)
+			tc.spoil(doc)
+			if err := sch.Validate(doc); err == nil {
+				t.Error("broken document passes the schema")
+			}
+		})
+	}
+}
+
+// TestWriteJSONRoundTrip decodes the output and compares it with the
+// normalised input: every float survives at full precision.
+func TestWriteJSONRoundTrip(t *testing.T) {
+	for _, tc := range goldenCases() {
+		t.Run(tc.name, func(t *testing.T) {
+			var buf bytes.Buffer
+			if err := WriteJSON(&buf, tc.readouts); err != nil {
+				t.Fatal(err)
+			}
+			if !bytes.HasSuffix(buf.Bytes(), []byte("}\n")) {
+				t.Error("output does not end with a newline after the document")
+			}
+			var got Document
+			if err := json.Unmarshal(buf.Bytes(), &got); err != nil {
+				t.Fatal(err)
+			}
+			want := NewDocument(tc.readouts)
+			if !reflect.DeepEqual(got, want) {
+				t.Errorf("decoded document differs from the input:\ngot  %+v\nwant %+v", got, want)
+			}
+		})
+	}
+}
+
+func TestNewDocumentLeavesInputAlone(t *testing.T) {
+	in := []experiment.Readout{twoArmReadout(), emptyReadout()}
+	before := []experiment.Readout{twoArmReadout(), emptyReadout()}
+	doc := NewDocument(in)
+	if !reflect.DeepEqual(in, before) {
+		t.Error("NewDocument changed its input")
+	}
+	// The copy has empty slices where the input had nil ones, and UTC times.
+	e := doc.Readouts[1]
+	if e.Warnings == nil || e.Diagnostics.BadRows == nil || e.Metrics[0].Comparisons[0].Warnings == nil {
+		t.Error("nil slices were not replaced by empty ones")
+	}
+	if loc := doc.Readouts[0].Freshness.Location(); loc.String() != "UTC" {
+		t.Errorf("freshness location %v, want UTC", loc)
+	}
+	doc.Readouts[0].Metrics[0].Events[0] = "changed"
+	if in[0].Metrics[0].Events[0] != "purchase" {
+		t.Error("the document shares a slice with the input")
+	}
+}
+
+// TestWritersRejectNonFinite puts a NaN or infinity in different places;
+// both writers must fail, name the path and write nothing.
+func TestWritersRejectNonFinite(t *testing.T) {
+	tests := []struct {
+		name     string
+		path     string
+		spoil    func(r *experiment.Readout)
+		wantPath string
+	}{
+		{"rate NaN", "", func(r *experiment.Readout) { r.Metrics[0].Arms[1].Rate = ptr(math.NaN()) },
+			"$.readouts[0].metrics[0].arms[1].rate"},
+		{"z statistic +Inf", "", func(r *experiment.Readout) { r.Metrics[1].Comparisons[0].Z.Statistic = math.Inf(1) },
+			"$.readouts[0].metrics[1].comparisons[0].z_test.statistic"},
+		{"alpha -Inf", "", func(r *experiment.Readout) { r.Settings.Alpha = math.Inf(-1) },
+			"$.readouts[0].settings.alpha"},
+		{"observed share NaN", "", func(r *experiment.Readout) { r.Arms[0].ObservedShare = math.NaN() },
+			"$.readouts[0].arms[0].observed_share"},
+		{"target exact p NaN", "", func(r *experiment.Readout) {
+			r.Metrics[0].Arms[0].TargetTest = &experiment.TargetTest{Exact: &experiment.ExactTest{PValue: math.NaN()}}
+		}, "$.readouts[0].metrics[0].arms[0].target_test.exact_test.p_value"},
+	}
+	writers := []struct {
+		name  string
+		write func(*bytes.Buffer, []experiment.Readout) error
+	}{
+		{"json", func(b *bytes.Buffer, rs []experiment.Readout) error { return WriteJSON(b, rs) }},
+		{"markdown", func(b *bytes.Buffer, rs []experiment.Readout) error { return WriteMarkdown(b, rs, MarkdownOptions{}) }},
+	}
+	for _, tc := range tests {
+		for _, w := range writers {
+			t.Run(tc.name+"/"+w.name, func(t *testing.T) {
+				r := twoArmReadout()
+				tc.spoil(&r)
+				var buf bytes.Buffer
+				err := w.write(&buf, []experiment.Readout{r})
+				if err == nil {
+					t.Fatal("no error")
+				}
+				if !strings.Contains(err.Error(), tc.wantPath+" ") {
+					t.Errorf("error %q does not name %s", err, tc.wantPath)
+				}
+				if buf.Len() != 0 {
+					t.Errorf("wrote %d bytes before failing", buf.Len())
+				}
+			})
+		}
+	}
+}
+
+// TestJSONKeyOrder checks that keys come in declaration order, not
+// sorted: each key first appears after the one before it.
+func TestJSONKeyOrder(t *testing.T) {
+	var buf bytes.Buffer
+	if err := WriteJSON(&buf, []experiment.Readout{twoArmReadout()}); err != nil {
+		t.Fatal(err)
+	}
+	out := buf.String()
+	order := []string{
+		"schema", "schema_version", "readouts", "experiment", "exposure_event", "control",
+		"window_start", "window_end", "data_freshness", "settings", "arms", "sample_ratio",
+		"metrics", "diagnostics",
+	}
+	last := -1
+	for _, k := range order {
+		i := strings.Index(out, `"`+k+`":`)
+		if i <= last {
+			t.Errorf("key %q at offset %d, not after the previous key (offset %d)", k, i, last)
+		}
+		last = i
+	}
+	if strings.Contains(out, `\u003c`) || !strings.HasPrefix(out, "{\n  \"schema\": ") {
+		t.Errorf("output does not start as an indented document: %.40q", out)
+	}
+}

@@ -1,0 +1,179 @@
+package report
+
+import (
+	"bytes"
+	"fmt"
+	"io"
+	"strings"
+
+	"github.com/armtally/armtally/experiment"
+)
+
+// MarkdownOptions shapes the Markdown readout. The zero value gives the
+// full readout with each experiment under a level-1 heading.
+type MarkdownOptions struct {
+	// HeadingLevel is the heading level of each readout, 1 to 4; its
+	// sections are one and two levels deeper. 0 means 1. Use 2 or 3 to
+	// paste the readout under a ticket's own headings.
+	HeadingLevel int
+	// OmitCautions leaves out the "Before acting" list of cautions.
+	OmitCautions bool
+}
+
+// WriteMarkdown writes readouts to w as a Markdown readout for an
+// experiment ticket, one section per readout in the order given: header,
+// warnings, arms and sample ratio, one section per metric with its
+// conclusion, cautions, and diagnostics.
+//
+// Like WriteJSON, it returns an error, and writes nothing, when a value is
+// NaN or infinite or an option is out of range. It does not check that the
+// readouts are consistent (that a comparison names an arm of its metric,
+// say); what is missing is printed as "n/a".
+func WriteMarkdown(w io.Writer, readouts []experiment.Readout, opts MarkdownOptions) error {
+	level := opts.HeadingLevel
+	if level == 0 {
+		level = 1
+	}
+	if level < 1 || level > 4 {
+		return fmt.Errorf("markdown heading level %d out of range (want 1 to 4)", opts.HeadingLevel)
+	}
+	doc := NewDocument(readouts)
+	if err := checkFinite(doc); err != nil {
+		return err
+	}
+	md := &markdown{level: level, opts: opts}
+	for i, r := range doc.Readouts {
+		if i > 0 {
+			md.line("---")
+			md.line("")
+		}
+		md.readout(r)
+	}
+	_, err := w.Write(bytes.TrimRight(md.buf.Bytes(), "\n"))
+	if err == nil {
+		_, err = io.WriteString(w, "\n")
+	}
+	return err
+}
+
+// markdown accumulates the readout text.
+type markdown struct {
+	buf   bytes.Buffer
+	level int
+	opts  MarkdownOptions
+}
+
+func (md *markdown) line(s string) {
+	md.buf.WriteString(s)
+	md.buf.WriteByte('\n')
+}
+
+// heading writes a heading depth levels below the readout's own.
+func (md *markdown) heading(depth int, text string) {
+	md.line(strings.Repeat("#", md.level+depth) + " " + text)
+	md.line("")
+}
+
+// para writes one paragraph.
+func (md *markdown) para(text string) {
+	md.line(text)
+	md.line("")
+}
+
+// table writes a table; align holds 'l' or 'r' per column.
+func (md *markdown) table(header []string, align string, rows [][]string) {
+	md.line(tableRow(header))
+	seps := make([]string, len(header))
+	for i := range seps {
+		seps[i] = ":--"
+		if i < len(align) && align[i] == 'r' {
+			seps[i] = "--:"
+		}
+	}
+	md.line("|" + strings.Join(seps, "|") + "|")
+	for _, r := range rows {
+		md.line(tableRow(r))
+	}
+	md.line("")
+}
+
+func tableRow(cells []string) string {
+	esc := make([]string, len(cells))
+	for i, c := range cells {
+		esc[i] = strings.ReplaceAll(oneLine(c), "|", `\|`)
+	}
+	return "| " + strings.Join(esc, " | ") + " |"
+}
+
+// oneLine folds line breaks into spaces.
+func oneLine(s string) string {
+	return strings.Join(strings.Fields(strings.ReplaceAll(s, "\r", " ")), " ")
+}
+
+// code writes a name as a code span.
+func code(s string) string {
+	if s == "" {
+		return "(empty)"
+	}
+	s = oneLine(s)
+	fence := "`"
+	for strings.Contains(s, fence) {
+		fence += "`"
+	}
+	if strings.HasPrefix(s, "`") || strings.HasSuffix(s, "`") {
+		return fence + " " + s + " " + fence
+	}
+	return fence + s + fence
+}
+
+// notes numbers the warnings of one metric section: each distinct text gets
+// the next number when first seen and is printed once, under the table
+// where it first arose.
+type notes struct {
+	list    []string
+	number  map[string]int
+	printed int
+}
+
+func newNotes() *notes {
+	return &notes{number: make(map[string]int)}
+}
+
+// add records texts and returns their numbers as "[1], [2]", or "none".
+func (n *notes) add(texts ...string) string {
+	var refs []string
+	seen := make(map[int]bool)
+	for _, t := range texts {
+		t = oneLine(t)
+		if t == "" {
+			continue
+		}
+		k, ok := n.number[t]
+		if !ok {
+			n.list = append(n.list, t)
+			k = len(n.list)
+			n.number[t] = k
+		}
+		if !seen[k] {
+			seen[k] = true
+			refs = append(refs, fmt.Sprintf("[%d]", k))
+		}
+	}
+	if len(refs) == 0 {
+		return "none"
+	}
+	return strings.Join(refs, ", ")
+}
+
+// flush prints the notes not printed yet as an ordered list that starts
+// at the first new number.
+func (n *notes) flush(md *markdown) {
+	if n.printed == len(n.list) {
+		return
+	}
+	for i := n.printed; i < len(n.list); i++ {
+		md.line(fmt.Sprintf("%d. %s", i+1, n.list[i]))
+	}
+	n.printed = len(n.list)
+	md.line("")
+}

@@ -1,0 +1,566 @@
+// The sections of the Markdown readout, in the order WriteMarkdown writes
+// them: header, warnings, arms, metrics, cautions, diagnostics.
+
+package report
+
+import (
+	"fmt"
+	"strings"
+	"unicode"
+
+	"github.com/armtally/armtally/experiment"
+)
+
+func (md *markdown) readout(r experiment.Readout) {
+	md.heading(0, "Experiment "+code(r.Experiment))
+	md.header(r)
+	md.warnings(r)
+	md.arms(r)
+	for _, m := range r.Metrics {
+		md.metric(r, m)
+	}
+	if !md.opts.OmitCautions {
+		md.cautions(r)
+	}
+	md.diagnostics(r)
+}
+
+func (md *markdown) header(r experiment.Readout) {
+	s := r.Settings
+	md.line("- Control arm: " + code(r.Control))
+	md.line("- Exposure event: " + code(r.ExposureEvent))
+	md.line("- Analysis window: " + window(r))
+	fresh := "no valid rows were read"
+	if r.Freshness != nil {
+		fresh = "newest valid row at " + formatTime(*r.Freshness)
+	}
+	md.line("- Data freshness: " + fresh)
+	md.line(fmt.Sprintf("- Settings: alpha %s, %s confidence intervals, %s tests; multi-arm units: %s; immature units: %s; normal approximation when each arm has at least %s conversions and %s non-conversions; sample-ratio threshold %s",
+		formatAlpha(s.Alpha), formatLevel(s.ConfidenceLevel), alternativeName(s.Alternative),
+		s.MultiArmPolicy, s.MaturityPolicy, formatCount(s.MinCount), formatCount(s.MinCount),
+		formatAlpha(s.SampleRatioThreshold)))
+	md.line("")
+}
+
+func window(r experiment.Readout) string {
+	switch {
+	case r.WindowStart == nil && r.WindowEnd == nil:
+		return "unbounded (all data)"
+	case r.WindowStart == nil:
+		return "unbounded start to " + formatTime(*r.WindowEnd) + " (exclusive)"
+	case r.WindowEnd == nil:
+		return "from " + formatTime(*r.WindowStart) + " (inclusive), end unbounded"
+	}
+	return "from " + formatTime(*r.WindowStart) + " (inclusive) to " + formatTime(*r.WindowEnd) + " (exclusive)"
+}
+
+func alternativeName(a string) string {
+	switch a {
+	case "greater":
+		return "one-sided (treatment higher)"
+	case "less":
+		return "one-sided (treatment lower)"
+	case "two-sided", "":
+		return "two-sided"
+	}
+	return a
+}
+
+// warnings writes the block of readout-wide warnings: those the numbers
+// show (sample ratio, exclusions, conditions, interval and test
+// disagreeing), then the readout's own, without repeats.
+func (md *markdown) warnings(r experiment.Readout) {
+	var list []string
+	sr := r.SampleRatio
+	switch {
+	case sr.Checked && sr.Mismatch:
+		list = append(list, fmt.Sprintf("**Sample ratio mismatch**: units per arm are off the planned split (%s). Assignment or logging may be broken; find the cause before trusting any result below.",
+			pAgainstStrict(sr.PValue, sr.Threshold)))
+	case !sr.Checked:
+		list = append(list, "Sample ratio not checked: fewer than two arms have units.")
+	}
+	for _, a := range r.Arms {
+		if a.Units == 0 {
+			list = append(list, fmt.Sprintf("Arm %s has no units.", code(a.Name)))
+		}
+	}
+	d := r.Diagnostics
+	if d.MultiArmUnits > 0 {
+		what := "left out of every metric (multi-arm policy exclude)"
+		if r.Settings.MultiArmPolicy == "first" {
+			what = "kept in the arm of their first exposure (multi-arm policy first)"
+		}
+		list = append(list, fmt.Sprintf("%s %s exposed to more than one arm and %s.", formatCount(d.MultiArmUnits), unitsWere(d.MultiArmUnits), what))
+	}
+	if d.TiedUnits > 0 {
+		list = append(list, fmt.Sprintf("%s %s first exposed to two arms at the same instant and left out.", formatCount(d.TiedUnits), unitsWere(d.TiedUnits)))
+	}
+	for _, im := range d.Immature {
+		if im.Units == 0 {
+			continue
+		}
+		if r.Settings.MaturityPolicy == "include" {
+			list = append(list, fmt.Sprintf("%s: %s %s counted before their attribution window closed; their conversions may still come.", code(im.Metric), formatCount(im.Units), unitsWere(im.Units)))
+		} else {
+			list = append(list, fmt.Sprintf("%s: %s %s left out because their attribution window had not closed.", code(im.Metric), formatCount(im.Units), unitsWere(im.Units)))
+		}
+	}
+	for _, m := range r.Metrics {
+		var notMet groups
+		var other []string
+		for _, c := range m.Comparisons {
+			pair := code(c.Treatment) + " vs " + code(c.Control)
+			if !c.ConditionMet && testRun(c.Z, c.Exact) {
+				notMet.add(exactFallback(c.Exact), pair)
+			}
+			if !c.IntervalAgrees {
+				other = append(other, code(m.Name)+", "+pair+": "+disagreement(c)+".")
+			}
+			if c.Z != nil && c.Z.RejectByStatistic != c.Z.RejectByPValue {
+				other = append(other, code(m.Name)+", "+pair+": "+routesDisagree)
+			}
+		}
+		for _, a := range m.Arms {
+			tt := a.TargetTest
+			if tt == nil {
+				continue
+			}
+			what := code(a.Arm) + " vs target " + formatPercent(tt.Target)
+			if !tt.ConditionMet && testRun(tt.Z, tt.Exact) {
+				notMet.add(exactFallback(tt.Exact), what)
+			}
+			if tt.Z != nil && tt.Z.RejectByStatistic != tt.Z.RejectByPValue {
+				other = append(other, code(m.Name)+", "+what+": "+routesDisagree)
+			}
+		}
+		for _, g := range notMet {
+			list = append(list, fmt.Sprintf("%s: normal approximation not justified for %s; %s.", code(m.Name), strings.Join(g.members, ", "), g.key))
+		}
+		list = append(list, other...)
+	}
+	list = append(list, r.Warnings...)
+	list = dedupe(list)
+	if len(list) == 0 {
+		return
+	}
+	md.line("> **Warnings**")
+	md.line(">")
+	for i, w := range list {
+		md.line(fmt.Sprintf("> %d. %s", i+1, oneLine(w)))
+	}
+	md.line("")
+}
+
+// groups collects members under keys, both in first-seen order.
+type groups []struct {
+	key     string
+	members []string
+}
+
+func (g *groups) add(key, member string) {
+	for i := range *g {
+		if (*g)[i].key == key {
+			(*g)[i].members = append((*g)[i].members, member)
+			return
+		}
+	}
+	*g = append(*g, struct {
+		key     string
+		members []string
+	}{key, []string{member}})
+}
+
+// testRun reports whether any test was run; with no test (an arm without
+// units) the conditions are moot.
+func testRun(z *experiment.Test, e *experiment.ExactTest) bool {
+	return z != nil || e != nil
+}
+
+const routesDisagree = "the statistic and the p-value routes of the z test disagree, which should not happen; report it as a bug."
+
+func unitsWere(n int64) string {
+	if n == 1 {
+		return "unit was"
+	}
+	return "units were"
+}
+
+func exactFallback(e *experiment.ExactTest) string {
+	if e == nil {
+		return "no exact test was run"
+	}
+	return "decided by " + theMethod(e.Method)
+}
+
+// theMethod puts "the" before a method name that is not a proper name:
+// "the exact binomial test" but "Fisher's exact test".
+func theMethod(m string) string {
+	if m != "" && unicode.IsLower([]rune(m)[0]) {
+		return "the " + m
+	}
+	return m
+}
+
+// disagreement says how the difference interval and the test disagree.
+func disagreement(c experiment.Comparison) string {
+	iv := c.DifferenceInterval
+	if iv == nil {
+		return "the interval for the difference and the test disagree"
+	}
+	excludes := iv.Lower > 0 || iv.Upper < 0
+	level := formatLevel(iv.Level)
+	switch {
+	case excludes && !c.Significant:
+		return "the " + level + " interval for the difference excludes 0 but the test is not significant (the interval is not pooled, the test is); a borderline result"
+	case !excludes && c.Significant:
+		return "the test is significant but the " + level + " interval for the difference includes 0 (the interval is not pooled, the test is); a borderline result"
+	}
+	return "the " + level + " interval for the difference and the test disagree"
+}
+
+func dedupe(list []string) []string {
+	seen := make(map[string]bool, len(list))
+	out := list[:0:0]
+	for _, s := range list {
+		s = oneLine(s)
+		if s == "" || seen[s] {
+			continue
+		}
+		seen[s] = true
+		out = append(out, s)
+	}
+	return out
+}
+
+func (md *markdown) arms(r experiment.Readout) {
+	md.heading(1, "Arms")
+	rows := make([][]string, 0, len(r.Arms))
+	for _, a := range r.Arms {
+		rows = append(rows, []string{armLabel(a.Name, r.Control), formatCount(a.Units), formatShare(a.PlannedShare), formatShare(a.ObservedShare)})
+	}
+	md.table([]string{"Arm", "Units", "Planned share", "Observed share"}, "lrrr", rows)
+	sr := r.SampleRatio
+	if !sr.Checked {
+		md.para("Sample ratio: not checked (fewer than two arms have units).")
+		return
+	}
+	verdict := "no mismatch"
+	if sr.Mismatch {
+		verdict = "**mismatch**"
+	}
+	md.para(fmt.Sprintf("Sample ratio (%s): chi-square = %s, df = %d, %s: %s.",
+		sr.Method, formatStatistic(sr.Statistic), sr.DF, pAgainstStrict(sr.PValue, sr.Threshold), verdict))
+}
+
+func armLabel(name, control string) string {
+	if name == control {
+		return code(name) + " (control)"
+	}
+	return code(name)
+}
+
+func (md *markdown) metric(r experiment.Readout, m experiment.MetricReadout) {
+	md.heading(1, "Metric "+code(m.Name))
+	md.para(metricDefinition(r, m))
+	n := newNotes()
+
+	rows := make([][]string, 0, len(m.Arms))
+	for _, a := range m.Arms {
+		rate, interval, method := "n/a (no units)", "n/a", "n/a"
+		if a.Rate != nil {
+			rate = formatPercent(*a.Rate)
+		}
+		if a.Interval != nil {
+			interval = formatPercent(a.Interval.Lower) + " to " + formatPercent(a.Interval.Upper)
+			method = a.Interval.Method + ", " + formatLevel(a.Interval.Level)
+		}
+		rows = append(rows, []string{armLabel(a.Arm, r.Control), formatCount(a.Units), formatCount(a.Conversions), rate, interval, method, formatCount(a.Immature)})
+	}
+	md.table([]string{"Arm", "Units", "Conversions", "Rate", "Interval", "Interval method", "Immature (left out)"}, "lrrrrlr", rows)
+	n.add(m.Warnings...)
+	n.flush(md)
+
+	if len(m.Comparisons) > 0 {
+		md.heading(2, "Against control")
+		md.comparisons(m, n)
+	}
+	if hasTargetTests(m) {
+		target := "the target rate"
+		if m.Target != nil {
+			target += " " + formatPercent(*m.Target)
+		}
+		md.heading(2, "Against "+target)
+		md.targetTests(m, n)
+	}
+	md.conclusion(r, m)
+}
+
+func metricDefinition(r experiment.Readout, m experiment.MetricReadout) string {
+	events := make([]string, len(m.Events))
+	for i, e := range m.Events {
+		events[i] = code(e)
+	}
+	var b strings.Builder
+	b.WriteString("A unit converts on ")
+	switch len(events) {
+	case 0:
+		b.WriteString("no event (no events listed)")
+	case 1:
+		b.WriteString(events[0])
+	default:
+		b.WriteString("any of " + strings.Join(events, ", "))
+	}
+	if m.WindowSeconds == nil {
+		b.WriteString(" at any time after its first exposure.")
+	} else {
+		w := formatDuration(*m.WindowSeconds)
+		b.WriteString(" within " + w + " of its first exposure.")
+		if r.Settings.MaturityPolicy == "include" {
+			b.WriteString(" Units whose " + w + " had not passed are kept (maturity policy include).")
+		} else {
+			b.WriteString(" Units whose " + w + " had not passed are left out (maturity policy exclude).")
+		}
+	}
+	if m.Target != nil {
+		b.WriteString(" Target rate: " + formatPercent(*m.Target) + ".")
+	}
+	return b.String()
+}
+
+func hasTargetTests(m experiment.MetricReadout) bool {
+	for _, a := range m.Arms {
+		if a.TargetTest != nil {
+			return true
+		}
+	}
+	return false
+}
+
+// rateOf returns the metric's rate for arm, or nil.
+func rateOf(m experiment.MetricReadout, arm string) *experiment.ArmRate {
+	for i := range m.Arms {
+		if m.Arms[i].Arm == arm {
+			return &m.Arms[i]
+		}
+	}
+	return nil
+}
+
+func rateText(a *experiment.ArmRate) string {
+	if a == nil || a.Rate == nil {
+		return "n/a"
+	}
+	return formatPercent(*a.Rate)
+}
+
+func (md *markdown) comparisons(m experiment.MetricReadout, n *notes) {
+	header := []string{""}
+	labels := []string{"Rates", "Difference", "Relative lift", "z test", "Statistic route", "p-value route", "Normal approximation", "Exact test", "Interval and test", "Decision", "Notes"}
+	cols := make([][]string, 0, len(m.Comparisons))
+	for _, c := range m.Comparisons {
+		header = append(header, code(c.Treatment)+" vs "+code(c.Control))
+		t, ctl := rateOf(m, c.Treatment), rateOf(m, c.Control)
+		diff := "undefined (" + noUnits(t, ctl, c) + ")"
+		if c.Difference != nil {
+			diff = formatPoints(*c.Difference) + " pp"
+			if iv := c.DifferenceInterval; iv != nil {
+				diff += fmt.Sprintf(", %s CI %s to %s pp (%s)", formatLevel(iv.Level), formatPoints(iv.Lower), formatPoints(iv.Upper), iv.Method)
+			}
+		}
+		lift := "undefined (" + liftUndefined(ctl, c) + ")"
+		if c.RelativeLift != nil {
+			lift = formatSignedPercent(*c.RelativeLift)
+			if iv := c.LiftInterval; iv != nil {
+				lift += fmt.Sprintf(", %s CI %s to %s (%s)", formatLevel(iv.Level), formatSignedPercent(iv.Lower), formatSignedPercent(iv.Upper), iv.Method)
+			}
+		}
+		zt, statRoute, pRoute := zRows(c.Z)
+		agree := "agree"
+		if !c.IntervalAgrees {
+			agree = "disagree: " + disagreement(c)
+		}
+		var extra []string
+		if c.Z != nil && c.Z.RejectByStatistic != c.Z.RejectByPValue {
+			extra = append(extra, routesDisagree)
+		}
+		cols = append(cols, []string{
+			rateText(t) + " vs " + rateText(ctl),
+			diff,
+			lift,
+			zt, statRoute, pRoute,
+			conditionText(c.ConditionMet, "in each arm", c.Z, c.Exact),
+			exactText(c.Exact, c.ConditionMet),
+			agree,
+			decisionText(c.Significant, c.DecidedBy, c.Z, c.Exact),
+			n.add(append(extra, c.Warnings...)...),
+		})
+	}
+	md.table(header, "", transpose(labels, cols))
+	n.flush(md)
+}
+
+func (md *markdown) targetTests(m experiment.MetricReadout, n *notes) {
+	header := []string{""}
+	labels := []string{"Rate", "Difference from target", "z test", "Statistic route", "p-value route", "Normal approximation", "Exact test", "Decision", "Notes"}
+	var cols [][]string
+	for i := range m.Arms {
+		a := &m.Arms[i]
+		tt := a.TargetTest
+		if tt == nil {
+			continue
+		}
+		header = append(header, code(a.Arm))
+		diff := "n/a"
+		if a.Rate != nil {
+			diff = formatPoints(*a.Rate-tt.Target) + " pp"
+		}
+		zt, statRoute, pRoute := zRows(tt.Z)
+		var extra []string
+		if tt.Z != nil && tt.Z.RejectByStatistic != tt.Z.RejectByPValue {
+			extra = append(extra, routesDisagree)
+		}
+		cols = append(cols, []string{
+			rateText(a) + " vs " + formatPercent(tt.Target),
+			diff,
+			zt, statRoute, pRoute,
+			conditionText(tt.ConditionMet, "expected under the target", tt.Z, tt.Exact),
+			exactText(tt.Exact, tt.ConditionMet),
+			decisionText(tt.Significant, tt.DecidedBy, tt.Z, tt.Exact),
+			n.add(append(extra, tt.Warnings...)...),
+		})
+	}
+	md.table(header, "", transpose(labels, cols))
+	n.flush(md)
+}
+
+// transpose lays out one column per comparison: row i is labels[i]
+// followed by cols[j][i].
+func transpose(labels []string, cols [][]string) [][]string {
+	rows := make([][]string, len(labels))
+	for i, l := range labels {
+		row := []string{l}
+		for _, c := range cols {
+			row = append(row, c[i])
+		}
+		rows[i] = row
+	}
+	return rows
+}
+
+func noUnits(t, ctl *experiment.ArmRate, c experiment.Comparison) string {
+	tNone := t == nil || t.Rate == nil
+	cNone := ctl == nil || ctl.Rate == nil
+	switch {
+	case tNone && cNone:
+		return "neither arm has units"
+	case t == nil || t.Rate == nil:
+		return code(c.Treatment) + " has no units"
+	case ctl == nil || ctl.Rate == nil:
+		return code(c.Control) + " has no units"
+	}
+	return "not computed"
+}
+
+func liftUndefined(ctl *experiment.ArmRate, c experiment.Comparison) string {
+	switch {
+	case ctl == nil || ctl.Rate == nil:
+		return code(c.Control) + " has no units"
+	case *ctl.Rate == 0:
+		return "control rate is 0"
+	}
+	return "not computed"
+}
+
+func (md *markdown) cautions(r experiment.Readout) {
+	md.heading(1, "Before acting")
+	md.line("- Statistical significance is not practical importance: judge each interval against the smallest effect that would matter. An interval that reaches effects too small to matter has not shown a useful change.")
+	md.line("- Looking at the results repeatedly and stopping when they first look significant inflates false positives. Read the result at the sample size or date fixed in advance.")
+	check := "- Check the data before acting: the sample ratio, the exclusions and the diagnostics below."
+	if r.SampleRatio.Checked && r.SampleRatio.Mismatch {
+		check += " This readout failed the sample ratio check."
+	}
+	md.line(check)
+	if k, alphas := testCount(r); k > 1 {
+		each := "each at its own alpha"
+		if len(alphas) == 1 {
+			each = "each at alpha " + formatAlpha(alphas[0])
+		}
+		md.line(fmt.Sprintf("- This readout makes %d tests, %s with no adjustment for multiple comparisons shown here; the more tests, the likelier one is significant by chance.", k, each))
+	}
+	md.line("")
+}
+
+// testCount counts the comparisons and target tests with a decision and
+// lists the distinct alphas they were decided at.
+func testCount(r experiment.Readout) (int, []float64) {
+	k := 0
+	var alphas []float64
+	count := func(decidedBy string, z *experiment.Test, e *experiment.ExactTest) {
+		if decider(decidedBy, z, e) == "" {
+			return
+		}
+		k++
+		a := decisionAlpha(decidedBy, z, e)
+		for _, b := range alphas {
+			if a == b {
+				return
+			}
+		}
+		alphas = append(alphas, a)
+	}
+	for _, m := range r.Metrics {
+		for _, c := range m.Comparisons {
+			count(c.DecidedBy, c.Z, c.Exact)
+		}
+		for _, a := range m.Arms {
+			if tt := a.TargetTest; tt != nil {
+				count(tt.DecidedBy, tt.Z, tt.Exact)
+			}
+		}
+	}
+	return k, alphas
+}
+
+func (md *markdown) diagnostics(r experiment.Readout) {
+	d := r.Diagnostics
+	md.heading(1, "Diagnostics")
+	rows := [][]string{
+		{"Rows read", formatCount(d.RowsRead)},
+		{"Bad rows", formatCount(sumReasons(d.BadRows))},
+	}
+	for _, rc := range d.BadRows {
+		rows = append(rows, []string{"Bad rows: " + formatReason(rc.Reason), formatCount(rc.Count)})
+	}
+	rows = append(rows,
+		[]string{"Exposure rows of this experiment (in or out of the window)", formatCount(d.ExposureRows)},
+		[]string{"Units exposed in the window", formatCount(d.UnitsExposed)},
+	)
+	for _, a := range d.UnitsPerArm {
+		rows = append(rows, []string{"Units in arm " + armLabel(a.Arm, r.Control), formatCount(a.Units)})
+	}
+	rows = append(rows,
+		[]string{"Multi-arm units (policy " + r.Settings.MultiArmPolicy + ")", formatCount(d.MultiArmUnits)},
+		[]string{"Tied units (two arms at the first instant)", formatCount(d.TiedUnits)},
+	)
+	var immature int64
+	for _, im := range d.Immature {
+		immature += im.Units
+	}
+	rows = append(rows, []string{"Immature units (policy " + r.Settings.MaturityPolicy + ")", formatCount(immature)})
+	for _, im := range d.Immature {
+		rows = append(rows, []string{"Immature units: " + code(im.Metric), formatCount(im.Units)})
+	}
+	rows = append(rows, []string{"Ignored events", formatCount(sumReasons(d.IgnoredEvents))})
+	for _, rc := range d.IgnoredEvents {
+		rows = append(rows, []string{"Ignored events: " + formatReason(rc.Reason), formatCount(rc.Count)})
+	}
+	md.table([]string{"Count", "Value"}, "lr", rows)
+}
+
+func sumReasons(rs []experiment.ReasonCount) int64 {
+	var s int64
+	for _, r := range rs {
+		s += r.Count
+	}
+	return s
+}
