@@ -75,8 +75,8 @@ type ArmRate struct {
 	Arm         string `json:"arm"`
 	Units       int64  `json:"units"`
 	Conversions int64  `json:"conversions"`
-	// Immature counts units left out because their attribution window had
-	// not closed (0 under the include policy, which keeps them in Units).
+	// Immature counts units whose attribution window had not closed: left
+	// out of Units under the exclude policy, counted in Units under include.
 	Immature int64     `json:"immature_units"`
 	Rate     *float64  `json:"rate"`
 	Interval *Interval `json:"interval"`

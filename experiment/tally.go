@@ -18,8 +18,9 @@ type Count struct {
 	Units int64
 	// Conversions is the number of those units that converted.
 	Conversions int64
-	// Immature is the number of units left out as immature (always 0 under
-	// MaturityInclude).
+	// Immature is the number of units whose attribution window had not
+	// closed by the maturity horizon. Under MaturityExclude they are left
+	// out of Units; under MaturityInclude they are counted in Units too.
 	Immature int64
 }
 
@@ -442,9 +443,11 @@ func (t *Tallier) Tally() (Tally, error) {
 				if t.hasEnd {
 					horizon = t.end
 				}
-				if s.t0 > horizon-w && t.spec.Maturity == MaturityExclude {
+				if s.t0 > horizon-w {
 					c.Immature++
-					continue
+					if t.spec.Maturity == MaturityExclude {
+						continue
+					}
 				}
 			}
 			c.Units++

@@ -1,0 +1,465 @@
+package experiment
+
+import (
+	"errors"
+	"fmt"
+	"strings"
+	"time"
+
+	"github.com/armtally/armtally/experiment/stats"
+)
+
+// DefaultSampleRatioThreshold is the p-value below which the sample ratio
+// check flags a mismatch (common practice: 0.001).
+const DefaultSampleRatioThreshold = 0.001
+
+// AnalysisOptions are the settings of the statistics. Build them from
+// DefaultAnalysisOptions and change what differs.
+type AnalysisOptions struct {
+	// Stats holds alpha, the confidence level, the alternative and the
+	// minimum count of the normal-approximation rule.
+	Stats stats.Options
+	// SampleRatioThreshold is the p-value below which the sample ratio
+	// check flags a mismatch.
+	SampleRatioThreshold float64
+	// BadRows are the producer's bad-row counts by reason, copied into the
+	// diagnostics as they are.
+	BadRows []ReasonCount
+	// RowsRead, when positive, is the number of rows the producer read
+	// (valid or not); otherwise the tally's own count of valid rows is
+	// reported.
+	RowsRead int64
+}
+
+// DefaultAnalysisOptions returns alpha 0.05 with 95% intervals, a
+// two-sided alternative, a minimum count of 5 and a sample ratio threshold
+// of 0.001.
+func DefaultAnalysisOptions() AnalysisOptions {
+	return AnalysisOptions{Stats: stats.DefaultOptions(), SampleRatioThreshold: DefaultSampleRatioThreshold}
+}
+
+// Ignored-event and bad-row reasons, as the diagnostics spell them.
+const (
+	ReasonNotMetricEvent    = "not_metric_event"
+	ReasonOtherExperiment   = "other_experiment"
+	ReasonExposureOutside   = "exposure_outside_window"
+	ReasonAfterWindowEnd    = "after_window_end"
+	ReasonUnitNeverExposed  = "unit_never_exposed"
+	ReasonUnitExcluded      = "unit_excluded"
+	ReasonBeforeExposure    = "before_exposure"
+	ReasonOutsideAttributed = "outside_attribution_window"
+)
+
+// Decision routes, as Comparison.DecidedBy and TargetTest.DecidedBy spell
+// them.
+const (
+	DecidedByZ     = "z_test"
+	DecidedByExact = "exact_test"
+)
+
+// Method names the readout carries beside the stats package's own.
+const (
+	methodLift = "Katz log ratio"
+)
+
+// Analyze turns a tally into a readout: per-arm rates with Wilson score
+// intervals, each treatment against the control (difference with the
+// Newcombe hybrid score interval, relative lift with the Katz log ratio
+// interval, the pooled two-proportion z test, and Fisher's exact test where
+// the normal approximation is not justified), the one-proportion z test
+// against a metric's target rate (the exact binomial test where its
+// condition fails), the sample ratio check against the planned split, and
+// the diagnostics. It reads counts only, never rows.
+//
+// Every arm other than the control is compared with the control. An arm
+// seen in the data but not among spec.Arms (when spec.Arms is not empty)
+// is an error: the planned split and the comparisons would be wrong.
+func Analyze(spec Spec, t Tally, opts AnalysisOptions) (Readout, error) {
+	so := opts.Stats
+	if !(so.Alpha > 0 && so.Alpha < 1) {
+		return Readout{}, fmt.Errorf("alpha %v is not strictly between 0 and 1", so.Alpha)
+	}
+	if so.Level == 0 {
+		so.Level = 1 - so.Alpha
+	}
+	if !(so.Level > 0 && so.Level < 1) {
+		return Readout{}, fmt.Errorf("confidence level %v is not strictly between 0 and 1", so.Level)
+	}
+	if so.MinCount < 1 {
+		so.MinCount = 1
+	}
+	if opts.SampleRatioThreshold == 0 {
+		opts.SampleRatioThreshold = DefaultSampleRatioThreshold
+	}
+	if !(opts.SampleRatioThreshold > 0 && opts.SampleRatioThreshold < 1) {
+		return Readout{}, fmt.Errorf("sample ratio threshold %v is not strictly between 0 and 1", opts.SampleRatioThreshold)
+	}
+	if spec.Control == "" {
+		return Readout{}, errors.New("no control arm named")
+	}
+	if len(t.Arms) > 0 && len(t.Arms[0].Metrics) != len(spec.Metrics) {
+		return Readout{}, fmt.Errorf("tally has %d metrics, spec has %d", len(t.Arms[0].Metrics), len(spec.Metrics))
+	}
+	arms, err := readoutArms(spec, t)
+	if err != nil {
+		return Readout{}, err
+	}
+
+	r := Readout{
+		Experiment:    spec.Key,
+		ExposureEvent: spec.ExposureEvent,
+		Control:       spec.Control,
+		WindowStart:   utcPtr(spec.Start),
+		WindowEnd:     utcPtr(spec.End),
+		Settings: Settings{
+			Alpha:                so.Alpha,
+			ConfidenceLevel:      so.Level,
+			Alternative:          so.Alternative.String(),
+			MultiArmPolicy:       spec.MultiArm.String(),
+			MaturityPolicy:       spec.Maturity.String(),
+			MinCount:             so.MinCount,
+			SampleRatioThreshold: opts.SampleRatioThreshold,
+		},
+	}
+	if t.HasFreshness {
+		f := time.Unix(0, t.Freshness).UTC()
+		r.Freshness = &f
+	}
+
+	shares := plannedShares(spec, arms)
+	var total int64
+	for _, a := range arms {
+		total += a.Units
+	}
+	observed := make([]int64, len(arms))
+	for i, a := range arms {
+		u := ArmUnits{Name: a.Name, Units: a.Units, PlannedShare: shares[i]}
+		if total > 0 {
+			u.ObservedShare = float64(a.Units) / float64(total)
+		}
+		observed[i] = a.Units
+		r.Arms = append(r.Arms, u)
+	}
+	r.SampleRatio = SampleRatio{Method: "Pearson chi-square goodness of fit", PValue: 1, Threshold: opts.SampleRatioThreshold}
+	if len(arms) >= 2 && total > 0 {
+		g, err := stats.ChiSquareGoodnessOfFit(observed, shares)
+		if err != nil {
+			return Readout{}, fmt.Errorf("sample ratio check: %w", err)
+		}
+		r.SampleRatio.Method = g.Method
+		r.SampleRatio.Statistic = g.Statistic
+		r.SampleRatio.DF = g.DF
+		r.SampleRatio.PValue = g.PValue
+		r.SampleRatio.Mismatch = g.PValue < opts.SampleRatioThreshold
+		r.SampleRatio.Checked = true
+	}
+
+	ctl := -1
+	for i, a := range arms {
+		if a.Name == spec.Control {
+			ctl = i
+		}
+	}
+	for mi, m := range spec.Metrics {
+		mr, err := analyzeMetric(spec, m, mi, arms, ctl, so)
+		if err != nil {
+			return Readout{}, fmt.Errorf("metric %q: %w", m.Name, err)
+		}
+		r.Metrics = append(r.Metrics, mr)
+	}
+
+	r.Diagnostics = diagnostics(spec, t, arms, opts)
+	if spec.End == nil {
+		r.Warnings = append(r.Warnings, "the analysis window has no end: maturity is judged against the data freshness, and units exposed shortly before it had little time to convert")
+	}
+	return r, nil
+}
+
+// readoutArms returns the tally's arms with the control present (added
+// with zero counts when the data has none), checking that every arm seen
+// is planned when the spec lists arms.
+func readoutArms(spec Spec, t Tally) ([]ArmTally, error) {
+	arms := append([]ArmTally(nil), t.Arms...)
+	if len(spec.Arms) > 0 {
+		planned := make(map[string]bool, len(spec.Arms))
+		for _, a := range spec.Arms {
+			planned[a] = true
+		}
+		var unknown []string
+		for _, a := range arms {
+			if !planned[a.Name] {
+				unknown = append(unknown, fmt.Sprintf("%q (%d units exposed)", a.Name, a.Exposed))
+			}
+		}
+		if len(unknown) > 0 {
+			return nil, fmt.Errorf("exposure rows carry arms that are not planned: %s; planned arms are %s",
+				strings.Join(unknown, ", "), strings.Join(spec.Arms, ", "))
+		}
+	}
+	for _, a := range arms {
+		if a.Name == spec.Control {
+			return arms, nil
+		}
+	}
+	zero := ArmTally{Name: spec.Control, Metrics: make([]Count, len(spec.Metrics))}
+	return append([]ArmTally{zero}, arms...), nil
+}
+
+// plannedShares returns the planned share of each readout arm: the spec's
+// split normalised to sum 1, or an equal split.
+func plannedShares(spec Spec, arms []ArmTally) []float64 {
+	shares := make([]float64, len(arms))
+	if len(spec.Split) == 0 {
+		for i := range shares {
+			shares[i] = 1 / float64(len(arms))
+		}
+		return shares
+	}
+	var sum float64
+	for _, s := range spec.Split {
+		sum += s
+	}
+	byName := make(map[string]float64, len(spec.Arms))
+	for i, a := range spec.Arms {
+		byName[a] = spec.Split[i] / sum
+	}
+	for i, a := range arms {
+		shares[i] = byName[a.Name]
+	}
+	return shares
+}
+
+func analyzeMetric(spec Spec, m Metric, mi int, arms []ArmTally, ctl int, so stats.Options) (MetricReadout, error) {
+	mr := MetricReadout{Name: m.Name, Events: append([]string(nil), m.Events...), Target: m.Target}
+	if m.Window > 0 {
+		s := int64(m.Window / time.Second)
+		mr.WindowSeconds = &s
+	}
+	for _, a := range arms {
+		c := a.Metrics[mi]
+		ar := ArmRate{Arm: a.Name, Units: c.Units, Conversions: c.Conversions, Immature: c.Immature}
+		if c.Units > 0 {
+			rate := float64(c.Conversions) / float64(c.Units)
+			ar.Rate = &rate
+			iv, err := stats.Wilson(c.Conversions, c.Units, so.Level)
+			if err != nil {
+				return mr, fmt.Errorf("arm %q: %w", a.Name, err)
+			}
+			ar.Interval = interval(iv, iv.Method)
+			if m.Target != nil {
+				tt, err := targetTest(c, *m.Target, so)
+				if err != nil {
+					return mr, fmt.Errorf("arm %q: %w", a.Name, err)
+				}
+				ar.TargetTest = tt
+			}
+		}
+		mr.Arms = append(mr.Arms, ar)
+	}
+	for i, a := range arms {
+		if i == ctl {
+			continue
+		}
+		c, err := compare(a.Name, a.Metrics[mi], spec.Control, arms[ctl].Metrics[mi], so)
+		if err != nil {
+			return mr, fmt.Errorf("%s vs %s: %w", a.Name, spec.Control, err)
+		}
+		mr.Comparisons = append(mr.Comparisons, c)
+	}
+	return mr, nil
+}
+
+// targetTest tests one arm's rate against the target p0: the
+// one-proportion z test, and the exact binomial test when n p0 or
+// n (1 - p0) is below the minimum count.
+func targetTest(c Count, p0 float64, so stats.Options) (*TargetTest, error) {
+	z, err := stats.OneProportionZTest(c.Conversions, c.Units, p0, so.Alpha, so.Alternative)
+	if err != nil {
+		return nil, err
+	}
+	tt := &TargetTest{Target: p0, Z: test(z)}
+	tt.Warnings = append(tt.Warnings, z.Warnings...)
+	ok, warn := stats.OneSampleCondition(c.Units, p0, so.MinCount)
+	tt.ConditionMet = ok
+	tt.Warnings = append(tt.Warnings, warn...)
+	if ok {
+		tt.Significant, tt.DecidedBy = z.RejectByPValue, DecidedByZ
+		return tt, nil
+	}
+	e, err := stats.BinomialExact(c.Conversions, c.Units, p0, so.Alpha, so.Alternative)
+	if err != nil {
+		return nil, err
+	}
+	tt.Exact = exactTest(e)
+	tt.Significant, tt.DecidedBy = e.Reject, DecidedByExact
+	return tt, nil
+}
+
+// compare compares a treatment arm with the control on one metric.
+func compare(treatment string, tc Count, control string, cc Count, so stats.Options) (Comparison, error) {
+	c := Comparison{Treatment: treatment, Control: control, IntervalAgrees: true}
+	if tc.Units == 0 || cc.Units == 0 {
+		return c, nil
+	}
+	x1, n1, x2, n2 := tc.Conversions, tc.Units, cc.Conversions, cc.Units
+	p1, p2 := float64(x1)/float64(n1), float64(x2)/float64(n2)
+	d := p1 - p2
+	c.Difference = &d
+	iv, err := stats.NewcombeDifference(x1, n1, x2, n2, so.Level)
+	if err != nil {
+		return c, err
+	}
+	c.DifferenceInterval = interval(iv, iv.Method)
+	if x2 > 0 {
+		lift := p1/p2 - 1
+		c.RelativeLift = &lift
+		ratio, err := stats.KatzRatio(x1, n1, x2, n2, so.Level)
+		switch {
+		case err == nil:
+			ratio.Lower--
+			ratio.Upper--
+			c.LiftInterval = interval(ratio, methodLift)
+		case !errors.Is(err, stats.ErrUndefined):
+			return c, err
+		}
+	}
+	z, err := stats.TwoProportionZTest(x1, n1, x2, n2, so.Alpha, so.Alternative)
+	if err != nil {
+		return c, err
+	}
+	c.Z = test(z)
+	c.Warnings = append(c.Warnings, z.Warnings...)
+	c.ConditionMet = true
+	for _, arm := range []struct {
+		name string
+		x, n int64
+	}{{treatment, x1, n1}, {control, x2, n2}} {
+		if arm.x < so.MinCount {
+			c.ConditionMet = false
+			c.Warnings = append(c.Warnings, fmt.Sprintf("normal approximation not justified: %s has %s, needs at least %d", arm.name, plural(arm.x, "conversion"), so.MinCount))
+		}
+		if f := arm.n - arm.x; f < so.MinCount {
+			c.ConditionMet = false
+			c.Warnings = append(c.Warnings, fmt.Sprintf("normal approximation not justified: %s has %s, needs at least %d", arm.name, plural(f, "non-conversion"), so.MinCount))
+		}
+	}
+	if c.ConditionMet {
+		c.Significant, c.DecidedBy = z.RejectByPValue, DecidedByZ
+	} else {
+		e, err := stats.FisherExact(x1, n1, x2, n2, so.Alpha, so.Alternative)
+		if err != nil {
+			return c, err
+		}
+		c.Exact = exactTest(e)
+		c.Significant, c.DecidedBy = e.Reject, DecidedByExact
+	}
+	agrees, err := intervalAgrees(c.Significant, x1, n1, x2, n2, so)
+	if err != nil {
+		return c, err
+	}
+	c.IntervalAgrees = agrees
+	return c, nil
+}
+
+// intervalAgrees reports whether the Newcombe interval's verdict on a zero
+// difference matches the test's decision. For a one-sided alternative the
+// matching interval is the two-sided one at level 1 - 2 alpha, read on
+// the side of the alternative.
+func intervalAgrees(significant bool, x1, n1, x2, n2 int64, so stats.Options) (bool, error) {
+	level := 1 - so.Alpha
+	if so.Alternative != stats.TwoSided {
+		level = 1 - 2*so.Alpha
+	}
+	if !(level > 0 && level < 1) {
+		return true, nil
+	}
+	iv, err := stats.NewcombeDifference(x1, n1, x2, n2, level)
+	if err != nil {
+		return false, err
+	}
+	var excludes bool
+	switch so.Alternative {
+	case stats.Greater:
+		excludes = iv.Lower > 0
+	case stats.Less:
+		excludes = iv.Upper < 0
+	default:
+		excludes = iv.Lower > 0 || iv.Upper < 0
+	}
+	return excludes == significant, nil
+}
+
+func diagnostics(spec Spec, t Tally, arms []ArmTally, opts AnalysisOptions) Diagnostics {
+	td := t.Diag
+	d := Diagnostics{
+		RowsRead:      td.RowsRead,
+		BadRows:       append([]ReasonCount(nil), opts.BadRows...),
+		ExposureRows:  td.ExposureRows,
+		UnitsExposed:  td.UnitsExposed,
+		MultiArmUnits: td.MultiArmUnits,
+		TiedUnits:     td.TiedUnits,
+	}
+	if opts.RowsRead > 0 {
+		d.RowsRead = opts.RowsRead
+	}
+	for _, a := range arms {
+		d.UnitsPerArm = append(d.UnitsPerArm, ArmCount{Arm: a.Name, Units: a.Units})
+	}
+	for mi, m := range spec.Metrics {
+		var n int64
+		for _, a := range arms {
+			n += a.Metrics[mi].Immature
+		}
+		d.Immature = append(d.Immature, MetricCount{Metric: m.Name, Units: n})
+	}
+	var outside int64
+	for _, n := range td.OutsideAttribution {
+		outside += n
+	}
+	for _, rc := range []ReasonCount{
+		{ReasonNotMetricEvent, td.NotMetricEvents},
+		{ReasonOtherExperiment, td.OtherExperimentRows},
+		{ReasonExposureOutside, td.ExposuresOutsideWindow},
+		{ReasonAfterWindowEnd, td.AfterWindowEnd},
+		{ReasonUnitNeverExposed, td.UnitNeverExposed},
+		{ReasonUnitExcluded, td.UnitExcluded},
+		{ReasonBeforeExposure, td.BeforeExposure},
+		{ReasonOutsideAttributed, outside},
+	} {
+		if rc.Count > 0 {
+			d.IgnoredEvents = append(d.IgnoredEvents, rc)
+		}
+	}
+	return d
+}
+
+func interval(iv stats.Interval, method string) *Interval {
+	return &Interval{Lower: iv.Lower, Upper: iv.Upper, Level: iv.Level, Method: method}
+}
+
+func test(z stats.ZTest) *Test {
+	return &Test{
+		Method: z.Method, Statistic: z.Statistic, CriticalValue: z.CriticalValue, PValue: z.PValue,
+		Alpha: z.Alpha, Alternative: z.Alternative.String(),
+		RejectByStatistic: z.RejectByStatistic, RejectByPValue: z.RejectByPValue,
+	}
+}
+
+func exactTest(e stats.ExactTest) *ExactTest {
+	return &ExactTest{Method: e.Method, PValue: e.PValue, Alpha: e.Alpha, Alternative: e.Alternative.String(), Reject: e.Reject}
+}
+
+func utcPtr(t *time.Time) *time.Time {
+	if t == nil {
+		return nil
+	}
+	u := t.UTC()
+	return &u
+}
+
+func plural(n int64, word string) string {
+	if n == 1 {
+		return "1 " + word
+	}
+	return fmt.Sprintf("%d %ss", n, word)
+}
