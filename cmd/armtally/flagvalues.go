@@ -1,0 +1,121 @@
+package main
+
+import (
+	"fmt"
+	"strconv"
+	"strings"
+	"time"
+
+	"github.com/armtally/armtally/experiment"
+	"github.com/armtally/armtally/ingest"
+)
+
+// parseMetric parses the value of --metric:
+//
+//	NAME=EVENT[,EVENT...][:WINDOW][@TARGET]
+//	EVENT[:WINDOW][@TARGET]            (the metric is named after its event)
+//
+// WINDOW is a number with a unit s, m, h, d or w (7d, 36h, 90m); no window
+// means unlimited. TARGET is a rate in (0, 1) or a percentage (0.12 or 12%).
+func parseMetric(s string) (experiment.Metric, error) {
+	var m experiment.Metric
+	rest := s
+	if at := strings.LastIndexByte(rest, '@'); at >= 0 {
+		p, err := parseRate(rest[at+1:])
+		if err != nil {
+			return m, fmt.Errorf("metric %q: target: %w", s, err)
+		}
+		m.Target = &p
+		rest = rest[:at]
+	}
+	if colon := strings.LastIndexByte(rest, ':'); colon >= 0 {
+		w, err := parseWindow(rest[colon+1:])
+		if err != nil {
+			return m, fmt.Errorf("metric %q: window: %w", s, err)
+		}
+		m.Window = w
+		rest = rest[:colon]
+	}
+	name, events, named := strings.Cut(rest, "=")
+	if !named {
+		events = name
+	}
+	m.Name = strings.TrimSpace(name)
+	for _, e := range strings.Split(events, ",") {
+		if e = strings.TrimSpace(e); e != "" {
+			m.Events = append(m.Events, e)
+		}
+	}
+	if m.Name == "" || len(m.Events) == 0 {
+		return m, fmt.Errorf("metric %q: want NAME=EVENT[,EVENT...][:WINDOW][@TARGET], for example purchase=purchase:7d", s)
+	}
+	return m, nil
+}
+
+// parseWindow parses an attribution window: a positive number followed by
+// s, m, h, d (24 hours) or w (7 days).
+func parseWindow(s string) (time.Duration, error) {
+	s = strings.TrimSpace(s)
+	if s == "" {
+		return 0, fmt.Errorf("empty window")
+	}
+	units := map[byte]time.Duration{'s': time.Second, 'm': time.Minute, 'h': time.Hour, 'd': 24 * time.Hour, 'w': 7 * 24 * time.Hour}
+	unit, ok := units[s[len(s)-1]]
+	if !ok {
+		return 0, fmt.Errorf("%q has no unit (want s, m, h, d or w, as in 7d)", s)
+	}
+	v, err := strconv.ParseFloat(s[:len(s)-1], 64)
+	if err != nil || !(v > 0) || v*float64(unit) > float64(100*365*24*time.Hour) {
+		return 0, fmt.Errorf("%q is not a positive length of at most 100 years", s)
+	}
+	d := time.Duration(v * float64(unit))
+	if d < time.Second {
+		return 0, fmt.Errorf("%q is shorter than a second", s)
+	}
+	return d, nil
+}
+
+// parseRate parses a rate in (0, 1), written as 0.12 or 12%.
+func parseRate(s string) (float64, error) {
+	s = strings.TrimSpace(s)
+	scale := 1.0
+	if strings.HasSuffix(s, "%") {
+		s, scale = strings.TrimSuffix(s, "%"), 0.01
+	}
+	v, err := strconv.ParseFloat(s, 64)
+	if err != nil {
+		return 0, fmt.Errorf("%q is not a number", s)
+	}
+	v *= scale
+	if !(v > 0 && v < 1) {
+		return 0, fmt.Errorf("%v is not strictly between 0 and 1", v)
+	}
+	return v, nil
+}
+
+// parseTime parses a window bound: RFC 3339 or YYYY-MM-DD[ HH:MM:SS[.frac]]
+// (UTC unless an offset is given), the forms event logs use.
+func parseTime(flag, s string) (*time.Time, error) {
+	if s == "" {
+		return nil, nil
+	}
+	ns, err := ingest.ParseTimestamp([]byte(s))
+	if err != nil {
+		return nil, usagef("--%s %q: want RFC 3339 or YYYY-MM-DD[ HH:MM:SS] (UTC unless an offset is given)", flag, s)
+	}
+	t := time.Unix(0, ns).UTC()
+	return &t, nil
+}
+
+// parseShares parses --split: comma-separated positive numbers.
+func parseShares(s string) ([]float64, error) {
+	var out []float64
+	for _, f := range strings.Split(s, ",") {
+		v, err := strconv.ParseFloat(strings.TrimSpace(f), 64)
+		if err != nil || !(v > 0) || v > 1e12 {
+			return nil, fmt.Errorf("--split %q: %q is not a positive number", s, f)
+		}
+		out = append(out, v)
+	}
+	return out, nil
+}

@@ -1,0 +1,131 @@
+// Command armtally reads an experiment's event log (Parquet or CSV) and
+// writes a conversion readout: per-arm rates, differences and lifts with
+// intervals, tests decided by both routes, the sample ratio check and the
+// diagnostics, as Markdown for a ticket and JSON for dashboards.
+//
+// Usage:
+//
+//	armtally analyze [flags] FILE|FOLDER...   analyse an event log
+//	armtally analyze --demo                   analyse the embedded demo log
+//	armtally gen [flags]                      write a synthetic event log
+//	armtally help [COMMAND]                   show help
+//
+// Exit codes:
+//
+//	0  the readout was written
+//	1  an unexpected failure (for example, an output file could not be written)
+//	2  usage error: unknown flag, bad flag value, missing argument
+//	3  data error: an input cannot be read, a row is malformed, the data
+//	   contradicts the settings (an arm that is not planned, several
+//	   experiments without --experiment)
+//	4  the sample ratio check failed and --fail-on-sample-ratio was given
+//	   (the readout is still written)
+package main
+
+import (
+	"errors"
+	"fmt"
+	"io"
+	"os"
+)
+
+// Exit codes; see the package documentation.
+const (
+	exitOK          = 0
+	exitFailure     = 1
+	exitUsage       = 2
+	exitData        = 3
+	exitSampleRatio = 4
+)
+
+func main() {
+	os.Exit(run(os.Args[1:], os.Stdout, os.Stderr))
+}
+
+// usageError is a problem with the command line.
+type usageError struct{ msg string }
+
+func (e *usageError) Error() string { return e.msg }
+
+func usagef(format string, args ...any) error {
+	return &usageError{fmt.Sprintf(format, args...)}
+}
+
+// dataError is a problem with the input data or its fit with the settings.
+type dataError struct{ err error }
+
+func (e *dataError) Error() string { return e.err.Error() }
+func (e *dataError) Unwrap() error { return e.err }
+
+// errSampleRatio reports a failed sample ratio check under
+// --fail-on-sample-ratio.
+var errSampleRatio = errors.New("sample ratio mismatch")
+
+// helpRequested is returned when --help was given: help went to stdout.
+var errHelp = errors.New("help requested")
+
+const topUsage = `armtally turns an experiment's event log into a conversion readout.
+
+Usage:
+  armtally analyze [flags] FILE|FOLDER...   analyse an event log (Parquet or CSV)
+  armtally analyze --demo                   analyse the embedded demo event log
+  armtally gen [flags]                      write a synthetic event log
+  armtally help [COMMAND]                   show help for a command
+
+Exit codes:
+  0  the readout was written
+  1  unexpected failure (such as an output file that cannot be written)
+  2  usage error
+  3  data error (unreadable input, malformed row, data that contradicts the settings)
+  4  sample ratio mismatch with --fail-on-sample-ratio (the readout is still written)
+
+Run 'armtally help analyze' or 'armtally help gen' for the flags.
+`
+
+// run runs the command line args and returns the exit code.
+func run(args []string, stdout, stderr io.Writer) int {
+	if len(args) == 0 {
+		fmt.Fprint(stderr, topUsage)
+		return exitUsage
+	}
+	var err error
+	switch cmd := args[0]; cmd {
+	case "analyze":
+		err = runAnalyze(args[1:], stdout, stderr)
+	case "gen":
+		err = runGen(args[1:], stdout, stderr)
+	case "help", "-h", "--help":
+		if len(args) > 1 && cmd == "help" {
+			return run([]string{args[1], "--help"}, stdout, stderr)
+		}
+		fmt.Fprint(stdout, topUsage)
+		return exitOK
+	default:
+		fmt.Fprintf(stderr, "armtally: unknown command %q\n\n%s", cmd, topUsage)
+		return exitUsage
+	}
+	return exitCode(err, stderr)
+}
+
+// exitCode prints err (if any) and maps it to an exit code.
+func exitCode(err error, stderr io.Writer) int {
+	var ue *usageError
+	var de *dataError
+	switch {
+	case err == nil:
+		return exitOK
+	case errors.Is(err, errHelp):
+		return exitOK
+	case errors.As(err, &ue):
+		fmt.Fprintf(stderr, "armtally: %v\nRun 'armtally help' for usage.\n", err)
+		return exitUsage
+	case errors.As(err, &de):
+		fmt.Fprintf(stderr, "armtally: %v\n", err)
+		return exitData
+	case errors.Is(err, errSampleRatio):
+		fmt.Fprintf(stderr, "armtally: %v\n", err)
+		return exitSampleRatio
+	}
+	fmt.Fprintf(stderr, "armtally: %v\n", err)
+	return exitFailure
+}
