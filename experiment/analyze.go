@@ -176,7 +176,8 @@ func Analyze(spec Spec, t Tally, opts AnalysisOptions) (Readout, error) {
 }
 
 // readoutArms returns the tally's arms with the control present (added
-// with zero counts when the data has none), checking that every arm seen
+// with zero counts when the data has none) and first unless the spec lists
+// it elsewhere, checking that every arm seen
 // is planned when the spec lists arms.
 func readoutArms(spec Spec, t Tally) ([]ArmTally, error) {
 	arms := append([]ArmTally(nil), t.Arms...)
@@ -196,10 +197,20 @@ func readoutArms(spec Spec, t Tally) ([]ArmTally, error) {
 				strings.Join(unknown, ", "), strings.Join(spec.Arms, ", "))
 		}
 	}
-	for _, a := range arms {
-		if a.Name == spec.Control {
-			return arms, nil
+	listed := false
+	for _, a := range spec.Arms {
+		listed = listed || a == spec.Control
+	}
+	for i, a := range arms {
+		if a.Name != spec.Control {
+			continue
 		}
+		if !listed {
+			// An unlisted control goes first rather than where its first
+			// exposure happens to fall.
+			arms = append(append([]ArmTally{a}, arms[:i]...), arms[i+1:]...)
+		}
+		return arms, nil
 	}
 	zero := ArmTally{Name: spec.Control, Metrics: make([]Count, len(spec.Metrics))}
 	return append([]ArmTally{zero}, arms...), nil

@@ -234,3 +234,19 @@ func TestAnalyzeOneSidedAgreement(t *testing.T) {
 		t.Errorf("one-sided: %+v", c)
 	}
 }
+
+// TestAnalyzeControlFirst checks that an unlisted control leads the arms
+// even when another arm was exposed first.
+func TestAnalyzeControlFirst(t *testing.T) {
+	spec := spec2()
+	spec.Arms = nil
+	tl := twoArmTally([][2]int64{{5, 50}}, [][2]int64{{6, 50}})
+	tl.Arms[0], tl.Arms[1] = tl.Arms[1], tl.Arms[0]
+	r, err := Analyze(spec, tl, DefaultAnalysisOptions())
+	if err != nil {
+		t.Fatal(err)
+	}
+	if r.Arms[0].Name != "control" || r.Metrics[0].Arms[0].Arm != "control" || r.Metrics[0].Comparisons[0].Treatment != "treat" {
+		t.Errorf("arms %+v", r.Arms)
+	}
+}

@@ -16,9 +16,9 @@ func zRows(z *experiment.Test) (summary, statRoute, pRoute string) {
 	if z == nil {
 		return "not computed", "n/a", "n/a"
 	}
-	summary = fmt.Sprintf("%s, %s: z = %s, critical value %s, p = %s",
+	summary = fmt.Sprintf("%s, %s: z = %s, critical value %s, %s",
 		z.Method, alternativeShort(z.Alternative), formatStatistic(z.Statistic),
-		formatStatistic(math.Abs(z.CriticalValue)), formatPValue(z.PValue))
+		formatStatistic(math.Abs(z.CriticalValue)), pIs(z.PValue))
 	statRoute = statAgainst(z.Statistic, z.CriticalValue, z.Alternative) + ": " + rejectText(z.RejectByStatistic)
 	pRoute = pAgainst(z.PValue, z.Alpha) + ": " + rejectText(z.RejectByPValue)
 	return summary, statRoute, pRoute

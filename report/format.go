@@ -124,6 +124,14 @@ func formatPValue(p float64) string {
 	return fixed(p, 4)
 }
 
+// pIs writes "p = 0.0083", or "p < 0.0001" below the floor.
+func pIs(p float64) string {
+	if p < pFloor {
+		return "p " + formatPValue(p)
+	}
+	return "p = " + formatPValue(p)
+}
+
 // pAgainst writes the p-value route of a decision: "p = 0.0080 ≤ 0.05" or
 // "p = 0.2301 > 0.05". The relation is that of the exact values; when four
 // decimals would blur it (p = 0.050004 against 0.05), more decimals are

@@ -50,6 +50,8 @@ func TestFormatNumbers(t *testing.T) {
 		{"p-value at floor", formatPValue(0.0001), "0.0001"},
 		{"p-value below floor", formatPValue(0.0000999), "< 0.0001"},
 		{"p-value zero", formatPValue(0), "< 0.0001"},
+		{"p is", pIs(0.008318758012105033), "p = 0.0083"},
+		{"p is below floor", pIs(1e-40), "p < 0.0001"},
 		{"duration days", formatDuration(7 * 86400), "7 days"},
 		{"duration one day", formatDuration(86400), "1 day"},
 		{"duration hours", formatDuration(36 * 3600), "36 hours"},
