@@ -8,6 +8,7 @@
 //	armtally analyze [flags] FILE|FOLDER...   analyse an event log
 //	armtally analyze --demo                   analyse the embedded demo log
 //	armtally gen [flags]                      write a synthetic event log
+//	armtally plan [flags]                     size an experiment before it starts
 //	armtally help [COMMAND]                   show help
 //
 // Exit codes:
@@ -70,6 +71,7 @@ Usage:
   armtally analyze [flags] FILE|FOLDER...   analyse an event log (Parquet or CSV)
   armtally analyze --demo                   analyse the embedded demo event log
   armtally gen [flags]                      write a synthetic event log
+  armtally plan [flags]                     size an experiment before it starts
   armtally help [COMMAND]                   show help for a command
 
 Exit codes:
@@ -79,7 +81,7 @@ Exit codes:
   3  data error (unreadable input, malformed row, data that contradicts the settings)
   4  sample ratio mismatch with --fail-on-sample-ratio (the readout is still written)
 
-Run 'armtally help analyze' or 'armtally help gen' for the flags.
+Run 'armtally help analyze', 'armtally help gen' or 'armtally help plan' for the flags.
 `
 
 // run runs the command line args and returns the exit code.
@@ -94,6 +96,8 @@ func run(args []string, stdout, stderr io.Writer) int {
 		err = runAnalyze(args[1:], stdout, stderr)
 	case "gen":
 		err = runGen(args[1:], stdout, stderr)
+	case "plan":
+		err = runPlan(args[1:], stdout, stderr)
 	case "help", "-h", "--help":
 		if len(args) > 1 && cmd == "help" {
 			return run([]string{args[1], "--help"}, stdout, stderr)
