@@ -291,6 +291,11 @@ func simEvalOne(x, n int64, p float64) (mask uint32, breach string, err error) {
 // against x2 of n2 (control, true rate p2). With tests false it skips the
 // tests (the cells with a nonzero difference measure intervals only). It
 // checks that the pooled z test's two decision routes agree.
+//
+// "armtally's choice" here and in simEvalOne is the rule the readout
+// applies (compare and targetTest in experiment/analyze.go) with the
+// default minimum count of 5: the z test decided by its p-value when the
+// condition holds, the exact test otherwise. Change both together.
 func simEvalTwo(x1, n1, x2, n2 int64, p1, p2 float64, tests bool) (mask uint32, breach string, err error) {
 	set := func(bit int, on bool) {
 		if on {
