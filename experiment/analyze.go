@@ -17,8 +17,23 @@ const DefaultSampleRatioThreshold = 0.001
 // DefaultAnalysisOptions and change what differs.
 type AnalysisOptions struct {
 	// Stats holds alpha, the confidence level, the alternative and the
-	// minimum count of the normal-approximation rule.
+	// minimum count of the normal-approximation rule. A Level of 0 means
+	// 1 - alpha for a two-sided alternative and 1 - 2 alpha for a
+	// one-sided one, so that every interval matches its test.
 	Stats stats.Options
+	// Interval is the interval of each arm's rate: IntervalWilson (the
+	// default when empty), IntervalClopperPearson, IntervalAgrestiCoull or
+	// IntervalWald.
+	Interval string
+	// Difference is the interval of each difference: DifferenceNewcombe
+	// (the default when empty) or DifferenceWald.
+	Difference string
+	// Adjust is the multiple-comparison adjustment over the family of
+	// comparisons (each treatment against the control on each metric that
+	// is not a guardrail).
+	Adjust stats.AdjustMethod
+	// NonInferiority is the variance of guardrail tests.
+	NonInferiority stats.NonInferiorityMethod
 	// SampleRatioThreshold is the p-value below which the sample ratio
 	// check flags a mismatch.
 	SampleRatioThreshold float64
@@ -31,11 +46,32 @@ type AnalysisOptions struct {
 	RowsRead int64
 }
 
-// DefaultAnalysisOptions returns alpha 0.05 with 95% intervals, a
-// two-sided alternative, a minimum count of 5 and a sample ratio threshold
-// of 0.001.
+// Interval methods, as AnalysisOptions.Interval and Difference and the
+// command line spell them.
+const (
+	IntervalWilson         = "wilson"
+	IntervalClopperPearson = "clopper-pearson"
+	IntervalAgrestiCoull   = "agresti-coull"
+	IntervalWald           = "wald"
+	DifferenceNewcombe     = "newcombe"
+	DifferenceWald         = "wald"
+)
+
+// DefaultAnalysisOptions returns alpha 0.05 with intervals at the matching
+// level, a two-sided alternative, a minimum count of 5, Wilson and
+// Newcombe intervals, Holm's adjustment, the Farrington-Manning score test
+// for guardrails and a sample ratio threshold of 0.001.
 func DefaultAnalysisOptions() AnalysisOptions {
-	return AnalysisOptions{Stats: stats.DefaultOptions(), SampleRatioThreshold: DefaultSampleRatioThreshold}
+	so := stats.DefaultOptions()
+	so.Level = 0
+	return AnalysisOptions{
+		Stats:                so,
+		Interval:             IntervalWilson,
+		Difference:           DifferenceNewcombe,
+		Adjust:               stats.Holm,
+		NonInferiority:       stats.FarringtonManning,
+		SampleRatioThreshold: DefaultSampleRatioThreshold,
+	}
 }
 
 // Ignored-event and bad-row reasons, as the diagnostics spell them.
@@ -76,11 +112,14 @@ const (
 // is an error: the planned split and the comparisons would be wrong.
 func Analyze(spec Spec, t Tally, opts AnalysisOptions) (Readout, error) {
 	so := opts.Stats
-	if !(so.Alpha > 0 && so.Alpha < 1) {
-		return Readout{}, fmt.Errorf("alpha %v is not strictly between 0 and 1", so.Alpha)
+	if !(so.Alpha > 0 && so.Alpha < 0.5) {
+		return Readout{}, fmt.Errorf("alpha %v is not strictly between 0 and 0.5", so.Alpha)
 	}
 	if so.Level == 0 {
 		so.Level = 1 - so.Alpha
+		if so.Alternative != stats.TwoSided {
+			so.Level = 1 - 2*so.Alpha
+		}
 	}
 	if !(so.Level > 0 && so.Level < 1) {
 		return Readout{}, fmt.Errorf("confidence level %v is not strictly between 0 and 1", so.Level)
@@ -93,6 +132,25 @@ func Analyze(spec Spec, t Tally, opts AnalysisOptions) (Readout, error) {
 	}
 	if !(opts.SampleRatioThreshold > 0 && opts.SampleRatioThreshold < 1) {
 		return Readout{}, fmt.Errorf("sample ratio threshold %v is not strictly between 0 and 1", opts.SampleRatioThreshold)
+	}
+	if opts.Interval == "" {
+		opts.Interval = IntervalWilson
+	}
+	if opts.Difference == "" {
+		opts.Difference = DifferenceNewcombe
+	}
+	m := methods{single: opts.Interval, diff: opts.Difference, ni: opts.NonInferiority}
+	if _, err := m.rate(1, 2, 0.95); err != nil {
+		return Readout{}, err
+	}
+	if _, err := m.difference(1, 2, 1, 2, 0.95); err != nil {
+		return Readout{}, err
+	}
+	if _, err := stats.AdjustPValues(nil, opts.Adjust); err != nil {
+		return Readout{}, err
+	}
+	if _, err := stats.NonInferiorityZTest(1, 2, 1, 2, 0.1, 0.05, opts.NonInferiority); err != nil {
+		return Readout{}, err
 	}
 	if spec.Control == "" {
 		return Readout{}, errors.New("no control arm named")
@@ -119,7 +177,16 @@ func Analyze(spec Spec, t Tally, opts AnalysisOptions) (Readout, error) {
 			MaturityPolicy:       spec.Maturity.String(),
 			MinCount:             so.MinCount,
 			SampleRatioThreshold: opts.SampleRatioThreshold,
+			Adjustment:           opts.Adjust.String(),
+			NonInferiorityMethod: opts.NonInferiority.String(),
+			LiftIntervalMethod:   methodLift,
 		},
+	}
+	if iv, err := m.rate(1, 2, 0.95); err == nil {
+		r.Settings.IntervalMethod = iv.Method
+	}
+	if iv, err := m.difference(1, 2, 1, 2, 0.95); err == nil {
+		r.Settings.DifferenceIntervalMethod = iv.Method
 	}
 	if t.HasFreshness {
 		f := time.Unix(0, t.Freshness).UTC()
@@ -160,13 +227,18 @@ func Analyze(spec Spec, t Tally, opts AnalysisOptions) (Readout, error) {
 			ctl = i
 		}
 	}
-	for mi, m := range spec.Metrics {
-		mr, err := analyzeMetric(spec, m, mi, arms, ctl, so)
+	for mi, mt := range spec.Metrics {
+		mr, err := analyzeMetric(spec, mt, mi, arms, ctl, so, m)
 		if err != nil {
-			return Readout{}, fmt.Errorf("metric %q: %w", m.Name, err)
+			return Readout{}, fmt.Errorf("metric %q: %w", mt.Name, err)
 		}
 		r.Metrics = append(r.Metrics, mr)
 	}
+	mult, err := adjust(r.Metrics, opts.Adjust, so, m)
+	if err != nil {
+		return Readout{}, err
+	}
+	r.Multiplicity = mult
 
 	r.Diagnostics = diagnostics(spec, t, arms, opts)
 	if spec.End == nil {
@@ -240,8 +312,11 @@ func plannedShares(spec Spec, arms []ArmTally) []float64 {
 	return shares
 }
 
-func analyzeMetric(spec Spec, m Metric, mi int, arms []ArmTally, ctl int, so stats.Options) (MetricReadout, error) {
-	mr := MetricReadout{Name: m.Name, Events: append([]string(nil), m.Events...), Target: m.Target}
+func analyzeMetric(spec Spec, m Metric, mi int, arms []ArmTally, ctl int, so stats.Options, meth methods) (MetricReadout, error) {
+	mr := MetricReadout{Name: m.Name, Events: append([]string(nil), m.Events...), Target: m.Target, LowerIsBetter: m.LowerIsBetter}
+	if m.Guardrail != nil {
+		mr.Guardrail = &Guardrail{Margin: m.Guardrail.Value, Relative: m.Guardrail.Relative}
+	}
 	if m.Window > 0 {
 		s := int64(m.Window / time.Second)
 		mr.WindowSeconds = &s
@@ -252,7 +327,7 @@ func analyzeMetric(spec Spec, m Metric, mi int, arms []ArmTally, ctl int, so sta
 		if c.Units > 0 {
 			rate := float64(c.Conversions) / float64(c.Units)
 			ar.Rate = &rate
-			iv, err := stats.Wilson(c.Conversions, c.Units, so.Level)
+			iv, err := meth.rate(c.Conversions, c.Units, so.Level)
 			if err != nil {
 				return mr, fmt.Errorf("arm %q: %w", a.Name, err)
 			}
@@ -271,9 +346,16 @@ func analyzeMetric(spec Spec, m Metric, mi int, arms []ArmTally, ctl int, so sta
 		if i == ctl {
 			continue
 		}
-		c, err := compare(a.Name, a.Metrics[mi], spec.Control, arms[ctl].Metrics[mi], so)
+		c, err := compare(a.Name, a.Metrics[mi], spec.Control, arms[ctl].Metrics[mi], so, meth)
 		if err != nil {
 			return mr, fmt.Errorf("%s vs %s: %w", a.Name, spec.Control, err)
+		}
+		if m.Guardrail != nil && c.Z != nil {
+			ni, err := nonInferiority(a.Metrics[mi], arms[ctl].Metrics[mi], *m.Guardrail, m.LowerIsBetter, so, meth)
+			if err != nil {
+				return mr, fmt.Errorf("%s vs %s: non-inferiority: %w", a.Name, spec.Control, err)
+			}
+			c.NonInferiority = ni
 		}
 		mr.Comparisons = append(mr.Comparisons, c)
 	}
@@ -307,7 +389,7 @@ func targetTest(c Count, p0 float64, so stats.Options) (*TargetTest, error) {
 }
 
 // compare compares a treatment arm with the control on one metric.
-func compare(treatment string, tc Count, control string, cc Count, so stats.Options) (Comparison, error) {
+func compare(treatment string, tc Count, control string, cc Count, so stats.Options, meth methods) (Comparison, error) {
 	c := Comparison{Treatment: treatment, Control: control, IntervalAgrees: true}
 	if tc.Units == 0 || cc.Units == 0 {
 		return c, nil
@@ -316,7 +398,7 @@ func compare(treatment string, tc Count, control string, cc Count, so stats.Opti
 	p1, p2 := float64(x1)/float64(n1), float64(x2)/float64(n2)
 	d := p1 - p2
 	c.Difference = &d
-	iv, err := stats.NewcombeDifference(x1, n1, x2, n2, so.Level)
+	iv, err := meth.difference(x1, n1, x2, n2, so.Level)
 	if err != nil {
 		return c, err
 	}
@@ -355,16 +437,17 @@ func compare(treatment string, tc Count, control string, cc Count, so stats.Opti
 		}
 	}
 	if c.ConditionMet {
-		c.Significant, c.DecidedBy = z.RejectByPValue, DecidedByZ
+		c.SignificantUnadjusted, c.DecidedBy = z.RejectByPValue, DecidedByZ
 	} else {
 		e, err := stats.FisherExact(x1, n1, x2, n2, so.Alpha, so.Alternative)
 		if err != nil {
 			return c, err
 		}
 		c.Exact = exactTest(e)
-		c.Significant, c.DecidedBy = e.Reject, DecidedByExact
+		c.SignificantUnadjusted, c.DecidedBy = e.Reject, DecidedByExact
 	}
-	agrees, err := intervalAgrees(c.Significant, x1, n1, x2, n2, so)
+	c.Significant = c.SignificantUnadjusted
+	agrees, err := intervalAgrees(c.SignificantUnadjusted, x1, n1, x2, n2, so, meth)
 	if err != nil {
 		return c, err
 	}
@@ -376,7 +459,7 @@ func compare(treatment string, tc Count, control string, cc Count, so stats.Opti
 // difference matches the test's decision. For a one-sided alternative the
 // matching interval is the two-sided one at level 1 - 2 alpha, read on
 // the side of the alternative.
-func intervalAgrees(significant bool, x1, n1, x2, n2 int64, so stats.Options) (bool, error) {
+func intervalAgrees(significant bool, x1, n1, x2, n2 int64, so stats.Options, meth methods) (bool, error) {
 	level := 1 - so.Alpha
 	if so.Alternative != stats.TwoSided {
 		level = 1 - 2*so.Alpha
@@ -384,7 +467,7 @@ func intervalAgrees(significant bool, x1, n1, x2, n2 int64, so stats.Options) (b
 	if !(level > 0 && level < 1) {
 		return true, nil
 	}
-	iv, err := stats.NewcombeDifference(x1, n1, x2, n2, level)
+	iv, err := meth.difference(x1, n1, x2, n2, level)
 	if err != nil {
 		return false, err
 	}

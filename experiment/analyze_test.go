@@ -1,6 +1,7 @@
 package experiment
 
 import (
+	"fmt"
 	"math"
 	"strings"
 	"testing"
@@ -248,5 +249,184 @@ func TestAnalyzeControlFirst(t *testing.T) {
 	}
 	if r.Arms[0].Name != "control" || r.Metrics[0].Arms[0].Arm != "control" || r.Metrics[0].Comparisons[0].Treatment != "treat" {
 		t.Errorf("arms %+v", r.Arms)
+	}
+}
+
+// threeArmTally builds a tally of control, t1 and t2 with per-metric
+// (conversions, units).
+func threeArmTally(ctl, t1, t2 [][2]int64) Tally {
+	tl := twoArmTally(ctl, t1)
+	t2t := twoArmTally(t2, t2).Arms[0]
+	t2t.Name = "t2"
+	tl.Arms[1].Name = "t1"
+	tl.Arms = append(tl.Arms, t2t)
+	return tl
+}
+
+// TestAnalyzeAdjustment checks the multiple-comparison adjustment over
+// two metrics x two treatments. Check values: R 4.2.2, p-values of
+// prop.test(correct = FALSE) adjusted by p.adjust (script in the comment
+// of each value's source below).
+//
+//	p <- c(prop.test(c(1090, 1000), c(10000, 10000), correct = FALSE)$p.value,
+//	       prop.test(c(1040, 1000), c(10000, 10000), correct = FALSE)$p.value,
+//	       prop.test(c(455, 400), c(10000, 10000), correct = FALSE)$p.value,
+//	       prop.test(c(390, 400), c(10000, 10000), correct = FALSE)$p.value)
+//	p.adjust(p, "holm"); p.adjust(p, "bonferroni"); p.adjust(p, "BH")
+func TestAnalyzeAdjustment(t *testing.T) {
+	spec := spec2()
+	spec.Arms = []string{"control", "t1", "t2"}
+	spec.Metrics = []Metric{{Name: "a", Events: []string{"a"}}, {Name: "b", Events: []string{"b"}}}
+	tl := threeArmTally(
+		[][2]int64{{1000, 10000}, {400, 10000}},
+		[][2]int64{{1090, 10000}, {455, 10000}},
+		[][2]int64{{1040, 10000}, {390, 10000}})
+	raw := []float64{0.037493369762011466, 0.35001560005821486, 0.054542541856504277, 0.71658543757779569}
+	cases := []struct {
+		method stats.AdjustMethod
+		want   []float64
+		rate   string
+	}{
+		{stats.Holm, []float64{0.14997347904804587, 0.70003120011642972, 0.16362762556951282, 0.71658543757779569}, "family-wise error rate"},
+		{stats.Bonferroni, []float64{0.14997347904804587, 1, 0.21817016742601711, 1}, "family-wise error rate"},
+		{stats.BenjaminiHochberg, []float64{0.10908508371300855, 0.46668746674428646, 0.10908508371300855, 0.71658543757779569}, "false discovery rate"},
+		{stats.None, raw, "per comparison"},
+	}
+	for _, tc := range cases {
+		opts := DefaultAnalysisOptions()
+		opts.Adjust = tc.method
+		r, err := Analyze(spec, tl, opts)
+		if err != nil {
+			t.Fatal(err)
+		}
+		if r.Multiplicity.Size != 4 || r.Multiplicity.Method != tc.method.String() || r.Multiplicity.ErrorRate != tc.rate {
+			t.Errorf("%v: multiplicity %+v", tc.method, r.Multiplicity)
+		}
+		i := 0
+		for _, m := range r.Metrics {
+			for _, c := range m.Comparisons {
+				near(t, fmt.Sprintf("%v raw p %d", tc.method, i), c.Z.PValue, raw[i], 1e-10)
+				near(t, fmt.Sprintf("%v adjusted p %d", tc.method, i), c.Adjusted.PValue, tc.want[i], 1e-10)
+				if c.Significant != (tc.want[i] <= 0.05) || c.SignificantUnadjusted != (raw[i] <= 0.05) {
+					t.Errorf("%v comparison %d: significant %v, unadjusted %v", tc.method, i, c.Significant, c.SignificantUnadjusted)
+				}
+				if (c.Adjusted.DifferenceInterval != nil) != (tc.method == stats.Bonferroni) {
+					t.Errorf("%v comparison %d: simultaneous interval %+v", tc.method, i, c.Adjusted.DifferenceInterval)
+				}
+				i++
+			}
+		}
+		if tc.method == stats.Bonferroni {
+			// R 4.2.2: Newcombe method 10 at level 1 - 0.05/4 from
+			// prop.test(x, n, conf.level = 0.9875, correct = FALSE) limits.
+			iv := r.Metrics[0].Comparisons[0].Adjusted.DifferenceInterval
+			near(t, "Bonferroni lower", iv.Lower, -0.0018096178267804838, 1e-9)
+			near(t, "Bonferroni upper", iv.Upper, 0.019814928444144723, 1e-9)
+			near(t, "Bonferroni level", iv.Level, 0.9875, 1e-15)
+		}
+	}
+}
+
+// TestAnalyzeGuardrail checks the non-inferiority test of a guardrail
+// against NI-01 of REFERENCE-VALUES.md: treatment 1180/10000 vs control
+// 1200/10000, margin 0.01; Farrington-Manning z = 1.7463701392443087,
+// p = 0.04037332761886865 (R 4.2.2 formula, = mpmath 40 digits).
+func TestAnalyzeGuardrail(t *testing.T) {
+	const z, p = 1.7463701392443087, 0.04037332761886865
+	cases := []struct {
+		name          string
+		margin        Margin
+		lowerIsBetter bool
+		ctl, trt      int64
+	}{
+		{"absolute margin", Margin{Value: 0.01}, false, 1200, 1180},
+		// 0.01 / 0.12 of the control's rate 0.12 is the same margin.
+		{"relative margin", Margin{Value: 0.01 / 0.12, Relative: true}, false, 1200, 1180},
+		// Lower is better: the treatment's 1200 against the control's
+		// 1180 is NI-01 with the arms swapped.
+		{"lower is better", Margin{Value: 0.01}, true, 1180, 1200},
+	}
+	for _, tc := range cases {
+		spec := spec2()
+		spec.Metrics = []Metric{
+			{Name: "main", Events: []string{"main"}},
+			{Name: "guard", Events: []string{"guard"}, Guardrail: &tc.margin, LowerIsBetter: tc.lowerIsBetter},
+		}
+		tl := twoArmTally([][2]int64{{500, 10000}, {tc.ctl, 10000}}, [][2]int64{{560, 10000}, {tc.trt, 10000}})
+		r, err := Analyze(spec, tl, DefaultAnalysisOptions())
+		if err != nil {
+			t.Fatal(err)
+		}
+		c := r.Metrics[1].Comparisons[0]
+		ni := c.NonInferiority
+		if ni == nil {
+			t.Fatalf("%s: no non-inferiority test", tc.name)
+		}
+		near(t, tc.name+" margin", ni.AbsoluteMargin, 0.01, 1e-12)
+		// Lower is better: the same test reported as "less" on the
+		// treatment-minus-control scale, so the statistic changes sign.
+		wantZ, wantAlt := z, "greater"
+		if tc.lowerIsBetter {
+			wantZ, wantAlt = -z, "less"
+		}
+		near(t, tc.name+" z", ni.Z.Statistic, wantZ, 1e-9)
+		near(t, tc.name+" p", ni.Z.PValue, p, 1e-9)
+		if !ni.NonInferior || ni.Z.Alternative != wantAlt || ni.Z.Method != "non-inferiority z test (Farrington-Manning score)" ||
+			ni.Z.RejectByStatistic != ni.Z.RejectByPValue {
+			t.Errorf("%s: %+v", tc.name, ni.Z)
+		}
+		if c.Adjusted != nil || r.Multiplicity.Size != 1 {
+			t.Errorf("%s: guardrail comparison in the family (size %d)", tc.name, r.Multiplicity.Size)
+		}
+		if r.Metrics[1].Guardrail == nil || r.Metrics[1].LowerIsBetter != tc.lowerIsBetter {
+			t.Errorf("%s: metric readout %+v", tc.name, r.Metrics[1])
+		}
+	}
+}
+
+// TestAnalyzeIntervalChoice checks the interval options against CI-01
+// (81/263): Clopper-Pearson [0.252737, 0.367622] from R 4.2.2
+// binom.test(81, 263)$conf.int, and the level of one-sided readouts.
+func TestAnalyzeIntervalChoice(t *testing.T) {
+	spec := spec2()
+	opts := DefaultAnalysisOptions()
+	opts.Interval = IntervalClopperPearson
+	opts.Difference = DifferenceWald
+	// P2-01: Wald interval of 56/70 vs 48/80 from R 4.2.2 prop.test
+	// (correct = FALSE): [0.05750489914903717, 0.34249510085096296].
+	tl := twoArmTally([][2]int64{{48, 80}}, [][2]int64{{81, 263}})
+	r, err := Analyze(spec, tl, opts)
+	if err != nil {
+		t.Fatal(err)
+	}
+	iv := r.Metrics[0].Arms[1].Interval
+	near(t, "CI-01 Clopper-Pearson lower", iv.Lower, 0.252737, 5e-6)
+	near(t, "CI-01 Clopper-Pearson upper", iv.Upper, 0.367622, 5e-6)
+	if r.Settings.IntervalMethod != "Clopper-Pearson exact" || r.Settings.DifferenceIntervalMethod != "Wald (unpooled)" {
+		t.Errorf("settings %+v", r.Settings)
+	}
+	tl = twoArmTally([][2]int64{{48, 80}}, [][2]int64{{56, 70}})
+	r, err = Analyze(spec, tl, opts)
+	if err != nil {
+		t.Fatal(err)
+	}
+	d := r.Metrics[0].Comparisons[0].DifferenceInterval
+	near(t, "P2-01 Wald lower", d.Lower, 0.05750489914903717, 1e-12)
+	near(t, "P2-01 Wald upper", d.Upper, 0.34249510085096296, 1e-12)
+
+	opts = DefaultAnalysisOptions()
+	opts.Stats.Alternative = stats.Less
+	r, err = Analyze(spec, tl, opts)
+	if err != nil {
+		t.Fatal(err)
+	}
+	// Common practice: a one-sided test at alpha matches the two-sided
+	// interval at 1 - 2 alpha.
+	if r.Settings.ConfidenceLevel != 0.9 || r.Metrics[0].Comparisons[0].DifferenceInterval.Level != 0.9 {
+		t.Errorf("one-sided level %v", r.Settings.ConfidenceLevel)
+	}
+	opts.Interval = "normal"
+	if _, err := Analyze(spec, tl, opts); err == nil {
+		t.Error("unknown interval method accepted")
 	}
 }

@@ -8,17 +8,19 @@ import "time"
 // rate) are nil pointers, never NaN or Inf. Slices are in readout order: arms
 // in spec order then first seen, metrics in spec order.
 type Readout struct {
-	Experiment    string          `json:"experiment"`
-	ExposureEvent string          `json:"exposure_event"`
-	Control       string          `json:"control"`
-	WindowStart   *time.Time      `json:"window_start"`
-	WindowEnd     *time.Time      `json:"window_end"`
-	Freshness     *time.Time      `json:"data_freshness"`
-	Settings      Settings        `json:"settings"`
-	Arms          []ArmUnits      `json:"arms"`
-	SampleRatio   SampleRatio     `json:"sample_ratio"`
-	Metrics       []MetricReadout `json:"metrics"`
-	Diagnostics   Diagnostics     `json:"diagnostics"`
+	Experiment    string      `json:"experiment"`
+	ExposureEvent string      `json:"exposure_event"`
+	Control       string      `json:"control"`
+	WindowStart   *time.Time  `json:"window_start"`
+	WindowEnd     *time.Time  `json:"window_end"`
+	Freshness     *time.Time  `json:"data_freshness"`
+	Settings      Settings    `json:"settings"`
+	Arms          []ArmUnits  `json:"arms"`
+	SampleRatio   SampleRatio `json:"sample_ratio"`
+	// Multiplicity says how the comparisons were adjusted for being many.
+	Multiplicity Multiplicity    `json:"multiple_comparisons"`
+	Metrics      []MetricReadout `json:"metrics"`
+	Diagnostics  Diagnostics     `json:"diagnostics"`
 	// Warnings are readout-wide cautions (sample ratio, exclusions,
 	// conditions), deduplicated, in first-seen order.
 	Warnings []string `json:"warnings"`
@@ -26,13 +28,39 @@ type Readout struct {
 
 // Settings echoes the analysis settings that shaped the numbers.
 type Settings struct {
-	Alpha                float64 `json:"alpha"`
+	Alpha float64 `json:"alpha"`
+	// ConfidenceLevel is the level of every two-sided interval: 1 - alpha
+	// for a two-sided alternative, 1 - 2 alpha for a one-sided one (so that
+	// the bound on the tested side is the one-sided 1 - alpha bound).
 	ConfidenceLevel      float64 `json:"confidence_level"`
 	Alternative          string  `json:"alternative"`
 	MultiArmPolicy       string  `json:"multi_arm_policy"`
 	MaturityPolicy       string  `json:"maturity_policy"`
 	MinCount             int64   `json:"min_count"`
 	SampleRatioThreshold float64 `json:"sample_ratio_threshold"`
+	// IntervalMethod, DifferenceIntervalMethod and LiftIntervalMethod name
+	// the interval methods of the rates, the differences and the lifts.
+	IntervalMethod           string `json:"interval_method"`
+	DifferenceIntervalMethod string `json:"difference_interval_method"`
+	LiftIntervalMethod       string `json:"lift_interval_method"`
+	// Adjustment is the multiple-comparison adjustment: none, bonferroni,
+	// holm, hochberg, bh or by.
+	Adjustment string `json:"adjustment"`
+	// NonInferiorityMethod names the variance of guardrail tests.
+	NonInferiorityMethod string `json:"non_inferiority_method"`
+}
+
+// Multiplicity describes the family of comparisons adjusted together.
+type Multiplicity struct {
+	// Method is the adjustment (as Settings.Adjustment).
+	Method string `json:"method"`
+	// ErrorRate is what the method controls at alpha: "family-wise error
+	// rate", "false discovery rate" or "per comparison" (none).
+	ErrorRate string `json:"error_rate"`
+	// Family says which comparisons form the family.
+	Family string `json:"family"`
+	// Size is the number of comparisons in the family.
+	Size int `json:"family_size"`
 }
 
 // ArmUnits is one arm of the analysis population (after multi-arm and tie
@@ -63,11 +91,27 @@ type MetricReadout struct {
 	Name   string   `json:"name"`
 	Events []string `json:"events"`
 	// WindowSeconds is the attribution window in seconds; nil is unlimited.
-	WindowSeconds *int64       `json:"window_seconds"`
-	Target        *float64     `json:"target_rate"`
-	Arms          []ArmRate    `json:"arms"`
-	Comparisons   []Comparison `json:"comparisons"`
-	Warnings      []string     `json:"warnings"`
+	WindowSeconds *int64   `json:"window_seconds"`
+	Target        *float64 `json:"target_rate"`
+	// LowerIsBetter marks a metric where a lower rate is the good outcome
+	// (unsubscribes, refunds); it sets the direction of guardrail tests
+	// and of the readout's wording.
+	LowerIsBetter bool `json:"lower_is_better"`
+	// Guardrail is set for a guardrail metric: each treatment is tested
+	// for non-inferiority against the control with this margin. Guardrail
+	// comparisons are outside the multiple-comparison family.
+	Guardrail   *Guardrail   `json:"guardrail"`
+	Arms        []ArmRate    `json:"arms"`
+	Comparisons []Comparison `json:"comparisons"`
+	Warnings    []string     `json:"warnings"`
+}
+
+// Guardrail is the non-inferiority margin of a guardrail metric.
+type Guardrail struct {
+	// Margin is the margin as given: a difference of rates (0.005 is half a
+	// percentage point) or, when Relative, a share of the control's rate.
+	Margin   float64 `json:"margin"`
+	Relative bool    `json:"relative"`
 }
 
 // ArmRate is one arm's conversion rate for one metric.
@@ -144,12 +188,57 @@ type Comparison struct {
 	// non-conversions in both arms.
 	ConditionMet bool       `json:"condition_met"`
 	Exact        *ExactTest `json:"exact_test"`
-	Significant  bool       `json:"significant"`
-	DecidedBy    string     `json:"decided_by"`
-	// IntervalAgrees is false when the difference interval's exclusion of
-	// zero disagrees with the test's decision.
-	IntervalAgrees bool     `json:"interval_agrees"`
-	Warnings       []string `json:"warnings"`
+	// SignificantUnadjusted is the decision of the test relied on (the z
+	// test, or the exact test when the condition fails) at alpha, before
+	// any multiple-comparison adjustment.
+	SignificantUnadjusted bool `json:"significant_unadjusted"`
+	// Significant is the decision the readout reports: the adjusted one
+	// when the comparison is in the family (Adjusted is set), otherwise
+	// SignificantUnadjusted.
+	Significant bool   `json:"significant"`
+	DecidedBy   string `json:"decided_by"`
+	// Adjusted is the multiple-comparison adjustment of this comparison;
+	// nil when it is outside the family (a guardrail, or no test run).
+	Adjusted *Adjusted `json:"adjusted"`
+	// IntervalAgrees is false when the (unadjusted) difference interval's
+	// exclusion of zero disagrees with the unadjusted decision.
+	IntervalAgrees bool `json:"interval_agrees"`
+	// NonInferiority is the guardrail test; nil for other metrics.
+	NonInferiority *NonInferiorityTest `json:"non_inferiority"`
+	Warnings       []string            `json:"warnings"`
+}
+
+// Adjusted is one comparison's multiple-comparison adjustment.
+type Adjusted struct {
+	Method     string  `json:"method"`
+	FamilySize int     `json:"family_size"`
+	PValue     float64 `json:"p_value"`
+	// Significant is PValue <= alpha.
+	Significant bool `json:"significant"`
+	// DifferenceInterval is the simultaneous (Bonferroni) interval of the
+	// difference at level 1 - (1 - level)/m: 1 - alpha/m for a two-sided
+	// alternative, 1 - 2 alpha/m for a one-sided one. Set for the
+	// Bonferroni method only.
+	DifferenceInterval *Interval `json:"difference_interval"`
+}
+
+// NonInferiorityTest is a guardrail's non-inferiority z test:
+// H0: the treatment is worse than the control by the margin or more.
+type NonInferiorityTest struct {
+	// AbsoluteMargin is the margin as a difference of rates; for a
+	// relative margin, the margin times the control's observed rate.
+	AbsoluteMargin float64 `json:"absolute_margin"`
+	// Z is the one-sided z test of H1: d > -margin, z = (d + margin)/se,
+	// alternative "greater"; for a lower-is-better metric H1: d < margin,
+	// z = (d - margin)/se, alternative "less" (d = p_t - p_c).
+	Z *Test `json:"z_test"`
+	// NonInferior is true when H0 is rejected at alpha: the treatment is
+	// shown not worse than the margin.
+	NonInferior bool `json:"non_inferior"`
+	// Interval is the difference interval whose bound on the harmful side
+	// is compared with the margin: two-sided at 1 - 2 alpha.
+	Interval *Interval `json:"interval"`
+	Warnings []string  `json:"warnings"`
 }
 
 // Diagnostics accounts for every row read and every unit seen.

@@ -89,6 +89,20 @@ type Metric struct {
 	// Target, when non-nil, is a fixed rate p0 that every arm is tested
 	// against with the one-proportion z test.
 	Target *float64
+	// LowerIsBetter marks a metric where a lower rate is the good outcome.
+	LowerIsBetter bool
+	// Guardrail, when non-nil, makes this a guardrail metric: each
+	// treatment is tested for non-inferiority with this margin, and its
+	// comparisons stay out of the multiple-comparison family.
+	Guardrail *Margin
+}
+
+// Margin is a non-inferiority margin.
+type Margin struct {
+	// Value is a difference of rates (0.005 is half a percentage point),
+	// or, when Relative, a share of the control's rate (0.05 is 5%).
+	Value    float64
+	Relative bool
 }
 
 // Spec describes one experiment: which rows are its exposures, which arm is

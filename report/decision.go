@@ -16,9 +16,14 @@ func zRows(z *experiment.Test) (summary, statRoute, pRoute string) {
 	if z == nil {
 		return "not computed", "n/a", "n/a"
 	}
+	// The critical value is printed on the side the test rejects on.
+	critical := math.Abs(z.CriticalValue)
+	if z.Alternative == "less" {
+		critical = -critical
+	}
 	summary = fmt.Sprintf("%s, %s: z = %s, critical value %s, %s",
 		z.Method, alternativeShort(z.Alternative), formatStatistic(z.Statistic),
-		formatStatistic(math.Abs(z.CriticalValue)), pIs(z.PValue))
+		formatStatistic(critical), pIs(z.PValue))
 	statRoute = statAgainst(z.Statistic, z.CriticalValue, z.Alternative) + ": " + rejectText(z.RejectByStatistic)
 	pRoute = pAgainst(z.PValue, z.Alpha) + ": " + rejectText(z.RejectByPValue)
 	return summary, statRoute, pRoute
@@ -107,6 +112,11 @@ func decider(decidedBy string, z *experiment.Test, e *experiment.ExactTest) stri
 
 func (md *markdown) conclusion(r experiment.Readout, m experiment.MetricReadout) {
 	var lines []string
+	if m.Guardrail != nil {
+		for _, c := range m.Comparisons {
+			lines = append(lines, guardrailConclusion(m, c))
+		}
+	}
 	for _, c := range m.Comparisons {
 		lines = append(lines, comparisonConclusion(m, c))
 	}
@@ -138,7 +148,12 @@ func comparisonConclusion(m experiment.MetricReadout, c experiment.Comparison) s
 	var b strings.Builder
 	fmt.Fprintf(&b, "%s converted at %s vs %s for %s: %s points", code(c.Treatment), formatPercent(*t.Rate), formatPercent(*ctl.Rate), code(c.Control), formatPoints(*c.Difference))
 	if iv := c.DifferenceInterval; iv != nil {
-		fmt.Fprintf(&b, " (%s CI %s to %s)", formatLevel(iv.Level), formatPoints(iv.Lower), formatPoints(iv.Upper))
+		fmt.Fprintf(&b, " (%s CI %s to %s", formatLevel(iv.Level), formatPoints(iv.Lower), formatPoints(iv.Upper))
+		if c.Adjusted != nil && c.Adjusted.DifferenceInterval != nil {
+			sim := c.Adjusted.DifferenceInterval
+			fmt.Fprintf(&b, "; %s simultaneous CI %s to %s", formatLevel(sim.Level), formatPoints(sim.Lower), formatPoints(sim.Upper))
+		}
+		b.WriteString(")")
 	}
 	if c.RelativeLift != nil {
 		fmt.Fprintf(&b, ", a relative lift of %s", formatSignedPercent(*c.RelativeLift))
@@ -149,7 +164,10 @@ func comparisonConclusion(m experiment.MetricReadout, c experiment.Comparison) s
 		b.WriteString(", relative lift undefined (" + liftUndefined(ctl, c) + ")")
 	}
 	b.WriteString("; ")
-	b.WriteString(verdict(c.Significant, c.DecidedBy, c.Z, c.Exact, "the data do not separate it from "+code(c.Control)))
+	b.WriteString(comparisonVerdict(c, "the data do not separate it from "+code(c.Control)))
+	if d := directionNote(m, c); d != "" {
+		b.WriteString(": " + d)
+	}
 	if !c.IntervalAgrees {
 		b.WriteString("; the interval and the test disagree, so treat it as borderline")
 	}
@@ -173,27 +191,63 @@ func targetConclusion(a *experiment.ArmRate) string {
 		verdict(tt.Significant, tt.DecidedBy, tt.Z, tt.Exact, "the data do not separate it from the target"))
 }
 
+// comparisonVerdict is verdict for a comparison with the control: the
+// final decision, said after which adjustment, and the unadjusted one when
+// it differs.
+func comparisonVerdict(c experiment.Comparison, otherwise string) string {
+	adj := c.Adjusted
+	if adj == nil || !adjusts(adj.Method) || decider(c.DecidedBy, c.Z, c.Exact) == "" {
+		return verdict(c.Significant, c.DecidedBy, c.Z, c.Exact, otherwise)
+	}
+	alpha := formatAlpha(decisionAlpha(c.DecidedBy, c.Z, c.Exact))
+	after := adjustmentName(adj.Method) + " adjustment over " + plural(adj.FamilySize, "comparison", "comparisons")
+	var s, first string
+	switch {
+	case c.Significant && c.SignificantUnadjusted:
+		s = "significant at alpha " + alpha + " after " + after
+	case !c.Significant && !c.SignificantUnadjusted:
+		s = "not significant at alpha " + alpha + ", before or after " + after
+	case !c.Significant:
+		s = "significant at alpha " + alpha + " before adjustment but not after " + after
+		first = "adjusted " + pAgainst(adj.PValue, decisionAlpha(c.DecidedBy, c.Z, c.Exact))
+		otherwise += " once the other comparisons of the family are counted"
+	default:
+		s = "significant at alpha " + alpha + " after " + after + ", though not before"
+	}
+	return s + qualifiers(c.DecidedBy, c.Z, c.Exact, c.Significant, otherwise, first)
+}
+
 // verdict is the plain-language decision: "significant at alpha 0.05" with
 // the sidedness when one-sided and the exact test when it decided.
 func verdict(significant bool, decidedBy string, z *experiment.Test, e *experiment.ExactTest, otherwise string) string {
 	if decider(decidedBy, z, e) == "" {
 		return "no test could be run"
 	}
-	var alpha float64
+	s := "not significant at alpha " + formatAlpha(decisionAlpha(decidedBy, z, e))
+	if significant {
+		s = "significant at alpha " + formatAlpha(decisionAlpha(decidedBy, z, e))
+	}
+	return s + qualifiers(decidedBy, z, e, significant, otherwise, "")
+}
+
+// qualifiers ends a verdict: first (when not ""), the sidedness when
+// one-sided and the exact test when it decided, in one parenthesis, then
+// what a result that is not significant means.
+func qualifiers(decidedBy string, z *experiment.Test, e *experiment.ExactTest, significant bool, otherwise, first string) string {
 	alt := ""
 	switch {
 	case decidedBy == "exact_test" && e != nil:
-		alpha, alt = e.Alpha, e.Alternative
+		alt = e.Alternative
 	case z != nil:
-		alpha, alt = z.Alpha, z.Alternative
+		alt = z.Alternative
 	case e != nil:
-		alpha, alt = e.Alpha, e.Alternative
+		alt = e.Alternative
 	}
-	s := "not significant at alpha " + formatAlpha(alpha)
-	if significant {
-		s = "significant at alpha " + formatAlpha(alpha)
-	}
+	s := ""
 	var qual []string
+	if first != "" {
+		qual = append(qual, first)
+	}
 	if alt == "greater" || alt == "less" {
 		qual = append(qual, "one-sided, "+alt)
 	}

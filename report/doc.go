@@ -3,14 +3,20 @@
 // dashboards and alerting.
 //
 // WriteMarkdown writes, per readout: a header (experiment, control arm,
-// analysis window, data freshness, settings); a block of warnings when the
-// sample ratio, exclusions, test conditions or a disagreement between
-// interval and test call for one; the arms with the sample-ratio check;
-// one section per metric with its per-arm rates and intervals, the
-// comparisons with the control (and with a target rate), both decision
-// routes written out, numbered notes under the table where they arise and
-// a plain-language conclusion; the usual cautions; and the diagnostics,
-// every count shown. All numbers pass through one set of formatters
+// analysis window, data freshness, settings, the interval methods and the
+// multiple-comparison adjustment, and, for a one-sided alternative, why
+// the intervals are at 1 - 2 alpha); a block of warnings when the sample
+// ratio, exclusions, test conditions, a failed guardrail or a disagreement
+// between interval and test call for one; the arms with the sample-ratio
+// check; the multiple-comparison family (method, error rate it controls,
+// size, members); one section per metric with its per-arm rates and
+// intervals, the guardrail's non-inferiority test against its margin, the
+// comparisons with the control (with the adjusted p-value and decision,
+// and Bonferroni's simultaneous interval) and with a target rate, both
+// decision routes written out, numbered notes under the table where they
+// arise and a plain-language conclusion worded for the metric's direction;
+// the usual cautions, including which adjustment was applied over how many
+// comparisons; and the diagnostics, every count shown. All numbers pass through one set of formatters
 // (format.go): percentages, percentage points, p-values with a floor.
 //
 // WriteJSON writes a Document: the schema's $id and version, then the

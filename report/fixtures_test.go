@@ -8,11 +8,14 @@ import (
 
 // Hand-made readouts for the golden and schema tests. The counts are
 // invented; every derived number (rates, intervals, statistics, p-values,
-// shares) comes from testdata/fixtures.R (R 4.x, base stats: Wilson score
-// by formula, Newcombe 1998 method 10, Katz log ratio, pooled z,
-// fisher.test, binom.test, chisq.test), printed with 17 significant digits.
-// The method names are the ones these readouts are expected to carry; the
-// experiment package sets them in the real pipeline.
+// shares, adjusted p-values, non-inferiority tests) comes from
+// testdata/fixtures.R (R 4.x, base stats: Wilson score by formula,
+// Newcombe 1998 method 10, Katz log ratio, pooled z, fisher.test,
+// binom.test, chisq.test, p.adjust, the Farrington-Manning score z from its
+// closed-form restricted MLE), printed with 17 significant digits. The
+// comment beside each block or value names the call of fixtures.R that
+// printed it. The method names are the ones these readouts are expected to
+// carry; the experiment package sets them in the real pipeline.
 
 const (
 	wilson    = "Wilson score"
@@ -23,7 +26,12 @@ const (
 	fisher    = "Fisher's exact test"
 	binomial  = "exact binomial test"
 	pearson   = "Pearson chi-square goodness of fit"
+	niZ       = "non-inferiority z test (Farrington-Manning score)"
 	critical2 = 1.9599639845400536 // R: qnorm(0.975)
+	critical1 = 1.6448536269514715 // R: qnorm(1 - 0.05)
+
+	// familyText is the family every fixture adjusts.
+	familyText = "every treatment against the control on every metric that is not a guardrail"
 )
 
 func ptr[T any](v T) *T { return &v }
@@ -37,7 +45,33 @@ func at(s string) *time.Time {
 }
 
 func ci(lo, hi float64, method string) *experiment.Interval {
-	return &experiment.Interval{Lower: lo, Upper: hi, Level: 0.95, Method: method}
+	return ciAt(lo, hi, 0.95, method)
+}
+
+func ciAt(lo, hi, level float64, method string) *experiment.Interval {
+	return &experiment.Interval{Lower: lo, Upper: hi, Level: level, Method: method}
+}
+
+// adjusted is a comparison's adjustment at alpha 0.05, decided from its
+// adjusted p-value as the analysis would.
+func adjusted(method string, m int, p float64) *experiment.Adjusted {
+	return &experiment.Adjusted{Method: method, FamilySize: m, PValue: p, Significant: p <= 0.05}
+}
+
+// nonInferiority is a guardrail test at alpha 0.05: the one-sided z test
+// (alternative greater when higher is better, less when lower is better)
+// decides, and the interval is Newcombe's at 1 - 2 alpha = 90%.
+func nonInferiority(margin, z, p float64, alternative string, lo, hi float64) *experiment.NonInferiorityTest {
+	t := zTest(niZ, z, critical1, p, alternative)
+	return &experiment.NonInferiorityTest{
+		AbsoluteMargin: margin, Z: t, NonInferior: t.RejectByPValue,
+		Interval: ciAt(lo, hi, 0.9, newcombe),
+	}
+}
+
+// holmFamily is the Multiplicity of a Holm-adjusted family of m.
+func holmFamily(m int) experiment.Multiplicity {
+	return experiment.Multiplicity{Method: "holm", ErrorRate: "family-wise error rate", Family: familyText, Size: m}
 }
 
 // zTest builds a z test at alpha 0.05 whose two routes are decided from
@@ -65,6 +99,8 @@ func defaultSettings() experiment.Settings {
 		Alpha: 0.05, ConfidenceLevel: 0.95, Alternative: "two-sided",
 		MultiArmPolicy: "exclude", MaturityPolicy: "exclude",
 		MinCount: 5, SampleRatioThreshold: 0.001,
+		IntervalMethod: wilson, DifferenceIntervalMethod: newcombe, LiftIntervalMethod: katz,
+		Adjustment: "holm", NonInferiorityMethod: "Farrington-Manning score",
 	}
 }
 
@@ -89,6 +125,7 @@ func twoArmReadout() experiment.Readout {
 			Method: pearson, Statistic: 0.76497512437810944, DF: 1, PValue: 0.38177604076944532,
 			Threshold: 0.001, Checked: true,
 		},
+		Multiplicity: holmFamily(2),
 		Metrics: []experiment.MetricReadout{
 			{
 				Name:          "purchase",
@@ -100,17 +137,21 @@ func twoArmReadout() experiment.Readout {
 					{Arm: "green-button", Units: 9800, Conversions: 1196, Immature: 188, Rate: ptr(0.12204081632653062),
 						Interval: ci(0.11570774785712762, 0.12867007780274287, wilson)},
 				},
+				// fixtures.R: compare("purchase", 1196, 9800, 1089, 9900)
 				Comparisons: []experiment.Comparison{{
 					Treatment: "green-button", Control: "control",
-					Difference:         ptr(0.012040816326530618),
-					DifferenceInterval: ci(0.0030970225473657669, 0.020990732466053229, newcombe),
-					RelativeLift:       ptr(0.10946196660482377),
-					LiftInterval:       ci(0.027036939286475548, 0.19850202875643763, katz),
-					Z:                  zTest(pooledZ, 2.6388508135648991, critical2, 0.008318758012105033, "two-sided"),
-					ConditionMet:       true,
-					Significant:        true,
-					DecidedBy:          "z_test",
-					IntervalAgrees:     true,
+					Difference:            ptr(0.012040816326530618),
+					DifferenceInterval:    ci(0.0030970225473657669, 0.020990732466053229, newcombe),
+					RelativeLift:          ptr(0.10946196660482377),
+					LiftInterval:          ci(0.027036939286475548, 0.19850202875643763, katz),
+					Z:                     zTest(pooledZ, 2.6388508135648991, critical2, 0.008318758012105033, "two-sided"),
+					ConditionMet:          true,
+					SignificantUnadjusted: true,
+					Significant:           true,
+					DecidedBy:             "z_test",
+					// R: p.adjust(c(0.008318758012105033, 0.43855779546022788), "holm")[1]
+					Adjusted:       adjusted("holm", 2, 0.016637516024210066),
+					IntervalAgrees: true,
 				}},
 			},
 			{
@@ -122,6 +163,7 @@ func twoArmReadout() experiment.Readout {
 					{Arm: "green-button", Units: 9988, Conversions: 2050, Rate: ptr(0.20524629555466559),
 						Interval: ci(0.19743964293610897, 0.21327958992340215, wilson)},
 				},
+				// fixtures.R: compare("signup", 2050, 9988, 2031, 10112)
 				Comparisons: []experiment.Comparison{{
 					Treatment: "green-button", Control: "control",
 					Difference:         ptr(0.0043958208711212809),
@@ -131,7 +173,9 @@ func twoArmReadout() experiment.Readout {
 					Z:                  zTest(pooledZ, 0.77463089580128708, critical2, 0.43855779546022788, "two-sided"),
 					ConditionMet:       true,
 					DecidedBy:          "z_test",
-					IntervalAgrees:     true,
+					// R: p.adjust(c(0.008318758012105033, 0.43855779546022788), "holm")[2]
+					Adjusted:       adjusted("holm", 2, 0.43855779546022788),
+					IntervalAgrees: true,
 				}},
 			},
 		},
@@ -165,7 +209,8 @@ func twoArmReadout() experiment.Readout {
 // multi-arm and tied units, an open-ended window, target-rate tests (by z
 // and by the exact binomial test), a rare metric decided by Fisher's exact
 // test with an undefined lift, and an interval that disagrees with the
-// test.
+// test. Holm's adjustment over its four comparisons turns three decisions
+// that are significant before adjustment into not significant.
 func threeArmReadout() experiment.Readout {
 	s := defaultSettings()
 	s.MultiArmPolicy = "first"
@@ -188,6 +233,7 @@ func threeArmReadout() experiment.Readout {
 			Method: pearson, Statistic: 14.662162162162165, DF: 2, PValue: 0.00065486524188170707,
 			Threshold: 0.001, Mismatch: true, Checked: true,
 		},
+		Multiplicity: holmFamily(4),
 		Metrics: []experiment.MetricReadout{
 			{
 				Name:          "activated",
@@ -208,17 +254,25 @@ func threeArmReadout() experiment.Readout {
 						TargetTest: &experiment.TargetTest{Target: 0.3, Z: zTest(oneZ, 2.2675508929017263, critical2, 0.023356593645852863, "two-sided"),
 							ConditionMet: true, Significant: true, DecidedBy: "z_test"}},
 				},
+				// The family's p-values, in order: the z tests of activated
+				// (short-tour, long-tour), Fisher's of plan_upgrade
+				// (short-tour, long-tour); fixtures.R:
+				// adjust("onboarding: ...", c(...), "holm").
 				Comparisons: []experiment.Comparison{
 					{
+						// fixtures.R: compare("short activated", 357, 1020, 315, 1050)
 						Treatment: "short-tour", Control: "control",
 						Difference:         ptr(0.049999999999999989),
 						DifferenceInterval: ci(0.0096486365309528671, 0.090165972371294867, newcombe),
 						RelativeLift:       ptr(0.16666666666666674),
 						LiftInterval:       ci(0.029968209779135391, 0.3215078855715221, katz),
 						Z:                  zTest(pooledZ, 2.4289114951974149, critical2, 0.01514422871058879, "two-sided"),
-						ConditionMet:       true, Significant: true, DecidedBy: "z_test", IntervalAgrees: true,
+						ConditionMet:       true, SignificantUnadjusted: true, DecidedBy: "z_test", IntervalAgrees: true,
+						// R: p.adjust(c(0.01514422871058879, 0.10010217307120019, 0.014207923712010358, 0.04413320025085514), "holm")[1]
+						Adjusted: adjusted("holm", 4, 0.056831694848041431),
 					},
 					{
+						// fixtures.R: compare("long activated", 298, 890, 315, 1050)
 						Treatment: "long-tour", Control: "control",
 						Difference:         ptr(0.034831460674157322),
 						DifferenceInterval: ci(-0.0066554417509790062, 0.076404540238482505, newcombe),
@@ -226,6 +280,8 @@ func threeArmReadout() experiment.Readout {
 						LiftInterval:       ci(-0.020746461128649085, 0.27208126288617018, katz),
 						Z:                  zTest(pooledZ, 1.6443584951290231, critical2, 0.10010217307120019, "two-sided"),
 						ConditionMet:       true, DecidedBy: "z_test", IntervalAgrees: true,
+						// R: p.adjust(c(...same four...), "holm")[2]
+						Adjusted: adjusted("holm", 4, 0.10010217307120019),
 					},
 				},
 			},
@@ -252,23 +308,30 @@ func threeArmReadout() experiment.Readout {
 				},
 				Comparisons: []experiment.Comparison{
 					{
+						// fixtures.R: compare("short upgrade", 6, 1020, 0, 1050)
 						Treatment: "short-tour", Control: "control",
-						Difference:         ptr(0.0058823529411764705),
-						DifferenceInterval: ci(0.0010425722971573294, 0.012773929182147849, newcombe),
-						Z:                  zTest(pooledZ, 2.4888602702033, critical2, 0.012815332174534667, "two-sided"),
-						Exact:              exact(fisher, 0.014207923712010358),
-						Significant:        true, DecidedBy: "exact_test", IntervalAgrees: true,
+						Difference:            ptr(0.0058823529411764705),
+						DifferenceInterval:    ci(0.0010425722971573294, 0.012773929182147849, newcombe),
+						Z:                     zTest(pooledZ, 2.4888602702033, critical2, 0.012815332174534667, "two-sided"),
+						Exact:                 exact(fisher, 0.014207923712010358),
+						SignificantUnadjusted: true, DecidedBy: "exact_test", IntervalAgrees: true,
+						// R: p.adjust(c(...same four...), "holm")[3]
+						Adjusted: adjusted("holm", 4, 0.056831694848041431),
 						Warnings: []string{zeroConversions},
 					},
 					{
-						// Fisher's p = 0.044 is significant while the Newcombe
-						// interval reaches -0.0069 points: they disagree.
+						// fixtures.R: compare("long upgrade", 4, 890, 0, 1050).
+						// Fisher's p = 0.044 is significant before adjustment
+						// while the Newcombe interval reaches -0.0069 points:
+						// they disagree.
 						Treatment: "long-tour", Control: "control",
-						Difference:         ptr(0.0044943820224719105),
-						DifferenceInterval: ci(-6.8938900617693429e-05, 0.011498705263781123, newcombe),
-						Z:                  zTest(pooledZ, 2.1745922221254621, critical2, 0.029660687702079871, "two-sided"),
-						Exact:              exact(fisher, 0.04413320025085514),
-						Significant:        true, DecidedBy: "exact_test",
+						Difference:            ptr(0.0044943820224719105),
+						DifferenceInterval:    ci(-6.8938900617693429e-05, 0.011498705263781123, newcombe),
+						Z:                     zTest(pooledZ, 2.1745922221254621, critical2, 0.029660687702079871, "two-sided"),
+						Exact:                 exact(fisher, 0.04413320025085514),
+						SignificantUnadjusted: true, DecidedBy: "exact_test",
+						// R: p.adjust(c(...same four...), "holm")[4]
+						Adjusted: adjusted("holm", 4, 0.088266400501710279),
 						Warnings: []string{zeroConversions, "long-tour has 4 conversions, needs at least 5"},
 					},
 				},
@@ -302,10 +365,14 @@ func threeArmReadout() experiment.Readout {
 }
 
 // emptyReadout is an experiment with no data yet: every rate, interval
-// and test is undefined, every slice nil, the sample ratio unchecked.
+// and test is undefined, every slice nil, the sample ratio unchecked. Its
+// alternative is one-sided, so its intervals would be at 1 - 2 alpha; it
+// asks for no adjustment, and its guardrail could not be tested.
 func emptyReadout() experiment.Readout {
 	s := defaultSettings()
 	s.Alternative = "greater"
+	s.ConfidenceLevel = 0.9
+	s.Adjustment = "none"
 	return experiment.Readout{
 		Experiment:    "pricing-page-copy",
 		ExposureEvent: "pricing_viewed",
@@ -316,17 +383,343 @@ func emptyReadout() experiment.Readout {
 			{Name: "annual-first", PlannedShare: 0.5},
 		},
 		SampleRatio: experiment.SampleRatio{Method: pearson, PValue: 1, Threshold: 0.001},
-		Metrics: []experiment.MetricReadout{{
-			Name:          "trial_started",
-			Events:        []string{"trial_started"},
-			WindowSeconds: ptr(int64(14 * 86400)),
-			Arms: []experiment.ArmRate{
-				{Arm: "control"},
-				{Arm: "annual-first"},
+		Multiplicity: experiment.Multiplicity{
+			Method: "none", ErrorRate: "per comparison", Family: familyText,
+		},
+		Metrics: []experiment.MetricReadout{
+			{
+				Name:          "trial_started",
+				Events:        []string{"trial_started"},
+				WindowSeconds: ptr(int64(14 * 86400)),
+				Arms: []experiment.ArmRate{
+					{Arm: "control"},
+					{Arm: "annual-first"},
+				},
+				Comparisons: []experiment.Comparison{{
+					Treatment: "annual-first", Control: "control", IntervalAgrees: true,
+				}},
 			},
-			Comparisons: []experiment.Comparison{{
-				Treatment: "annual-first", Control: "control", IntervalAgrees: true,
-			}},
-		}},
+			{
+				Name:          "refund_requested",
+				Events:        []string{"refund_requested"},
+				WindowSeconds: ptr(int64(30 * 86400)),
+				LowerIsBetter: true,
+				Guardrail:     &experiment.Guardrail{Margin: 0.01},
+				Arms: []experiment.ArmRate{
+					{Arm: "control"},
+					{Arm: "annual-first"},
+				},
+				Comparisons: []experiment.Comparison{{
+					Treatment: "annual-first", Control: "control", IntervalAgrees: true,
+					NonInferiority: &experiment.NonInferiorityTest{AbsoluteMargin: 0.01},
+				}},
+			},
+		},
+	}
+}
+
+// guardrailReadout is a three-arm experiment with a primary metric under
+// Bonferroni's adjustment (with simultaneous intervals; one decision
+// changes) and two guardrails: repeat_visit, higher is better, with a
+// relative margin of 3% that both treatments pass; unsubscribe, lower is
+// better, with an absolute margin of half a point that email-reminder
+// fails and push-reminder passes.
+func guardrailReadout() experiment.Readout {
+	s := defaultSettings()
+	s.Adjustment = "bonferroni"
+	third := 1.0 / 3
+	return experiment.Readout{
+		Experiment:    "reorder-reminder",
+		ExposureEvent: "reminder_eligible",
+		Control:       "control",
+		WindowStart:   at("2026-04-06T00:00:00Z"),
+		WindowEnd:     at("2026-05-18T00:00:00Z"),
+		Freshness:     at("2026-05-18T02:10:00Z"),
+		Settings:      s,
+		// fixtures.R: srm("reorder", c(24010, 23870, 24120), c(1, 1, 1) / 3)
+		Arms: []experiment.ArmUnits{
+			{Name: "control", Units: 24010, PlannedShare: third, ObservedShare: 0.33347222222222223},
+			{Name: "email-reminder", Units: 23870, PlannedShare: third, ObservedShare: 0.33152777777777775},
+			{Name: "push-reminder", Units: 24120, PlannedShare: third, ObservedShare: 0.33500000000000002},
+		},
+		SampleRatio: experiment.SampleRatio{
+			Method: pearson, Statistic: 1.3083333333333333, DF: 2, PValue: 0.51987511138447562,
+			Threshold: 0.001, Checked: true,
+		},
+		Multiplicity: experiment.Multiplicity{
+			Method: "bonferroni", ErrorRate: "family-wise error rate", Family: familyText, Size: 2,
+		},
+		Metrics: []experiment.MetricReadout{
+			{
+				Name:          "reorder",
+				Events:        []string{"reorder_placed"},
+				WindowSeconds: ptr(int64(14 * 86400)),
+				Arms: []experiment.ArmRate{
+					// fixtures.R: arm("control reorder", 2281, 24010)
+					{Arm: "control", Units: 24010, Conversions: 2281, Rate: ptr(0.09500208246563932),
+						Interval: ci(0.091357723769916743, 0.098776015001127843, wilson)},
+					// fixtures.R: arm("email reorder", 2530, 23870)
+					{Arm: "email-reminder", Units: 23870, Conversions: 2530, Rate: ptr(0.10599078341013825),
+						Interval: ci(0.10214892865303862, 0.10995943553942572, wilson)},
+					// fixtures.R: arm("push reorder", 2430, 24120)
+					{Arm: "push-reminder", Units: 24120, Conversions: 2430, Rate: ptr(0.10074626865671642),
+						Interval: ci(0.097011090334838457, 0.1046086005888999, wilson)},
+				},
+				Comparisons: []experiment.Comparison{
+					{
+						// fixtures.R: compare("email reorder", 2530, 23870, 2281, 24010)
+						Treatment: "email-reminder", Control: "control",
+						Difference:         ptr(0.010988700944498928),
+						DifferenceInterval: ci(0.0056033119374663022, 0.016376794301743838, newcombe),
+						RelativeLift:       ptr(0.11566800073538763),
+						LiftInterval:       ci(0.057357926776394175, 0.17719369793699413, katz),
+						Z:                  zTest(pooledZ, 3.9989469438171961, critical2, 6.3624939573715352e-05, "two-sided"),
+						ConditionMet:       true, SignificantUnadjusted: true, Significant: true, DecidedBy: "z_test",
+						Adjusted: &experiment.Adjusted{
+							Method: "bonferroni", FamilySize: 2,
+							// R: p.adjust(c(6.3624939573715352e-05, 0.033969481943174729), "bonferroni")[1]
+							PValue: 0.0001272498791474307, Significant: true,
+							// fixtures.R: simultaneous("email reorder", 2530, 23870, 2281, 24010, 2),
+							// that is newcombe(..., 1 - 0.05 / 2)
+							DifferenceInterval: ciAt(0.0048298401559486275, 0.017151097364467866, 0.975, newcombe),
+						},
+						IntervalAgrees: true,
+					},
+					{
+						// fixtures.R: compare("push reorder", 2430, 24120, 2281, 24010)
+						Treatment: "push-reminder", Control: "control",
+						Difference:         ptr(0.0057441861910770969),
+						DifferenceInterval: ci(0.00043437226979455533, 0.011054455323376601, newcombe),
+						RelativeLift:       ptr(0.060463792392705384),
+						LiftInterval:       ci(0.0044418816154987439, 0.1196102786626041, katz),
+						Z:                  zTest(pooledZ, 2.1204337626811758, critical2, 0.033969481943174729, "two-sided"),
+						ConditionMet:       true, SignificantUnadjusted: true, DecidedBy: "z_test",
+						Adjusted: &experiment.Adjusted{
+							Method: "bonferroni", FamilySize: 2,
+							// R: p.adjust(c(6.3624939573715352e-05, 0.033969481943174729), "bonferroni")[2]
+							PValue: 0.067938963886349457,
+							// fixtures.R: simultaneous("push reorder", 2430, 24120, 2281, 24010, 2)
+							DifferenceInterval: ciAt(-0.00032844401833117317, 0.01181741125638253, 0.975, newcombe),
+						},
+						IntervalAgrees: true,
+					},
+				},
+			},
+			{
+				Name:          "repeat_visit",
+				Events:        []string{"session_started"},
+				WindowSeconds: ptr(int64(7 * 86400)),
+				Guardrail:     &experiment.Guardrail{Margin: 0.03, Relative: true},
+				Arms: []experiment.ArmRate{
+					// fixtures.R: arm("control repeat_visit", 9604, 24010)
+					{Arm: "control", Units: 24010, Conversions: 9604, Rate: ptr(0.40000000000000002),
+						Interval: ci(0.39381981237111113, 0.40621218133407994, wilson)},
+					// fixtures.R: arm("email repeat_visit", 9500, 23870)
+					{Arm: "email-reminder", Units: 23870, Conversions: 9500, Rate: ptr(0.39798910766652701),
+						Interval: ci(0.39179645664674939, 0.40421458713939101, wilson)},
+					// fixtures.R: arm("push repeat_visit", 9700, 24120)
+					{Arm: "push-reminder", Units: 24120, Conversions: 9700, Rate: ptr(0.4021558872305141),
+						Interval: ci(0.39598393625316419, 0.40835899942492748, wilson)},
+				},
+				Comparisons: []experiment.Comparison{
+					{
+						// fixtures.R: compare("email repeat_visit", 9500, 23870, 9604, 24010)
+						Treatment: "email-reminder", Control: "control",
+						Difference:         ptr(-0.0020108923334730133),
+						DifferenceInterval: ci(-0.010782444281688544, 0.0067612974612887445, newcombe),
+						RelativeLift:       ptr(-0.0050272308336825056),
+						LiftInterval:       ci(-0.026664831521206245, 0.017091381717662557, katz),
+						Z:                  zTest(pooledZ, -0.44927350906776575, critical2, 0.65323436530417622, "two-sided"),
+						ConditionMet:       true, DecidedBy: "z_test", IntervalAgrees: true,
+						// fixtures.R: noninf("email repeat_visit", 9500, 23870, 9604, 24010, 0.03, relative = TRUE):
+						// margin 0.03 * 9604 / 24010, z, pnorm(z, lower.tail = FALSE), newcombe(..., 0.9)
+						NonInferiority: nonInferiority(0.012, 2.2319429506230826, 0.012809366848169112, "greater",
+							-0.0093724135678010141, 0.0053510781645547756),
+					},
+					{
+						// fixtures.R: compare("push repeat_visit", 9700, 24120, 9604, 24010)
+						Treatment: "push-reminder", Control: "control",
+						Difference:         ptr(0.0021558872305140753),
+						DifferenceInterval: ci(-0.0066010629117615651, 0.010912217513500853, newcombe),
+						RelativeLift:       ptr(0.0053897180762851882),
+						LiftInterval:       ci(-0.016324721492064431, 0.027583499655224664, katz),
+						Z:                  zTest(pooledZ, 0.48250615439730227, critical2, 0.62944642750259705, "two-sided"),
+						ConditionMet:       true, DecidedBy: "z_test", IntervalAgrees: true,
+						// fixtures.R: noninf("push repeat_visit", 9700, 24120, 9604, 24010, 0.03, relative = TRUE)
+						NonInferiority: nonInferiority(0.012, 3.1683656858916818, 0.00076649282224750025, "greater",
+							-0.005193294480465448, 0.0095046323485920847),
+					},
+				},
+			},
+			{
+				Name:          "unsubscribe",
+				Events:        []string{"unsubscribed"},
+				WindowSeconds: ptr(int64(14 * 86400)),
+				LowerIsBetter: true,
+				Guardrail:     &experiment.Guardrail{Margin: 0.005},
+				Arms: []experiment.ArmRate{
+					// fixtures.R: arm("control unsubscribe", 480, 24010)
+					{Arm: "control", Units: 24010, Conversions: 480, Rate: ptr(0.019991670137442734),
+						Interval: ci(0.018296451845839785, 0.021840460878994529, wilson)},
+					// fixtures.R: arm("email unsubscribe", 650, 23870)
+					{Arm: "email-reminder", Units: 23870, Conversions: 650, Rate: ptr(0.027230833682446585),
+						Interval: ci(0.025240969074567368, 0.029372841655040303, wilson)},
+					// fixtures.R: arm("push unsubscribe", 500, 24120)
+					{Arm: "push-reminder", Units: 24120, Conversions: 500, Rate: ptr(0.020729684908789386),
+						Interval: ci(0.019006455565042036, 0.022605551400525521, wilson)},
+				},
+				Comparisons: []experiment.Comparison{
+					{
+						// fixtures.R: compare("email unsubscribe", 650, 23870, 480, 24010)
+						Treatment: "email-reminder", Control: "control",
+						Difference:         ptr(0.0072391635450038509),
+						DifferenceInterval: ci(0.0045229919076182554, 0.0099708229693904766, newcombe),
+						RelativeLift:       ptr(0.36210899315737999),
+						LiftInterval:       ci(0.21221502415457238, 0.53053779426151748, katz),
+						Z:                  zTest(pooledZ, 5.2174430732756365, critical2, 1.8140995163780063e-07, "two-sided"),
+						ConditionMet:       true, SignificantUnadjusted: true, Significant: true, DecidedBy: "z_test", IntervalAgrees: true,
+						// fixtures.R: noninf("email unsubscribe", 650, 23870, 480, 24010, 0.005, lower_is_better = TRUE):
+						// z = (d - 0.005) / se, pnorm(z), newcombe(..., 0.9)
+						NonInferiority: nonInferiority(0.005, 1.61744318602315, 0.94710867496793449, "less",
+							0.004959647578032942, 0.0095295964395909587),
+					},
+					{
+						// fixtures.R: compare("push unsubscribe", 500, 24120, 480, 24010)
+						Treatment: "push-reminder", Control: "control",
+						Difference:         ptr(0.00073801477134665186),
+						DifferenceInterval: ci(-0.0017893448344869856, 0.0032663818631677058, newcombe),
+						RelativeLift:       ptr(0.036916113875068879),
+						LiftInterval:       ci(-0.083974846427238181, 0.17376146606914089, katz),
+						Z:                  zTest(pooledZ, 0.57319689679104635, critical2, 0.56651138528784051, "two-sided"),
+						ConditionMet:       true, DecidedBy: "z_test", IntervalAgrees: true,
+						// fixtures.R: noninf("push unsubscribe", 500, 24120, 480, 24010, 0.005, lower_is_better = TRUE)
+						NonInferiority: nonInferiority(0.005, -3.2916092531034025, 0.00049807957578686265, "less",
+							-0.0013819789486892095, 0.0028587191579032157),
+					},
+				},
+			},
+		},
+		Diagnostics: experiment.Diagnostics{
+			RowsRead:     2904117,
+			ExposureRows: 96330,
+			UnitsExposed: 72000,
+			UnitsPerArm: []experiment.ArmCount{
+				{Arm: "control", Units: 24010},
+				{Arm: "email-reminder", Units: 23870},
+				{Arm: "push-reminder", Units: 24120},
+			},
+			Immature: []experiment.MetricCount{
+				{Metric: "reorder", Units: 0},
+				{Metric: "repeat_visit", Units: 0},
+				{Metric: "unsubscribe", Units: 0},
+			},
+			IgnoredEvents: []experiment.ReasonCount{
+				{Reason: "before_exposure", Count: 5120},
+				{Reason: "unit_never_exposed", Count: 310554},
+				{Reason: "outside_attribution_window", Count: 20871},
+			},
+		},
+	}
+}
+
+// oneSidedReadout tests for an increase only (alternative greater), so its
+// intervals are two-sided at 1 - 2 alpha = 90%, and adjusts its two
+// comparisons by Benjamini-Hochberg (false discovery rate).
+func oneSidedReadout() experiment.Readout {
+	s := defaultSettings()
+	s.Alternative = "greater"
+	s.ConfidenceLevel = 0.9
+	s.Adjustment = "bh"
+	return experiment.Readout{
+		Experiment:    "free-shipping-banner",
+		ExposureEvent: "banner_slot_viewed",
+		Control:       "control",
+		WindowStart:   at("2026-06-01T00:00:00Z"),
+		WindowEnd:     at("2026-06-22T00:00:00Z"),
+		Freshness:     at("2026-06-22T05:00:00Z"),
+		Settings:      s,
+		// fixtures.R: srm("banner", c(8020, 7980), c(0.5, 0.5))
+		Arms: []experiment.ArmUnits{
+			{Name: "control", Units: 8020, PlannedShare: 0.5, ObservedShare: 0.50124999999999997},
+			{Name: "banner", Units: 7980, PlannedShare: 0.5, ObservedShare: 0.49875000000000003},
+		},
+		SampleRatio: experiment.SampleRatio{
+			Method: pearson, Statistic: 0.10000000000000001, DF: 1, PValue: 0.75182963404584935,
+			Threshold: 0.001, Checked: true,
+		},
+		Multiplicity: experiment.Multiplicity{
+			Method: "bh", ErrorRate: "false discovery rate", Family: familyText, Size: 2,
+		},
+		Metrics: []experiment.MetricReadout{
+			{
+				Name:          "purchase",
+				Events:        []string{"purchase"},
+				WindowSeconds: ptr(int64(7 * 86400)),
+				Arms: []experiment.ArmRate{
+					// fixtures.R: arm("control purchase", 642, 8020, level = 0.9)
+					{Arm: "control", Units: 8020, Conversions: 642, Rate: ptr(0.080049875311720697),
+						Interval: ciAt(0.07520604480174195, 0.085176950247097538, 0.9, wilson)},
+					// fixtures.R: arm("banner purchase", 720, 7980, level = 0.9)
+					{Arm: "banner", Units: 7980, Conversions: 720, Rate: ptr(0.090225563909774431),
+						Interval: ciAt(0.085088087584020866, 0.095640806348078311, 0.9, wilson)},
+				},
+				Comparisons: []experiment.Comparison{{
+					// fixtures.R: compare("banner purchase", 720, 7980, 642, 8020, alternative = "greater", level = 0.9)
+					Treatment: "banner", Control: "control",
+					Difference:         ptr(0.010175688598053734),
+					DifferenceInterval: ciAt(0.0029175510690007201, 0.017441192343494123, 0.9, newcombe),
+					RelativeLift:       ptr(0.12711685756447189),
+					LiftInterval:       ciAt(0.034842166910975747, 0.22761948751871652, 0.9, katz),
+					Z:                  zTest(pooledZ, 2.3061258499757851, critical1, 0.010551800642756418, "greater"),
+					ConditionMet:       true, SignificantUnadjusted: true, Significant: true, DecidedBy: "z_test",
+					// R: p.adjust(c(0.010551800642756418, 0.14580401940310744), "BH")[1]
+					Adjusted:       adjusted("bh", 2, 0.021103601285512835),
+					IntervalAgrees: true,
+				}},
+			},
+			{
+				Name:          "signup",
+				Events:        []string{"newsletter_signup"},
+				WindowSeconds: ptr(int64(3 * 86400)),
+				Arms: []experiment.ArmRate{
+					// fixtures.R: arm("control signup", 240, 8020, level = 0.9)
+					{Arm: "control", Units: 8020, Conversions: 240, Rate: ptr(0.029925187032418952),
+						Interval: ciAt(0.026950827142757171, 0.033216599025332173, 0.9, wilson)},
+					// fixtures.R: arm("banner signup", 262, 7980, level = 0.9)
+					{Arm: "banner", Units: 7980, Conversions: 262, Rate: ptr(0.032832080200501254),
+						Interval: ciAt(0.029706003721464518, 0.036274827036598407, 0.9, wilson)},
+				},
+				Comparisons: []experiment.Comparison{{
+					// fixtures.R: compare("banner signup", 262, 7980, 240, 8020, alternative = "greater", level = 0.9)
+					Treatment: "banner", Control: "control",
+					Difference:         ptr(0.0029068931680823022),
+					DifferenceInterval: ciAt(-0.001632462189221166, 0.0074565439822312082, 0.9, newcombe),
+					RelativeLift:       ptr(0.097138680033416858),
+					LiftInterval:       ciAt(-0.050617001941094752, 0.26789007775214335, 0.9, katz),
+					Z:                  zTest(pooledZ, 1.054600579159841, critical1, 0.14580401940310744, "greater"),
+					ConditionMet:       true, DecidedBy: "z_test",
+					// R: p.adjust(c(0.010551800642756418, 0.14580401940310744), "BH")[2]
+					Adjusted:       adjusted("bh", 2, 0.14580401940310744),
+					IntervalAgrees: true,
+				}},
+			},
+		},
+		Diagnostics: experiment.Diagnostics{
+			RowsRead:     402288,
+			ExposureRows: 18877,
+			UnitsExposed: 16000,
+			UnitsPerArm: []experiment.ArmCount{
+				{Arm: "control", Units: 8020},
+				{Arm: "banner", Units: 7980},
+			},
+			Immature: []experiment.MetricCount{
+				{Metric: "purchase", Units: 0},
+				{Metric: "signup", Units: 0},
+			},
+			IgnoredEvents: []experiment.ReasonCount{
+				{Reason: "before_exposure", Count: 744},
+				{Reason: "unit_never_exposed", Count: 51230},
+			},
+		},
 	}
 }

@@ -37,6 +37,8 @@ func goldenCases() []goldenCase {
 	return []goldenCase{
 		{name: "two_arm", readouts: []experiment.Readout{twoArmReadout()}},
 		{name: "three_arm", readouts: []experiment.Readout{threeArmReadout()}},
+		{name: "guardrails", readouts: []experiment.Readout{guardrailReadout()}},
+		{name: "one_sided", readouts: []experiment.Readout{oneSidedReadout()}},
 		{
 			name:     "batch",
 			readouts: []experiment.Readout{twoArmReadout(), emptyReadout()},

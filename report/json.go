@@ -16,12 +16,12 @@ import (
 
 // SchemaID is the $id of the JSON Schema that describes a Document. It
 // names the schema; nothing is served at that address.
-const SchemaID = "https://armtally.invalid/schema/readout/1.0.0"
+const SchemaID = "https://armtally.invalid/schema/readout/1.1.0"
 
 // SchemaVersion is the semantic version of the JSON document layout. A
 // consumer may rely on every key of a given major version; a minor version
 // only adds keys.
-const SchemaVersion = "1.0.0"
+const SchemaVersion = "1.1.0"
 
 // Document is the top level of the JSON output: the schema it follows and
 // the readouts, in the order given to WriteJSON. The layout of each readout
@@ -101,6 +101,11 @@ func normalize(r experiment.Readout) experiment.Readout {
 		for j := range m.Comparisons {
 			c := &m.Comparisons[j]
 			c.Warnings = cloneSlice(c.Warnings)
+			if ni := c.NonInferiority; ni != nil {
+				n := *ni
+				n.Warnings = cloneSlice(n.Warnings)
+				c.NonInferiority = &n
+			}
 		}
 	}
 	d := &r.Diagnostics

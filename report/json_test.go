@@ -3,6 +3,7 @@ package report
 import (
 	"bytes"
 	"encoding/json"
+	"fmt"
 	"math"
 	"reflect"
 	"strings"
@@ -95,18 +96,21 @@ func TestSchemaValidatesOutput(t *testing.T) {
 // TestFixturesCoverNullableBranches checks that the outputs validated
 // above hold each nullable key both as null and as a value, and
 // target_test both present and absent; otherwise the schema test would
-// leave a branch unexercised.
+// leave a branch unexercised. A key inside an object is also recorded
+// under "parent.key", for keys whose name is shared.
 func TestFixturesCoverNullableBranches(t *testing.T) {
 	nullable := []string{
 		"window_start", "window_end", "data_freshness", "window_seconds", "target_rate",
 		"rate", "interval", "difference", "difference_interval", "relative_lift",
 		"relative_lift_interval", "z_test", "exact_test",
+		"guardrail", "adjusted", "non_inferiority",
+		"adjusted.difference_interval", "non_inferiority.z_test", "non_inferiority.interval",
 	}
 	seenNull := map[string]bool{}
 	seenValue := map[string]bool{}
 	targetPresent, targetAbsent := false, false
-	var walk func(v any)
-	walk = func(v any) {
+	var walk func(parent string, v any)
+	walk = func(parent string, v any) {
 		switch v := v.(type) {
 		case map[string]any:
 			if _, isArmRate := v["conversions"]; isArmRate {
@@ -117,16 +121,18 @@ func TestFixturesCoverNullableBranches(t *testing.T) {
 				}
 			}
 			for k, x := range v {
-				if x == nil {
-					seenNull[k] = true
-				} else {
-					seenValue[k] = true
+				for _, name := range []string{k, parent + "." + k} {
+					if x == nil {
+						seenNull[name] = true
+					} else {
+						seenValue[name] = true
+					}
 				}
-				walk(x)
+				walk(k, x)
 			}
 		case []any:
 			for _, x := range v {
-				walk(x)
+				walk(parent, x)
 			}
 		}
 	}
@@ -137,7 +143,7 @@ func TestFixturesCoverNullableBranches(t *testing.T) {
 			t.Fatal(err)
 		}
 		doc := decode(t, buf.Bytes())
-		walk(doc)
+		walk("", doc)
 		for _, r := range doc.(map[string]any)["readouts"].([]any) {
 			if r.(map[string]any)["sample_ratio"].(map[string]any)["mismatch"] == true {
 				mismatch = true
@@ -157,6 +163,125 @@ func TestFixturesCoverNullableBranches(t *testing.T) {
 	}
 }
 
+// TestFixturesCoverNewBranches checks that the golden cases hold what the
+// brief for schema 1.1.0 asks of them: each adjustment method the
+// Markdown words differently, a decision changed by adjustment, a
+// simultaneous interval, a guardrail that passes and one that fails, a
+// relative margin, a lower-is-better metric and a one-sided alternative.
+func TestFixturesCoverNewBranches(t *testing.T) {
+	seen := map[string]bool{}
+	for _, tc := range goldenCases() {
+		for _, r := range tc.readouts {
+			seen["adjustment "+r.Settings.Adjustment] = true
+			if r.Settings.Alternative != "two-sided" {
+				seen["one-sided"] = true
+			}
+			for _, m := range r.Metrics {
+				if m.LowerIsBetter {
+					seen["lower is better"] = true
+				}
+				if m.Guardrail != nil && m.Guardrail.Relative {
+					seen["relative margin"] = true
+				}
+				for _, c := range m.Comparisons {
+					if c.Adjusted != nil && c.SignificantUnadjusted && !c.Significant {
+						seen["changed by "+c.Adjusted.Method] = true
+					}
+					if c.Adjusted != nil && c.Adjusted.DifferenceInterval != nil {
+						seen["simultaneous interval"] = true
+					}
+					if ni := c.NonInferiority; ni != nil && ni.Z != nil {
+						seen[fmt.Sprintf("guardrail passes %v", ni.NonInferior)] = true
+					}
+				}
+			}
+		}
+	}
+	for _, want := range []string{
+		"adjustment holm", "adjustment bonferroni", "adjustment bh", "adjustment none",
+		"one-sided", "lower is better", "relative margin", "changed by holm",
+		"simultaneous interval", "guardrail passes true", "guardrail passes false",
+	} {
+		if !seen[want] {
+			t.Errorf("no golden case has %s", want)
+		}
+	}
+}
+
+// TestFixturesConsistent checks each fixture's decisions against its own
+// numbers, as the analysis would make them: the reported decision is the
+// adjusted one when there is an adjustment, the unadjusted one follows the
+// test relied on, an adjusted p-value is never below the raw one, the
+// family size matches the comparisons in the family, and a guardrail
+// passes exactly when its z test rejects.
+func TestFixturesConsistent(t *testing.T) {
+	for _, tc := range goldenCases() {
+		for _, r := range tc.readouts {
+			inFamily := 0
+			for _, m := range r.Metrics {
+				for _, c := range m.Comparisons {
+					where := r.Experiment + "/" + m.Name + "/" + c.Treatment
+					by := decider(c.DecidedBy, c.Z, c.Exact)
+					if by != "" {
+						p := decisionP(c.DecidedBy, c.Z, c.Exact)
+						if got, want := c.SignificantUnadjusted, p <= r.Settings.Alpha; got != want {
+							t.Errorf("%s: significant_unadjusted %v, p = %v", where, got, p)
+						}
+					}
+					want := c.SignificantUnadjusted
+					if adj := c.Adjusted; adj != nil {
+						inFamily++
+						want = adj.Significant
+						if adj.Significant != (adj.PValue <= r.Settings.Alpha) {
+							t.Errorf("%s: adjusted significant %v, adjusted p = %v", where, adj.Significant, adj.PValue)
+						}
+						if adj.PValue < decisionP(c.DecidedBy, c.Z, c.Exact) {
+							t.Errorf("%s: adjusted p %v below the raw p", where, adj.PValue)
+						}
+						if adj.Method != r.Settings.Adjustment || adj.FamilySize != r.Multiplicity.Size {
+							t.Errorf("%s: adjusted by %s over %d, readout says %s over %d", where, adj.Method, adj.FamilySize, r.Settings.Adjustment, r.Multiplicity.Size)
+						}
+						if m.Guardrail != nil {
+							t.Errorf("%s: a guardrail comparison is in the family", where)
+						}
+					}
+					if c.Significant != want {
+						t.Errorf("%s: significant %v, want %v", where, c.Significant, want)
+					}
+					if (m.Guardrail != nil) != (c.NonInferiority != nil) {
+						t.Errorf("%s: guardrail %v but non_inferiority %v", where, m.Guardrail != nil, c.NonInferiority != nil)
+					}
+					if ni := c.NonInferiority; ni != nil && ni.Z != nil {
+						if ni.NonInferior != ni.Z.RejectByPValue {
+							t.Errorf("%s: non_inferior %v, z test rejects %v", where, ni.NonInferior, ni.Z.RejectByPValue)
+						}
+						wantAlt := "greater"
+						if m.LowerIsBetter {
+							wantAlt = "less"
+						}
+						if ni.Z.Alternative != wantAlt {
+							t.Errorf("%s: guardrail alternative %s, want %s", where, ni.Z.Alternative, wantAlt)
+						}
+						if ni.Interval.Level != 1-2*r.Settings.Alpha {
+							t.Errorf("%s: guardrail interval level %v", where, ni.Interval.Level)
+						}
+					}
+				}
+			}
+			if inFamily != r.Multiplicity.Size || r.Multiplicity.Method != r.Settings.Adjustment {
+				t.Errorf("%s: %d comparisons adjusted, multiple_comparisons says %s over %d", r.Experiment, inFamily, r.Multiplicity.Method, r.Multiplicity.Size)
+			}
+			level := 1 - r.Settings.Alpha
+			if r.Settings.Alternative != "two-sided" {
+				level = 1 - 2*r.Settings.Alpha
+			}
+			if math.Abs(r.Settings.ConfidenceLevel-level) > 1e-12 {
+				t.Errorf("%s: confidence level %v with alternative %s", r.Experiment, r.Settings.ConfidenceLevel, r.Settings.Alternative)
+			}
+		}
+	}
+}
+
 // TestSchemaRejectsBrokenDocuments shows that the schema check can fail:
 // each case breaks one thing in a valid document.
 func TestSchemaRejectsBrokenDocuments(t *testing.T) {
@@ -172,11 +297,41 @@ func TestSchemaRejectsBrokenDocuments(t *testing.T) {
 	readout := func(doc any) map[string]any {
 		return doc.(map[string]any)["readouts"].([]any)[0].(map[string]any)
 	}
+	comparison := func(doc any, metric, i int) map[string]any {
+		m := readout(doc)["metrics"].([]any)[metric].(map[string]any)
+		return m["comparisons"].([]any)[i].(map[string]any)
+	}
 	tests := []struct {
 		name  string
 		spoil func(doc any)
 	}{
 		{"missing key", func(doc any) { delete(readout(doc), "control") }},
+		{"missing multiple_comparisons", func(doc any) { delete(readout(doc), "multiple_comparisons") }},
+		{"unknown adjustment", func(doc any) {
+			readout(doc)["settings"].(map[string]any)["adjustment"] = "sidak"
+		}},
+		{"missing interval method", func(doc any) {
+			delete(readout(doc)["settings"].(map[string]any), "interval_method")
+		}},
+		{"unknown error rate", func(doc any) {
+			readout(doc)["multiple_comparisons"].(map[string]any)["error_rate"] = "familywise"
+		}},
+		{"fractional family size", func(doc any) {
+			readout(doc)["multiple_comparisons"].(map[string]any)["family_size"] = json.Number("2.5")
+		}},
+		{"missing significant_unadjusted", func(doc any) { delete(comparison(doc, 0, 0), "significant_unadjusted") }},
+		{"adjusted p above one", func(doc any) {
+			comparison(doc, 0, 0)["adjusted"].(map[string]any)["p_value"] = json.Number("1.2")
+		}},
+		{"adjusted family of zero", func(doc any) {
+			comparison(doc, 0, 0)["adjusted"].(map[string]any)["family_size"] = json.Number("0")
+		}},
+		{"adjusted extra key", func(doc any) {
+			comparison(doc, 0, 0)["adjusted"].(map[string]any)["rank"] = json.Number("1")
+		}},
+		{"lower_is_better not boolean", func(doc any) {
+			readout(doc)["metrics"].([]any)[0].(map[string]any)["lower_is_better"] = "no"
+		}},
 		{"missing schema version", func(doc any) { delete(doc.(map[string]any), "schema_version") }},
 		{"wrong schema version", func(doc any) { doc.(map[string]any)["schema_version"] = "2.0.0" }},
 		{"wrong type", func(doc any) {
@@ -214,6 +369,56 @@ func TestSchemaRejectsBrokenDocuments(t *testing.T) {
 				t.Error("broken document passes the schema")
 			}
 		})
+	}
+
+	// Guardrail fields, on the guardrail readout: metric 1 has a relative
+	// margin, metric 2 an absolute one.
+	buf.Reset()
+	if err := WriteJSON(&buf, []experiment.Readout{guardrailReadout()}); err != nil {
+		t.Fatal(err)
+	}
+	guarded := buf.Bytes()
+	if err := sch.Validate(decode(t, guarded)); err != nil {
+		t.Fatalf("the unbroken guardrail document fails: %v", err)
+	}
+	metric := func(doc any, i int) map[string]any {
+		return readout(doc)["metrics"].([]any)[i].(map[string]any)
+	}
+	nonInf := func(doc any) map[string]any { return comparison(doc, 2, 0)["non_inferiority"].(map[string]any) }
+	guardrailTests := []struct {
+		name  string
+		spoil func(doc any)
+	}{
+		{"guardrail missing relative", func(doc any) { delete(metric(doc, 2)["guardrail"].(map[string]any), "relative") }},
+		{"negative margin", func(doc any) {
+			metric(doc, 2)["guardrail"].(map[string]any)["margin"] = json.Number("-0.005")
+		}},
+		// 0.5 is a valid relative margin (metric 1) but no absolute one.
+		{"absolute margin of one or more", func(doc any) {
+			metric(doc, 2)["guardrail"].(map[string]any)["margin"] = json.Number("1.5")
+		}},
+		{"guardrail as a number", func(doc any) { metric(doc, 1)["guardrail"] = json.Number("0.03") }},
+		{"non_inferiority missing verdict", func(doc any) { delete(nonInf(doc), "non_inferior") }},
+		{"non_inferiority warnings null", func(doc any) { nonInf(doc)["warnings"] = nil }},
+		{"non_inferiority z test without alternative", func(doc any) {
+			delete(nonInf(doc)["z_test"].(map[string]any), "alternative")
+		}},
+		{"non_inferiority negative margin", func(doc any) { nonInf(doc)["absolute_margin"] = json.Number("-0.005") }},
+	}
+	for _, tc := range guardrailTests {
+		t.Run(tc.name, func(t *testing.T) {
+			doc := decode(t, guarded)
+			tc.spoil(doc)
+			if err := sch.Validate(doc); err == nil {
+				t.Error("broken document passes the schema")
+			}
+		})
+	}
+	// A relative margin above 1 (the rate may double) is valid.
+	doc := decode(t, guarded)
+	metric(doc, 1)["guardrail"].(map[string]any)["margin"] = json.Number("1.5")
+	if err := sch.Validate(doc); err != nil {
+		t.Errorf("a relative margin of 1.5 fails the schema: %v", err)
 	}
 }
 
@@ -260,6 +465,16 @@ func TestNewDocumentLeavesInputAlone(t *testing.T) {
 	if in[0].Metrics[0].Events[0] != "purchase" {
 		t.Error("the document shares a slice with the input")
 	}
+	// The guardrail test holds a slice too: copied, and never nil.
+	g := []experiment.Readout{guardrailReadout()}
+	gdoc := NewDocument(g)
+	ni := gdoc.Readouts[0].Metrics[2].Comparisons[0].NonInferiority
+	if ni.Warnings == nil {
+		t.Error("nil non-inferiority warnings were not replaced by an empty slice")
+	}
+	if ni == g[0].Metrics[2].Comparisons[0].NonInferiority {
+		t.Error("the document shares the non-inferiority test with the input")
+	}
 }
 
 // TestWritersRejectNonFinite puts a NaN or infinity in different places;
@@ -279,6 +494,14 @@ func TestWritersRejectNonFinite(t *testing.T) {
 			"$.readouts[0].settings.alpha"},
 		{"observed share NaN", "", func(r *experiment.Readout) { r.Arms[0].ObservedShare = math.NaN() },
 			"$.readouts[0].arms[0].observed_share"},
+		{"adjusted p NaN", "", func(r *experiment.Readout) { r.Metrics[0].Comparisons[0].Adjusted.PValue = math.NaN() },
+			"$.readouts[0].metrics[0].comparisons[0].adjusted.p_value"},
+		{"guardrail margin +Inf", "", func(r *experiment.Readout) {
+			r.Metrics[0].Guardrail = &experiment.Guardrail{Margin: math.Inf(1)}
+		}, "$.readouts[0].metrics[0].guardrail.margin"},
+		{"non-inferiority z NaN", "", func(r *experiment.Readout) {
+			r.Metrics[1].Comparisons[0].NonInferiority = &experiment.NonInferiorityTest{Z: &experiment.Test{Statistic: math.NaN()}}
+		}, "$.readouts[0].metrics[1].comparisons[0].non_inferiority.z_test.statistic"},
 		{"target exact p NaN", "", func(r *experiment.Readout) {
 			r.Metrics[0].Arms[0].TargetTest = &experiment.TargetTest{Exact: &experiment.ExactTest{PValue: math.NaN()}}
 		}, "$.readouts[0].metrics[0].arms[0].target_test.exact_test.p_value"},
@@ -322,7 +545,7 @@ func TestJSONKeyOrder(t *testing.T) {
 	order := []string{
 		"schema", "schema_version", "readouts", "experiment", "exposure_event", "control",
 		"window_start", "window_end", "data_freshness", "settings", "arms", "sample_ratio",
-		"metrics", "diagnostics",
+		"multiple_comparisons", "metrics", "diagnostics",
 	}
 	last := -1
 	for _, k := range order {

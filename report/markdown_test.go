@@ -75,7 +75,7 @@ func TestMarkdownWarningBlock(t *testing.T) {
 				"> 4. `activated`: 57 units were counted before",
 				"> 5. `plan_upgrade`: normal approximation not justified for `short-tour` vs `control`, `long-tour` vs `control`; decided by Fisher's exact test.",
 				"> 6. `plan_upgrade`: normal approximation not justified for `control` vs target 0.20%, `short-tour` vs target 0.20%, `long-tour` vs target 0.20%; decided by the exact binomial test.",
-				"> 7. `plan_upgrade`, `long-tour` vs `control`: the test is significant but the 95% interval",
+				"> 7. `plan_upgrade`, `long-tour` vs `control`: the test before adjustment is significant but the 95% interval",
 				"> 8. the analysis window has no end",
 			},
 		},
@@ -88,6 +88,33 @@ func TestMarkdownWarningBlock(t *testing.T) {
 			},
 			want: []string{"> 1. `purchase`", "> 2. check the exposure logging\n"},
 			// and no third item: the block ends after the second
+		},
+		{
+			name:    "failing guardrail",
+			readout: guardrailReadout,
+			want: []string{
+				"> 1. **Guardrail not met**: `unsubscribe`, `email-reminder` vs `control` is not shown to be within the margin: a rise of 0.50 pp or more is not ruled out (non-inferiority p = 0.9471 > 0.05; the 90% interval reaches +0.95 pp).\n",
+			},
+		},
+		{
+			// The verdict comes from non_inferior, not from the numbers.
+			name: "guardrail passed",
+			readout: func() experiment.Readout {
+				r := guardrailReadout()
+				r.Metrics[2].Comparisons[0].NonInferiority.NonInferior = true
+				return r
+			},
+			absent: true,
+		},
+		{
+			name: "guardrail not tested",
+			readout: func() experiment.Readout {
+				r := guardrailReadout()
+				r.Metrics[2].Comparisons[0].NonInferiority.NonInferior = true
+				r.Metrics[1].Comparisons[1].NonInferiority.Z = nil
+				return r
+			},
+			want: []string{"> 1. **Guardrail not tested**: `repeat_visit`, `push-reminder` vs `control` could not be tested against its margin.\n"},
 		},
 		{
 			name: "routes disagree",
@@ -182,6 +209,204 @@ func TestOmitCautions(t *testing.T) {
 		has := strings.Contains(buf.String(), "## Before acting\n")
 		if has == omit {
 			t.Errorf("OmitCautions %v: cautions present %v", omit, has)
+		}
+	}
+}
+
+// render1 writes one readout as Markdown with the default options.
+func render1(t *testing.T, r experiment.Readout) string {
+	t.Helper()
+	var buf bytes.Buffer
+	if err := WriteMarkdown(&buf, []experiment.Readout{r}, MarkdownOptions{}); err != nil {
+		t.Fatal(err)
+	}
+	return buf.String()
+}
+
+// tableRowOf returns the first table row of out whose label is label.
+func tableRowOf(t *testing.T, out, label string) string {
+	t.Helper()
+	for _, l := range strings.Split(out, "\n") {
+		if strings.HasPrefix(l, "| "+label+" |") {
+			return l
+		}
+	}
+	t.Fatalf("no row %q in:\n%s", label, out)
+	return ""
+}
+
+// TestDecisionRowShowsAdjustment checks that the Decision row follows the
+// adjusted decision and names the unadjusted one when they differ.
+func TestDecisionRowShowsAdjustment(t *testing.T) {
+	tests := []struct {
+		name    string
+		readout func() experiment.Readout
+		want    string
+	}{
+		{"both significant", twoArmReadout,
+			"| Decision | **significant** at alpha 0.05 after Holm adjustment over 2 comparisons (final), and before it; by the pooled two-proportion z test |"},
+		{"significant before, not after", threeArmReadout,
+			"| Decision | not significant at alpha 0.05 after Holm adjustment over 4 comparisons (final), though significant before adjustment; by the pooled two-proportion z test | not significant at alpha 0.05 after Holm adjustment over 4 comparisons (final), nor before it; by the pooled two-proportion z test |"},
+		{"no adjustment", func() experiment.Readout {
+			r := twoArmReadout()
+			r.Metrics[0].Comparisons[0].Adjusted.Method = "none"
+			return r
+		}, "| Decision | **significant** at alpha 0.05, by the pooled two-proportion z test; no adjustment for multiple comparisons |"},
+		{"outside the family", func() experiment.Readout {
+			r := twoArmReadout()
+			r.Metrics[0].Comparisons[0].Adjusted = nil
+			return r
+		}, "| Decision | **significant** at alpha 0.05, by the pooled two-proportion z test; not adjusted (outside the family) |"},
+	}
+	for _, tc := range tests {
+		t.Run(tc.name, func(t *testing.T) {
+			out := render1(t, tc.readout())
+			if got := tableRowOf(t, out, "Decision"); got != tc.want {
+				t.Errorf("Decision row\n%s\nwant\n%s", got, tc.want)
+			}
+		})
+	}
+}
+
+func TestSimultaneousRowOnlyWithBonferroni(t *testing.T) {
+	out := render1(t, guardrailReadout())
+	want := "| Simultaneous interval | 97.5% CI +0.48 to +1.72 pp (Newcombe hybrid score at 1 - 0.05 / 2): excludes 0 | 97.5% CI -0.033 to +1.18 pp (Newcombe hybrid score at 1 - 0.05 / 2): includes 0 |"
+	if got := tableRowOf(t, out, "Simultaneous interval"); got != want {
+		t.Errorf("row\n%s\nwant\n%s", got, want)
+	}
+	if strings.Contains(render1(t, threeArmReadout()), "Simultaneous interval") {
+		t.Error("a Holm readout shows a simultaneous interval row")
+	}
+}
+
+// TestCautionNamesAdjustment checks the "Before acting" item on multiple
+// comparisons.
+func TestCautionNamesAdjustment(t *testing.T) {
+	tests := []struct {
+		name    string
+		readout func() experiment.Readout
+		want    string
+	}{
+		{"holm with target tests", threeArmReadout,
+			"- Multiple comparisons: the 4 comparisons with the control on `activated` and `plan_upgrade` were adjusted together by the Holm method, which keeps the family-wise error rate (the chance of even one false positive among them) at alpha 0.05; the decisions above are the adjusted ones (3 were significant only before adjustment). Outside the family, each at alpha 0.05 on its own: 6 target-rate tests; the more of them, the likelier one is significant by chance.\n"},
+		{"guardrails outside", guardrailReadout,
+			"Outside the family, each at alpha 0.05 on its own: 4 guardrail non-inferiority tests and 4 difference tests on guardrail metrics;"},
+		{"no adjustment", func() experiment.Readout {
+			r := threeArmReadout()
+			r.Settings.Adjustment, r.Multiplicity.Method = "none", "none"
+			for i := range r.Metrics {
+				for j := range r.Metrics[i].Comparisons {
+					r.Metrics[i].Comparisons[j].Adjusted = nil
+				}
+			}
+			return r
+		}, "- This readout makes 10 tests, each at alpha 0.05, with no adjustment for multiple comparisons; the more tests, the likelier one is significant by chance.\n"},
+	}
+	for _, tc := range tests {
+		t.Run(tc.name, func(t *testing.T) {
+			out := render1(t, tc.readout())
+			_, cautions, _ := strings.Cut(out, "## Before acting\n")
+			cautions, _, _ = strings.Cut(cautions, "## Diagnostics")
+			if !strings.Contains(cautions, tc.want) {
+				t.Errorf("cautions lack %q:\n%s", tc.want, cautions)
+			}
+		})
+	}
+}
+
+// TestIntervalLevelExplained checks that the level of a one-sided
+// readout's intervals is explained once, in the header, with the bound on
+// the tested side.
+func TestIntervalLevelExplained(t *testing.T) {
+	const line = "- Interval level: "
+	tests := []struct {
+		alternative string
+		want        string // "" for no line
+	}{
+		{"two-sided", ""},
+		{"greater", "- Interval level: the tests are one-sided (treatment higher), so every interval of a rate, difference or lift is two-sided at 90% (1 - 2 × alpha): its lower bound is the one-sided 95% bound that matches the test.\n"},
+		{"less", "- Interval level: the tests are one-sided (treatment lower), so every interval of a rate, difference or lift is two-sided at 90% (1 - 2 × alpha): its upper bound is the one-sided 95% bound that matches the test.\n"},
+	}
+	for _, tc := range tests {
+		t.Run(tc.alternative, func(t *testing.T) {
+			r := oneSidedReadout()
+			r.Settings.Alternative = tc.alternative
+			out := render1(t, r)
+			if n := strings.Count(out, line); n != min(len(tc.want), 1) {
+				t.Fatalf("%d interval level lines:\n%s", n, out)
+			}
+			if tc.want != "" && !strings.Contains(out, tc.want) {
+				t.Errorf("no line %q in:\n%s", tc.want, out)
+			}
+		})
+	}
+}
+
+// TestGuardrailTable checks the guardrail rows of a lower-is-better metric
+// (alternative less) against numbers worked from the fixture: margin 0.005,
+// upper bound 0.0095296 > 0.005; z = 1.617 > -1.645.
+func TestGuardrailTable(t *testing.T) {
+	out := render1(t, guardrailReadout())
+	_, sec, _ := strings.Cut(out, "## Metric `unsubscribe` (guardrail, lower is better)\n")
+	for _, want := range []string{
+		"| Hypotheses | H0: difference ≥ +0.50 pp (worse by the margin or more); H1: difference < +0.50 pp |",
+		"| Non-inferiority z test | non-inferiority z test (Farrington-Manning score), one-sided (less): z = 1.62, critical value -1.64, p = 0.9471 |",
+		"| Statistic route | z = 1.62 > -1.64: do not reject H0 | z = -3.29 ≤ -1.64: reject H0 |",
+		"| Interval against the margin | 90% CI +0.50 to +0.95 pp (Newcombe hybrid score): upper bound +0.95 ≥ +0.50, at or past the margin |",
+		"| Verdict | **not shown to be within the margin** | **not worse than the margin** |",
+		"significant at alpha 0.05: an increase, which is bad news for this metric (lower is better).",
+	} {
+		if !strings.Contains(sec, want) {
+			t.Errorf("unsubscribe section lacks %q:\n%s", want, sec)
+		}
+	}
+	_, sec, _ = strings.Cut(out, "## Metric `repeat_visit` (guardrail, higher is better)\n")
+	for _, want := range []string{
+		// 0.03 * 40.00% = 1.20 pp
+		"by more than 3% of the `control` rate 40.00%, that is 1.20 pp; higher is better",
+		"| Margin | 1.20 pp (3% of the `control` rate) |",
+		"lower bound -0.94 > -1.20, inside the margin",
+	} {
+		if !strings.Contains(sec, want) {
+			t.Errorf("repeat_visit section lacks %q:\n%s", want, sec)
+		}
+	}
+}
+
+// TestGuardrailIntervalDisagrees marks a guardrail whose interval and test
+// disagree.
+func TestGuardrailIntervalDisagrees(t *testing.T) {
+	r := guardrailReadout()
+	// The interval says within (upper bound +0.29 < +0.50); make the test
+	// say otherwise.
+	ni := r.Metrics[2].Comparisons[1].NonInferiority
+	ni.NonInferior = false
+	out := render1(t, r)
+	if !strings.Contains(out, "upper bound +0.29 < +0.50, inside the margin; disagrees with the test, a borderline result") {
+		t.Errorf("no disagreement shown:\n%s", out)
+	}
+}
+
+func TestDirectionNote(t *testing.T) {
+	up, down := ptr(0.01), ptr(-0.01)
+	tests := []struct {
+		lower       bool
+		significant bool
+		diff        *float64
+		want        string
+	}{
+		{false, true, up, ""},
+		{false, true, down, "a decrease, which is bad news for this metric (higher is better)"},
+		{true, true, up, "an increase, which is bad news for this metric (lower is better)"},
+		{true, true, down, "a decrease, which is good news for this metric (lower is better)"},
+		{true, false, up, ""},
+		{true, true, nil, ""},
+	}
+	for _, tc := range tests {
+		m := experiment.MetricReadout{LowerIsBetter: tc.lower}
+		c := experiment.Comparison{Significant: tc.significant, Difference: tc.diff}
+		if got := directionNote(m, c); got != tc.want {
+			t.Errorf("lower %v, significant %v, diff %v: %q, want %q", tc.lower, tc.significant, tc.diff, got, tc.want)
 		}
 	}
 }

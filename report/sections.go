@@ -1,5 +1,6 @@
 // The sections of the Markdown readout, in the order WriteMarkdown writes
-// them: header, warnings, arms, metrics, cautions, diagnostics.
+// them: header, warnings, arms, multiple comparisons, metrics, cautions,
+// diagnostics.
 
 package report
 
@@ -16,6 +17,7 @@ func (md *markdown) readout(r experiment.Readout) {
 	md.header(r)
 	md.warnings(r)
 	md.arms(r)
+	md.multiplicity(r)
 	for _, m := range r.Metrics {
 		md.metric(r, m)
 	}
@@ -39,7 +41,37 @@ func (md *markdown) header(r experiment.Readout) {
 		formatAlpha(s.Alpha), formatLevel(s.ConfidenceLevel), alternativeName(s.Alternative),
 		s.MultiArmPolicy, s.MaturityPolicy, formatCount(s.MinCount), formatCount(s.MinCount),
 		formatAlpha(s.SampleRatioThreshold)))
+	md.line("- Methods: " + methods(r))
+	if s.Alternative == "greater" || s.Alternative == "less" {
+		bound := "lower"
+		if s.Alternative == "less" {
+			bound = "upper"
+		}
+		md.line(fmt.Sprintf("- Interval level: the tests are %s, so every interval of a rate, difference or lift is two-sided at %s (1 - 2 × alpha): its %s bound is the one-sided %s bound that matches the test.",
+			alternativeName(s.Alternative), formatLevel(s.ConfidenceLevel), bound, formatLevel(1-s.Alpha)))
+	}
 	md.line("")
+}
+
+// methods names the interval methods, the multiple-comparison adjustment
+// and, when a metric is a guardrail, the non-inferiority test.
+func methods(r experiment.Readout) string {
+	s := r.Settings
+	given := func(m string) string {
+		if m == "" {
+			return "(not given)"
+		}
+		return m
+	}
+	text := fmt.Sprintf("%s intervals for rates, %s for differences, %s for relative lifts; multiple comparisons: %s",
+		given(s.IntervalMethod), given(s.DifferenceIntervalMethod), given(s.LiftIntervalMethod), adjustmentName(s.Adjustment)+" adjustment")
+	for _, m := range r.Metrics {
+		if m.Guardrail != nil {
+			text += "; guardrails: non-inferiority z test (" + given(s.NonInferiorityMethod) + ")"
+			break
+		}
+	}
+	return text
 }
 
 func window(r experiment.Readout) string {
@@ -106,6 +138,7 @@ func (md *markdown) warnings(r experiment.Readout) {
 		}
 	}
 	for _, m := range r.Metrics {
+		list = append(list, guardrailWarnings(m)...)
 		var notMet groups
 		var other []string
 		for _, c := range m.Comparisons {
@@ -209,11 +242,15 @@ func disagreement(c experiment.Comparison) string {
 	}
 	excludes := iv.Lower > 0 || iv.Upper < 0
 	level := formatLevel(iv.Level)
+	test := "the test"
+	if c.Adjusted != nil && adjusts(c.Adjusted.Method) {
+		test = "the test before adjustment"
+	}
 	switch {
-	case excludes && !c.Significant:
-		return "the " + level + " interval for the difference excludes 0 but the test is not significant (the interval is not pooled, the test is); a borderline result"
-	case !excludes && c.Significant:
-		return "the test is significant but the " + level + " interval for the difference includes 0 (the interval is not pooled, the test is); a borderline result"
+	case excludes && !c.SignificantUnadjusted:
+		return "the " + level + " interval for the difference excludes 0 but " + test + " is not significant (the interval is not pooled, the test is); a borderline result"
+	case !excludes && c.SignificantUnadjusted:
+		return test + " is significant but the " + level + " interval for the difference includes 0 (the interval is not pooled, the test is); a borderline result"
 	}
 	return "the " + level + " interval for the difference and the test disagree"
 }
@@ -260,8 +297,11 @@ func armLabel(name, control string) string {
 }
 
 func (md *markdown) metric(r experiment.Readout, m experiment.MetricReadout) {
-	md.heading(1, "Metric "+code(m.Name))
+	md.heading(1, metricTitle(m))
 	md.para(metricDefinition(r, m))
+	if m.Guardrail != nil {
+		md.para(guardrailDefinition(r, m))
+	}
 	n := newNotes()
 
 	rows := make([][]string, 0, len(m.Arms))
@@ -280,6 +320,10 @@ func (md *markdown) metric(r experiment.Readout, m experiment.MetricReadout) {
 	n.add(m.Warnings...)
 	n.flush(md)
 
+	if m.Guardrail != nil && len(m.Comparisons) > 0 {
+		md.heading(2, "Guardrail: non-inferiority against control")
+		md.guardrails(r, m, n)
+	}
 	if len(m.Comparisons) > 0 {
 		md.heading(2, "Against control")
 		md.comparisons(m, n)
@@ -324,6 +368,9 @@ func metricDefinition(r experiment.Readout, m experiment.MetricReadout) string {
 	if m.Target != nil {
 		b.WriteString(" Target rate: " + formatPercent(*m.Target) + ".")
 	}
+	if m.LowerIsBetter && m.Guardrail == nil {
+		b.WriteString(" Lower is better for this metric: a negative difference is an improvement.")
+	}
 	return b.String()
 }
 
@@ -355,7 +402,12 @@ func rateText(a *experiment.ArmRate) string {
 
 func (md *markdown) comparisons(m experiment.MetricReadout, n *notes) {
 	header := []string{""}
-	labels := []string{"Rates", "Difference", "Relative lift", "z test", "Statistic route", "p-value route", "Normal approximation", "Exact test", "Interval and test", "Decision", "Notes"}
+	labels := []string{"Rates", "Difference", "Relative lift", "z test", "Statistic route", "p-value route", "Normal approximation", "Exact test", "Interval and test", "Adjusted p-value"}
+	simultaneous := hasSimultaneous(m)
+	if simultaneous {
+		labels = append(labels, "Simultaneous interval")
+	}
+	labels = append(labels, "Decision", "Notes")
 	cols := make([][]string, 0, len(m.Comparisons))
 	for _, c := range m.Comparisons {
 		header = append(header, code(c.Treatment)+" vs "+code(c.Control))
@@ -383,7 +435,7 @@ func (md *markdown) comparisons(m experiment.MetricReadout, n *notes) {
 		if c.Z != nil && c.Z.RejectByStatistic != c.Z.RejectByPValue {
 			extra = append(extra, routesDisagree)
 		}
-		cols = append(cols, []string{
+		col := []string{
 			rateText(t) + " vs " + rateText(ctl),
 			diff,
 			lift,
@@ -391,9 +443,15 @@ func (md *markdown) comparisons(m experiment.MetricReadout, n *notes) {
 			conditionText(c.ConditionMet, "in each arm", c.Z, c.Exact),
 			exactText(c.Exact, c.ConditionMet),
 			agree,
-			decisionText(c.Significant, c.DecidedBy, c.Z, c.Exact),
+			adjustedRow(m, c),
+		}
+		if simultaneous {
+			col = append(col, simultaneousRow(c))
+		}
+		cols = append(cols, append(col,
+			comparisonDecision(m, c),
 			n.add(append(extra, c.Warnings...)...),
-		})
+		))
 	}
 	md.table(header, "", transpose(labels, cols))
 	n.flush(md)
@@ -480,45 +538,10 @@ func (md *markdown) cautions(r experiment.Readout) {
 		check += " This readout failed the sample ratio check."
 	}
 	md.line(check)
-	if k, alphas := testCount(r); k > 1 {
-		each := "each at its own alpha"
-		if len(alphas) == 1 {
-			each = "each at alpha " + formatAlpha(alphas[0])
-		}
-		md.line(fmt.Sprintf("- This readout makes %d tests, %s with no adjustment for multiple comparisons shown here; the more tests, the likelier one is significant by chance.", k, each))
+	if s := multiplicityCaution(r); s != "" {
+		md.line("- " + s)
 	}
 	md.line("")
-}
-
-// testCount counts the comparisons and target tests with a decision and
-// lists the distinct alphas they were decided at.
-func testCount(r experiment.Readout) (int, []float64) {
-	k := 0
-	var alphas []float64
-	count := func(decidedBy string, z *experiment.Test, e *experiment.ExactTest) {
-		if decider(decidedBy, z, e) == "" {
-			return
-		}
-		k++
-		a := decisionAlpha(decidedBy, z, e)
-		for _, b := range alphas {
-			if a == b {
-				return
-			}
-		}
-		alphas = append(alphas, a)
-	}
-	for _, m := range r.Metrics {
-		for _, c := range m.Comparisons {
-			count(c.DecidedBy, c.Z, c.Exact)
-		}
-		for _, a := range m.Arms {
-			if tt := a.TargetTest; tt != nil {
-				count(tt.DecidedBy, tt.Z, tt.Exact)
-			}
-		}
-	}
-	return k, alphas
 }
 
 func (md *markdown) diagnostics(r experiment.Readout) {
