@@ -1,7 +1,6 @@
 package main
 
 import (
-	"errors"
 	"fmt"
 	"io"
 	"strings"
@@ -33,11 +32,21 @@ Metrics (--metric, repeatable):
   WINDOW is a number with a unit s, m, h, d or w (7d, 36h); none is unlimited.
   TARGET is a rate (0.12 or 12%) every arm is also tested against.
 
+Guardrails (--guardrail, repeatable): a metric that must not get worse,
+  NAME=EVENT[,EVENT...][:WINDOW]~MARGIN
+  MARGIN is absolute in percentage points (0.5pp) or relative to the
+  control's rate (5%). Each treatment is tested for non-inferiority; mark
+  metrics where lower is better (unsubscribes, refunds) with --lower-is-better.
+
+Comparisons of each treatment with the control on each metric (guardrails
+apart) form one family, adjusted with --adjust (Holm by default).
+
 Examples:
   armtally analyze --demo
   armtally analyze --demo --json readout.json --out readout.md
   armtally analyze events.parquet --experiment checkout-flow-2026 --metric purchase=purchase:7d
   armtally analyze exports/ --experiment search-ranking --exposure-event assigned --control baseline --arms baseline,fresh-ranker --split 80,20 --start 2026-11-01 --end 2026-11-29 --metric signup=account_created:3d@10% --alpha 0.01
+  armtally analyze events.parquet --experiment checkout-flow-2026 --metric purchase=purchase:7d --guardrail unsubscribe=newsletter_unsubscribe:7d~0.2pp --lower-is-better unsubscribe --adjust bonferroni
   armtally analyze events.csv --user-col visitor_id --ts-col event_time --metric buy=order_placed,order_paid:14d --fail-on-sample-ratio
 
 Flags:
@@ -53,7 +62,8 @@ type analyzeFlags struct {
 	split                                    string
 	start, end                               string
 	multiArm, maturity                       string
-	metrics                                  []string
+	metrics, guardrails, lowerIsBetter       []string
+	interval, diffInterval, adjust, niMethod string
 	alpha                                    float64
 	alternative                              string
 	minCount                                 int64
@@ -74,12 +84,18 @@ func newAnalyzeFlagSet(f *analyzeFlags, stderr io.Writer) *pflag.FlagSet {
 	fs.StringSliceVar(&f.arms, "arms", nil, "planned arms, comma-separated (the control is added first when missing); any other arm in the data is an error")
 	fs.StringVar(&f.split, "split", "", "planned traffic shares of --arms, comma-separated (50,25,25); default equal")
 	fs.StringArrayVar(&f.metrics, "metric", nil, "conversion metric NAME=EVENT[,EVENT...][:WINDOW][@TARGET] (repeatable)")
+	fs.StringArrayVar(&f.guardrails, "guardrail", nil, "guardrail metric NAME=EVENT[,EVENT...][:WINDOW]~MARGIN, MARGIN 0.5pp (absolute) or 5% (of the control's rate) (repeatable)")
+	fs.StringArrayVar(&f.lowerIsBetter, "lower-is-better", nil, "metric where a lower rate is the good outcome (repeatable)")
 	fs.StringVar(&f.start, "start", "", "start of the analysis window, inclusive (RFC 3339 or YYYY-MM-DD); default: all data")
 	fs.StringVar(&f.end, "end", "", "end of the analysis window, exclusive; default: no end (maturity is judged against the latest event)")
 	fs.StringVar(&f.multiArm, "multi-arm", "exclude", "units exposed to several arms: exclude, or first (keep the first exposure's arm)")
 	fs.StringVar(&f.maturity, "maturity", "exclude", "units whose attribution window has not closed: exclude or include")
 	fs.Float64Var(&f.alpha, "alpha", 0.05, "significance level of every test; intervals are at 1 - alpha")
-	fs.StringVar(&f.alternative, "alternative", "two-sided", "alternative hypothesis: two-sided, greater (treatment higher) or less")
+	fs.StringVar(&f.alternative, "alternative", "two-sided", "alternative hypothesis: two-sided, greater (treatment higher) or less; intervals are at 1 - 2 alpha for one-sided tests")
+	fs.StringVar(&f.adjust, "adjust", "holm", "multiple-comparison adjustment over treatments x metrics: holm, bonferroni, hochberg, bh, by or none")
+	fs.StringVar(&f.interval, "interval", experiment.IntervalWilson, "interval of each arm's rate: wilson, clopper-pearson, agresti-coull or wald")
+	fs.StringVar(&f.diffInterval, "difference-interval", experiment.DifferenceNewcombe, "interval of each difference: newcombe or wald")
+	fs.StringVar(&f.niMethod, "non-inferiority-method", "farrington-manning", "variance of guardrail tests: farrington-manning, miettinen-nurminen or wald")
 	fs.Int64Var(&f.minCount, "min-count", 5, "conversions and non-conversions per arm needed to trust the normal approximation")
 	fs.Float64Var(&f.srThreshold, "sample-ratio-threshold", experiment.DefaultSampleRatioThreshold, "p-value below which the sample ratio check fails")
 	fs.StringVarP(&f.out, "out", "o", "", "write the Markdown readout to this file instead of stdout")
@@ -91,10 +107,6 @@ func newAnalyzeFlagSet(f *analyzeFlags, stderr io.Writer) *pflag.FlagSet {
 	fs.StringVar(&f.expCol, "experiment-col", m.Experiment, "column holding the experiment key (\"\" when the log has none)")
 	fs.StringVar(&f.armCol, "arm-col", m.Arm, "column holding the arm name")
 	fs.StringVar(&f.epochUnit, "epoch-unit", "", "unit of integer timestamps: s, ms, us or ns")
-	fs.Usage = func() {
-		fmt.Fprint(fs.Output(), analyzeUsage)
-		fs.PrintDefaults()
-	}
 	return fs
 }
 
@@ -105,13 +117,8 @@ func parseAnalyze(args []string, stdout, stderr io.Writer) (experiment.Spec, exp
 	var spec experiment.Spec
 	opts := experiment.DefaultAnalysisOptions()
 	fs := newAnalyzeFlagSet(&f, stderr)
-	if err := fs.Parse(args); err != nil {
-		if errors.Is(err, pflag.ErrHelp) {
-			fs.SetOutput(stdout)
-			fs.Usage()
-			return spec, opts, nil, f, errHelp
-		}
-		return spec, opts, nil, f, usagef("analyze: %v", err)
+	if err := parseFlags(fs, args, analyzeUsage, stdout); err != nil {
+		return spec, opts, nil, f, err
 	}
 	var sources []ingest.Source
 	if f.demo {
@@ -184,7 +191,7 @@ func parseAnalyze(args []string, stdout, stderr io.Writer) (experiment.Spec, exp
 	if spec.Maturity, err = experiment.ParseMaturityPolicy(f.maturity); err != nil {
 		return spec, opts, nil, f, usagef("analyze: --maturity: %v", err)
 	}
-	if len(f.metrics) == 0 {
+	if len(f.metrics) == 0 && len(f.guardrails) == 0 {
 		return spec, opts, nil, f, usagef("analyze: name at least one metric with --metric NAME=EVENT[:WINDOW], for example --metric purchase=purchase:7d")
 	}
 	for _, s := range f.metrics {
@@ -194,16 +201,59 @@ func parseAnalyze(args []string, stdout, stderr io.Writer) (experiment.Spec, exp
 		}
 		spec.Metrics = append(spec.Metrics, m)
 	}
+	for _, s := range f.guardrails {
+		m, err := parseGuardrail(s)
+		if err != nil {
+			return spec, opts, nil, f, usagef("analyze: --guardrail: %v", err)
+		}
+		spec.Metrics = append(spec.Metrics, m)
+	}
+	for _, name := range f.lowerIsBetter {
+		found := false
+		for i := range spec.Metrics {
+			if spec.Metrics[i].Name == name {
+				spec.Metrics[i].LowerIsBetter, found = true, true
+			}
+		}
+		if !found {
+			return spec, opts, nil, f, usagef("analyze: --lower-is-better %q: no metric of that name", name)
+		}
+	}
 	// Let the tallier check the rest of the spec now, as a usage error.
 	if _, err := experiment.NewTallier(spec); err != nil {
 		return spec, opts, nil, f, usagef("analyze: %v", err)
 	}
 
-	if !(f.alpha > 0 && f.alpha < 1) {
-		return spec, opts, nil, f, usagef("analyze: --alpha %v is not strictly between 0 and 1", f.alpha)
+	if !(f.alpha > 0 && f.alpha < 0.5) {
+		return spec, opts, nil, f, usagef("analyze: --alpha %v is not strictly between 0 and 0.5", f.alpha)
 	}
 	opts.Stats.Alpha = f.alpha
-	opts.Stats.Level = 1 - f.alpha
+	opts.Stats.Level = 0 // 1 - alpha, or 1 - 2 alpha for a one-sided alternative
+	switch f.interval {
+	case experiment.IntervalWilson, experiment.IntervalClopperPearson, experiment.IntervalAgrestiCoull, experiment.IntervalWald:
+		opts.Interval = f.interval
+	default:
+		return spec, opts, nil, f, usagef("analyze: --interval %q: want wilson, clopper-pearson, agresti-coull or wald", f.interval)
+	}
+	switch f.diffInterval {
+	case experiment.DifferenceNewcombe, experiment.DifferenceWald:
+		opts.Difference = f.diffInterval
+	default:
+		return spec, opts, nil, f, usagef("analyze: --difference-interval %q: want newcombe or wald", f.diffInterval)
+	}
+	if opts.Adjust, err = stats.ParseAdjustMethod(f.adjust); err != nil {
+		return spec, opts, nil, f, usagef("analyze: --adjust: %v", err)
+	}
+	switch f.niMethod {
+	case "farrington-manning":
+		opts.NonInferiority = stats.FarringtonManning
+	case "miettinen-nurminen":
+		opts.NonInferiority = stats.MiettinenNurminen
+	case "wald":
+		opts.NonInferiority = stats.WaldNonInferiority
+	default:
+		return spec, opts, nil, f, usagef("analyze: --non-inferiority-method %q: want farrington-manning, miettinen-nurminen or wald", f.niMethod)
+	}
 	if opts.Stats.Alternative, err = stats.ParseAlternative(f.alternative); err != nil {
 		return spec, opts, nil, f, usagef("analyze: --alternative: %v", err)
 	}

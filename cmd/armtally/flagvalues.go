@@ -52,6 +52,48 @@ func parseMetric(s string) (experiment.Metric, error) {
 	return m, nil
 }
 
+// parseGuardrail parses the value of --guardrail: a metric as parseMetric
+// reads it followed by ~MARGIN, where MARGIN is absolute in percentage
+// points (0.5pp) or relative to the control's rate (5%).
+func parseGuardrail(s string) (experiment.Metric, error) {
+	spec, margin, ok := strings.Cut(s, "~")
+	if !ok {
+		return experiment.Metric{}, fmt.Errorf("guardrail %q: want NAME=EVENT[,EVENT...][:WINDOW]~MARGIN, for example unsubscribe=newsletter_unsubscribe:7d~0.2pp", s)
+	}
+	m, err := parseMetric(spec)
+	if err != nil {
+		return m, err
+	}
+	g, err := parseMargin(margin)
+	if err != nil {
+		return m, fmt.Errorf("guardrail %q: margin: %w", s, err)
+	}
+	m.Guardrail = &g
+	return m, nil
+}
+
+// parseMargin parses a non-inferiority margin: 0.5pp (absolute, in
+// percentage points) or 5% (relative to the control's rate).
+func parseMargin(s string) (experiment.Margin, error) {
+	s = strings.TrimSpace(s)
+	var g experiment.Margin
+	var num string
+	switch {
+	case strings.HasSuffix(s, "pp"):
+		num = strings.TrimSuffix(s, "pp")
+	case strings.HasSuffix(s, "%"):
+		num, g.Relative = strings.TrimSuffix(s, "%"), true
+	default:
+		return g, fmt.Errorf("%q: want percentage points (0.5pp) or a share of the control's rate (5%%)", s)
+	}
+	v, err := strconv.ParseFloat(strings.TrimSpace(num), 64)
+	if err != nil || !(v > 0 && v < 100) {
+		return g, fmt.Errorf("%q: want a number above 0 and below 100", s)
+	}
+	g.Value = v / 100
+	return g, nil
+}
+
 // parseWindow parses an attribution window: a positive number followed by
 // s, m, h, d (24 hours) or w (7 days).
 func parseWindow(s string) (time.Duration, error) {

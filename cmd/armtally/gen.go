@@ -2,7 +2,6 @@ package main
 
 import (
 	"encoding/json"
-	"errors"
 	"fmt"
 	"io"
 	"math/rand/v2"
@@ -77,17 +76,8 @@ func runGen(args []string, stdout, stderr io.Writer) error {
 	fs.StringVar(&f.parquetOut, "parquet", "", "write the log as Parquet to this file")
 	fs.StringVar(&f.csvOut, "csv", "", "write the log as CSV to this file")
 	fs.StringVar(&f.truth, "truth", "", "write the ground truth as JSON to this file")
-	fs.Usage = func() {
-		fmt.Fprint(fs.Output(), genUsage)
-		fs.PrintDefaults()
-	}
-	if err := fs.Parse(args); err != nil {
-		if errors.Is(err, pflag.ErrHelp) {
-			fs.SetOutput(stdout)
-			fs.Usage()
-			return errHelp
-		}
-		return usagef("gen: %v", err)
+	if err := parseFlags(fs, args, genUsage, stdout); err != nil {
+		return err
 	}
 	if fs.NArg() > 0 {
 		return usagef("gen: unexpected arguments %s (name outputs with --parquet and --csv)", strings.Join(fs.Args(), " "))

@@ -28,6 +28,8 @@ import (
 	"fmt"
 	"io"
 	"os"
+
+	"github.com/spf13/pflag"
 )
 
 // Exit codes; see the package documentation.
@@ -109,6 +111,24 @@ func run(args []string, stdout, stderr io.Writer) int {
 		return exitUsage
 	}
 	return exitCode(err, stderr)
+}
+
+// parseFlags parses a subcommand's flags. pflag's own usage printing is
+// turned off: --help prints usage and every flag to stdout once and
+// returns errHelp; a bad flag is a usage error, printed once.
+func parseFlags(fs *pflag.FlagSet, args []string, usage string, stdout io.Writer) error {
+	fs.Usage = func() {}
+	err := fs.Parse(args)
+	switch {
+	case err == nil:
+		return nil
+	case errors.Is(err, pflag.ErrHelp):
+		fs.SetOutput(stdout)
+		fmt.Fprint(stdout, usage)
+		fs.PrintDefaults()
+		return errHelp
+	}
+	return usagef("%s: %v", fs.Name(), err)
 }
 
 // exitCode prints err (if any) and maps it to an exit code.

@@ -293,6 +293,11 @@ func TestExitCodes(t *testing.T) {
 		{"unplanned arm", []string{"analyze", skewed, "--metric", "buy", "--arms", "control,other"}, exitData, `arms that are not planned: "treat" (1200 units exposed)`},
 		{"sample ratio ignored", []string{"analyze", skewed, "--metric", "buy"}, exitOK, ""},
 		{"sample ratio fails", []string{"analyze", skewed, "--metric", "buy", "--fail-on-sample-ratio"}, exitSampleRatio, "sample ratio mismatch"},
+		{"bad adjustment", []string{"analyze", "--demo", "--adjust", "sidak"}, exitUsage, "--adjust"},
+		{"bad interval", []string{"analyze", "--demo", "--interval", "exact"}, exitUsage, "--interval"},
+		{"alpha too large for one-sided", []string{"analyze", "--demo", "--alpha", "0.5"}, exitUsage, "--alpha"},
+		{"bad margin", []string{"analyze", "--demo", "--guardrail", "x=y~3"}, exitUsage, "--guardrail"},
+		{"lower-is-better unknown", []string{"analyze", "--demo", "--lower-is-better", "refunds"}, exitUsage, `"refunds"`},
 		{"help", []string{"help", "analyze"}, exitOK, ""},
 		{"gen without output", []string{"gen"}, exitUsage, "--parquet"},
 	}

@@ -2,7 +2,6 @@ package main
 
 import (
 	"encoding/json"
-	"errors"
 	"fmt"
 	"io"
 	"math"
@@ -183,10 +182,6 @@ func newPlanFlagSet(f *planFlags, stderr io.Writer) *pflag.FlagSet {
 	fs.StringVar(&f.adjust, "adjust", "holm", "multiple-comparison adjustment the analysis will use: none, bonferroni, holm, hochberg, bh or by")
 	fs.Float64Var(&f.dailyUnits, "daily-units", 0, "units entering the experiment per day, all arms together: also print the days needed")
 	fs.StringVar(&f.jsonOut, "json", "", "also write the plan as JSON to this file")
-	fs.Usage = func() {
-		fmt.Fprint(fs.Output(), planUsage)
-		fs.PrintDefaults()
-	}
 	return fs
 }
 
@@ -202,13 +197,8 @@ func parsePlan(args []string, stdout, stderr io.Writer) (planInput, planFlags, e
 	var f planFlags
 	var in planInput
 	fs := newPlanFlagSet(&f, stderr)
-	if err := fs.Parse(args); err != nil {
-		if errors.Is(err, pflag.ErrHelp) {
-			fs.SetOutput(stdout)
-			fs.Usage()
-			return in, f, errHelp
-		}
-		return in, f, usagef("plan: %v", err)
+	if err := parseFlags(fs, args, planUsage, stdout); err != nil {
+		return in, f, err
 	}
 	if fs.NArg() > 0 {
 		return in, f, usagef("plan: unexpected arguments %s (plan takes flags only)", strings.Join(fs.Args(), " "))
