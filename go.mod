@@ -5,6 +5,7 @@ go 1.26.8
 require (
 	github.com/apache/arrow-go/v18 v18.8.0
 	github.com/parquet-go/parquet-go v0.32.0
+	github.com/pelletier/go-toml/v2 v2.4.3
 	github.com/santhosh-tekuri/jsonschema/v6 v6.0.3
 	gonum.org/v1/gonum v0.17.0
 )
