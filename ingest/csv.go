@@ -2,6 +2,7 @@ package ingest
 
 import (
 	"bufio"
+	"compress/gzip"
 	"encoding/csv"
 	"fmt"
 	"io"
@@ -9,29 +10,46 @@ import (
 )
 
 // csvReader reads one CSV source with encoding/csv. The first record is the
-// header; columns are found by header name. Every cell is text: user, event,
-// experiment, arm and segments are taken as they are (no trimming), and ts
-// is parsed by ParseTimestamp, or as an integer epoch count when the mapping
-// names an epoch unit and the cell is a plain integer.
+// header; columns are found by header name. Fields are separated by
+// Options.Delimiter, may be quoted (a quoted field may hold the delimiter,
+// doubled quotes and line ends), and lines may end in LF or CRLF; a leading
+// UTF-8 byte-order mark is dropped. A .csv.gz source is decompressed on the
+// fly (concatenated gzip members are read one after another). Every cell is
+// text: user, event, experiment, arm and segments are taken as they are (no
+// trimming; an integer user id stays the digits written), and ts is parsed
+// by plan.parseTSText.
 type csvReader struct {
-	file   string
-	src    *openedSource
-	cr     *csv.Reader
-	p      *plan
-	field  []int // header position of each logical column
-	nhead  int   // fields in the header
-	row    row
-	header []string
+	file  string
+	src   *openedSource
+	gz    *gzip.Reader // nil unless the source is gzip-compressed
+	cr    *csv.Reader
+	p     *plan
+	field []int // header position of each logical column, -1 for a partition column
+	nhead int   // fields in the header
+	part  partitionCols
+	row   row
 }
 
 var utf8BOM = []byte{0xEF, 0xBB, 0xBF}
 
-func newCSVReader(file string, src *openedSource, p *plan) (*csvReader, error) {
-	br := bufio.NewReaderSize(io.NewSectionReader(src.r, 0, src.size), 64<<10)
+func newCSVReader(src Source, o *openedSource, p *plan) (*csvReader, error) {
+	file := src.Name
+	var in io.Reader = io.NewSectionReader(o.r, 0, o.size)
+	c := &csvReader{file: file, src: o, p: p}
+	if src.gzipped {
+		gz, err := gzip.NewReader(in)
+		if err != nil {
+			return nil, fmt.Errorf("%s: gzip: %w", file, err)
+		}
+		c.gz = gz
+		in = gz
+	}
+	br := bufio.NewReaderSize(in, 64<<10)
 	if b, err := br.Peek(len(utf8BOM)); err == nil && string(b) == string(utf8BOM) {
 		br.Discard(len(utf8BOM))
 	}
 	cr := csv.NewReader(br)
+	cr.Comma = p.delimiter
 	cr.FieldsPerRecord = -1 // checked here, to report a *RowError
 	header, err := cr.Read()
 	if err == io.EOF {
@@ -41,8 +59,8 @@ func newCSVReader(file string, src *openedSource, p *plan) (*csvReader, error) {
 		return nil, fmt.Errorf("%s: %w", file, err)
 	}
 	cr.ReuseRecord = true // after the header, which is kept
+	c.cr, c.nhead = cr, len(header)
 
-	c := &csvReader{file: file, src: src, cr: cr, p: p, header: header, nhead: len(header)}
 	c.field = make([]int, len(p.physical))
 	for i, name := range p.physical {
 		c.field[i] = -1
@@ -56,40 +74,52 @@ func newCSVReader(file string, src *openedSource, p *plan) (*csvReader, error) {
 			}
 			c.field[i] = j
 		}
-		if c.field[i] < 0 {
-			return nil, missingColumn(file, name, header)
+		if c.field[i] < 0 && !c.part.set(p, src, i) {
+			return nil, missingColumn(file, name, header, src.partitionKeys())
 		}
 	}
 	c.row.cells = make([]cell, len(p.physical))
 	return c, nil
 }
 
-func (c *csvReader) read(b *batchBuilder, max int, st *Stats) (int, error) {
+func (c *csvReader) read(b *batchBuilder, limit int, a *accounting) (int, error) {
 	n := 0
-	for n < max {
+	r := &c.row
+	for n < limit {
 		rec, err := c.cr.Read()
 		if err == io.EOF {
 			return n, io.EOF
 		}
 		if err != nil {
 			// A *csv.ParseError (bare or unclosed quote) names the
-			// line and column; keep it whole for errors.As.
+			// line and column; keep it whole for errors.As. A gzip
+			// error (corrupt data, bad checksum) names no line.
 			return n, fmt.Errorf("%s: %w", c.file, err)
 		}
-		st.RowsRead++
+		a.rowsRead++
 		if len(rec) != c.nhead {
 			line, _ := c.cr.FieldPos(0)
-			return n, &RowError{File: c.file, Row: int64(line), RowGroup: -1, Err: ErrFieldCount,
-				Value: strconv.Itoa(len(rec)), wantFields: c.nhead}
+			if err := a.bad(badRow{file: c.file, row: int64(line), rowGroup: -1, reason: ErrFieldCount,
+				value: strconv.Itoa(len(rec)), wantFields: c.nhead}); err != nil {
+				return n, err
+			}
+			continue
 		}
-		r := &c.row
+		c.part.fill(r)
 		for i, j := range c.field {
-			r.cells[i] = cell{s: rec[j]}
+			if j >= 0 {
+				r.cells[i] = cell{s: rec[j]}
+			}
 		}
-		r.ts, r.tsErr = c.parseTS(rec[c.field[colTS]])
+		if j := c.field[colTS]; j >= 0 {
+			r.ts, r.tsErr = c.p.parseTSText(rec[j])
+		}
 		if col, reason := c.p.check(r); reason != nil {
-			line, _ := c.cr.FieldPos(c.field[col])
-			return n, c.p.rowError(c.file, int64(line), -1, r, col, reason)
+			line, _ := c.cr.FieldPos(max(c.field[col], 0))
+			if err := a.bad(c.p.badRow(c.file, int64(line), -1, r, col, reason)); err != nil {
+				return n, err
+			}
+			continue
 		}
 		b.append(r)
 		n++
@@ -97,21 +127,9 @@ func (c *csvReader) read(b *batchBuilder, max int, st *Stats) (int, error) {
 	return n, nil
 }
 
-// parseTS decodes a ts cell; see csvReader.
-func (c *csvReader) parseTS(s string) (int64, error) {
-	if s == "" {
-		return 0, ErrNullTimestamp
+func (c *csvReader) close() error {
+	if c.gz != nil {
+		c.gz.Close()
 	}
-	if c.p.epochUnit != 0 {
-		if v, err := strconv.ParseInt(s, 10, 64); err == nil {
-			ns, ok := fromEpoch(v, c.p.epochUnit)
-			if !ok {
-				return 0, ErrTimestampRange
-			}
-			return ns, nil
-		}
-	}
-	return parseTimestamp(s)
+	return c.src.Close()
 }
-
-func (c *csvReader) close() error { return c.src.Close() }

@@ -19,9 +19,104 @@ var (
 	ErrFieldCount     = errors.New("wrong number of fields")
 )
 
+// Reason names of the row sentinels, as Stats.BadRows and the readout's
+// diagnostics spell them. They are stable: scripts may match on them.
+const (
+	ReasonNullUser           = "null_user"              // ErrNullUser
+	ReasonNullTimestamp      = "null_timestamp"         // ErrNullTimestamp
+	ReasonBadTimestamp       = "bad_timestamp"          // ErrBadTimestamp
+	ReasonTimestampRange     = "timestamp_out_of_range" // ErrTimestampRange
+	ReasonNullEvent          = "null_event"             // ErrNullEvent
+	ReasonExposureWithoutArm = "exposure_without_arm"   // ErrNoArm
+	ReasonWrongFieldCount    = "wrong_field_count"      // ErrFieldCount
+)
+
+// numReasons is the number of row sentinels; reasonIndex numbers them in
+// the order of the Reason constants, which is the order of Stats.BadRows.
+const numReasons = 7
+
+// reasonIndex returns the position of a row sentinel, or -1.
+func reasonIndex(err error) int {
+	switch err {
+	case ErrNullUser:
+		return 0
+	case ErrNullTimestamp:
+		return 1
+	case ErrBadTimestamp:
+		return 2
+	case ErrTimestampRange:
+		return 3
+	case ErrNullEvent:
+		return 4
+	case ErrNoArm:
+		return 5
+	case ErrFieldCount:
+		return 6
+	}
+	return -1
+}
+
+// reasonName returns the reason name at position i of reasonIndex.
+func reasonName(i int) string {
+	switch i {
+	case 0:
+		return ReasonNullUser
+	case 1:
+		return ReasonNullTimestamp
+	case 2:
+		return ReasonBadTimestamp
+	case 3:
+		return ReasonTimestampRange
+	case 4:
+		return ReasonNullEvent
+	case 5:
+		return ReasonExposureWithoutArm
+	case 6:
+		return ReasonWrongFieldCount
+	}
+	return ""
+}
+
+// Reason returns the reason name (ReasonNullUser, ...) of a bad-row error:
+// an error for which errors.Is matches one of the row sentinels, such as a
+// *RowError. For any other error it returns "".
+func Reason(err error) string {
+	for i := 0; i < numReasons; i++ {
+		if s := reasonSentinel(i); errors.Is(err, s) {
+			return reasonName(i)
+		}
+	}
+	return ""
+}
+
+func reasonSentinel(i int) error {
+	switch i {
+	case 0:
+		return ErrNullUser
+	case 1:
+		return ErrNullTimestamp
+	case 2:
+		return ErrBadTimestamp
+	case 3:
+		return ErrTimestampRange
+	case 4:
+		return ErrNullEvent
+	case 5:
+		return ErrNoArm
+	case 6:
+		return ErrFieldCount
+	}
+	return nil
+}
+
 // Reasons a whole file cannot be read. A *ColumnError returns one of these
-// from Unwrap.
+// from Unwrap; ErrCorrupt is wrapped by the errors about a Parquet file whose
+// metadata contradicts itself or its pages.
 var (
+	// ErrCorrupt: a Parquet file claims something that is not so (a
+	// column chunk of another column or type, a value count that does not
+	// match the rows, offsets outside the file).
+	ErrCorrupt = errors.New("corrupt parquet file")
 	// ErrMissingColumn: a mapped column is not in the file.
 	ErrMissingColumn = errors.New("missing column")
 	// ErrColumnType: a mapped column has a type that cannot be read as its
@@ -90,6 +185,60 @@ func (e *RowError) Error() string {
 // Unwrap returns the reason.
 func (e *RowError) Unwrap() error { return e.Err }
 
+// Reason returns the reason's name, such as "null_user".
+func (e *RowError) Reason() string { return reasonName(reasonIndex(e.Err)) }
+
+// ErrBudgetExceeded is returned (inside a *BudgetError) when the bad rows
+// exceed the error budget of Options.MaxBadRows or Options.MaxBadShare.
+var ErrBudgetExceeded = errors.New("bad-row budget exceeded")
+
+// BudgetError reports bad rows beyond the error budget. It prints as
+//
+//	bad-row budget exceeded: 101 bad rows, more than the 100 allowed (max bad rows); last bad row: events.csv:1042: column "ts": ...
+//	bad-row budget exceeded: 3 bad rows of 10 read (30%), more than the 10% allowed (max bad share); last bad row: ...
+//
+// errors.Is matches ErrBudgetExceeded and the last bad row's reason;
+// errors.As finds Last.
+type BudgetError struct {
+	// MaxBadRows is the count limit that was exceeded, or 0 when the
+	// share limit was.
+	MaxBadRows int64
+	// MaxBadShare is the share limit that was exceeded, or 0.
+	MaxBadShare float64
+	// BadRows is the number of bad rows so far, RowsRead the number of
+	// rows read, good or bad.
+	BadRows, RowsRead int64
+	// Last is the last bad row.
+	Last *RowError
+}
+
+func (e *BudgetError) Error() string {
+	var b strings.Builder
+	b.WriteString(ErrBudgetExceeded.Error())
+	if e.MaxBadShare > 0 {
+		fmt.Fprintf(&b, ": %d bad rows of %d read (%s), more than the %s allowed (max bad share)",
+			e.BadRows, e.RowsRead, percent(float64(e.BadRows)/float64(e.RowsRead)), percent(e.MaxBadShare))
+	} else {
+		fmt.Fprintf(&b, ": %d bad rows, more than the %d allowed (max bad rows)", e.BadRows, e.MaxBadRows)
+	}
+	if e.Last != nil {
+		b.WriteString("; last bad row: ")
+		b.WriteString(e.Last.Error())
+	}
+	return b.String()
+}
+
+// percent writes a share as a percentage with up to 4 significant digits.
+func percent(x float64) string { return strconv.FormatFloat(100*x, 'g', 4, 64) + "%" }
+
+// Unwrap returns ErrBudgetExceeded and the last bad row.
+func (e *BudgetError) Unwrap() []error {
+	if e.Last == nil {
+		return []error{ErrBudgetExceeded}
+	}
+	return []error{ErrBudgetExceeded, e.Last}
+}
+
 // ColumnError reports a mapped column that a file lacks or that has a type
 // the reader cannot use. It prints as
 //
@@ -114,7 +263,12 @@ func (e *ColumnError) Error() string {
 // Unwrap returns the reason.
 func (e *ColumnError) Unwrap() error { return e.Err }
 
-func missingColumn(file, column string, available []string) *ColumnError {
-	return &ColumnError{File: file, Column: column, Err: ErrMissingColumn,
-		Detail: "the file has: " + strings.Join(available, ", ")}
+// missingColumn reports a mapped column that is neither a column of the file
+// nor one of its partition keys.
+func missingColumn(file, column string, available, partitions []string) *ColumnError {
+	d := "the file has: " + strings.Join(available, ", ")
+	if len(partitions) > 0 {
+		d += "; partition keys: " + strings.Join(partitions, ", ")
+	}
+	return &ColumnError{File: file, Column: column, Err: ErrMissingColumn, Detail: d}
 }

@@ -31,7 +31,8 @@ type parquetReader struct {
 	src  *openedSource
 	pf   *parquet.File
 	p    *plan
-	cols []*pqColumn // per logical column
+	cols []*pqColumn // per logical column; nil for a partition column
+	part partitionCols
 
 	rowGroups []parquet.RowGroup
 	rg        int   // current row group, or -1 before the first
@@ -60,10 +61,13 @@ const (
 
 // pqColumn is the reading state of one mapped column in the current row group.
 type pqColumn struct {
-	name    string // physical
-	index   int    // leaf column index in the file
+	name    string   // physical
+	index   int      // leaf column index in the file
+	path    []string // path in the schema
+	typ     parquet.Type
 	kind    valueKind
 	unit    int64 // nanoseconds per unit for kindTSEpoch*
+	p       *plan // for text timestamps
 	scratch []byte
 
 	pages parquet.Pages
@@ -81,7 +85,8 @@ var errColumnShort = errors.New("fewer values than rows")
 // errPanicked marks an error made from a panic in parquet-go.
 var errPanicked = errors.New("parquet-go panicked")
 
-func newParquetReader(file string, src *openedSource, p *plan) (pr *parquetReader, err error) {
+func newParquetReader(source Source, src *openedSource, p *plan) (pr *parquetReader, err error) {
+	file := source.Name
 	var pf *parquet.File
 	func() {
 		// Last-resort guard: parquet-go may panic on a corrupt footer.
@@ -113,7 +118,11 @@ func newParquetReader(file string, src *openedSource, p *plan) (pr *parquetReade
 				return nil, &ColumnError{File: file, Column: name, Err: ErrColumnType,
 					Detail: "a group: name one of its fields as " + name + ".field"}
 			}
-			return nil, missingColumn(file, name, top)
+			if r.part.set(p, source, i) {
+				r.cols = append(r.cols, nil)
+				continue
+			}
+			return nil, missingColumn(file, name, top, source.partitionKeys())
 		}
 		if leaf.MaxRepetitionLevel > 0 {
 			return nil, &ColumnError{File: file, Column: name, Err: ErrColumnType, Detail: "a repeated column"}
@@ -123,7 +132,7 @@ func newParquetReader(file string, src *openedSource, p *plan) (pr *parquetReade
 			return nil, &ColumnError{File: file, Column: name, Err: ErrColumnType, Detail: detail}
 		}
 		r.cols = append(r.cols, &pqColumn{name: name, index: leaf.ColumnIndex, kind: kind, unit: unit,
-			buf: make([]parquet.Value, 1024)})
+			path: schema.Columns()[leaf.ColumnIndex], typ: leaf.Node.Type(), p: p, buf: make([]parquet.Value, 1024)})
 	}
 	r.row.cells = make([]cell, len(p.physical))
 	return r, nil
@@ -249,7 +258,7 @@ func columnKind(t parquet.Type, isTS bool, epochUnit int64) (valueKind, int64, s
 	return 0, 0, "cannot read " + physical + " as a timestamp"
 }
 
-func (r *parquetReader) read(b *batchBuilder, max int, st *Stats) (n int, err error) {
+func (r *parquetReader) read(b *batchBuilder, limit int, a *accounting) (n int, err error) {
 	defer func() {
 		// Last-resort guard: parquet-go may panic while decoding the pages
 		// of a corrupt row group. Turn that into an error naming the file
@@ -258,15 +267,19 @@ func (r *parquetReader) read(b *batchBuilder, max int, st *Stats) (n int, err er
 			err = fmt.Errorf("%s: row group %d: corrupt parquet data: %w: %v", r.file, r.rg, errPanicked, v)
 		}
 	}()
-	for n < max {
+	row := &r.row
+	for n < limit {
 		if r.rg < 0 || r.rgDone == r.rgRows {
 			if err := r.nextRowGroup(); err != nil {
 				return n, err
 			}
 			continue
 		}
-		row := &r.row
+		r.part.fill(row)
 		for i, c := range r.cols {
+			if c == nil {
+				continue
+			}
 			v, err := c.next()
 			if err != nil {
 				if err == errColumnShort {
@@ -281,9 +294,12 @@ func (r *parquetReader) read(b *batchBuilder, max int, st *Stats) (n int, err er
 			row.cells[i] = c.text(v)
 		}
 		r.rgDone++
-		st.RowsRead++
+		a.rowsRead++
 		if col, reason := r.p.check(row); reason != nil {
-			return n, r.p.rowError(r.file, r.rowBase+r.rgDone, r.rg, row, col, reason)
+			if err := a.bad(r.p.badRow(r.file, r.rowBase+r.rgDone, r.rg, row, col, reason)); err != nil {
+				return n, err
+			}
+			continue
 		}
 		b.append(row)
 		n++
@@ -296,10 +312,13 @@ func (r *parquetReader) read(b *batchBuilder, max int, st *Stats) (n int, err er
 func (r *parquetReader) nextRowGroup() error {
 	if r.rg >= 0 {
 		for _, c := range r.cols {
+			if c == nil {
+				continue
+			}
 			// A column with values beyond the row group's rows is corrupt.
 			if _, err := c.next(); err != errColumnShort {
 				if err == nil {
-					err = fmt.Errorf("more values than the %d rows of the row group", r.rgRows)
+					err = fmt.Errorf("%w: more values than the %d rows of the row group", ErrCorrupt, r.rgRows)
 				}
 				return fmt.Errorf("%s: row group %d: column %q: %w", r.file, r.rg, c.name, err)
 			}
@@ -314,12 +333,18 @@ func (r *parquetReader) nextRowGroup() error {
 	g := r.rowGroups[r.rg]
 	r.rgRows, r.rgDone = g.NumRows(), 0
 	if r.rgRows < 0 {
-		return fmt.Errorf("%s: row group %d: corrupt parquet metadata: %d rows", r.file, r.rg, r.rgRows)
+		return fmt.Errorf("%s: row group %d: %w: %d rows", r.file, r.rg, ErrCorrupt, r.rgRows)
 	}
 	chunks := g.ColumnChunks()
 	for _, c := range r.cols {
+		if c == nil {
+			continue
+		}
 		if c.index < 0 || c.index >= len(chunks) {
-			return fmt.Errorf("%s: row group %d: column %q: no column chunk", r.file, r.rg, c.name)
+			return fmt.Errorf("%s: row group %d: column %q: %w: no column chunk", r.file, r.rg, c.name, ErrCorrupt)
+		}
+		if err := r.checkChunk(c); err != nil {
+			return fmt.Errorf("%s: row group %d: column %q: %w", r.file, r.rg, c.name, err)
 		}
 		c.pages = chunks[c.index].Pages()
 		c.pos, c.n = 0, 0
@@ -327,9 +352,46 @@ func (r *parquetReader) nextRowGroup() error {
 	return nil
 }
 
+// checkChunk compares what the file's metadata says about the column chunk
+// of c in the current row group with the schema and the row group: the
+// chunk must be of the same column and physical type, lie inside the file,
+// and, the column being non-repeated,
+// hold one value (or null) per row. The pages are checked against the
+// chunk as they are read (one value per row, no more, no fewer).
+func (r *parquetReader) checkChunk(c *pqColumn) error {
+	groups := r.pf.Metadata().RowGroups
+	if r.rg >= len(groups) || c.index >= len(groups[r.rg].Columns) {
+		return fmt.Errorf("%w: no column chunk metadata", ErrCorrupt)
+	}
+	cc := &groups[r.rg].Columns[c.index]
+	md := &cc.MetaData
+	if !slices.Equal(md.PathInSchema, c.path) {
+		return fmt.Errorf("%w: the column chunk's metadata names column %q, the schema %q",
+			ErrCorrupt, strings.Join(md.PathInSchema, "."), strings.Join(c.path, "."))
+	}
+	if want := c.typ.Kind(); int32(md.Type) != int32(want) {
+		return fmt.Errorf("%w: the column chunk's metadata gives type %v, the schema %v", ErrCorrupt, md.Type, want)
+	}
+	if md.NumValues != r.rgRows {
+		return fmt.Errorf("%w: the column chunk claims %d values, the row group %d rows (a non-repeated column has one per row)",
+			ErrCorrupt, md.NumValues, r.rgRows)
+	}
+	start := md.DataPageOffset
+	if md.DictionaryPageOffset > 0 && md.DictionaryPageOffset < start {
+		start = md.DictionaryPageOffset
+	}
+	if start < 4 || md.TotalCompressedSize < 0 || start > r.src.size-md.TotalCompressedSize {
+		return fmt.Errorf("%w: the column chunk's bytes (offset %d, %d bytes) lie outside the file of %d bytes",
+			ErrCorrupt, start, md.TotalCompressedSize, r.src.size)
+	}
+	return nil
+}
+
 func (r *parquetReader) close() error {
 	for _, c := range r.cols {
-		c.closePages()
+		if c != nil {
+			c.closePages()
+		}
 	}
 	return r.src.Close()
 }
@@ -422,7 +484,7 @@ func (c *pqColumn) timestamp(v parquet.Value) (int64, error, cell) {
 	switch c.kind {
 	case kindTSText:
 		b := v.ByteArray()
-		ns, err := ParseTimestamp(b)
+		ns, err := c.p.parseTSText(unsafe.String(unsafe.SliceData(b), len(b)))
 		if err != nil {
 			return 0, err, cell{s: string(b)}
 		}

@@ -4,7 +4,9 @@ import (
 	"errors"
 	"fmt"
 	"io"
+	"strconv"
 	"strings"
+	"unicode/utf8"
 	"unsafe"
 
 	"github.com/apache/arrow-go/v18/arrow"
@@ -15,6 +17,14 @@ import (
 )
 
 // Mapping names the physical columns that hold the logical columns.
+//
+// A name that is not a column of a file but is one of its source's partition
+// keys (see Source.Partitions) takes the partition's value on every row of
+// that file, for any logical column (a ts partition value is parsed like a
+// CSV cell). When a file has a column of that name and a partition key of
+// the same name, the file's column wins: the rows are what was written, the
+// folder name may be stale. A name that is neither is a missing column
+// (ErrMissingColumn) naming the file.
 type Mapping struct {
 	// Physical column names. Experiment and Arm may be "" when the data
 	// has no such column; the logical table then lacks it too.
@@ -24,9 +34,9 @@ type Mapping struct {
 	Segments []string
 	// EpochUnit is the unit of integer timestamps: "s", "ms", "us" or
 	// "ns". It applies to integer Parquet columns without a TIMESTAMP or
-	// DATE annotation and to CSV cells that are plain integers. With ""
-	// such a Parquet column is an error that asks for a unit, and such a
-	// CSV cell is a bad timestamp.
+	// DATE annotation and to text (CSV cells, Parquet strings, partition
+	// values) that is a plain integer. With "" such a Parquet column is an
+	// error that asks for a unit, and such text is a bad timestamp.
 	EpochUnit string
 }
 
@@ -35,6 +45,9 @@ type Mapping struct {
 func DefaultMapping() Mapping {
 	return Mapping{User: "user_id", TS: "ts", Event: "event", Experiment: "experiment", Arm: "arm"}
 }
+
+// NoLimit as Options.MaxBadRows skips and counts every bad row.
+const NoLimit = -1
 
 // Options configures a Reader.
 type Options struct {
@@ -48,6 +61,27 @@ type Options struct {
 	// Allocator allocates the record batches; nil means
 	// memory.DefaultAllocator.
 	Allocator memory.Allocator
+	// Delimiter separates CSV fields; 0 means ','. It may be '\t' or any
+	// other rune except '"', '\r', '\n' and utf8.RuneError.
+	Delimiter rune
+
+	// MaxBadRows and MaxBadShare are the error budget. With both zero (the
+	// default) the first bad row stops the reader with its *RowError.
+	// Otherwise bad rows are left out of the batches and counted by reason
+	// in Stats, and the reader stops with a *BudgetError
+	//
+	//   - as soon as the bad rows number more than MaxBadRows, when it is
+	//     positive (NoLimit, -1, sets no count limit);
+	//   - at the end of the input, when the bad rows are more than
+	//     MaxBadShare of the rows read, when it is positive (a share can only
+	//     be judged once every row is in: rows still to come could bring it
+	//     under). 1 allows any share.
+	//
+	// So MaxBadRows: NoLimit alone skips every bad row and only counts it.
+	// A malformed CSV file (a bare or unclosed quote) or a corrupt Parquet
+	// file is not a bad row: it always stops the reader.
+	MaxBadRows  int64
+	MaxBadShare float64
 }
 
 // DefaultBatchSize is the number of rows per record batch when
@@ -63,6 +97,14 @@ type Stats struct {
 	RowsRead int64
 	// Rows is the number of rows delivered in record batches.
 	Rows int64
+	// BadRows counts the bad rows by reason (the Reason constants), in the
+	// order of those constants, leaving out reasons with no rows. It
+	// includes a bad row that stopped the reader. After a clean end,
+	// RowsRead = Rows + the sum of BadRows.
+	BadRows []experiment.ReasonCount
+	// BadRowExamples holds the first bad row of each reason:
+	// BadRowExamples[i] is the first of BadRows[i].Reason.
+	BadRowExamples []*RowError
 }
 
 // Reader reads sources one after another and returns their rows as Arrow
@@ -76,9 +118,10 @@ type Stats struct {
 //	<segment>   utf8, nullable             one per Mapping.Segments entry
 //
 // An empty experiment, arm or segment value becomes null. A batch holds rows
-// of one source only, in file order. The first bad row stops the reader:
-// Next returns false and Err returns a *RowError. Sources are opened one at
-// a time, when their first row is needed.
+// of one source only, in file order. Without an error budget the first bad
+// row stops the reader: Next returns false and Err returns a *RowError; with
+// one (Options.MaxBadRows, MaxBadShare) bad rows are skipped and counted.
+// Sources are opened one at a time, when their first row is needed.
 //
 // A Reader is not safe for concurrent use.
 type Reader struct {
@@ -92,15 +135,18 @@ type Reader struct {
 	bld    *batchBuilder
 	rec    arrow.RecordBatch
 	err    error
-	stats  Stats
+	acct   accounting
+	ended  bool // the end-of-input budget check is done
 	closed bool
 }
 
 // fileReader reads the rows of one source.
 type fileReader interface {
 	// read appends up to max valid rows to b and returns how many it
-	// appended. At the end of the source it returns io.EOF (n may be > 0).
-	read(b *batchBuilder, max int, st *Stats) (n int, err error)
+	// appended. It counts every row in a and reports each bad one to
+	// a.bad, stopping when that returns an error. At the end of the
+	// source it returns io.EOF (n may be > 0).
+	read(b *batchBuilder, max int, a *accounting) (n int, err error)
 	close() error
 }
 
@@ -110,7 +156,7 @@ type fileReader interface {
 func NewReader(sources []Source, opts Options) (*Reader, error) {
 	for _, s := range sources {
 		if s.kind == 0 {
-			return nil, fmt.Errorf("%s: unknown file type (want .csv, .parquet or .parq)", s.Name)
+			return nil, fmt.Errorf("%s: unknown file type (want %s)", s.Name, knownTypes)
 		}
 	}
 	p, err := newPlan(opts)
@@ -128,7 +174,17 @@ func NewReader(sources []Source, opts Options) (*Reader, error) {
 	if bs < 0 {
 		return nil, fmt.Errorf("batch size %d: must be positive", bs)
 	}
-	return &Reader{sources: sources, plan: p, mem: mem, batchSize: bs}, nil
+	if opts.MaxBadRows < NoLimit {
+		return nil, fmt.Errorf("max bad rows %d: want a positive count, 0 or %d (no limit)", opts.MaxBadRows, NoLimit)
+	}
+	if !(opts.MaxBadShare >= 0 && opts.MaxBadShare <= 1) { // also NaN
+		return nil, fmt.Errorf("max bad share %v: want a share from 0 to 1", opts.MaxBadShare)
+	}
+	r := &Reader{sources: sources, plan: p, mem: mem, batchSize: bs}
+	r.acct.budget = opts.MaxBadRows != 0 || opts.MaxBadShare != 0
+	r.acct.maxRows = max(opts.MaxBadRows, 0)
+	r.acct.maxShare = opts.MaxBadShare
+	return r, nil
 }
 
 // Schema returns the schema of the record batches.
@@ -150,6 +206,10 @@ func (r *Reader) Next() bool {
 	for {
 		if r.cur == nil {
 			if r.next >= len(r.sources) {
+				if !r.ended {
+					r.ended = true
+					r.err = r.acct.endCheck()
+				}
 				return false
 			}
 			src := r.sources[r.next]
@@ -159,10 +219,10 @@ func (r *Reader) Next() bool {
 				r.err = err
 				return false
 			}
-			r.stats.Files++
+			r.acct.files++
 			r.cur = fr
 		}
-		n, err := r.cur.read(r.bld, r.batchSize, &r.stats)
+		n, err := r.cur.read(r.bld, r.batchSize, &r.acct)
 		if err == io.EOF {
 			err = r.cur.close()
 			r.cur = nil
@@ -174,7 +234,7 @@ func (r *Reader) Next() bool {
 		}
 		if n > 0 {
 			r.rec = r.bld.newRecord()
-			r.stats.Rows += int64(n)
+			r.acct.rows += int64(n)
 			return true
 		}
 	}
@@ -185,12 +245,14 @@ func (r *Reader) Next() bool {
 func (r *Reader) Record() arrow.RecordBatch { return r.rec }
 
 // Err returns the error that stopped the reader, or nil at a clean end. A
-// bad row gives a *RowError, a missing or unusable column a *ColumnError;
-// Parquet decoding errors wrap parquet-go's errors.
+// bad row gives a *RowError (without a budget), a budget exceeded a
+// *BudgetError, a missing or unusable column a *ColumnError; Parquet
+// decoding errors wrap parquet-go's errors or ErrCorrupt, CSV syntax errors
+// a *csv.ParseError.
 func (r *Reader) Err() error { return r.err }
 
-// Stats returns the counts so far.
-func (r *Reader) Stats() Stats { return r.stats }
+// Stats returns the counts so far. The slices are the caller's.
+func (r *Reader) Stats() Stats { return r.acct.stats() }
 
 // Close releases the current batch and closes the open source. It does not
 // report earlier read errors; use Err.
@@ -223,9 +285,9 @@ func openFile(src Source, p *plan) (fileReader, error) {
 	var fr fileReader
 	switch src.kind {
 	case formatCSV:
-		fr, err = newCSVReader(src.Name, o, p)
+		fr, err = newCSVReader(src, o, p)
 	case formatParquet:
-		fr, err = newParquetReader(src.Name, o, p)
+		fr, err = newParquetReader(src, o, p)
 	default:
 		err = fmt.Errorf("%s: unknown file type", src.Name)
 	}
@@ -234,6 +296,92 @@ func openFile(src Source, p *plan) (fileReader, error) {
 		return nil, err
 	}
 	return fr, nil
+}
+
+// accounting counts rows and bad rows and holds the error budget.
+type accounting struct {
+	files    int
+	rowsRead int64
+	rows     int64
+
+	badBy    [numReasons]int64
+	badTotal int64
+	first    [numReasons]*RowError
+	last     badRow // the last bad row; value copied into lastVal
+	lastVal  []byte
+
+	budget   bool
+	maxRows  int64   // 0: no count limit
+	maxShare float64 // 0: no share limit
+}
+
+// badRow describes a bad row for accounting.bad. value may point into a
+// reader's buffers; it is copied.
+type badRow struct {
+	file       string
+	row        int64
+	rowGroup   int
+	column     string
+	value      string
+	reason     error
+	wantFields int
+}
+
+func (b *badRow) rowError() *RowError {
+	return &RowError{File: b.file, Row: b.row, RowGroup: b.rowGroup, Column: b.column,
+		Value: strings.Clone(b.value), Err: b.reason, wantFields: b.wantFields}
+}
+
+// bad counts a bad row. It returns nil when the row is to be skipped, and
+// the error that stops the reader otherwise.
+func (a *accounting) bad(b badRow) error {
+	i := reasonIndex(b.reason)
+	if i < 0 {
+		// Not a row reason: a programming error upstream; stop.
+		return fmt.Errorf("%s:%d: %w", b.file, b.row, b.reason)
+	}
+	a.badBy[i]++
+	a.badTotal++
+	if a.first[i] == nil {
+		a.first[i] = b.rowError()
+	}
+	if !a.budget {
+		return b.rowError()
+	}
+	a.lastVal = append(a.lastVal[:0], b.value...)
+	a.last = b
+	a.last.value = ""
+	if a.maxRows > 0 && a.badTotal > a.maxRows {
+		return &BudgetError{MaxBadRows: a.maxRows, BadRows: a.badTotal, RowsRead: a.rowsRead, Last: a.lastError()}
+	}
+	return nil
+}
+
+func (a *accounting) lastError() *RowError {
+	e := a.last.rowError()
+	e.Value = string(a.lastVal)
+	return e
+}
+
+// endCheck applies the share limit once all rows are read.
+func (a *accounting) endCheck() error {
+	if a.maxShare > 0 && a.badTotal > 0 && float64(a.badTotal) > a.maxShare*float64(a.rowsRead) {
+		return &BudgetError{MaxBadShare: a.maxShare, BadRows: a.badTotal, RowsRead: a.rowsRead, Last: a.lastError()}
+	}
+	return nil
+}
+
+func (a *accounting) stats() Stats {
+	st := Stats{Files: a.files, RowsRead: a.rowsRead, Rows: a.rows}
+	for i, n := range a.badBy {
+		if n == 0 {
+			continue
+		}
+		st.BadRows = append(st.BadRows, experiment.ReasonCount{Reason: reasonName(i), Count: n})
+		e := *a.first[i]
+		st.BadRowExamples = append(st.BadRowExamples, &e)
+	}
+	return st
 }
 
 // Positions of the logical columns in a row. The optional experiment and arm
@@ -254,6 +402,7 @@ type plan struct {
 	armCol    int      // position of arm, or -1
 	epochUnit int64    // nanoseconds per epoch unit, 0 when unset
 	exposure  string
+	delimiter rune
 	schema    *arrow.Schema
 }
 
@@ -264,7 +413,13 @@ func newPlan(opts Options) (*plan, error) {
 			return nil, fmt.Errorf("column mapping: no column named for %s", c.name)
 		}
 	}
-	p := &plan{expCol: -1, armCol: -1, exposure: opts.ExposureEvent}
+	p := &plan{expCol: -1, armCol: -1, exposure: opts.ExposureEvent, delimiter: ','}
+	if d := opts.Delimiter; d != 0 {
+		if d == '"' || d == '\r' || d == '\n' || d == utf8.RuneError || !utf8.ValidRune(d) {
+			return nil, fmt.Errorf("CSV delimiter %q: cannot be a quote, a line end or an invalid rune", d)
+		}
+		p.delimiter = d
+	}
 	if m.EpochUnit != "" {
 		p.epochUnit = epochUnitNanos(m.EpochUnit)
 		if p.epochUnit == 0 {
@@ -396,11 +551,70 @@ func (b *batchBuilder) discard() { b.rb.NewRecordBatch().Release() }
 
 func (b *batchBuilder) release() { b.rb.Release() }
 
-// rowError builds the error for a row that plan.check rejected.
-func (p *plan) rowError(file string, pos int64, rowGroup int, r *row, col int, reason error) *RowError {
-	e := &RowError{File: file, Row: pos, RowGroup: rowGroup, Column: p.physical[col], Err: reason}
-	if c := r.cells[col]; !c.null {
-		e.Value = strings.Clone(c.s) // c.s may point into a reader's buffers
+// badRow describes a row that plan.check rejected; the value may point into
+// the reader's buffers.
+func (p *plan) badRow(file string, pos int64, rowGroup int, r *row, col int, reason error) badRow {
+	return badRow{file: file, row: pos, rowGroup: rowGroup, column: p.physical[col], value: r.cells[col].s, reason: reason}
+}
+
+// parseTSText parses a timestamp written as text: a CSV cell, a Parquet
+// string or a partition value. With an epoch unit, a plain integer is a
+// count of that unit since the epoch; anything else goes to ParseTimestamp.
+func (p *plan) parseTSText(s string) (int64, error) {
+	if s == "" {
+		return 0, ErrNullTimestamp
 	}
-	return e
+	if p.epochUnit != 0 {
+		if v, err := strconv.ParseInt(s, 10, 64); err == nil {
+			ns, ok := fromEpoch(v, p.epochUnit)
+			if !ok {
+				return 0, ErrTimestampRange
+			}
+			return ns, nil
+		}
+	}
+	return parseTimestamp(s)
+}
+
+// partitionCols holds the logical columns that a source supplies from its
+// partitions rather than from the file (see Mapping).
+type partitionCols struct {
+	from  []bool // per logical column: taken from a partition
+	cells []cell // the partition's value, where from is true
+	ts    int64  // the ts value when from[colTS]
+	tsErr error
+}
+
+// set makes logical column i a constant from the source's
+// partition of that name, or reports that it has none.
+func (pc *partitionCols) set(p *plan, src Source, i int) bool {
+	v, ok := src.partition(p.physical[i])
+	if !ok {
+		return false
+	}
+	if pc.from == nil {
+		pc.from = make([]bool, len(p.physical))
+		pc.cells = make([]cell, len(p.physical))
+	}
+	pc.from[i] = true
+	pc.cells[i] = cell{s: v}
+	if i == colTS {
+		pc.ts, pc.tsErr = p.parseTSText(v)
+	}
+	return true
+}
+
+// fill sets the partition columns of a row.
+func (pc *partitionCols) fill(r *row) {
+	if pc.from == nil {
+		return
+	}
+	for i, f := range pc.from {
+		if f {
+			r.cells[i] = pc.cells[i]
+		}
+	}
+	if pc.from[colTS] {
+		r.ts, r.tsErr = pc.ts, pc.tsErr
+	}
 }

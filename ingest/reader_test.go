@@ -121,7 +121,7 @@ func TestNewReaderOptionErrors(t *testing.T) {
 		{"epoch unit", nil, Options{Mapping: badUnit}, `epoch unit "minutes": want s, ms, us or ns`},
 		{"batch size", nil, Options{Mapping: DefaultMapping(), BatchSize: -1}, "batch size -1: must be positive"},
 		{"extension", []Source{BytesSource("events.json", nil)}, Options{Mapping: DefaultMapping()},
-			"events.json: unknown file type (want .csv, .parquet or .parq)"},
+			"events.json: unknown file type (want .csv, .csv.gz, .parquet or .parq)"},
 	}
 	for _, tc := range tests {
 		t.Run(tc.name, func(t *testing.T) {
