@@ -9,7 +9,6 @@ import (
 	"github.com/spf13/pflag"
 
 	"github.com/armtally/armtally/experiment"
-	"github.com/armtally/armtally/experiment/stats"
 	"github.com/armtally/armtally/ingest"
 	"github.com/armtally/armtally/report"
 	"github.com/armtally/armtally/sampledata"
@@ -70,6 +69,7 @@ type analyzeFlags struct {
 	srThreshold                              float64
 	out, jsonOut                             string
 	failOnSampleRatio                        bool
+	spec                                     string
 }
 
 func newAnalyzeFlagSet(f *analyzeFlags, stderr io.Writer) *pflag.FlagSet {
@@ -77,6 +77,7 @@ func newAnalyzeFlagSet(f *analyzeFlags, stderr io.Writer) *pflag.FlagSet {
 	fs.SetOutput(stderr)
 	fs.SortFlags = false
 	m := ingest.DefaultMapping()
+	fs.StringVar(&f.spec, "spec", "", "read the input, column mapping, outputs and experiments from this TOML spec file (see armtally help spec); flags you give override it")
 	fs.BoolVar(&f.demo, "demo", false, "analyse the embedded demo event log (its experiment, metrics and window are the defaults)")
 	fs.StringVar(&f.experiment, "experiment", "", "experiment key on exposure rows (required when the log holds several experiments)")
 	fs.StringVar(&f.exposureEvent, "exposure-event", "exposure", "event name of exposure rows")
@@ -110,167 +111,310 @@ func newAnalyzeFlagSet(f *analyzeFlags, stderr io.Writer) *pflag.FlagSet {
 	return fs
 }
 
-// parseAnalyze parses the analyze command line into a spec, the analysis
-// options, the sources and the flags.
-func parseAnalyze(args []string, stdout, stderr io.Writer) (experiment.Spec, experiment.AnalysisOptions, []ingest.Source, analyzeFlags, error) {
+// analyzeRun is what one analyze run does: read the sources once with the
+// mapping, tally and analyse each experiment, and write the readouts.
+type analyzeRun struct {
+	sources           []ingest.Source
+	mapping           ingest.Mapping
+	experiments       []builtExperiment
+	out, jsonOut      string
+	failOnSampleRatio bool
+}
+
+// builtExperiment is one experiment of a run, checked.
+type builtExperiment struct {
+	spec experiment.Spec
+	opts experiment.AnalysisOptions
+}
+
+// parseAnalyze parses the analyze command line, and the spec file it
+// names, into a run. Flags the user set override the spec file's values.
+func parseAnalyze(args []string, stdout, stderr io.Writer) (*analyzeRun, error) {
 	var f analyzeFlags
-	var spec experiment.Spec
-	opts := experiment.DefaultAnalysisOptions()
 	fs := newAnalyzeFlagSet(&f, stderr)
 	if err := parseFlags(fs, args, analyzeUsage, stdout); err != nil {
-		return spec, opts, nil, f, err
+		return nil, err
 	}
-	var sources []ingest.Source
-	if f.demo {
-		if fs.NArg() > 0 {
-			return spec, opts, nil, f, usagef("analyze: --demo takes no input files (got %s)", strings.Join(fs.Args(), " "))
-		}
-		demoDefaults(fs, &f)
-		name, data := sampledata.Demo()
-		sources = []ingest.Source{ingest.BytesSource(name, data)}
-	} else {
-		if fs.NArg() == 0 {
-			return spec, opts, nil, f, usagef("analyze: name at least one input file or folder, or use --demo")
-		}
+	var sf *specFile
+	if f.spec != "" {
 		var err error
-		sources, err = ingest.FileSources(fs.Args())
+		if sf, err = readSpecFile(f.spec); err != nil {
+			return nil, err
+		}
+		if err := sf.unsupported(fs.NArg() > 0 || f.demo); err != nil {
+			return nil, err
+		}
+	}
+	run := &analyzeRun{}
+
+	// Experiments: the spec file's (those --experiment picks), or one
+	// made from the flags alone.
+	var exps []*expSettings
+	if sf == nil || len(sf.experiments) == 0 {
+		if f.demo {
+			demoDefaults(fs, &f)
+		}
+		e := newExpSettings()
+		if err := applyExperimentFlags(fs, &f, e, true); err != nil {
+			return nil, err
+		}
+		exps = append(exps, e)
+	} else {
+		exps = sf.experiments
+		if fs.Changed("experiment") {
+			exps = nil
+			var keys []string
+			for _, e := range sf.experiments {
+				keys = append(keys, e.key)
+				if e.key == f.experiment {
+					exps = append(exps, e)
+				}
+			}
+			if len(exps) == 0 {
+				return nil, usagef("analyze: --experiment %q: %s has no such experiment (it has %s)", f.experiment, sf.name, strings.Join(keys, ", "))
+			}
+		}
+		if len(exps) > 1 {
+			for _, name := range []string{"arms", "split"} {
+				if fs.Changed(name) {
+					return nil, usagef("analyze: --%s applies to one experiment, and %s has %d: choose one with --experiment", name, sf.name, len(exps))
+				}
+			}
+		}
+		for _, e := range exps {
+			if err := applyExperimentFlags(fs, &f, e, false); err != nil {
+				return nil, err
+			}
+		}
+	}
+	if err := applyLowerIsBetter(f.lowerIsBetter, exps); err != nil {
+		return nil, err
+	}
+	for _, e := range exps {
+		spec, opts, err := e.build()
 		if err != nil {
-			return spec, opts, nil, f, &dataError{err}
+			return nil, err
 		}
-		if len(sources) == 0 {
-			return spec, opts, nil, f, &dataError{fmt.Errorf("no .csv, .parquet or .parq files in %s", strings.Join(fs.Args(), ", "))}
-		}
+		run.experiments = append(run.experiments, builtExperiment{spec: spec, opts: opts})
 	}
 
-	spec.Key = f.experiment
-	spec.ExposureEvent = f.exposureEvent
-	spec.Control = f.control
-	if spec.ExposureEvent == "" || spec.Control == "" {
-		return spec, opts, nil, f, usagef("analyze: --exposure-event and --control must not be empty")
+	// Column mapping: the spec file's, then the flags.
+	run.mapping = ingest.DefaultMapping()
+	if sf != nil {
+		run.mapping = sf.mapping
 	}
-	if len(f.arms) > 0 {
+	for _, c := range []struct {
+		flag string
+		v    string
+		dst  *string
+	}{
+		{"user-col", f.userCol, &run.mapping.User},
+		{"ts-col", f.tsCol, &run.mapping.TS},
+		{"event-col", f.eventCol, &run.mapping.Event},
+		{"experiment-col", f.expCol, &run.mapping.Experiment},
+		{"arm-col", f.armCol, &run.mapping.Arm},
+		{"epoch-unit", f.epochUnit, &run.mapping.EpochUnit},
+	} {
+		if sf == nil || fs.Changed(c.flag) {
+			*c.dst = c.v
+		}
+	}
+	switch run.mapping.EpochUnit {
+	case "", "s", "ms", "us", "ns":
+	default:
+		return nil, usagef("analyze: --epoch-unit %q: want s, ms, us or ns", run.mapping.EpochUnit)
+	}
+
+	// Outputs: the spec file's, then the flags.
+	if sf != nil {
+		run.out, run.jsonOut = sf.markdown, sf.json
+		if sf.failOnSampleRatio != nil {
+			run.failOnSampleRatio = *sf.failOnSampleRatio
+		}
+	}
+	if sf == nil || fs.Changed("out") {
+		run.out = f.out
+	}
+	if sf == nil || fs.Changed("json") {
+		run.jsonOut = f.jsonOut
+	}
+	if sf == nil || fs.Changed("fail-on-sample-ratio") {
+		run.failOnSampleRatio = f.failOnSampleRatio
+	}
+
+	// Sources: --demo, the arguments, or the spec file's input.paths.
+	switch {
+	case f.demo:
+		if fs.NArg() > 0 {
+			return nil, usagef("analyze: --demo takes no input files (got %s)", strings.Join(fs.Args(), " "))
+		}
+		name, data := sampledata.Demo()
+		run.sources = []ingest.Source{ingest.BytesSource(name, data)}
+	default:
+		paths := fs.Args()
+		if len(paths) == 0 && sf != nil {
+			paths = sf.paths
+		}
+		if len(paths) == 0 {
+			if sf != nil {
+				return nil, usagef("analyze: name at least one input file or folder, in %s (input.paths) or on the command line", sf.name)
+			}
+			return nil, usagef("analyze: name at least one input file or folder, or use --demo")
+		}
+		var err error
+		run.sources, err = ingest.FileSources(paths)
+		if err != nil {
+			return nil, &dataError{err}
+		}
+		if len(run.sources) == 0 {
+			return nil, &dataError{fmt.Errorf("no .csv, .parquet or .parq files in %s", strings.Join(paths, ", "))}
+		}
+	}
+	return run, nil
+}
+
+// applyExperimentFlags applies the experiment flags to e: every flag when
+// all is set (no spec file, or one without experiments), otherwise only the
+// flags the user set, which override the file. --experiment sets the key
+// only when all is set; with a spec file it picks experiments instead.
+func applyExperimentFlags(fs *pflag.FlagSet, f *analyzeFlags, e *expSettings, all bool) error {
+	set := func(name string) bool { return all || fs.Changed(name) }
+	flag := func(name string) origin { return origin{flag: "--" + name} }
+	if all {
+		e.key = f.experiment
+		e.from["key"] = flag("experiment")
+	}
+	for _, s := range []struct {
+		flag, key string
+		v         string
+		dst       *string
+	}{{"exposure-event", "exposure_event", f.exposureEvent, &e.exposureEvent}, {"control", "control", f.control, &e.control}} {
+		if !set(s.flag) {
+			continue
+		}
+		if s.v == "" {
+			return usagef("analyze: --exposure-event and --control must not be empty")
+		}
+		*s.dst = s.v
+		e.from[s.key] = flag(s.flag)
+	}
+	if set("arms") {
+		e.arms, e.armsAddControl = nil, true
 		seen := map[string]bool{}
 		for _, a := range f.arms {
 			a = strings.TrimSpace(a)
 			if a == "" || seen[a] {
-				return spec, opts, nil, f, usagef("analyze: --arms %q: empty or repeated arm name", strings.Join(f.arms, ","))
+				return usagef("analyze: --arms %q: empty or repeated arm name", strings.Join(f.arms, ","))
 			}
 			seen[a] = true
-			spec.Arms = append(spec.Arms, a)
+			e.arms = append(e.arms, a)
 		}
-		if !seen[spec.Control] {
-			spec.Arms = append([]string{spec.Control}, spec.Arms...)
-		}
+		e.from["arms"] = flag("arms")
 	}
-	if f.split != "" {
-		if len(spec.Arms) == 0 {
-			return spec, opts, nil, f, usagef("analyze: --split needs --arms to say which arm each share belongs to")
+	if set("split") {
+		e.split = nil
+		if f.split != "" {
+			shares, err := parseShares(f.split)
+			if err != nil {
+				return usagef("analyze: %v", err)
+			}
+			e.split = shares
 		}
-		shares, err := parseShares(f.split)
-		if err != nil {
-			return spec, opts, nil, f, usagef("analyze: %v", err)
-		}
-		if len(shares) != len(spec.Arms) {
-			return spec, opts, nil, f, usagef("analyze: --split has %d shares for %d arms (%s)", len(shares), len(spec.Arms), strings.Join(spec.Arms, ", "))
-		}
-		spec.Split = shares
+		e.from["split"] = flag("split")
 	}
 	var err error
-	if spec.Start, err = parseTime("start", f.start); err != nil {
-		return spec, opts, nil, f, err
-	}
-	if spec.End, err = parseTime("end", f.end); err != nil {
-		return spec, opts, nil, f, err
-	}
-	if spec.Start != nil && spec.End != nil && !spec.Start.Before(*spec.End) {
-		return spec, opts, nil, f, usagef("analyze: --start %s is not before --end %s", f.start, f.end)
-	}
-	if spec.MultiArm, err = experiment.ParseMultiArmPolicy(f.multiArm); err != nil {
-		return spec, opts, nil, f, usagef("analyze: --multi-arm: %v", err)
-	}
-	if spec.Maturity, err = experiment.ParseMaturityPolicy(f.maturity); err != nil {
-		return spec, opts, nil, f, usagef("analyze: --maturity: %v", err)
-	}
-	if len(f.metrics) == 0 && len(f.guardrails) == 0 {
-		return spec, opts, nil, f, usagef("analyze: name at least one metric with --metric NAME=EVENT[:WINDOW], for example --metric purchase=purchase:7d")
-	}
-	for _, s := range f.metrics {
-		m, err := parseMetric(s)
-		if err != nil {
-			return spec, opts, nil, f, usagef("analyze: --metric: %v", err)
+	if set("start") {
+		if e.start, err = parseTime("start", f.start); err != nil {
+			return err
 		}
-		spec.Metrics = append(spec.Metrics, m)
+		e.from["start"] = flag("start")
 	}
-	for _, s := range f.guardrails {
-		m, err := parseGuardrail(s)
-		if err != nil {
-			return spec, opts, nil, f, usagef("analyze: --guardrail: %v", err)
+	if set("end") {
+		if e.end, err = parseTime("end", f.end); err != nil {
+			return err
 		}
-		spec.Metrics = append(spec.Metrics, m)
+		e.from["end"] = flag("end")
 	}
-	for _, name := range f.lowerIsBetter {
+	if set("multi-arm") {
+		if e.multiArm, err = experiment.ParseMultiArmPolicy(f.multiArm); err != nil {
+			return usagef("analyze: --multi-arm: %v", err)
+		}
+	}
+	if set("maturity") {
+		if e.maturity, err = experiment.ParseMaturityPolicy(f.maturity); err != nil {
+			return usagef("analyze: --maturity: %v", err)
+		}
+	}
+	if set("metric") || set("guardrail") {
+		e.metrics = nil
+		for _, s := range f.metrics {
+			m, err := parseMetric(s)
+			if err != nil {
+				return usagef("analyze: --metric: %v", err)
+			}
+			e.metrics = append(e.metrics, metricSetting{metric: m, role: rolePrimary, from: flag("metric")})
+		}
+		for _, s := range f.guardrails {
+			m, err := parseGuardrail(s)
+			if err != nil {
+				return usagef("analyze: --guardrail: %v", err)
+			}
+			e.metrics = append(e.metrics, metricSetting{metric: m, role: roleGuardrail, from: flag("guardrail")})
+		}
+		e.from["metrics"] = flag("metric")
+	}
+	if set("alpha") {
+		if err := e.setAlpha(f.alpha, flag("alpha")); err != nil {
+			return err
+		}
+	}
+	for _, s := range []struct {
+		flag string
+		v    string
+		fn   func(string, origin) error
+	}{
+		{"alternative", f.alternative, e.setAlternative},
+		{"adjust", f.adjust, e.setAdjust},
+		{"interval", f.interval, e.setInterval},
+		{"difference-interval", f.diffInterval, e.setDifferenceInterval},
+		{"non-inferiority-method", f.niMethod, e.setNonInferiority},
+	} {
+		if set(s.flag) {
+			if err := s.fn(s.v, flag(s.flag)); err != nil {
+				return err
+			}
+		}
+	}
+	if set("min-count") {
+		if err := e.setMinCount(f.minCount, flag("min-count")); err != nil {
+			return err
+		}
+	}
+	if set("sample-ratio-threshold") {
+		if err := e.setSampleRatioThreshold(f.srThreshold, flag("sample-ratio-threshold")); err != nil {
+			return err
+		}
+	}
+	return nil
+}
+
+// applyLowerIsBetter marks the metrics named by --lower-is-better in every
+// experiment that has them; a name no experiment has is an error.
+func applyLowerIsBetter(names []string, exps []*expSettings) error {
+	for _, name := range names {
 		found := false
-		for i := range spec.Metrics {
-			if spec.Metrics[i].Name == name {
-				spec.Metrics[i].LowerIsBetter, found = true, true
+		for _, e := range exps {
+			for i := range e.metrics {
+				if e.metrics[i].metric.Name == name {
+					e.metrics[i].metric.LowerIsBetter, found = true, true
+				}
 			}
 		}
 		if !found {
-			return spec, opts, nil, f, usagef("analyze: --lower-is-better %q: no metric of that name", name)
+			return usagef("analyze: --lower-is-better %q: no metric of that name", name)
 		}
 	}
-	// Let the tallier check the rest of the spec now, as a usage error.
-	if _, err := experiment.NewTallier(spec); err != nil {
-		return spec, opts, nil, f, usagef("analyze: %v", err)
-	}
-
-	if !(f.alpha > 0 && f.alpha < 0.5) {
-		return spec, opts, nil, f, usagef("analyze: --alpha %v is not strictly between 0 and 0.5", f.alpha)
-	}
-	opts.Stats.Alpha = f.alpha
-	opts.Stats.Level = 0 // 1 - alpha, or 1 - 2 alpha for a one-sided alternative
-	switch f.interval {
-	case experiment.IntervalWilson, experiment.IntervalClopperPearson, experiment.IntervalAgrestiCoull, experiment.IntervalWald:
-		opts.Interval = f.interval
-	default:
-		return spec, opts, nil, f, usagef("analyze: --interval %q: want wilson, clopper-pearson, agresti-coull or wald", f.interval)
-	}
-	switch f.diffInterval {
-	case experiment.DifferenceNewcombe, experiment.DifferenceWald:
-		opts.Difference = f.diffInterval
-	default:
-		return spec, opts, nil, f, usagef("analyze: --difference-interval %q: want newcombe or wald", f.diffInterval)
-	}
-	if opts.Adjust, err = stats.ParseAdjustMethod(f.adjust); err != nil {
-		return spec, opts, nil, f, usagef("analyze: --adjust: %v", err)
-	}
-	switch f.niMethod {
-	case "farrington-manning":
-		opts.NonInferiority = stats.FarringtonManning
-	case "miettinen-nurminen":
-		opts.NonInferiority = stats.MiettinenNurminen
-	case "wald":
-		opts.NonInferiority = stats.WaldNonInferiority
-	default:
-		return spec, opts, nil, f, usagef("analyze: --non-inferiority-method %q: want farrington-manning, miettinen-nurminen or wald", f.niMethod)
-	}
-	if opts.Stats.Alternative, err = stats.ParseAlternative(f.alternative); err != nil {
-		return spec, opts, nil, f, usagef("analyze: --alternative: %v", err)
-	}
-	if f.minCount < 1 {
-		return spec, opts, nil, f, usagef("analyze: --min-count %d: must be at least 1", f.minCount)
-	}
-	opts.Stats.MinCount = f.minCount
-	if !(f.srThreshold > 0 && f.srThreshold < 1) {
-		return spec, opts, nil, f, usagef("analyze: --sample-ratio-threshold %v is not strictly between 0 and 1", f.srThreshold)
-	}
-	opts.SampleRatioThreshold = f.srThreshold
-	switch f.epochUnit {
-	case "", "s", "ms", "us", "ns":
-	default:
-		return spec, opts, nil, f, usagef("analyze: --epoch-unit %q: want s, ms, us or ns", f.epochUnit)
-	}
-	return spec, opts, sources, f, nil
+	return nil
 }
 
 // demoDefaults sets the flags the user left alone to the demo's settings.
@@ -301,64 +445,91 @@ func demoDefaults(fs *pflag.FlagSet, f *analyzeFlags) {
 }
 
 func runAnalyze(args []string, stdout, stderr io.Writer) error {
-	spec, opts, sources, f, err := parseAnalyze(args, stdout, stderr)
+	run, err := parseAnalyze(args, stdout, stderr)
 	if err != nil {
 		return err
 	}
-	mapping := ingest.Mapping{User: f.userCol, TS: f.tsCol, Event: f.eventCol, Experiment: f.expCol, Arm: f.armCol, EpochUnit: f.epochUnit}
-	readout, err := analyze(spec, opts, sources, ingest.Options{Mapping: mapping, ExposureEvent: spec.ExposureEvent})
+	readouts, err := analyze(run)
 	if err != nil {
 		return err
 	}
-	readouts := []experiment.Readout{readout}
-	if f.jsonOut != "" {
-		if err := report.WriteFileAtomic(f.jsonOut, func(w io.Writer) error { return report.WriteJSON(w, readouts) }); err != nil {
+	if run.jsonOut != "" {
+		if err := report.WriteFileAtomic(run.jsonOut, func(w io.Writer) error { return report.WriteJSON(w, readouts) }); err != nil {
 			return fmt.Errorf("writing the JSON readout: %w", err)
 		}
 	}
 	md := func(w io.Writer) error { return report.WriteMarkdown(w, readouts, report.MarkdownOptions{}) }
-	if f.out != "" {
-		err = report.WriteFileAtomic(f.out, md)
+	if run.out != "" {
+		err = report.WriteFileAtomic(run.out, md)
 	} else {
 		err = md(stdout)
 	}
 	if err != nil {
 		return fmt.Errorf("writing the Markdown readout: %w", err)
 	}
-	if sr := readout.SampleRatio; f.failOnSampleRatio && sr.Checked && sr.Mismatch {
-		return fmt.Errorf("%w: p = %.3g < %g (see the readout)", errSampleRatio, sr.PValue, sr.Threshold)
+	if !run.failOnSampleRatio {
+		return nil
+	}
+	var failed []string
+	for _, r := range readouts {
+		if sr := r.SampleRatio; sr.Checked && sr.Mismatch {
+			failed = append(failed, fmt.Sprintf("%s: p = %.3g < %g", r.Experiment, sr.PValue, sr.Threshold))
+		}
+	}
+	if len(failed) > 0 {
+		if len(readouts) == 1 {
+			_, detail, _ := strings.Cut(failed[0], ": ")
+			return fmt.Errorf("%w: %s (see the readout)", errSampleRatio, detail)
+		}
+		return fmt.Errorf("%w in %d of %d experiments (%s; see the readouts)", errSampleRatio, len(failed), len(readouts), strings.Join(failed, "; "))
 	}
 	return nil
 }
 
-// analyze reads the sources, tallies them under spec and analyses the
-// tally.
-func analyze(spec experiment.Spec, opts experiment.AnalysisOptions, sources []ingest.Source, io ingest.Options) (experiment.Readout, error) {
-	r, err := ingest.NewReader(sources, io)
+// analyze reads the sources once, feeds every record batch to one tallier
+// per experiment and analyses each tally. The readouts follow the order of
+// run.experiments.
+func analyze(run *analyzeRun) ([]experiment.Readout, error) {
+	exposure := ""
+	for i, e := range run.experiments {
+		if i > 0 && e.spec.ExposureEvent != exposure {
+			return nil, usagef("analyze: not supported yet: experiments with different exposure events in one run (%q and %q); run them separately", exposure, e.spec.ExposureEvent)
+		}
+		exposure = e.spec.ExposureEvent
+	}
+	r, err := ingest.NewReader(run.sources, ingest.Options{Mapping: run.mapping, ExposureEvent: exposure})
 	if err != nil {
-		return experiment.Readout{}, usagef("analyze: %v", err)
+		return nil, usagef("analyze: %v", err)
 	}
 	defer r.Close()
-	tl, err := experiment.NewTallier(spec)
-	if err != nil {
-		return experiment.Readout{}, usagef("analyze: %v", err)
+	talliers := make([]*experiment.Tallier, len(run.experiments))
+	for i, e := range run.experiments {
+		if talliers[i], err = experiment.NewTallier(e.spec); err != nil {
+			return nil, usagef("analyze: %v", err)
+		}
 	}
 	for r.Next() {
-		if err := tl.Add(r.Record()); err != nil {
-			return experiment.Readout{}, &dataError{err}
+		rec := r.Record()
+		for _, tl := range talliers {
+			if err := tl.Add(rec); err != nil {
+				return nil, &dataError{err}
+			}
 		}
 	}
 	if err := r.Err(); err != nil {
-		return experiment.Readout{}, &dataError{err}
+		return nil, &dataError{err}
 	}
-	t, err := tl.Tally()
-	if err != nil {
-		return experiment.Readout{}, &dataError{err}
+	readouts := make([]experiment.Readout, len(run.experiments))
+	for i, e := range run.experiments {
+		t, err := talliers[i].Tally()
+		if err != nil {
+			return nil, &dataError{err}
+		}
+		opts := e.opts
+		opts.RowsRead = r.Stats().RowsRead
+		if readouts[i], err = experiment.Analyze(e.spec, t, opts); err != nil {
+			return nil, &dataError{err}
+		}
 	}
-	opts.RowsRead = r.Stats().RowsRead
-	readout, err := experiment.Analyze(spec, t, opts)
-	if err != nil {
-		return experiment.Readout{}, &dataError{err}
-	}
-	return readout, nil
+	return readouts, nil
 }

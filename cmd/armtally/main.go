@@ -15,7 +15,8 @@
 //
 //	0  the readout was written
 //	1  an unexpected failure (for example, an output file could not be written)
-//	2  usage error: unknown flag, bad flag value, missing argument
+//	2  usage error: unknown flag, bad flag value, missing argument, a spec
+//	   file that cannot be read or has an error (named by file, line and key)
 //	3  data error: an input cannot be read, a row is malformed, the data
 //	   contradicts the settings (an arm that is not planned, several
 //	   experiments without --experiment)
@@ -75,15 +76,17 @@ Usage:
   armtally gen [flags]                      write a synthetic event log
   armtally plan [flags]                     size an experiment before it starts
   armtally help [COMMAND]                   show help for a command
+  armtally help spec                        describe the experiment spec file (--spec)
 
 Exit codes:
   0  the readout was written
   1  unexpected failure (such as an output file that cannot be written)
-  2  usage error
+  2  usage error (including an error in a spec file, named by file, line and key)
   3  data error (unreadable input, malformed row, data that contradicts the settings)
   4  sample ratio mismatch with --fail-on-sample-ratio (the readout is still written)
 
-Run 'armtally help analyze', 'armtally help gen' or 'armtally help plan' for the flags.
+Run 'armtally help analyze', 'armtally help gen' or 'armtally help plan' for the flags,
+and 'armtally help spec' for the experiment spec file of 'armtally analyze --spec'.
 `
 
 // run runs the command line args and returns the exit code.
@@ -102,6 +105,10 @@ func run(args []string, stdout, stderr io.Writer) int {
 		err = runPlan(args[1:], stdout, stderr)
 	case "help", "-h", "--help":
 		if len(args) > 1 && cmd == "help" {
+			if args[1] == "spec" {
+				fmt.Fprint(stdout, specHelp())
+				return exitOK
+			}
 			return run([]string{args[1], "--help"}, stdout, stderr)
 		}
 		fmt.Fprint(stdout, topUsage)
@@ -135,11 +142,16 @@ func parseFlags(fs *pflag.FlagSet, args []string, usage string, stdout io.Writer
 func exitCode(err error, stderr io.Writer) int {
 	var ue *usageError
 	var de *dataError
+	var se *specError
+	var ses specErrors
 	switch {
 	case err == nil:
 		return exitOK
 	case errors.Is(err, errHelp):
 		return exitOK
+	case errors.As(err, &se), errors.As(err, &ses):
+		fmt.Fprintf(stderr, "armtally: %v\n", err)
+		return exitUsage
 	case errors.As(err, &ue):
 		fmt.Fprintf(stderr, "armtally: %v\nRun 'armtally help' for usage.\n", err)
 		return exitUsage

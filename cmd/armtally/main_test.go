@@ -327,7 +327,7 @@ func TestHelpExamples(t *testing.T) {
 			n++
 			switch cmd {
 			case "analyze":
-				_, _, _, _, err := parseAnalyze(fields[2:], &bytes.Buffer{}, &bytes.Buffer{})
+				_, err := parseAnalyze(fields[2:], &bytes.Buffer{}, &bytes.Buffer{})
 				// The example files do not exist; every other check passes.
 				if err != nil && !strings.Contains(err.Error(), "no such file") {
 					t.Errorf("example %q: %v", line, err)

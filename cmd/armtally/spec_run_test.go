@@ -1,0 +1,176 @@
+package main
+
+import (
+	"encoding/json"
+	"os"
+	"path/filepath"
+	"strings"
+	"testing"
+
+	"github.com/armtally/armtally/experiment"
+)
+
+// readReadouts reads a JSON readout document with any number of readouts.
+func readReadouts(t *testing.T, path string) ([]byte, []experiment.Readout) {
+	t.Helper()
+	raw, err := os.ReadFile(path)
+	if err != nil {
+		t.Fatal(err)
+	}
+	var doc struct {
+		Readouts []experiment.Readout `json:"readouts"`
+	}
+	if err := json.Unmarshal(raw, &doc); err != nil {
+		t.Fatalf("%s: %v", path, err)
+	}
+	return raw, doc.Readouts
+}
+
+// reasonCount returns the count of reason in rs.
+func reasonCount(rs []experiment.ReasonCount, reason string) int64 {
+	for _, r := range rs {
+		if r.Reason == reason {
+			return r.Count
+		}
+	}
+	return 0
+}
+
+// TestSpecTwoExperiments runs the spec testdata/spec/two/spec.toml: two
+// experiments in one hand-made log of 18 rows, read in one pass. The
+// counts below are worked out by hand from events.csv:
+//
+// booking-form (booked = booking_confirmed within 7 days):
+//
+//	classic:  v1 (exposed 03-01 10:00, booked 03-02 09:00: converted),
+//	          v2 (no booking)                              -> 2 units, 1
+//	one-step: v3 (03-01 12:00, booked 03-03 08:00: converted),
+//	          v4 (03-02 09:00, booked 03-12 09:00, after 03-09 09:00: not),
+//	          v5 (03-02 09:00, booked 03-02 10:00: converted) -> 3 units, 2
+//	5 exposure rows of the key, 4 of the other key; v8's booking is of a
+//	unit never exposed; v4's is outside its attribution window.
+//
+// reminder-sms (showed_up = repair_started within 3 days):
+//
+//	none: v2 (exposed 03-01 11:00, repair 03-05 12:00, after 03-04 11:00:
+//	      not), v6 (03-03 09:00, repair 03-04 09:00: converted) -> 2, 1
+//	sms:  v1 (03-01 10:30, repair 03-02 12:00: converted), v7 (none) -> 2, 1
+//	4 exposure rows of the key, 5 of the other; v2's repair is outside
+//	its window.
+//
+// Every unit's window closes by 03-09 09:00, before the end 03-20: none is
+// immature.
+func TestSpecTwoExperiments(t *testing.T) {
+	dir := t.TempDir()
+	jsonPath, mdPath := filepath.Join(dir, "readout.json"), filepath.Join(dir, "readout.md")
+	spec := filepath.Join("testdata", "spec", "two", "spec.toml")
+	code, _, stderr := runCmd(t, "analyze", "--spec", spec, "--json", jsonPath, "--out", mdPath)
+	if code != exitOK {
+		t.Fatalf("exit %d: %s", code, stderr)
+	}
+	raw, rs := readReadouts(t, jsonPath)
+	validate(t, raw)
+	if len(rs) != 2 || rs[0].Experiment != "booking-form" || rs[1].Experiment != "reminder-sms" {
+		t.Fatalf("readouts: %d, want booking-form then reminder-sms", len(rs))
+	}
+	type armCount struct {
+		arm                string
+		units, conversions int64
+	}
+	want := []struct {
+		metric                                         string
+		arms                                           []armCount
+		exposureRows, otherRows, neverExposed, outside int64
+	}{
+		{"booked", []armCount{{"classic", 2, 1}, {"one-step", 3, 2}}, 5, 4, 1, 1},
+		{"showed_up", []armCount{{"none", 2, 1}, {"sms", 2, 1}}, 4, 5, 0, 1},
+	}
+	for i, r := range rs {
+		w := want[i]
+		if len(r.Metrics) != 1 || r.Metrics[0].Name != w.metric {
+			t.Fatalf("%s: metrics %+v, want %s", r.Experiment, r.Metrics, w.metric)
+		}
+		m := r.Metrics[0]
+		if len(m.Arms) != len(w.arms) {
+			t.Fatalf("%s: %d arms, want %d", r.Experiment, len(m.Arms), len(w.arms))
+		}
+		for j, a := range m.Arms {
+			if a.Arm != w.arms[j].arm || a.Units != w.arms[j].units || a.Conversions != w.arms[j].conversions || a.Immature != 0 {
+				t.Errorf("%s/%s: %d units, %d conversions, %d immature; want %+v", r.Experiment, a.Arm, a.Units, a.Conversions, a.Immature, w.arms[j])
+			}
+		}
+		d := r.Diagnostics
+		if d.RowsRead != 18 || d.ExposureRows != w.exposureRows ||
+			reasonCount(d.IgnoredEvents, experiment.ReasonOtherExperiment) != w.otherRows ||
+			reasonCount(d.IgnoredEvents, experiment.ReasonUnitNeverExposed) != w.neverExposed ||
+			reasonCount(d.IgnoredEvents, experiment.ReasonOutsideAttributed) != w.outside {
+			t.Errorf("%s: diagnostics %+v", r.Experiment, d)
+		}
+	}
+	md, err := os.ReadFile(mdPath)
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, h := range []string{"# Experiment `booking-form`", "# Experiment `reminder-sms`"} {
+		if !strings.Contains(string(md), h) {
+			t.Errorf("Markdown has no heading %q", h)
+		}
+	}
+
+	// --experiment picks one of them.
+	one := filepath.Join(dir, "one.json")
+	code, _, stderr = runCmd(t, "analyze", "--spec", spec, "--experiment", "reminder-sms", "--json", one, "--out", filepath.Join(dir, "one.md"))
+	if code != exitOK {
+		t.Fatalf("exit %d: %s", code, stderr)
+	}
+	if _, rs := readReadouts(t, one); len(rs) != 1 || rs[0].Experiment != "reminder-sms" {
+		t.Errorf("--experiment reminder-sms gave %d readouts", len(rs))
+	}
+}
+
+// TestSpecSampleRatioExit plans a 99:1 split for reminder-sms, whose arms
+// have 2 and 2 units: chi-square = (2 - 3.96)^2 / 3.96 + (2 - 0.04)^2 / 0.04
+// = 0.970 + 96.04 = 97.0 on 1 degree of freedom, p about 7e-23, far below
+// 0.001 (hand calculation). booking-form, 2 against 3 units under an equal
+// split, gives chi-square 0.2, p = 0.65. The run exits with code 4 and
+// still writes both readouts.
+func TestSpecSampleRatioExit(t *testing.T) {
+	dir := t.TempDir()
+	src, err := os.ReadFile(filepath.Join("testdata", "spec", "two", "spec.toml"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	csvPath, err := filepath.Abs(filepath.Join("testdata", "spec", "two", "events.csv"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	text := strings.Replace(string(src), `paths = ["events.csv"]`, `paths = [`+strconvQuote(csvPath)+`]`, 1)
+	text = strings.Replace(text, `arms = ["none", "sms"]`, "arms = [\"none\", \"sms\"]\nsplit = [99, 1]", 1)
+	text = strings.Replace(text, "[input]", "[output]\njson = \"readout.json\"\nmarkdown = \"readout.md\"\nfail_on_sample_ratio = true\n\n[input]", 1)
+	spec := filepath.Join(dir, "spec.toml")
+	if err := os.WriteFile(spec, []byte(text), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	code, _, stderr := runCmd(t, "analyze", "--spec", spec)
+	if code != exitSampleRatio || !strings.Contains(stderr, "sample ratio mismatch in 1 of 2 experiments (reminder-sms: p = ") {
+		t.Errorf("exit %d, stderr %q; want exit %d naming reminder-sms", code, stderr, exitSampleRatio)
+	}
+	_, rs := readReadouts(t, filepath.Join(dir, "readout.json")) // output paths are relative to the spec file
+	if len(rs) != 2 || rs[0].SampleRatio.Mismatch || !rs[1].SampleRatio.Mismatch {
+		t.Errorf("sample ratio: %d readouts, %+v", len(rs), rs)
+	}
+	if _, err := os.Stat(filepath.Join(dir, "readout.md")); err != nil {
+		t.Errorf("Markdown readout not written: %v", err)
+	}
+	// The flag turns it off again.
+	code, _, stderr = runCmd(t, "analyze", "--spec", spec, "--fail-on-sample-ratio=false")
+	if code != exitOK {
+		t.Errorf("--fail-on-sample-ratio=false: exit %d: %s", code, stderr)
+	}
+}
+
+// strconvQuote quotes a path as a TOML basic string.
+func strconvQuote(s string) string {
+	b, _ := json.Marshal(s)
+	return string(b)
+}
