@@ -117,6 +117,9 @@ var (
 	// column chunk of another column or type, a value count that does not
 	// match the rows, offsets outside the file).
 	ErrCorrupt = errors.New("corrupt parquet file")
+	// ErrCodec: a Parquet column chunk is compressed with a codec that
+	// cannot be decoded here (LZ4 in its deprecated Hadoop framing, LZO).
+	ErrCodec = errors.New("unsupported compression codec")
 	// ErrMissingColumn: a mapped column is not in the file.
 	ErrMissingColumn = errors.New("missing column")
 	// ErrColumnType: a mapped column has a type that cannot be read as its

@@ -283,9 +283,12 @@ func (r *parquetReader) read(b *batchBuilder, limit int, a *accounting) (n int, 
 			v, err := c.next()
 			if err != nil {
 				if err == errColumnShort {
-					return n, fmt.Errorf("%s: row group %d: column %q: %w (%d rows)", r.file, r.rg, c.name, err, r.rgRows)
+					return n, fmt.Errorf("%s: row group %d: column %q: %w: %w (%d rows)", r.file, r.rg, c.name, ErrCorrupt, err, r.rgRows)
 				}
-				return n, fmt.Errorf("%s: row group %d: column %q: %w", r.file, r.rg, c.name, err)
+				// parquet-go's error, kept for errors.Is (ErrCorrupted,
+				// io.ErrUnexpectedEOF, ...): a page of a file whose
+				// metadata checked out that cannot be decoded.
+				return n, fmt.Errorf("%s: row group %d: column %q: %w: %w", r.file, r.rg, c.name, ErrCorrupt, err)
 			}
 			if i == colTS {
 				row.ts, row.tsErr, row.cells[i] = c.timestamp(v)
@@ -354,7 +357,9 @@ func (r *parquetReader) nextRowGroup() error {
 
 // checkChunk compares what the file's metadata says about the column chunk
 // of c in the current row group with the schema and the row group: the
-// chunk must be of the same column and physical type, lie inside the file,
+// chunk must be of the same column and physical type, be compressed with a
+// codec parquet-go has (not the deprecated Hadoop LZ4 or LZO), lie inside
+// the file,
 // and, the column being non-repeated,
 // hold one value (or null) per row. The pages are checked against the
 // chunk as they are read (one value per row, no more, no fewer).
@@ -375,6 +380,10 @@ func (r *parquetReader) checkChunk(c *pqColumn) error {
 	if md.NumValues != r.rgRows {
 		return fmt.Errorf("%w: the column chunk claims %d values, the row group %d rows (a non-repeated column has one per row)",
 			ErrCorrupt, md.NumValues, r.rgRows)
+	}
+	if codec := parquet.LookupCompressionCodec(md.Codec); codec.String() == "UNSUPPORTED" {
+		return fmt.Errorf("%w: compressed with %v, a codec parquet-go cannot decode (rewrite the file with SNAPPY, ZSTD, GZIP or LZ4_RAW)",
+			ErrCodec, md.Codec)
 	}
 	start := md.DataPageOffset
 	if md.DictionaryPageOffset > 0 && md.DictionaryPageOffset < start {
