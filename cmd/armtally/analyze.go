@@ -16,10 +16,18 @@ import (
 
 const analyzeUsage = `Usage: armtally analyze [flags] FILE|FOLDER...
        armtally analyze --demo [flags]
+       armtally analyze --spec FILE [flags] [FILE|FOLDER...]
 
-Reads the event log in the named Parquet (.parquet, .parq) and CSV (.csv)
-files (a folder contributes every such file under it) and writes a readout
-of one experiment: Markdown to stdout (or --out), JSON to --json.
+Reads the event log in the named Parquet (.parquet, .parq) and CSV (.csv,
+.csv.gz) files (a folder contributes every such file under it; a pattern
+such as 'exports/dt=*/*.parquet' the files it matches; key=value folder
+names can be mapped as columns) and writes a readout of one experiment:
+Markdown to stdout (or --out), JSON to --json.
+
+With --spec, a TOML spec file gives the input, the column mapping, the
+outputs and one or more experiments; the log is read once and each
+experiment gets its readout. Flags you give override the file. See
+'armtally help spec'.
 
 Each row is one event with the columns user, ts, event, experiment and arm
 (rename them with the --*-col flags). A unit's first exposure inside the
@@ -47,6 +55,9 @@ Examples:
   armtally analyze exports/ --experiment search-ranking --exposure-event assigned --control baseline --arms baseline,fresh-ranker --split 80,20 --start 2026-11-01 --end 2026-11-29 --metric signup=account_created:3d@10% --alpha 0.01
   armtally analyze events.parquet --experiment checkout-flow-2026 --metric purchase=purchase:7d --guardrail unsubscribe=newsletter_unsubscribe:7d~0.2pp --lower-is-better unsubscribe --adjust bonferroni
   armtally analyze events.csv --user-col visitor_id --ts-col event_time --metric buy=order_placed,order_paid:14d --fail-on-sample-ratio
+  armtally analyze --spec experiments.toml
+  armtally analyze --spec experiments.toml --experiment search-ranking --alpha 0.01 exports/dt=2026-11-30/
+  armtally analyze exports/ --delimiter tab --max-bad-share 0.001 --metric purchase=purchase:7d
 
 Flags:
 `
@@ -70,6 +81,9 @@ type analyzeFlags struct {
 	out, jsonOut                             string
 	failOnSampleRatio                        bool
 	spec                                     string
+	delimiter                                string
+	maxBadRows                               int64
+	maxBadShare                              float64
 }
 
 func newAnalyzeFlagSet(f *analyzeFlags, stderr io.Writer) *pflag.FlagSet {
@@ -108,6 +122,9 @@ func newAnalyzeFlagSet(f *analyzeFlags, stderr io.Writer) *pflag.FlagSet {
 	fs.StringVar(&f.expCol, "experiment-col", m.Experiment, "column holding the experiment key (\"\" when the log has none)")
 	fs.StringVar(&f.armCol, "arm-col", m.Arm, "column holding the arm name")
 	fs.StringVar(&f.epochUnit, "epoch-unit", "", "unit of integer timestamps: s, ms, us or ns")
+	fs.StringVar(&f.delimiter, "delimiter", ",", "field separator of CSV files: one character; tab or \\t for a tab")
+	fs.Int64Var(&f.maxBadRows, "max-bad-rows", 0, "skip and count up to this many bad rows (-1: any number); 0 stops at the first")
+	fs.Float64Var(&f.maxBadShare, "max-bad-share", 0, "skip and count bad rows up to this share of the rows read (0.001); checked at the end")
 	return fs
 }
 
@@ -116,6 +133,9 @@ func newAnalyzeFlagSet(f *analyzeFlags, stderr io.Writer) *pflag.FlagSet {
 type analyzeRun struct {
 	sources           []ingest.Source
 	mapping           ingest.Mapping
+	delimiter         rune
+	maxBadRows        int64
+	maxBadShare       float64
 	experiments       []builtExperiment
 	out, jsonOut      string
 	failOnSampleRatio bool
@@ -141,7 +161,7 @@ func parseAnalyze(args []string, stdout, stderr io.Writer) (*analyzeRun, error) 
 		if sf, err = readSpecFile(f.spec); err != nil {
 			return nil, err
 		}
-		if err := sf.unsupported(fs.NArg() > 0 || f.demo); err != nil {
+		if err := sf.unsupported(); err != nil {
 			return nil, err
 		}
 	}
@@ -225,6 +245,30 @@ func parseAnalyze(args []string, stdout, stderr io.Writer) (*analyzeRun, error) 
 		return nil, usagef("analyze: --epoch-unit %q: want s, ms, us or ns", run.mapping.EpochUnit)
 	}
 
+	// Reading: the spec file's delimiter and bad-row budget, then the flags.
+	if sf != nil {
+		run.delimiter, run.maxBadRows, run.maxBadShare = sf.delimiter, sf.maxBadRows, sf.maxBad
+	}
+	if sf == nil || fs.Changed("delimiter") {
+		d, err := parseDelimiter(f.delimiter)
+		if err != nil {
+			return nil, usagef("analyze: --delimiter: %v", err)
+		}
+		run.delimiter = d
+	}
+	if sf == nil || fs.Changed("max-bad-rows") {
+		if f.maxBadRows < ingest.NoLimit {
+			return nil, usagef("analyze: --max-bad-rows %d: want 0 or more, or -1 for no limit", f.maxBadRows)
+		}
+		run.maxBadRows = f.maxBadRows
+	}
+	if sf == nil || fs.Changed("max-bad-share") {
+		if !(f.maxBadShare >= 0 && f.maxBadShare <= 1) {
+			return nil, usagef("analyze: --max-bad-share %v: want a share from 0 to 1", f.maxBadShare)
+		}
+		run.maxBadShare = f.maxBadShare
+	}
+
 	// Outputs: the spec file's, then the flags.
 	if sf != nil {
 		run.out, run.jsonOut = sf.markdown, sf.json
@@ -267,7 +311,12 @@ func parseAnalyze(args []string, stdout, stderr io.Writer) (*analyzeRun, error) 
 			return nil, &dataError{err}
 		}
 		if len(run.sources) == 0 {
-			return nil, &dataError{fmt.Errorf("no .csv, .parquet or .parq files in %s", strings.Join(paths, ", "))}
+			return nil, &dataError{fmt.Errorf("no .csv, .csv.gz, .parquet or .parq files in %s", strings.Join(paths, ", "))}
+		}
+	}
+	if sf != nil {
+		if err := sf.checkPartitions(run.sources); err != nil {
+			return nil, err
 		}
 	}
 	return run, nil
@@ -497,7 +546,8 @@ func analyze(run *analyzeRun) ([]experiment.Readout, error) {
 		}
 		exposure = e.spec.ExposureEvent
 	}
-	r, err := ingest.NewReader(run.sources, ingest.Options{Mapping: run.mapping, ExposureEvent: exposure})
+	r, err := ingest.NewReader(run.sources, ingest.Options{Mapping: run.mapping, ExposureEvent: exposure,
+		Delimiter: run.delimiter, MaxBadRows: run.maxBadRows, MaxBadShare: run.maxBadShare})
 	if err != nil {
 		return nil, usagef("analyze: %v", err)
 	}
@@ -527,6 +577,7 @@ func analyze(run *analyzeRun) ([]experiment.Readout, error) {
 		}
 		opts := e.opts
 		opts.RowsRead = r.Stats().RowsRead
+		opts.BadRows = r.Stats().BadRows
 		if readouts[i], err = experiment.Analyze(e.spec, t, opts); err != nil {
 			return nil, &dataError{err}
 		}

@@ -2,6 +2,7 @@ package main
 
 import (
 	"encoding/json"
+	"fmt"
 	"os"
 	"path/filepath"
 	"strings"
@@ -173,4 +174,95 @@ func TestSpecSampleRatioExit(t *testing.T) {
 func strconvQuote(s string) string {
 	b, _ := json.Marshal(s)
 	return string(b)
+}
+
+// twoCounts checks the readouts of the two-experiment log against the
+// counts worked out by hand in TestSpecTwoExperiments.
+func twoCounts(t *testing.T, rs []experiment.Readout) {
+	t.Helper()
+	want := map[string]map[string][2]int64{
+		"booking-form": {"classic": {2, 1}, "one-step": {3, 2}},
+		"reminder-sms": {"none": {2, 1}, "sms": {2, 1}},
+	}
+	if len(rs) != 2 {
+		t.Fatalf("%d readouts, want 2", len(rs))
+	}
+	for _, r := range rs {
+		for _, a := range r.Metrics[0].Arms {
+			if w := want[r.Experiment][a.Arm]; a.Units != w[0] || a.Conversions != w[1] {
+				t.Errorf("%s/%s: %d units, %d conversions; want %d, %d", r.Experiment, a.Arm, a.Units, a.Conversions, w[0], w[1])
+			}
+		}
+	}
+}
+
+// TestSpecInputOptions reads the two-experiment log written with ';' into
+// a key=value folder, through a pattern, with a bad-row budget, and checks
+// the hand-worked counts of TestSpecTwoExperiments, the bad rows counted
+// by reason, and the errors of a budget overrun and of a missing partition.
+func TestSpecInputOptions(t *testing.T) {
+	src, err := os.ReadFile(filepath.Join("testdata", "spec", "two", "spec.toml"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	log, err := os.ReadFile(filepath.Join("testdata", "spec", "two", "events.csv"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	dir := t.TempDir()
+	part := filepath.Join(dir, "exports", "dt=2027-03-20")
+	if err := os.MkdirAll(part, 0o755); err != nil {
+		t.Fatal(err)
+	}
+	// Two bad rows: a timestamp that does not parse (line 20) and an empty
+	// one (line 21).
+	semi := strings.ReplaceAll(string(log), ",", ";") +
+		"v9;yesterday;assigned;booking-form;classic\n" +
+		"v10;;booking_confirmed;;\n"
+	if err := os.WriteFile(filepath.Join(part, "events.csv"), []byte(semi), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	spec := func(input string) string {
+		text := strings.Replace(string(src), `paths = ["events.csv"]`, input, 1)
+		path := filepath.Join(dir, "spec.toml")
+		if err := os.WriteFile(path, []byte(text), 0o644); err != nil {
+			t.Fatal(err)
+		}
+		return path
+	}
+	const base = "paths = [\"exports/dt=*/*.csv\"]\ndelimiter = \";\"\npartition_columns = [\"dt\"]\n"
+	out := filepath.Join(dir, "readout.json")
+	code, _, stderr := runCmd(t, "analyze", "--spec", spec(base+"max_bad_rows = 2"), "--json", out, "--out", filepath.Join(dir, "readout.md"))
+	if code != exitOK {
+		t.Fatalf("exit %d: %s", code, stderr)
+	}
+	_, rs := readReadouts(t, out)
+	twoCounts(t, rs)
+	for _, r := range rs {
+		d := r.Diagnostics
+		if d.RowsRead != 20 || reasonCount(d.BadRows, "bad_timestamp") != 1 || reasonCount(d.BadRows, "null_timestamp") != 1 {
+			t.Errorf("%s: %d rows read, bad rows %+v; want 20 and one bad_timestamp, one null_timestamp", r.Experiment, d.RowsRead, d.BadRows)
+		}
+	}
+
+	errs := []struct {
+		name, input string
+		args        []string
+		code        int
+		want        string
+	}{
+		{"budget overrun", base + "max_bad_rows = 1", nil, exitData, "bad-row budget exceeded: 2 bad rows, more than the 1 allowed"},
+		{"share overrun", base + "max_bad_share = 0.05", nil, exitData, "bad-row budget exceeded: 2 bad rows of 20 read (10%), more than the 5% allowed"},
+		{"flag overrides the budget", base + "max_bad_rows = 2", []string{"--max-bad-rows", "0"}, exitData, `dt=2027-03-20/events.csv:20: column "event_time": cannot parse "yesterday"`},
+		{"missing partition", "paths = [\"exports\"]\ndelimiter = \";\"\nmax_bad_rows = -1\npartition_columns = [\"dt\", \"country\"]\n", nil, exitData,
+			fmt.Sprintf("no partition folder country=... on its path (input.partition_columns at %s:7; its partitions: dt)", filepath.Join(dir, "spec.toml"))},
+		{"wrong delimiter", "paths = [\"exports\"]\n", nil, exitData, `missing column`},
+	}
+	for _, tc := range errs {
+		args := append([]string{"analyze", "--spec", spec(tc.input), "--out", filepath.Join(dir, "x.md")}, tc.args...)
+		code, _, stderr := runCmd(t, args...)
+		if code != tc.code || !strings.Contains(stderr, tc.want) {
+			t.Errorf("%s: exit %d, stderr %q; want exit %d and %q", tc.name, code, stderr, tc.code, tc.want)
+		}
+	}
 }

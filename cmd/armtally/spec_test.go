@@ -2,6 +2,7 @@ package main
 
 import (
 	"bytes"
+	"fmt"
 	"os"
 	"path/filepath"
 	"regexp"
@@ -85,7 +86,7 @@ func TestExampleSpec(t *testing.T) {
 		sf.failOnSampleRatio == nil || !*sf.failOnSampleRatio {
 		t.Errorf("output = %q, %q, %v", sf.markdown, sf.json, sf.failOnSampleRatio)
 	}
-	if err := sf.unsupported(false); err != nil {
+	if err := sf.unsupported(); err != nil {
 		t.Errorf("the example uses a key that is not supported yet: %v", err)
 	}
 	if len(sf.experiments) != 2 {
@@ -179,11 +180,6 @@ func TestSpecUnsupported(t *testing.T) {
 		name, text, want string
 	}{
 		{"shape", "[input]\nshape = \"counts\"\n", "s.toml:2: not supported yet: input.shape"},
-		{"delimiter", "[input]\ndelimiter = \";\"\n", "s.toml:2: not supported yet: input.delimiter"},
-		{"max bad rows", "[input]\nmax_bad_rows = 10\n", "s.toml:2: not supported yet: input.max_bad_rows"},
-		{"max bad share", "[input]\nmax_bad_share = 0.01\n", "s.toml:2: not supported yet: input.max_bad_share"},
-		{"partitions", "[input]\npartition_columns = [\"dt\"]\n", "s.toml:2: not supported yet: input.partition_columns"},
-		{"glob", "[input]\npaths = [\"exports/*.csv\"]\n", "s.toml:2: not supported yet: input.paths[0]"},
 		{"audit", "[output]\naudit = \"audit.json\"\n", "s.toml:2: not supported yet: output.audit"},
 		{"segments", "[columns]\nsegments = [\"platform\"]\n[[experiment]]\nkey = \"k\"\nsegments = [\"platform\"]\n" +
 			"[[experiment.metric]]\nname = \"rang\"\nevents = [\"bell_rung\"]\n", "s.toml:5: not supported yet: experiment[0].segments"},
@@ -198,11 +194,7 @@ func TestSpecUnsupported(t *testing.T) {
 		if err := os.WriteFile(path, []byte(text), 0o644); err != nil {
 			t.Fatal(err)
 		}
-		args := []string{"analyze", "--spec", path}
-		if tc.name != "glob" { // --demo replaces the input paths
-			args = append(args, "--demo")
-		}
-		code, _, stderr := runCmd(t, args...)
+		code, _, stderr := runCmd(t, "analyze", "--spec", path, "--demo")
 		if code != exitUsage || !strings.Contains(stderr, tc.want) {
 			t.Errorf("%s: exit %d, stderr %q; want exit %d and %q", tc.name, code, stderr, exitUsage, tc.want)
 		}
@@ -218,7 +210,7 @@ func TestSpecUnsupported(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	if err := sf.unsupported(false); err != nil {
+	if err := sf.unsupported(); err != nil {
 		t.Errorf("defaults refused: %v", err)
 	}
 }
@@ -285,6 +277,18 @@ func TestSpecOverrides(t *testing.T) {
 		t.Errorf("overridden spec = %+v", s)
 	}
 
+	// lineOf finds the line of text in the example, counting from 1.
+	example, err := os.ReadFile(spec)
+	if err != nil {
+		t.Fatal(err)
+	}
+	lineOf := func(text string) string {
+		before, _, ok := strings.Cut(string(example), "\n"+text+"\n")
+		if !ok {
+			t.Fatalf("example.toml has no line %q", text)
+		}
+		return fmt.Sprint(strings.Count(before, "\n") + 2)
+	}
 	errs := []struct {
 		name string
 		args []string
@@ -294,8 +298,8 @@ func TestSpecOverrides(t *testing.T) {
 		{"arms for two", []string{"--arms", "a,b"}, "--arms applies to one experiment"},
 		{"split for two", []string{"--split", "1,1"}, "--split applies to one experiment"},
 		{"arms against the file's split", []string{"--experiment", "booking-form-2027", "--arms", "classic-form,one-step-form"},
-			spec + ":73: experiment[0].split: 3 shares for 2 arms (classic-form, one-step-form, from --arms)"},
-		{"end before the file's start", []string{"--end", "2027-03-01"}, "analyze: --end: the window ends at 2027-03-01T00:00:00Z, not after its start 2027-03-01T00:00:00Z (" + spec + ":76: experiment[0].start)"},
+			spec + ":" + lineOf("split = [50, 25, 25]") + ": experiment[0].split: 3 shares for 2 arms (classic-form, one-step-form, from --arms)"},
+		{"end before the file's start", []string{"--end", "2027-03-01"}, "analyze: --end: the window ends at 2027-03-01T00:00:00Z, not after its start 2027-03-01T00:00:00Z (" + spec + ":" + lineOf("start = 2027-03-01") + ": experiment[0].start)"},
 		{"control outside the file's arms", []string{"--control", "phone"}, `the control "phone" (--control) is not among the arms`},
 		{"bad flag value", []string{"--alpha", "2"}, "--alpha"},
 		{"lower-is-better unknown", []string{"--lower-is-better", "refunds"}, `--lower-is-better "refunds": no metric of that name`},

@@ -427,7 +427,7 @@ type specFile struct {
 	pathsFrom  origin
 	shape      string
 	shapeFrom  origin
-	delimiter  string // "" when not set
+	delimiter  rune // 0 when not set (",")
 	delimFrom  origin
 	maxBadRows int64
 	badRowFrom origin
@@ -617,16 +617,16 @@ func (sf *specFile) parseInput(l *locator, in fileInput) error {
 	}
 	if in.Delimiter != nil {
 		sf.delimFrom = l.at("input.delimiter")
-		d := *in.Delimiter
-		if r := []rune(d); len(r) != 1 || r[0] == '"' || r[0] == '\r' || r[0] == '\n' || r[0] == 0xFFFD {
-			return sf.delimFrom.errorf("%q: want one character other than a quote or a line break, such as \",\", \";\" or \"\\t\"", d)
+		d, err := parseDelimiter(*in.Delimiter)
+		if err != nil {
+			return sf.delimFrom.errorf("%v", err)
 		}
 		sf.delimiter = d
 	}
 	if in.MaxBadRows != nil {
 		sf.badRowFrom = l.at("input.max_bad_rows")
-		if *in.MaxBadRows < 0 {
-			return sf.badRowFrom.errorf("%d: want 0 or more", *in.MaxBadRows)
+		if *in.MaxBadRows < ingest.NoLimit {
+			return sf.badRowFrom.errorf("%d: want 0 or more, or -1 for no limit", *in.MaxBadRows)
 		}
 		sf.maxBadRows = *in.MaxBadRows
 	}
@@ -1041,10 +1041,9 @@ func listOrNone(list []string) string {
 }
 
 // unsupported returns an error for the first key that asks for a feature
-// the reader or the analysis does not have yet: "not supported yet: KEY".
-// Keys whose value is what armtally does anyway (a "," delimiter, no bad
-// rows allowed, the events shape) are fine.
-func (sf *specFile) unsupported(pathsOverridden bool) error {
+// the analysis does not have yet: "not supported yet: KEY". The events
+// shape is fine.
+func (sf *specFile) unsupported() error {
 	nope := func(o origin, what string) error {
 		msg := "not supported yet: " + o.key
 		if what != "" {
@@ -1055,23 +1054,8 @@ func (sf *specFile) unsupported(pathsOverridden bool) error {
 	switch {
 	case sf.shape != shapeEvents:
 		return nope(sf.shapeFrom, fmt.Sprintf("only the %q shape can be read so far, not %q", shapeEvents, sf.shape))
-	case sf.delimiter != "" && sf.delimiter != ",":
-		return nope(sf.delimFrom, fmt.Sprintf("CSV files are read with \",\" so far, not %q", sf.delimiter))
-	case sf.maxBadRows > 0:
-		return nope(sf.badRowFrom, "the first bad row stops the run so far")
-	case sf.maxBad > 0:
-		return nope(sf.badFrom, "the first bad row stops the run so far")
-	case len(sf.partitions) > 0:
-		return nope(sf.partFrom, "folder names such as dt=2026-11-02 are not read as columns so far")
 	case sf.audit != "":
 		return nope(sf.auditFrom, "")
-	}
-	for i, p := range sf.paths {
-		if !pathsOverridden && isGlob(p) {
-			o := sf.pathsFrom
-			o.key = fmt.Sprintf("input.paths[%d]", i)
-			return nope(o, fmt.Sprintf("%q is a pattern; name files or folders so far", p))
-		}
 	}
 	for _, e := range sf.experiments {
 		if len(e.segments) > 0 {
@@ -1081,12 +1065,37 @@ func (sf *specFile) unsupported(pathsOverridden bool) error {
 	return nil
 }
 
-// isGlob reports whether p is a pattern rather than the name of an
-// existing file or folder.
-func isGlob(p string) bool {
-	if !strings.ContainsAny(p, "*?[") {
-		return false
+// checkPartitions checks that every source has the partition keys
+// input.partition_columns lists.
+func (sf *specFile) checkPartitions(sources []ingest.Source) error {
+	for _, key := range sf.partitions {
+		for _, src := range sources {
+			found := false
+			for _, p := range src.Partitions {
+				found = found || p.Key == key
+			}
+			if !found {
+				var have []string
+				for _, p := range src.Partitions {
+					have = append(have, p.Key)
+				}
+				return &dataError{fmt.Errorf("%s: no partition folder %s=... on its path (input.partition_columns at %s:%d; its partitions: %s)",
+					src.Name, key, sf.partFrom.file, sf.partFrom.line, listOrNone(have))}
+			}
+		}
 	}
-	_, err := os.Stat(p)
-	return err != nil
+	return nil
+}
+
+// parseDelimiter reads a CSV delimiter: one character other than a quote or
+// a line break; `\t` (backslash, t) and "tab" mean a tab.
+func parseDelimiter(s string) (rune, error) {
+	switch s {
+	case `\t`, "tab":
+		return '\t', nil
+	}
+	if r := []rune(s); len(r) == 1 && r[0] != '"' && r[0] != '\r' && r[0] != '\n' && r[0] != 0xFFFD {
+		return r[0], nil
+	}
+	return 0, fmt.Errorf("%q: want one character other than a quote or a line break, such as \",\", \";\" or \"\\t\"", s)
 }

@@ -23,6 +23,8 @@ Rules:
       FILE arguments replace input.paths (and so does --demo);
       --user-col, --ts-col, --event-col, --experiment-col, --arm-col and
         --epoch-unit replace the [columns] keys;
+      --delimiter, --max-bad-rows and --max-bad-share replace the [input]
+        keys of the same names;
       --out, --json and --fail-on-sample-ratio replace the [output] keys;
       --exposure-event, --control, --start, --end, --multi-arm, --maturity,
         --alpha, --alternative, --adjust, --interval, --difference-interval,
@@ -43,12 +45,9 @@ Rules:
     the second metric of that experiment.
   - Some keys are read and checked now for features that are still being
     built; a run that uses them stops with "not supported yet: KEY":
-    input.shape other than "events", input.delimiter other than ",",
-    input.max_bad_rows or input.max_bad_share above 0,
-    input.partition_columns, a glob pattern in input.paths, output.audit,
-    experiment.segments (and so columns.metric, columns.units,
+    input.shape other than "events" (and so columns.metric, columns.units,
     columns.conversions and experiment.metric.column, which belong to the
-    "counts" and "units" shapes).
+    "counts" and "units" shapes), output.audit and experiment.segments.
 
 An example that shows every key:
 
