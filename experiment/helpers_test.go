@@ -19,21 +19,39 @@ type row struct {
 	event string
 	exp   string // "" is null
 	arm   string // "" is null
+	// segs holds one value per segment dimension of the batch; nullSeg
+	// (or a missing entry) is null.
+	segs []string
 }
 
-// batch builds a record batch of the logical event table from rows.
-func batch(t testing.TB, rows []row) arrow.RecordBatch {
+// nullSeg stands for a null segment value in row.segs and unitRow.segs.
+const nullSeg = "\x00null"
+
+// batch builds a record batch of the logical event table from rows, with
+// one segment column per name in dims.
+func batch(t testing.TB, rows []row, dims ...string) arrow.RecordBatch {
 	t.Helper()
-	schema := arrow.NewSchema([]arrow.Field{
+	fields := []arrow.Field{
 		{Name: ColUser, Type: arrow.BinaryTypes.String},
 		{Name: ColTS, Type: &arrow.TimestampType{Unit: arrow.Nanosecond, TimeZone: "UTC"}},
 		{Name: ColEvent, Type: arrow.BinaryTypes.String},
 		{Name: ColExperiment, Type: arrow.BinaryTypes.String, Nullable: true},
 		{Name: ColArm, Type: arrow.BinaryTypes.String, Nullable: true},
-	}, nil)
-	b := array.NewRecordBuilder(memory.DefaultAllocator, schema)
+	}
+	for _, d := range dims {
+		fields = append(fields, arrow.Field{Name: d, Type: arrow.BinaryTypes.String, Nullable: true})
+	}
+	b := array.NewRecordBuilder(memory.DefaultAllocator, arrow.NewSchema(fields, nil))
 	defer b.Release()
 	for _, r := range rows {
+		for d := range dims {
+			sb := b.Field(5 + d).(*array.StringBuilder)
+			if d < len(r.segs) && r.segs[d] != nullSeg {
+				sb.Append(r.segs[d])
+			} else {
+				sb.AppendNull()
+			}
+		}
 		b.Field(0).(*array.StringBuilder).Append(r.user)
 		b.Field(1).(*array.TimestampBuilder).Append(arrow.Timestamp(base.Add(r.at).UnixNano()))
 		b.Field(2).(*array.StringBuilder).Append(r.event)
@@ -52,6 +70,17 @@ func batch(t testing.TB, rows []row) arrow.RecordBatch {
 // (size <= 0: one batch).
 func tally(t testing.TB, spec Spec, rows []row, size int) Tally {
 	t.Helper()
+	tl := tallier(t, spec, rows, size)
+	out, err := tl.Tally()
+	if err != nil {
+		t.Fatalf("Tally: %v", err)
+	}
+	return out
+}
+
+// tallier runs a Tallier over rows as tally does and returns it.
+func tallier(t testing.TB, spec Spec, rows []row, size int) *Tallier {
+	t.Helper()
 	tl, err := NewTallier(spec)
 	if err != nil {
 		t.Fatalf("NewTallier: %v", err)
@@ -61,18 +90,14 @@ func tally(t testing.TB, spec Spec, rows []row, size int) Tally {
 	}
 	for lo := 0; lo < len(rows); lo += size {
 		hi := min(lo+size, len(rows))
-		rec := batch(t, rows[lo:hi])
+		rec := batch(t, rows[lo:hi], spec.Segments...)
 		err := tl.Add(rec)
 		rec.Release()
 		if err != nil {
 			t.Fatalf("Add: %v", err)
 		}
 	}
-	out, err := tl.Tally()
-	if err != nil {
-		t.Fatalf("Tally: %v", err)
-	}
-	return out
+	return tl
 }
 
 func ptrTime(t time.Time) *time.Time { return &t }
@@ -81,3 +106,92 @@ const (
 	hour = time.Hour
 	day  = 24 * time.Hour
 )
+
+// unitBatch builds a record batch of the logical unit table: user, arm,
+// ts when timed, one bool column per metric and one utf8 column per
+// segment dimension of spec.
+func unitBatch(t testing.TB, spec Spec, rows []unitRow, timed bool) arrow.RecordBatch {
+	t.Helper()
+	fields := []arrow.Field{
+		{Name: ColUser, Type: arrow.BinaryTypes.String},
+		{Name: ColArm, Type: arrow.BinaryTypes.String},
+	}
+	if timed {
+		fields = append(fields, arrow.Field{Name: ColTS, Type: &arrow.TimestampType{Unit: arrow.Nanosecond, TimeZone: "UTC"}})
+	}
+	for _, m := range spec.Metrics {
+		fields = append(fields, arrow.Field{Name: m.Name, Type: arrow.FixedWidthTypes.Boolean})
+	}
+	for _, d := range spec.Segments {
+		fields = append(fields, arrow.Field{Name: d, Type: arrow.BinaryTypes.String, Nullable: true})
+	}
+	b := array.NewRecordBuilder(memory.DefaultAllocator, arrow.NewSchema(fields, nil))
+	defer b.Release()
+	for _, r := range rows {
+		i := 0
+		next := func() array.Builder { f := b.Field(i); i++; return f }
+		str := func(s string) {
+			sb := next().(*array.StringBuilder)
+			if s == nullSeg {
+				sb.AppendNull()
+			} else {
+				sb.Append(s)
+			}
+		}
+		str(r.user)
+		str(r.arm)
+		if timed {
+			next().(*array.TimestampBuilder).Append(arrow.Timestamp(base.Add(r.at).UnixNano()))
+		}
+		for m := range spec.Metrics {
+			next().(*array.BooleanBuilder).Append(r.flags[m])
+		}
+		for d := range spec.Segments {
+			v := nullSeg
+			if d < len(r.segs) {
+				v = r.segs[d]
+			}
+			str(v)
+		}
+	}
+	return b.NewRecordBatch()
+}
+
+// countsBatch builds a record batch of the logical counts table; row.seg
+// fills the one segment dimension of spec, if any.
+func countsBatch(t testing.TB, spec Spec, rows []countRow, immature bool) arrow.RecordBatch {
+	t.Helper()
+	fields := []arrow.Field{{Name: ColArm, Type: arrow.BinaryTypes.String}}
+	for _, d := range spec.Segments {
+		fields = append(fields, arrow.Field{Name: d, Type: arrow.BinaryTypes.String, Nullable: true})
+	}
+	fields = append(fields,
+		arrow.Field{Name: ColMetric, Type: arrow.BinaryTypes.String},
+		arrow.Field{Name: ColUnits, Type: arrow.PrimitiveTypes.Int64},
+		arrow.Field{Name: ColConversions, Type: arrow.PrimitiveTypes.Int64})
+	if immature {
+		fields = append(fields, arrow.Field{Name: ColImmature, Type: arrow.PrimitiveTypes.Int64})
+	}
+	b := array.NewRecordBuilder(memory.DefaultAllocator, arrow.NewSchema(fields, nil))
+	defer b.Release()
+	for _, r := range rows {
+		i := 0
+		next := func() array.Builder { f := b.Field(i); i++; return f }
+		next().(*array.StringBuilder).Append(r.arm)
+		for range spec.Segments {
+			sb := next().(*array.StringBuilder)
+			if r.seg == nullSeg {
+				sb.AppendNull()
+			} else {
+				sb.Append(r.seg)
+			}
+		}
+		next().(*array.StringBuilder).Append(r.metric)
+		next().(*array.Int64Builder).Append(r.units)
+		next().(*array.Int64Builder).Append(r.conversions)
+		if immature {
+			next().(*array.Int64Builder).Append(r.immature)
+		}
+	}
+	return b.NewRecordBatch()
+}

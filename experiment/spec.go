@@ -132,4 +132,68 @@ type Spec struct {
 	Maturity MaturityPolicy
 	// Metrics are analysed in this order.
 	Metrics []Metric
+	// Segments names the segment dimensions: columns of the input named
+	// after the dimension (nullable utf8). A unit's value of a dimension
+	// comes from its first exposure row; when several rows at t0 disagree,
+	// the smallest value wins, and a null value counts as larger than every
+	// string (so a value beats a null), being a value of its own otherwise.
+	// Segment results are exploratory: see Segmentation.
+	Segments []string
+}
+
+// validate checks what every input shape needs of a spec: a window that
+// runs forward, a split that matches the arms, arms listed once, named and
+// distinct metrics with sane windows and targets, and named, distinct
+// segment dimensions. reserved lists names a segment dimension may not take
+// (the logical columns of the input).
+func (spec Spec) validate(reserved ...string) error {
+	if len(spec.Metrics) == 0 {
+		return fmt.Errorf("experiment %q: no metrics", spec.Key)
+	}
+	if spec.Start != nil && spec.End != nil && !spec.Start.Before(*spec.End) {
+		return fmt.Errorf("experiment %q: window start %s is not before end %s",
+			spec.Key, spec.Start.UTC().Format(time.RFC3339Nano), spec.End.UTC().Format(time.RFC3339Nano))
+	}
+	if len(spec.Split) != 0 && len(spec.Split) != len(spec.Arms) {
+		return fmt.Errorf("experiment %q: planned split has %d shares for %d arms", spec.Key, len(spec.Split), len(spec.Arms))
+	}
+	arms := make(map[string]bool, len(spec.Arms))
+	for _, a := range spec.Arms {
+		if arms[a] {
+			return fmt.Errorf("experiment %q: arm %q listed twice", spec.Key, a)
+		}
+		arms[a] = true
+	}
+	metrics := make(map[string]bool, len(spec.Metrics))
+	for mi, m := range spec.Metrics {
+		if m.Name == "" {
+			return fmt.Errorf("experiment %q: metric %d has no name", spec.Key, mi+1)
+		}
+		if metrics[m.Name] {
+			return fmt.Errorf("experiment %q: metric %q defined twice", spec.Key, m.Name)
+		}
+		metrics[m.Name] = true
+		if m.Window < 0 {
+			return fmt.Errorf("experiment %q: metric %q has a negative window", spec.Key, m.Name)
+		}
+		if m.Target != nil && !(*m.Target > 0 && *m.Target < 1) {
+			return fmt.Errorf("experiment %q: metric %q: target rate %v is not strictly between 0 and 1", spec.Key, m.Name, *m.Target)
+		}
+	}
+	dims := make(map[string]bool, len(spec.Segments))
+	for i, d := range spec.Segments {
+		if d == "" {
+			return fmt.Errorf("experiment %q: segment dimension %d has no name", spec.Key, i+1)
+		}
+		if dims[d] {
+			return fmt.Errorf("experiment %q: segment dimension %q listed twice", spec.Key, d)
+		}
+		dims[d] = true
+		for _, r := range reserved {
+			if d == r {
+				return fmt.Errorf("experiment %q: segment dimension %q has the name of a column the input already uses", spec.Key, d)
+			}
+		}
+	}
+	return nil
 }

@@ -2,10 +2,9 @@ package experiment
 
 import (
 	"fmt"
-	"math"
+	"iter"
 	"sort"
 	"strings"
-	"time"
 
 	"github.com/apache/arrow-go/v18/arrow"
 	"github.com/apache/arrow-go/v18/arrow/array"
@@ -34,19 +33,47 @@ type ArmTally struct {
 	// policy, before maturity).
 	Units int64
 	// FirstExposure is the earliest in-window exposure time seen in this
-	// arm (Unix nanoseconds); it orders arms not listed in the spec.
-	FirstExposure int64
+	// arm (Unix nanoseconds) when HasFirstExposure; it orders arms not
+	// listed in the spec. Counts and unit tables without exposure times
+	// have none.
+	FirstExposure    int64
+	HasFirstExposure bool
+	// Metrics holds one Count per metric of the spec, in spec order.
+	Metrics []Count
+	// Segments holds one entry per segment dimension of the spec, in spec
+	// order; nil when the spec has none.
+	Segments []SegmentCounts
+}
+
+// SegmentCounts is one arm's counts per value of one segment dimension.
+type SegmentCounts struct {
+	Dimension string
+	// Values are sorted by CompareSegmentValues (null last). A tally made
+	// by this package lists, in every arm, each value seen in any arm.
+	Values []SegmentCell
+}
+
+// SegmentCell is one arm's counts for the units with one segment value.
+type SegmentCell struct {
+	Value SegmentValue
+	// Units counts the arm's analysis population with this value (after
+	// the multi-arm policy, before maturity).
+	Units int64
 	// Metrics holds one Count per metric of the spec, in spec order.
 	Metrics []Count
 }
 
 // Tally is the mergeable result of the event semantics for one experiment:
 // counts only, no rows. Two tallies over disjoint sets of units (for
-// example, hash partitions of the unit key) merge by summing.
+// example, hash partitions of the unit key) merge by summing; MergeTallies
+// says exactly when that is exact.
 type Tally struct {
-	Arms []ArmTally
+	// Input is the shape of the input the tally was made from.
+	Input InputShape
+	Arms  []ArmTally
 	// Freshness is the largest ts among valid rows (Unix nanoseconds);
-	// HasFreshness is false when no row was read.
+	// HasFreshness is false when no row was read, and for unit tables and
+	// counts, which carry no conversion times.
 	Freshness    int64
 	HasFreshness bool
 	Diag         TallyDiagnostics
@@ -83,15 +110,6 @@ type TallyDiagnostics struct {
 	ExperimentKeys []string
 }
 
-// unitState is the per-unit state of the tally: fixed size.
-type unitState struct {
-	t0       int64
-	armAtT0  int32 // arm index of the earliest exposure; -1 when unexposed
-	firstArm int32 // arm index of the first exposure row met in reading order
-	tied     bool  // two arms at t0
-	multi    bool  // two or more distinct arms among in-window exposures
-}
-
 type metricEvent struct {
 	unit  int32
 	event int32 // index into Tallier.metricNames
@@ -99,10 +117,12 @@ type metricEvent struct {
 }
 
 // Tallier applies the event semantics of one Spec to record batches of the
-// logical event table (see ColUser and friends) and produces a Tally.
-// Memory grows with the number of distinct units that have an exposure or a
-// metric event, and with the number of metric events; rows of other events
-// are counted and dropped at once. A Tallier is not safe for concurrent use.
+// logical event table (see ColUser and friends) and produces a Tally, in
+// two stages: first a UnitRecord per exposed unit (Units), then their sum
+// (Tally, through an Accumulator). Memory grows with the number of
+// distinct units that have an exposure or a metric event, and with the
+// number of metric events; rows of other events are counted and dropped at
+// once. A Tallier is not safe for concurrent use.
 type Tallier struct {
 	spec     Spec
 	start    int64
@@ -116,16 +136,20 @@ type Tallier struct {
 	// metricsOf[i] lists the metric indices whose event set holds
 	// metricNames[i].
 	metricsOf [][]int
-	units     map[string]int32
-	state     []unitState
-	events    []metricEvent
-	armIndex  map[string]int32
-	arms      []string
-	armFirst  []int64
-	expKeys   map[string]struct{}
+	exposures
+	events   []metricEvent
+	expKeys  map[string]struct{}
+	diag     TallyDiagnostics
+	fresh    int64
+	hasFresh bool
+	fin      *finished // the attribution of the events, until Add is called again
+}
+
+// finished is the result of attributing the metric events to units.
+type finished struct {
+	// converted[u*nm+m] marks unit u converted on metric m.
+	converted []bool
 	diag      TallyDiagnostics
-	fresh     int64
-	hasFresh  bool
 }
 
 const kindExposure = -1
@@ -135,40 +159,18 @@ func NewTallier(spec Spec) (*Tallier, error) {
 	if spec.ExposureEvent == "" {
 		return nil, fmt.Errorf("experiment %q: no exposure event name", spec.Key)
 	}
-	if len(spec.Metrics) == 0 {
-		return nil, fmt.Errorf("experiment %q: no metrics", spec.Key)
-	}
-	if spec.Start != nil && spec.End != nil && !spec.Start.Before(*spec.End) {
-		return nil, fmt.Errorf("experiment %q: window start %s is not before end %s",
-			spec.Key, spec.Start.UTC().Format(time.RFC3339Nano), spec.End.UTC().Format(time.RFC3339Nano))
-	}
-	if len(spec.Split) != 0 && len(spec.Split) != len(spec.Arms) {
-		return nil, fmt.Errorf("experiment %q: planned split has %d shares for %d arms", spec.Key, len(spec.Split), len(spec.Arms))
+	if err := spec.validate(ColUser, ColTS, ColEvent, ColExperiment, ColArm); err != nil {
+		return nil, err
 	}
 	t := &Tallier{
 		spec:      spec,
 		eventKind: map[string]int32{spec.ExposureEvent: kindExposure},
-		units:     make(map[string]int32),
-		armIndex:  make(map[string]int32),
+		exposures: newExposures(spec),
 		expKeys:   make(map[string]struct{}),
 	}
-	seenMetric := make(map[string]bool)
 	for mi, m := range spec.Metrics {
-		if m.Name == "" {
-			return nil, fmt.Errorf("experiment %q: metric %d has no name", spec.Key, mi+1)
-		}
-		if seenMetric[m.Name] {
-			return nil, fmt.Errorf("experiment %q: metric %q defined twice", spec.Key, m.Name)
-		}
-		seenMetric[m.Name] = true
 		if len(m.Events) == 0 {
 			return nil, fmt.Errorf("experiment %q: metric %q has no events", spec.Key, m.Name)
-		}
-		if m.Window < 0 {
-			return nil, fmt.Errorf("experiment %q: metric %q has a negative window", spec.Key, m.Name)
-		}
-		if m.Target != nil && !(*m.Target > 0 && *m.Target < 1) {
-			return nil, fmt.Errorf("experiment %q: metric %q: target rate %v is not strictly between 0 and 1", spec.Key, m.Name, *m.Target)
 		}
 		for _, e := range m.Events {
 			if e == spec.ExposureEvent {
@@ -192,81 +194,41 @@ func NewTallier(spec Spec) (*Tallier, error) {
 	if spec.End != nil {
 		t.end, t.hasEnd = spec.End.UnixNano(), true
 	}
-	for _, a := range spec.Arms {
-		if _, dup := t.armIndex[a]; dup {
-			return nil, fmt.Errorf("experiment %q: arm %q listed twice", spec.Key, a)
-		}
-		t.addArm(a)
-	}
 	t.diag.OutsideAttribution = make([]int64, len(spec.Metrics))
 	return t, nil
 }
 
-func (t *Tallier) addArm(name string) int32 {
-	i := int32(len(t.arms))
-	t.armIndex[name] = i
-	t.arms = append(t.arms, name)
-	t.armFirst = append(t.armFirst, math.MaxInt64)
-	return i
-}
-
-func (t *Tallier) unit(user string) int32 {
-	if u, ok := t.units[user]; ok {
-		return u
-	}
-	u := int32(len(t.state))
-	t.units[strings.Clone(user)] = u
-	t.state = append(t.state, unitState{armAtT0: -1, firstArm: -1})
-	return u
-}
-
-// stringColumn returns the named utf8 column, nil when absent.
-func stringColumn(rec arrow.RecordBatch, name string, required bool) (*array.String, error) {
-	idx := rec.Schema().FieldIndices(name)
-	if len(idx) == 0 {
-		if required {
-			return nil, fmt.Errorf("event table has no %q column", name)
-		}
-		return nil, nil
-	}
-	col, ok := rec.Column(idx[0]).(*array.String)
-	if !ok {
-		return nil, fmt.Errorf("event table column %q is %s, want utf8", name, rec.Column(idx[0]).DataType())
-	}
-	return col, nil
-}
-
-// Add applies one record batch. It reads the user, ts, event, experiment and
-// arm columns; it does not check the producer's row rules again (a null
-// user reads as the empty string).
+// Add applies one record batch. It reads the user, ts, event, experiment
+// and arm columns and the spec's segment columns (on exposure rows); it
+// does not check the producer's row rules again (a null user reads as the
+// empty string).
 func (t *Tallier) Add(rec arrow.RecordBatch) error {
-	users, err := stringColumn(rec, ColUser, true)
+	const table = "event table"
+	users, err := stringColumn(rec, table, ColUser, true)
 	if err != nil {
 		return err
 	}
-	events, err := stringColumn(rec, ColEvent, true)
+	events, err := stringColumn(rec, table, ColEvent, true)
 	if err != nil {
 		return err
 	}
-	exps, err := stringColumn(rec, ColExperiment, false)
+	exps, err := stringColumn(rec, table, ColExperiment, false)
 	if err != nil {
 		return err
 	}
-	arms, err := stringColumn(rec, ColArm, false)
+	arms, err := stringColumn(rec, table, ColArm, false)
 	if err != nil {
 		return err
 	}
-	tsIdx := rec.Schema().FieldIndices(ColTS)
-	if len(tsIdx) == 0 {
-		return fmt.Errorf("event table has no %q column", ColTS)
+	segs, err := segmentColumns(rec, table, t.spec)
+	if err != nil {
+		return err
 	}
-	tsCol, ok := rec.Column(tsIdx[0]).(*array.Timestamp)
-	if !ok {
-		return fmt.Errorf("event table column %q is %s, want timestamp", ColTS, rec.Column(tsIdx[0]).DataType())
+	tsCol, err := timestampColumn(rec, table, ColTS, true)
+	if err != nil {
+		return err
 	}
-	if unit := tsCol.DataType().(*arrow.TimestampType).Unit; unit != arrow.Nanosecond {
-		return fmt.Errorf("event table column %q has unit %s, want ns", ColTS, unit)
-	}
+	t.fin = nil
 	ts := tsCol.TimestampValues()
 	n := int(rec.NumRows())
 	t.diag.RowsRead += int64(n)
@@ -281,7 +243,7 @@ func (t *Tallier) Add(rec arrow.RecordBatch) error {
 			continue
 		}
 		if kind == kindExposure {
-			t.addExposure(users, exps, arms, i, at)
+			t.addExposure(users, exps, arms, segs, i, at)
 			continue
 		}
 		t.diag.MetricEvents++
@@ -295,7 +257,7 @@ func (t *Tallier) Add(rec arrow.RecordBatch) error {
 	return nil
 }
 
-func (t *Tallier) addExposure(users, exps, arms *array.String, i int, at int64) {
+func (t *Tallier) addExposure(users, exps, arms *array.String, segs []*array.String, i int, at int64) {
 	if exps != nil {
 		key := ""
 		if exps.IsValid(i) {
@@ -319,52 +281,38 @@ func (t *Tallier) addExposure(users, exps, arms *array.String, i int, at int64) 
 	if arms != nil && arms.IsValid(i) {
 		armName = arms.Value(i)
 	}
-	a, ok := t.armIndex[armName]
-	if !ok {
-		a = t.addArm(strings.Clone(armName))
-	}
-	if at < t.armFirst[a] {
-		t.armFirst[a] = at
-	}
-	s := &t.state[t.unit(users.Value(i))]
-	switch {
-	case s.armAtT0 < 0 || at < s.t0:
-		s.t0, s.armAtT0, s.tied = at, a, false
-	case at == s.t0 && a != s.armAtT0:
-		s.tied = true
-	}
-	if s.firstArm < 0 {
-		s.firstArm = a
-	} else if s.firstArm != a {
-		s.multi = true
-	}
+	t.expose(t.unit(users.Value(i)), t.arm(armName), at, segs, i)
 }
 
-// excluded reports whether the unit is left out of every metric, and why.
-func (t *Tallier) excluded(s *unitState) bool {
-	if s.multi && t.spec.MultiArm == MultiArmExclude {
-		return true
-	}
-	return s.tied && t.spec.MultiArm == MultiArmFirst
-}
-
-// Tally finishes the pass: it decides each unit's arm, applies the
-// multi-arm policy, attributes metric events, applies maturity and returns
-// the counts. Arms are ordered as listed in the spec, then by their first
-// in-window exposure time, then by name.
-func (t *Tallier) Tally() (Tally, error) {
+// checkKeys refuses a run without an experiment key over exposures of
+// several experiments.
+func (t *Tallier) checkKeys() error {
 	if t.spec.Key == "" && len(t.expKeys) > 1 {
-		keys := make([]string, 0, len(t.expKeys))
-		for k := range t.expKeys {
-			keys = append(keys, k)
-		}
-		sort.Strings(keys)
-		return Tally{}, fmt.Errorf("exposure rows carry %d experiment keys (%s): choose one", len(keys), strings.Join(keys, ", "))
+		keys := t.experimentKeys()
+		return fmt.Errorf("exposure rows carry %d experiment keys (%s): choose one", len(keys), strings.Join(keys, ", "))
+	}
+	return nil
+}
+
+func (t *Tallier) experimentKeys() []string {
+	keys := make([]string, 0, len(t.expKeys))
+	for k := range t.expKeys {
+		keys = append(keys, k)
+	}
+	sort.Strings(keys)
+	return keys
+}
+
+// finish attributes the metric events to the units: each event is ignored
+// (unit never exposed, unit excluded by the multi-arm policy, before t0,
+// outside the attribution window) or marks its unit converted.
+func (t *Tallier) finish() *finished {
+	if t.fin != nil {
+		return t.fin
 	}
 	nm := len(t.spec.Metrics)
-	// converted[u*nm+m] marks unit u converted on metric m.
-	converted := make([]bool, len(t.state)*nm)
-	d := t.diag
+	f := &finished{converted: make([]bool, len(t.state)*nm), diag: t.diag}
+	d := &f.diag
 	d.OutsideAttribution = append([]int64(nil), t.diag.OutsideAttribution...)
 	for _, e := range t.events {
 		s := &t.state[e.unit]
@@ -372,7 +320,7 @@ func (t *Tallier) Tally() (Tally, error) {
 		case s.armAtT0 < 0:
 			d.UnitNeverExposed++
 			continue
-		case t.excluded(s):
+		case status(s, t.spec.MultiArm) != StatusAnalysed:
 			d.UnitExcluded++
 			continue
 		case e.ts < s.t0:
@@ -386,82 +334,84 @@ func (t *Tallier) Tally() (Tally, error) {
 				d.OutsideAttribution[m]++
 				continue
 			}
-			converted[int(e.unit)*nm+m] = true
+			f.converted[int(e.unit)*nm+m] = true
 		}
 	}
+	t.fin = f
+	return f
+}
 
-	// Order arms: spec arms first, then by first exposure, then name.
-	order := make([]int32, len(t.arms))
-	for i := range order {
-		order[i] = int32(i)
+// record fills rec for exposed unit u.
+func (t *Tallier) record(f *finished, u int32, rec *UnitRecord) {
+	t.fill(u, t.spec.MultiArm, true, rec)
+	nm := len(t.spec.Metrics)
+	if len(rec.Converted) != nm {
+		rec.Converted, rec.Immature = make([]bool, nm), make([]bool, nm)
 	}
-	ns := int32(len(t.spec.Arms))
-	sort.SliceStable(order, func(i, j int) bool {
-		a, b := order[i], order[j]
-		if a < ns || b < ns {
-			return a < b
-		}
-		if t.armFirst[a] != t.armFirst[b] {
-			return t.armFirst[a] < t.armFirst[b]
-		}
-		return t.arms[a] < t.arms[b]
-	})
-	pos := make([]int, len(t.arms))
-	out := Tally{Freshness: t.fresh, HasFreshness: t.hasFresh}
-	for p, a := range order {
-		pos[a] = p
-		first := t.armFirst[a]
-		if first == math.MaxInt64 {
-			first = 0
-		}
-		out.Arms = append(out.Arms, ArmTally{Name: t.arms[a], FirstExposure: first, Metrics: make([]Count, nm)})
+	horizon := t.fresh
+	if t.hasEnd {
+		horizon = t.end
 	}
+	analysed := rec.Status == StatusAnalysed
+	for m, mt := range t.spec.Metrics {
+		w := int64(mt.Window)
+		rec.Converted[m] = analysed && f.converted[int(u)*nm+m]
+		rec.Immature[m] = analysed && w > 0 && t.state[u].t0 > horizon-w
+	}
+}
 
-	freshness := t.fresh
+// Units returns the first stage of the tally: one record per unit with an
+// in-window exposure, sorted by unit key (bytewise). Each record yielded
+// is fresh: the caller may keep it. Call it after the last Add; it fails
+// like Tally when a run without an experiment key meets several keys.
+func (t *Tallier) Units() (iter.Seq[UnitRecord], error) {
+	if err := t.checkKeys(); err != nil {
+		return nil, err
+	}
+	f := t.finish()
+	order := t.sortedUnits()
+	return func(yield func(UnitRecord) bool) {
+		for _, u := range order {
+			var rec UnitRecord
+			t.record(f, u, &rec)
+			if !yield(rec) {
+				return
+			}
+		}
+	}, nil
+}
+
+// Tally finishes the pass: it decides each unit's arm, applies the
+// multi-arm policy, attributes metric events, applies maturity and returns
+// the counts, overall and per segment value. Arms are ordered as listed in
+// the spec, then by their first in-window exposure time, then by name.
+// Tally may be called again after more Adds.
+func (t *Tallier) Tally() (Tally, error) {
+	if err := t.checkKeys(); err != nil {
+		return Tally{}, err
+	}
+	f := t.finish()
+	acc, err := NewAccumulator(t.spec)
+	if err != nil {
+		return Tally{}, err
+	}
+	t.seeArms(acc)
+	var rec UnitRecord
 	for u := range t.state {
-		s := &t.state[u]
-		if s.armAtT0 < 0 {
+		if t.state[u].armAtT0 < 0 {
 			continue
 		}
-		d.UnitsExposed++
-		arm := &out.Arms[pos[s.armAtT0]]
-		arm.Exposed++
-		if s.multi {
-			d.MultiArmUnits++
-		}
-		if s.tied && t.spec.MultiArm == MultiArmFirst {
-			d.TiedUnits++
-		}
-		if t.excluded(s) {
-			continue
-		}
-		arm.Units++
-		for m := range t.spec.Metrics {
-			c := &arm.Metrics[m]
-			if w := int64(t.spec.Metrics[m].Window); w > 0 {
-				horizon := freshness
-				if t.hasEnd {
-					horizon = t.end
-				}
-				if s.t0 > horizon-w {
-					c.Immature++
-					if t.spec.Maturity == MaturityExclude {
-						continue
-					}
-				}
-			}
-			c.Units++
-			if converted[u*nm+m] {
-				c.Conversions++
-			}
+		t.record(f, int32(u), &rec)
+		if err := acc.Add(rec); err != nil {
+			return Tally{}, err
 		}
 	}
-	keys := make([]string, 0, len(t.expKeys))
-	for k := range t.expKeys {
-		keys = append(keys, k)
-	}
-	sort.Strings(keys)
-	d.ExperimentKeys = keys
+	out := acc.Tally()
+	d := f.diag
+	d.UnitsExposed, d.MultiArmUnits, d.TiedUnits = out.Diag.UnitsExposed, out.Diag.MultiArmUnits, out.Diag.TiedUnits
+	d.ExperimentKeys = t.experimentKeys()
 	out.Diag = d
+	out.Input = InputEventLog
+	out.Freshness, out.HasFreshness = t.fresh, t.hasFresh
 	return out, nil
 }

@@ -1,0 +1,256 @@
+package experiment
+
+import (
+	"fmt"
+	"math"
+	"slices"
+	"strings"
+
+	"github.com/apache/arrow-go/v18/arrow"
+	"github.com/apache/arrow-go/v18/arrow/array"
+)
+
+// unitState is the per-unit exposure state: fixed size.
+type unitState struct {
+	t0       int64
+	armAtT0  int32 // arm index of the earliest exposure; -1 when unexposed
+	firstArm int32 // arm index of the first exposure row met in reading order
+	tied     bool  // two arms at t0
+	multi    bool  // two or more distinct arms among in-window exposures
+}
+
+// segNull is the interned index of a null segment value.
+const segNull = -1
+
+// exposures holds what the event log and the unit table share: the units,
+// their first exposure, arm and segment values, and the arms seen. Segment
+// values are interned per dimension, so a unit costs one int32 per
+// dimension.
+type exposures struct {
+	units    map[string]int32
+	keys     []string // unit key by index
+	state    []unitState
+	dims     int
+	segs     []int32 // dims values per unit, segNull for null
+	segIndex []map[string]int32
+	segVals  [][]string
+	armIndex map[string]int32
+	arms     []string
+	armFirst []int64 // earliest exposure seen per arm; math.MaxInt64 when none
+}
+
+func newExposures(spec Spec) exposures {
+	x := exposures{
+		units:    make(map[string]int32),
+		dims:     len(spec.Segments),
+		armIndex: make(map[string]int32),
+	}
+	x.segIndex = make([]map[string]int32, x.dims)
+	x.segVals = make([][]string, x.dims)
+	for d := range x.segIndex {
+		x.segIndex[d] = make(map[string]int32)
+	}
+	for _, a := range spec.Arms {
+		x.arm(a)
+	}
+	return x
+}
+
+// arm returns the index of the named arm, adding it when new.
+func (x *exposures) arm(name string) int32 {
+	if a, ok := x.armIndex[name]; ok {
+		return a
+	}
+	a := int32(len(x.arms))
+	name = strings.Clone(name)
+	x.armIndex[name] = a
+	x.arms = append(x.arms, name)
+	x.armFirst = append(x.armFirst, math.MaxInt64)
+	return a
+}
+
+// unit returns the index of the unit, adding it (unexposed) when new.
+func (x *exposures) unit(key string) int32 {
+	if u, ok := x.units[key]; ok {
+		return u
+	}
+	u := int32(len(x.state))
+	key = strings.Clone(key)
+	x.units[key] = u
+	x.keys = append(x.keys, key)
+	x.state = append(x.state, unitState{armAtT0: -1, firstArm: -1})
+	for range x.dims {
+		x.segs = append(x.segs, segNull)
+	}
+	return u
+}
+
+// segValue interns the segment value of dimension d in row i of col.
+func (x *exposures) segValue(d int, col *array.String, i int) int32 {
+	if !col.IsValid(i) {
+		return segNull
+	}
+	s := col.Value(i)
+	if v, ok := x.segIndex[d][s]; ok {
+		return v
+	}
+	v := int32(len(x.segVals[d]))
+	s = strings.Clone(s)
+	x.segIndex[d][s] = v
+	x.segVals[d] = append(x.segVals[d], s)
+	return v
+}
+
+// segLess reports whether interned value a of dimension d comes before b
+// in CompareSegmentValues order (null last).
+func (x *exposures) segLess(d int, a, b int32) bool {
+	switch {
+	case a == segNull:
+		return false
+	case b == segNull:
+		return true
+	}
+	return x.segVals[d][a] < x.segVals[d][b]
+}
+
+// expose records an in-window exposure of unit u in arm a at time at, with
+// the segment values of row i of segCols. The earliest exposure decides
+// t0, the arm and the segment values; exposures at t0 in two arms make a
+// tie (the smaller arm name is kept, so the order of rows does not
+// matter), and disagreeing segment values at t0 keep the smallest.
+func (x *exposures) expose(u, a int32, at int64, segCols []*array.String, i int) {
+	if at < x.armFirst[a] {
+		x.armFirst[a] = at
+	}
+	s := &x.state[u]
+	base := int(u) * x.dims
+	switch {
+	case s.armAtT0 < 0 || at < s.t0:
+		s.t0, s.armAtT0, s.tied = at, a, false
+		for d, col := range segCols {
+			x.segs[base+d] = x.segValue(d, col, i)
+		}
+	case at == s.t0:
+		if a != s.armAtT0 {
+			s.tied = true
+			if x.arms[a] < x.arms[s.armAtT0] {
+				s.armAtT0 = a
+			}
+		}
+		for d, col := range segCols {
+			if v := x.segValue(d, col, i); x.segLess(d, v, x.segs[base+d]) {
+				x.segs[base+d] = v
+			}
+		}
+	}
+	if s.firstArm < 0 {
+		s.firstArm = a
+	} else if s.firstArm != a {
+		s.multi = true
+	}
+}
+
+// status applies the multi-arm policy to a unit.
+func status(s *unitState, policy MultiArmPolicy) UnitStatus {
+	switch {
+	case s.multi && policy == MultiArmExclude:
+		return StatusMultiArm
+	case s.tied && policy == MultiArmFirst:
+		return StatusTied
+	}
+	return StatusAnalysed
+}
+
+// fill sets the fields of rec that the exposures decide: unit, arm, t0,
+// segment values, status and the multi-arm flag. rec.Segments is reused
+// when it has the right length.
+func (x *exposures) fill(u int32, policy MultiArmPolicy, hasT0 bool, rec *UnitRecord) {
+	s := &x.state[u]
+	rec.Unit = x.keys[u]
+	rec.Arm = x.arms[s.armAtT0]
+	rec.T0, rec.HasT0 = 0, hasT0
+	if hasT0 {
+		rec.T0 = s.t0
+	}
+	if len(rec.Segments) != x.dims {
+		rec.Segments = make([]SegmentValue, x.dims)
+	}
+	for d := range x.dims {
+		v := x.segs[int(u)*x.dims+d]
+		if v == segNull {
+			rec.Segments[d] = SegmentValue{}
+		} else {
+			rec.Segments[d] = SegmentValue{Value: x.segVals[d][v], Valid: true}
+		}
+	}
+	rec.Status = status(s, policy)
+	rec.MultiArm = s.multi
+}
+
+// sortedUnits returns the indices of the exposed units sorted by key.
+func (x *exposures) sortedUnits() []int32 {
+	var idx []int32
+	for u := range x.state {
+		if x.state[u].armAtT0 >= 0 {
+			idx = append(idx, int32(u))
+		}
+	}
+	slices.SortFunc(idx, func(a, b int32) int { return strings.Compare(x.keys[a], x.keys[b]) })
+	return idx
+}
+
+// seeArms tells acc about every arm seen, with its earliest exposure.
+func (x *exposures) seeArms(acc *Accumulator) {
+	for a, name := range x.arms {
+		acc.SeeArm(name, x.armFirst[a], x.armFirst[a] != math.MaxInt64)
+	}
+}
+
+// stringColumn returns the named utf8 column, nil when absent.
+func stringColumn(rec arrow.RecordBatch, table, name string, required bool) (*array.String, error) {
+	idx := rec.Schema().FieldIndices(name)
+	if len(idx) == 0 {
+		if required {
+			return nil, fmt.Errorf("%s has no %q column", table, name)
+		}
+		return nil, nil
+	}
+	col, ok := rec.Column(idx[0]).(*array.String)
+	if !ok {
+		return nil, fmt.Errorf("%s column %q is %s, want utf8", table, name, rec.Column(idx[0]).DataType())
+	}
+	return col, nil
+}
+
+// segmentColumns returns the segment columns of spec, all required.
+func segmentColumns(rec arrow.RecordBatch, table string, spec Spec) ([]*array.String, error) {
+	cols := make([]*array.String, len(spec.Segments))
+	for d, name := range spec.Segments {
+		c, err := stringColumn(rec, table, name, true)
+		if err != nil {
+			return nil, fmt.Errorf("segment dimension %q: %w", name, err)
+		}
+		cols[d] = c
+	}
+	return cols, nil
+}
+
+// timestampColumn returns the named timestamp[ns] column, nil when absent
+// and not required.
+func timestampColumn(rec arrow.RecordBatch, table, name string, required bool) (*array.Timestamp, error) {
+	idx := rec.Schema().FieldIndices(name)
+	if len(idx) == 0 {
+		if required {
+			return nil, fmt.Errorf("%s has no %q column", table, name)
+		}
+		return nil, nil
+	}
+	col, ok := rec.Column(idx[0]).(*array.Timestamp)
+	if !ok {
+		return nil, fmt.Errorf("%s column %q is %s, want timestamp", table, name, rec.Column(idx[0]).DataType())
+	}
+	if unit := col.DataType().(*arrow.TimestampType).Unit; unit != arrow.Nanosecond {
+		return nil, fmt.Errorf("%s column %q has unit %s, want ns", table, name, unit)
+	}
+	return col, nil
+}
