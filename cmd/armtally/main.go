@@ -9,6 +9,7 @@
 //	armtally analyze --demo                   analyse the embedded demo log
 //	armtally gen [flags]                      write a synthetic event log
 //	armtally plan [flags]                     size an experiment before it starts
+//	armtally inspect [flags] FILE|FOLDER...   show what an event log holds
 //	armtally help [COMMAND]                   show help
 //
 // Exit codes:
@@ -75,6 +76,7 @@ Usage:
   armtally analyze --demo                   analyse the embedded demo event log
   armtally gen [flags]                      write a synthetic event log
   armtally plan [flags]                     size an experiment before it starts
+  armtally inspect [flags] FILE|FOLDER...   show what an event log holds before a run
   armtally help [COMMAND]                   show help for a command
   armtally help spec                        describe the experiment spec file (--spec)
 
@@ -85,7 +87,8 @@ Exit codes:
   3  data error (unreadable input, malformed row, data that contradicts the settings)
   4  sample ratio mismatch with --fail-on-sample-ratio (the readout is still written)
 
-Run 'armtally help analyze', 'armtally help gen' or 'armtally help plan' for the flags,
+Run 'armtally help analyze', 'armtally help gen', 'armtally help plan' or
+'armtally help inspect' for the flags,
 and 'armtally help spec' for the experiment spec file of 'armtally analyze --spec'.
 `
 
@@ -103,6 +106,8 @@ func run(args []string, stdout, stderr io.Writer) int {
 		err = runGen(args[1:], stdout, stderr)
 	case "plan":
 		err = runPlan(args[1:], stdout, stderr)
+	case "inspect":
+		err = runInspect(args[1:], stdout, stderr)
 	case "help", "-h", "--help":
 		if len(args) > 1 && cmd == "help" {
 			if args[1] == "spec" {
