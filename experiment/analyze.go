@@ -162,6 +162,9 @@ func Analyze(spec Spec, t Tally, opts AnalysisOptions) (Readout, error) {
 	if err != nil {
 		return Readout{}, err
 	}
+	if err := checkSegments(spec, arms); err != nil {
+		return Readout{}, err
+	}
 
 	r := Readout{
 		Experiment:    spec.Key,
@@ -239,10 +242,28 @@ func Analyze(spec Spec, t Tally, opts AnalysisOptions) (Readout, error) {
 		return Readout{}, err
 	}
 	r.Multiplicity = mult
+	r.Segmentation.Dimensions = append([]string(nil), spec.Segments...)
+	if len(spec.Segments) > 0 {
+		for mi, mt := range spec.Metrics {
+			segs, err := analyzeSegments(spec, mi, arms, ctl, so, m)
+			if err != nil {
+				return Readout{}, fmt.Errorf("metric %q: %w", mt.Name, err)
+			}
+			r.Metrics[mi].Segments = segs
+		}
+		r.Segmentation.Tests, r.Segmentation.Caution = segmentCaution(r.Metrics, so.Alpha)
+	}
 
 	r.Diagnostics = diagnostics(spec, t, arms, opts)
 	if spec.End == nil {
-		r.Warnings = append(r.Warnings, "the analysis window has no end: maturity is judged against the data freshness, and units exposed shortly before it had little time to convert")
+		switch t.Input {
+		case InputUnitTable:
+			r.Warnings = append(r.Warnings, "the analysis window has no end: a unit table carries no conversion times, so no unit could be judged immature, and units exposed shortly before the export had little time to convert")
+		case InputCounts:
+			r.Warnings = append(r.Warnings, "the analysis window has no end: the counts say which units were immature only if the table has an immature column")
+		default:
+			r.Warnings = append(r.Warnings, "the analysis window has no end: maturity is judged against the data freshness, and units exposed shortly before it had little time to convert")
+		}
 	}
 	return r, nil
 }
@@ -486,6 +507,7 @@ func intervalAgrees(significant bool, x1, n1, x2, n2 int64, so stats.Options, me
 func diagnostics(spec Spec, t Tally, arms []ArmTally, opts AnalysisOptions) Diagnostics {
 	td := t.Diag
 	d := Diagnostics{
+		Input:         t.Input.String(),
 		RowsRead:      td.RowsRead,
 		BadRows:       append([]ReasonCount(nil), opts.BadRows...),
 		ExposureRows:  td.ExposureRows,

@@ -18,9 +18,19 @@
 //     default;
 //   - every row and unit left out is counted by reason.
 //
-// The result is a Tally: per arm and metric, units and conversions. Counts
-// of disjoint sets of units add up, which is what lets the same tally be
-// computed file by file, partition by partition or inside a warehouse.
+// The Tallier works in two stages: first one UnitRecord per exposed unit
+// (its arm, first exposure, segment values, status under the multi-arm
+// policy, and per metric whether it converted and whether it is immature),
+// then an Accumulator sums the records. The unit table (UnitTableTallier)
+// reduces to the same records; a table of counts already aggregated
+// (CountsTallier) goes to the sums directly. All three input shapes meet
+// in the same Tally.
+//
+// The result is a Tally: per arm and metric, units and conversions, overall
+// and per value of each segment dimension (Spec.Segments). Counts of
+// disjoint sets of units add up, which is what lets the same tally be
+// computed file by file, partition by partition or inside a warehouse;
+// MergeTallies says when such a merge is exact.
 //
 // Second, Analyze turns a Tally into a Readout with the statistics of
 // package experiment/stats: Wilson score intervals per arm; for each
@@ -31,7 +41,10 @@
 // approximation is not justified; the one-proportion z test against a
 // metric's target rate (the exact binomial test where its condition
 // fails); and the Pearson chi-square sample ratio check against the
-// planned split. Analyze sees counts only, never rows.
+// planned split. With segment dimensions, each metric is broken down by
+// segment value with the same per-arm rates and comparisons, decided at
+// alpha without adjustment and flagged as exploratory (Segmentation).
+// Analyze sees counts only, never rows.
 //
 // Package report renders a Readout as Markdown and JSON.
 package experiment

@@ -18,7 +18,10 @@ type Readout struct {
 	Arms          []ArmUnits  `json:"arms"`
 	SampleRatio   SampleRatio `json:"sample_ratio"`
 	// Multiplicity says how the comparisons were adjusted for being many.
-	Multiplicity Multiplicity    `json:"multiple_comparisons"`
+	Multiplicity Multiplicity `json:"multiple_comparisons"`
+	// Segmentation says which segment dimensions the metrics are broken
+	// down by, and how far to trust those breakdowns.
+	Segmentation Segmentation    `json:"segmentation"`
 	Metrics      []MetricReadout `json:"metrics"`
 	Diagnostics  Diagnostics     `json:"diagnostics"`
 	// Warnings are readout-wide cautions (sample ratio, exclusions,
@@ -103,7 +106,41 @@ type MetricReadout struct {
 	Guardrail   *Guardrail   `json:"guardrail"`
 	Arms        []ArmRate    `json:"arms"`
 	Comparisons []Comparison `json:"comparisons"`
-	Warnings    []string     `json:"warnings"`
+	// Segments breaks the metric down by segment: one entry per dimension
+	// of Segmentation.Dimensions and value, dimensions in that order and
+	// values sorted (null last). Exploratory: see Segmentation.
+	Segments []SegmentResult `json:"segments"`
+	Warnings []string        `json:"warnings"`
+}
+
+// Segmentation describes the segment breakdowns of a readout. Segment
+// results are exploratory: their comparisons are outside the
+// multiple-comparison family, each decided at alpha on its own, so the
+// more segments, the more of them look significant by chance.
+type Segmentation struct {
+	// Dimensions are the segment dimensions, in spec order; empty when the
+	// readout has no segment breakdown.
+	Dimensions []string `json:"dimensions"`
+	// Tests is the number of segment comparisons with a test.
+	Tests int `json:"tests"`
+	// Caution says what the segment results can and cannot show; "" when
+	// there are none.
+	Caution string `json:"caution"`
+}
+
+// SegmentResult is one metric for the units with one value of one segment
+// dimension: per-arm rates and each treatment against the control, decided
+// at alpha without adjustment (Adjusted is nil and Significant equals
+// SignificantUnadjusted) and without guardrail or target tests.
+type SegmentResult struct {
+	Dimension string `json:"dimension"`
+	// Value is the segment value; nil for the null value.
+	Value *string `json:"value"`
+	// Exploratory is always true: a segment result is a lead, not a
+	// finding.
+	Exploratory bool         `json:"exploratory"`
+	Arms        []ArmRate    `json:"arms"`
+	Comparisons []Comparison `json:"comparisons"`
 }
 
 // Guardrail is the non-inferiority margin of a guardrail metric.
@@ -243,6 +280,12 @@ type NonInferiorityTest struct {
 
 // Diagnostics accounts for every row read and every unit seen.
 type Diagnostics struct {
+	// Input is the input shape: event_log, unit_table or counts. A unit
+	// table has no events, so its ignored events can only be exposures
+	// outside the window; counts have neither events nor units, so
+	// exposure rows, multi-arm and tied units are 0 and units exposed is
+	// the sum of the arms' units.
+	Input    string        `json:"input"`
 	RowsRead int64         `json:"rows_read"`
 	BadRows  []ReasonCount `json:"bad_rows"`
 	// ExposureRows counts this experiment's exposure rows, inside the

@@ -14,9 +14,14 @@
 // comparisons with the control (with the adjusted p-value and decision,
 // and Bonferroni's simultaneous interval) and with a target rate, both
 // decision routes written out, numbered notes under the table where they
-// arise and a plain-language conclusion worded for the metric's direction;
+// arise and a plain-language conclusion worded for the metric's direction,
+// then, when the readout has segment dimensions, a compact table of the
+// metric by segment (each value's per-arm rates and comparisons, marked
+// exploratory);
 // the usual cautions, including which adjustment was applied over how many
-// comparisons; and the diagnostics, every count shown. All numbers pass through one set of formatters
+// comparisons and why segment results are exploratory; and the
+// diagnostics, every count shown, with the input shape (what counts
+// cannot show is printed as n/a). All numbers pass through one set of formatters
 // (format.go): percentages, percentage points, p-values with a floor.
 //
 // WriteJSON writes a Document: the schema's $id and version, then the

@@ -126,11 +126,21 @@ func twoArmReadout() experiment.Readout {
 			Threshold: 0.001, Checked: true,
 		},
 		Multiplicity: holmFamily(2),
+		// Six segment comparisons (tablet has no green-button units, so
+		// no test there); 0.05 x 6 = 0.3 expected by chance.
+		Segmentation: experiment.Segmentation{
+			Dimensions: []string{"device"},
+			Tests:      6,
+			Caution: "Segment results are exploratory: 6 segment comparisons were tested at alpha 0.05 each, outside the multiple-comparison family and without adjustment. " +
+				"Even if no treatment had any effect, about 0.3 of them would be expected to come out significant by chance, and the more segments, the more such false positives; " +
+				"treat a segment difference as a lead to test in a new experiment, not as a finding.",
+		},
 		Metrics: []experiment.MetricReadout{
 			{
 				Name:          "purchase",
 				Events:        []string{"purchase"},
 				WindowSeconds: ptr(int64(7 * 86400)),
+				Segments:      purchaseByDevice(),
 				Arms: []experiment.ArmRate{
 					{Arm: "control", Units: 9900, Conversions: 1089, Immature: 212, Rate: ptr(0.11),
 						Interval: ci(0.10398718941055886, 0.11631535358678209, wilson)},
@@ -155,8 +165,9 @@ func twoArmReadout() experiment.Readout {
 				}},
 			},
 			{
-				Name:   "signup",
-				Events: []string{"account_created", "newsletter_signup"},
+				Name:     "signup",
+				Events:   []string{"account_created", "newsletter_signup"},
+				Segments: signupByDevice(),
 				Arms: []experiment.ArmRate{
 					{Arm: "control", Units: 10112, Conversions: 2031, Rate: ptr(0.20085047468354431),
 						Interval: ci(0.19315600918097584, 0.20877214235953775, wilson)},
@@ -180,6 +191,7 @@ func twoArmReadout() experiment.Readout {
 			},
 		},
 		Diagnostics: experiment.Diagnostics{
+			Input:    "event_log",
 			RowsRead: 1482913,
 			BadRows: []experiment.ReasonCount{
 				{Reason: "bad_timestamp", Count: 37},
@@ -202,6 +214,152 @@ func twoArmReadout() experiment.Readout {
 				{Reason: "outside_attribution_window", Count: 645},
 			},
 		},
+	}
+}
+
+// segmentCmp is a segment comparison of green-button against control at
+// alpha 0.05: outside the family, so its reported decision is the
+// unadjusted one.
+func segmentCmp(c experiment.Comparison) experiment.Comparison {
+	c.Treatment, c.Control = "green-button", "control"
+	c.Significant = c.SignificantUnadjusted
+	c.IntervalAgrees = true
+	return c
+}
+
+// device splits the two-arm readout's units (the sums match its arms):
+// desktop, mobile, tablet (control only) and units without a device
+// (null). Every number: fixtures.R, "== two_arm segments".
+func device(value *string, arms []experiment.ArmRate, cmp ...experiment.Comparison) experiment.SegmentResult {
+	return experiment.SegmentResult{Dimension: "device", Value: value, Exploratory: true, Arms: arms, Comparisons: cmp}
+}
+
+func purchaseByDevice() []experiment.SegmentResult {
+	return []experiment.SegmentResult{
+		device(ptr("desktop"), []experiment.ArmRate{
+			// fixtures.R: arm("control purchase desktop", 618, 5590)
+			{Arm: "control", Units: 5590, Conversions: 618, Immature: 120, Rate: ptr(0.11055456171735241),
+				Interval: ci(0.10260013025434443, 0.11904388092256159, wilson)},
+			// fixtures.R: arm("green purchase desktop", 700, 5500)
+			{Arm: "green-button", Units: 5500, Conversions: 700, Immature: 100, Rate: ptr(0.12727272727272726),
+				Interval: ci(0.11872418104723048, 0.13634157063259617, wilson)},
+		}, segmentCmp(experiment.Comparison{
+			// fixtures.R: compare("purchase desktop", 700, 5500, 618, 5590)
+			Difference:         ptr(0.01671816555537485),
+			DifferenceInterval: ci(0.0046705025812794759, 0.028781204135497587, newcombe),
+			RelativeLift:       ptr(0.15122094733745217),
+			LiftInterval:       ci(0.040025272501640119, 0.27430525452587085, katz),
+			Z:                  zTest(pooledZ, 2.7201459642753676, critical2, 0.0065253105321404796, "two-sided"),
+			ConditionMet:       true, SignificantUnadjusted: true, DecidedBy: "z_test",
+		})),
+		device(ptr("mobile"), []experiment.ArmRate{
+			// fixtures.R: arm("control purchase mobile", 466, 4288)
+			{Arm: "control", Units: 4288, Conversions: 466, Immature: 92, Rate: ptr(0.10867537313432836),
+				Interval: ci(0.099707758580137223, 0.11834350631394003, wilson)},
+			// fixtures.R: arm("green purchase mobile", 494, 4292)
+			{Arm: "green-button", Units: 4292, Conversions: 494, Immature: 88, Rate: ptr(0.11509785647716682),
+				Interval: ci(0.10589239603329074, 0.12499169695020058, wilson)},
+		}, segmentCmp(experiment.Comparison{
+			// fixtures.R: compare("purchase mobile", 494, 4292, 466, 4288)
+			Difference:         ptr(0.0064224833428384587),
+			DifferenceInterval: ci(-0.0069271721269658117, 0.019775617435566717, newcombe),
+			RelativeLift:       ptr(0.059097872476590707),
+			LiftInterval:       ci(-0.059992212182115146, 0.19327554305513295, katz),
+			Z:                  zTest(pooledZ, 0.94360617288329307, critical2, 0.34537093664209145, "two-sided"),
+			ConditionMet:       true, DecidedBy: "z_test",
+		})),
+		device(ptr("tablet"), []experiment.ArmRate{
+			// fixtures.R: arm("control purchase tablet", 2, 10)
+			{Arm: "control", Units: 10, Conversions: 2, Rate: ptr(0.20000000000000001),
+				Interval: ci(0.056682151454375274, 0.50983752846335817, wilson)},
+			{Arm: "green-button"},
+		}, segmentCmp(experiment.Comparison{})),
+		device(nil, []experiment.ArmRate{
+			// fixtures.R: arm("control purchase null", 3, 12)
+			{Arm: "control", Units: 12, Conversions: 3, Rate: ptr(0.25),
+				Interval: ci(0.088941668394054763, 0.53230533493356558, wilson)},
+			// fixtures.R: arm("green purchase null", 2, 8)
+			{Arm: "green-button", Units: 8, Conversions: 2, Rate: ptr(0.25),
+				Interval: ci(0.071479212752109056, 0.59072456968983111, wilson)},
+		}, segmentCmp(experiment.Comparison{
+			// fixtures.R: compare("purchase null", 2, 8, 3, 12); too few
+			// conversions, so Fisher's exact test decides.
+			Difference:         ptr(0.0),
+			DifferenceInterval: ci(-0.33401493022252671, 0.37687268217530867, newcombe),
+			RelativeLift:       ptr(0.0),
+			LiftInterval:       ci(-0.78764323835801064, 3.7090565530750199, katz),
+			Z:                  zTest(pooledZ, 0, critical2, 1, "two-sided"),
+			Exact:              exact(fisher, 1),
+			DecidedBy:          "exact_test",
+			Warnings: []string{
+				"normal approximation not justified: green-button has 2 conversions, needs at least 5",
+				"normal approximation not justified: control has 3 conversions, needs at least 5",
+			},
+		})),
+	}
+}
+
+func signupByDevice() []experiment.SegmentResult {
+	return []experiment.SegmentResult{
+		device(ptr("desktop"), []experiment.ArmRate{
+			// fixtures.R: arm("control signup desktop", 1148, 5710)
+			{Arm: "control", Units: 5710, Conversions: 1148, Rate: ptr(0.2010507880910683),
+				Interval: ci(0.19085789423902574, 0.21164565357473689, wilson)},
+			// fixtures.R: arm("green signup desktop", 1160, 5600)
+			{Arm: "green-button", Units: 5600, Conversions: 1160, Rate: ptr(0.20714285714285716),
+				Interval: ci(0.19673116970100599, 0.21795605439289931, wilson)},
+		}, segmentCmp(experiment.Comparison{
+			// fixtures.R: compare("signup desktop", 1160, 5600, 1148, 5710)
+			Difference:         ptr(0.0060920690517888565),
+			DifferenceInterval: ci(-0.0087623716984997022, 0.020952093272742403, newcombe),
+			RelativeLift:       ptr(0.030301144848183359),
+			LiftInterval:       ci(-0.042034668335203862, 0.10809902403327931, katz),
+			Z:                  zTest(pooledZ, 0.80374962042825426, critical2, 0.42154159063242841, "two-sided"),
+			ConditionMet:       true, DecidedBy: "z_test",
+		})),
+		device(ptr("mobile"), []experiment.ArmRate{
+			// fixtures.R: arm("control signup mobile", 876, 4380)
+			{Arm: "control", Units: 4380, Conversions: 876, Rate: ptr(0.20000000000000001),
+				Interval: ci(0.18841917566387811, 0.21210659045108454, wilson)},
+			// fixtures.R: arm("green signup mobile", 886, 4380)
+			{Arm: "green-button", Units: 4380, Conversions: 886, Rate: ptr(0.20228310502283106),
+				Interval: ci(0.19064994824498588, 0.2144380266514459, wilson)},
+		}, segmentCmp(experiment.Comparison{
+			// fixtures.R: compare("signup mobile", 886, 4380, 876, 4380)
+			Difference:         ptr(0.0022831050228310501),
+			DifferenceInterval: ci(-0.014506768978132044, 0.019071720573312932, newcombe),
+			RelativeLift:       ptr(0.011415525114155223),
+			LiftInterval:       ci(-0.06957788568608092, 0.099459426753050195, katz),
+			Z:                  zTest(pooledZ, 0.26653983956374278, critical2, 0.7898234811922632, "two-sided"),
+			ConditionMet:       true, DecidedBy: "z_test",
+		})),
+		device(ptr("tablet"), []experiment.ArmRate{
+			// fixtures.R: arm("control signup tablet", 2, 10)
+			{Arm: "control", Units: 10, Conversions: 2, Rate: ptr(0.20000000000000001),
+				Interval: ci(0.056682151454375274, 0.50983752846335817, wilson)},
+			{Arm: "green-button"},
+		}, segmentCmp(experiment.Comparison{})),
+		device(nil, []experiment.ArmRate{
+			// fixtures.R: arm("control signup null", 5, 12)
+			{Arm: "control", Units: 12, Conversions: 5, Rate: ptr(0.41666666666666669),
+				Interval: ci(0.19326031365875668, 0.68048868745045032, wilson)},
+			// fixtures.R: arm("green signup null", 4, 8)
+			{Arm: "green-button", Units: 8, Conversions: 4, Rate: ptr(0.5),
+				Interval: ci(0.21521606221387762, 0.78478393778612232, wilson)},
+		}, segmentCmp(experiment.Comparison{
+			// fixtures.R: compare("signup null", 4, 8, 5, 12)
+			Difference:         ptr(0.083333333333333315),
+			DifferenceInterval: ci(-0.30487273291423211, 0.44528953204426142, newcombe),
+			RelativeLift:       ptr(0.19999999999999996),
+			LiftInterval:       ci(-0.54213869891624578, 2.1450572402418175, katz),
+			Z:                  zTest(pooledZ, 0.36698792170878675, critical2, 0.71362802747291321, "two-sided"),
+			Exact:              exact(fisher, 1),
+			DecidedBy:          "exact_test",
+			Warnings: []string{
+				"normal approximation not justified: green-button has 4 conversions, needs at least 5",
+				"normal approximation not justified: green-button has 4 non-conversions, needs at least 5",
+			},
+		})),
 	}
 }
 
@@ -338,6 +496,7 @@ func threeArmReadout() experiment.Readout {
 			},
 		},
 		Diagnostics: experiment.Diagnostics{
+			Input:         "event_log",
 			RowsRead:      310442,
 			ExposureRows:  6120,
 			UnitsExposed:  2963,
@@ -386,6 +545,7 @@ func emptyReadout() experiment.Readout {
 		Multiplicity: experiment.Multiplicity{
 			Method: "none", ErrorRate: "per comparison", Family: familyText,
 		},
+		Diagnostics: experiment.Diagnostics{Input: "counts"},
 		Metrics: []experiment.MetricReadout{
 			{
 				Name:          "trial_started",
@@ -600,6 +760,7 @@ func guardrailReadout() experiment.Readout {
 			},
 		},
 		Diagnostics: experiment.Diagnostics{
+			Input:        "event_log",
 			RowsRead:     2904117,
 			ExposureRows: 96330,
 			UnitsExposed: 72000,
@@ -705,6 +866,7 @@ func oneSidedReadout() experiment.Readout {
 			},
 		},
 		Diagnostics: experiment.Diagnostics{
+			Input:        "event_log",
 			RowsRead:     402288,
 			ExposureRows: 18877,
 			UnitsExposed: 16000,

@@ -16,12 +16,12 @@ import (
 
 // SchemaID is the $id of the JSON Schema that describes a Document. It
 // names the schema; nothing is served at that address.
-const SchemaID = "https://armtally.invalid/schema/readout/1.1.0"
+const SchemaID = "https://armtally.invalid/schema/readout/1.2.0"
 
 // SchemaVersion is the semantic version of the JSON document layout. A
 // consumer may rely on every key of a given major version; a minor version
 // only adds keys.
-const SchemaVersion = "1.1.0"
+const SchemaVersion = "1.2.0"
 
 // Document is the top level of the JSON output: the schema it follows and
 // the readouts, in the order given to WriteJSON. The layout of each readout
@@ -84,28 +84,19 @@ func normalize(r experiment.Readout) experiment.Readout {
 	r.Freshness = utc(r.Freshness)
 	r.Arms = cloneSlice(r.Arms)
 	r.Warnings = cloneSlice(r.Warnings)
+	r.Segmentation.Dimensions = cloneSlice(r.Segmentation.Dimensions)
 	r.Metrics = cloneSlice(r.Metrics)
 	for i := range r.Metrics {
 		m := &r.Metrics[i]
 		m.Events = cloneSlice(m.Events)
 		m.Warnings = cloneSlice(m.Warnings)
-		m.Arms = cloneSlice(m.Arms)
-		for j := range m.Arms {
-			if tt := m.Arms[j].TargetTest; tt != nil {
-				c := *tt
-				c.Warnings = cloneSlice(c.Warnings)
-				m.Arms[j].TargetTest = &c
-			}
-		}
-		m.Comparisons = cloneSlice(m.Comparisons)
-		for j := range m.Comparisons {
-			c := &m.Comparisons[j]
-			c.Warnings = cloneSlice(c.Warnings)
-			if ni := c.NonInferiority; ni != nil {
-				n := *ni
-				n.Warnings = cloneSlice(n.Warnings)
-				c.NonInferiority = &n
-			}
+		m.Arms = normalizeArms(m.Arms)
+		m.Comparisons = normalizeComparisons(m.Comparisons)
+		m.Segments = cloneSlice(m.Segments)
+		for j := range m.Segments {
+			s := &m.Segments[j]
+			s.Arms = normalizeArms(s.Arms)
+			s.Comparisons = normalizeComparisons(s.Comparisons)
 		}
 	}
 	d := &r.Diagnostics
@@ -114,6 +105,35 @@ func normalize(r experiment.Readout) experiment.Readout {
 	d.Immature = cloneSlice(d.Immature)
 	d.IgnoredEvents = cloneSlice(d.IgnoredEvents)
 	return r
+}
+
+// normalizeArms copies arms, and the target tests that hold slices.
+func normalizeArms(arms []experiment.ArmRate) []experiment.ArmRate {
+	arms = cloneSlice(arms)
+	for j := range arms {
+		if tt := arms[j].TargetTest; tt != nil {
+			c := *tt
+			c.Warnings = cloneSlice(c.Warnings)
+			arms[j].TargetTest = &c
+		}
+	}
+	return arms
+}
+
+// normalizeComparisons copies comparisons, and the non-inferiority tests
+// that hold slices.
+func normalizeComparisons(cs []experiment.Comparison) []experiment.Comparison {
+	cs = cloneSlice(cs)
+	for j := range cs {
+		c := &cs[j]
+		c.Warnings = cloneSlice(c.Warnings)
+		if ni := c.NonInferiority; ni != nil {
+			n := *ni
+			n.Warnings = cloneSlice(n.Warnings)
+			c.NonInferiority = &n
+		}
+	}
+	return cs
 }
 
 // cloneSlice returns a copy of s that is never nil.

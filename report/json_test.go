@@ -105,6 +105,7 @@ func TestFixturesCoverNullableBranches(t *testing.T) {
 		"relative_lift_interval", "z_test", "exact_test",
 		"guardrail", "adjusted", "non_inferiority",
 		"adjusted.difference_interval", "non_inferiority.z_test", "non_inferiority.interval",
+		"segments.value",
 	}
 	seenNull := map[string]bool{}
 	seenValue := map[string]bool{}

@@ -33,8 +33,13 @@ func (md *markdown) header(r experiment.Readout) {
 	md.line("- Exposure event: " + code(r.ExposureEvent))
 	md.line("- Analysis window: " + window(r))
 	fresh := "no valid rows were read"
-	if r.Freshness != nil {
+	switch {
+	case r.Freshness != nil:
 		fresh = "newest valid row at " + formatTime(*r.Freshness)
+	case r.Diagnostics.Input == "unit_table":
+		fresh = "not known (a unit table carries no conversion times)"
+	case r.Diagnostics.Input == "counts":
+		fresh = "not known (counts carry no times)"
 	}
 	md.line("- Data freshness: " + fresh)
 	md.line(fmt.Sprintf("- Settings: alpha %s, %s confidence intervals, %s tests; multi-arm units: %s; immature units: %s; normal approximation when each arm has at least %s conversions and %s non-conversions; sample-ratio threshold %s",
@@ -337,6 +342,9 @@ func (md *markdown) metric(r experiment.Readout, m experiment.MetricReadout) {
 		md.targetTests(m, n)
 	}
 	md.conclusion(r, m)
+	if len(m.Segments) > 0 {
+		md.segments(r, m)
+	}
 }
 
 func metricDefinition(r experiment.Readout, m experiment.MetricReadout) string {
@@ -541,6 +549,9 @@ func (md *markdown) cautions(r experiment.Readout) {
 	if s := multiplicityCaution(r); s != "" {
 		md.line("- " + s)
 	}
+	if r.Segmentation.Caution != "" {
+		md.line("- " + r.Segmentation.Caution)
+	}
 	md.line("")
 }
 
@@ -548,22 +559,30 @@ func (md *markdown) diagnostics(r experiment.Readout) {
 	d := r.Diagnostics
 	md.heading(1, "Diagnostics")
 	rows := [][]string{
+		{"Input", inputName(d.Input)},
 		{"Rows read", formatCount(d.RowsRead)},
 		{"Bad rows", formatCount(sumReasons(d.BadRows))},
 	}
 	for _, rc := range d.BadRows {
 		rows = append(rows, []string{"Bad rows: " + formatReason(rc.Reason), formatCount(rc.Count)})
 	}
+	// Counts cannot show exposure rows or units in two arms.
+	unknown := func(n int64) string {
+		if d.Input == "counts" {
+			return "n/a (not in counts)"
+		}
+		return formatCount(n)
+	}
 	rows = append(rows,
-		[]string{"Exposure rows of this experiment (in or out of the window)", formatCount(d.ExposureRows)},
+		[]string{"Exposure rows of this experiment (in or out of the window)", unknown(d.ExposureRows)},
 		[]string{"Units exposed in the window", formatCount(d.UnitsExposed)},
 	)
 	for _, a := range d.UnitsPerArm {
 		rows = append(rows, []string{"Units in arm " + armLabel(a.Arm, r.Control), formatCount(a.Units)})
 	}
 	rows = append(rows,
-		[]string{"Multi-arm units (policy " + r.Settings.MultiArmPolicy + ")", formatCount(d.MultiArmUnits)},
-		[]string{"Tied units (two arms at the first instant)", formatCount(d.TiedUnits)},
+		[]string{"Multi-arm units (policy " + r.Settings.MultiArmPolicy + ")", unknown(d.MultiArmUnits)},
+		[]string{"Tied units (two arms at the first instant)", unknown(d.TiedUnits)},
 	)
 	var immature int64
 	for _, im := range d.Immature {

@@ -1,0 +1,140 @@
+package experiment
+
+import (
+	"fmt"
+	"slices"
+	"strconv"
+
+	"github.com/armtally/armtally/experiment/stats"
+)
+
+// checkSegments checks that every arm's segment counts follow the spec's
+// dimensions. An arm without segment counts (a control with no units, or
+// a tally made before segments existed) reads as empty when the spec has
+// no dimensions or the arm has no units.
+func checkSegments(spec Spec, arms []ArmTally) error {
+	for _, a := range arms {
+		if len(a.Segments) == 0 {
+			if len(spec.Segments) > 0 && a.Units > 0 {
+				return fmt.Errorf("arm %q has no segment counts for the segment dimensions %q", a.Name, spec.Segments)
+			}
+			continue
+		}
+		if len(a.Segments) != len(spec.Segments) {
+			return fmt.Errorf("arm %q has counts for %d segment dimensions, the spec names %d", a.Name, len(a.Segments), len(spec.Segments))
+		}
+		for d, sc := range a.Segments {
+			if sc.Dimension != spec.Segments[d] {
+				return fmt.Errorf("arm %q: segment dimension %d is %q, the spec's is %q", a.Name, d+1, sc.Dimension, spec.Segments[d])
+			}
+			for _, c := range sc.Values {
+				if len(c.Metrics) != len(spec.Metrics) {
+					return fmt.Errorf("arm %q: segment %s=%s has %d metrics, the spec %d", a.Name, sc.Dimension, c.Value, len(c.Metrics), len(spec.Metrics))
+				}
+			}
+		}
+	}
+	return nil
+}
+
+// segmentCount returns arm a's count of metric mi for value v of dimension
+// d, zero when the arm has none.
+func segmentCount(a ArmTally, d int, v SegmentValue, mi int) Count {
+	if d >= len(a.Segments) {
+		return Count{}
+	}
+	for _, c := range a.Segments[d].Values {
+		if c.Value == v {
+			return c.Metrics[mi]
+		}
+	}
+	return Count{}
+}
+
+// analyzeSegments breaks metric mi down by every segment value: per-arm
+// rates with intervals and each treatment against the control, with the
+// same tests as the main comparison (the z test, Fisher's exact test where
+// the normal approximation is not justified) but no adjustment, no target
+// and no guardrail tests.
+func analyzeSegments(spec Spec, mi int, arms []ArmTally, ctl int, so stats.Options, meth methods) ([]SegmentResult, error) {
+	var out []SegmentResult
+	for d, dim := range spec.Segments {
+		var values []SegmentValue
+		seen := make(map[SegmentValue]bool)
+		for _, a := range arms {
+			if d >= len(a.Segments) {
+				continue
+			}
+			for _, c := range a.Segments[d].Values {
+				if !seen[c.Value] {
+					seen[c.Value] = true
+					values = append(values, c.Value)
+				}
+			}
+		}
+		slices.SortFunc(values, CompareSegmentValues)
+		for _, v := range values {
+			sr := SegmentResult{Dimension: dim, Exploratory: true}
+			if v.Valid {
+				s := v.Value
+				sr.Value = &s
+			}
+			counts := make([]Count, len(arms))
+			for i, a := range arms {
+				c := segmentCount(a, d, v, mi)
+				counts[i] = c
+				ar := ArmRate{Arm: a.Name, Units: c.Units, Conversions: c.Conversions, Immature: c.Immature}
+				if c.Units > 0 {
+					rate := float64(c.Conversions) / float64(c.Units)
+					ar.Rate = &rate
+					iv, err := meth.rate(c.Conversions, c.Units, so.Level)
+					if err != nil {
+						return nil, fmt.Errorf("segment %s=%s, arm %q: %w", dim, v, a.Name, err)
+					}
+					ar.Interval = interval(iv, iv.Method)
+				}
+				sr.Arms = append(sr.Arms, ar)
+			}
+			for i, a := range arms {
+				if i == ctl {
+					continue
+				}
+				c, err := compare(a.Name, counts[i], spec.Control, counts[ctl], so, meth)
+				if err != nil {
+					return nil, fmt.Errorf("segment %s=%s, %s vs %s: %w", dim, v, a.Name, spec.Control, err)
+				}
+				sr.Comparisons = append(sr.Comparisons, c)
+			}
+			out = append(out, sr)
+		}
+	}
+	return out, nil
+}
+
+// segmentCaution counts the segment comparisons with a test and words the
+// caution that goes with them.
+func segmentCaution(metrics []MetricReadout, alpha float64) (int, string) {
+	tests := 0
+	for _, m := range metrics {
+		for _, s := range m.Segments {
+			for _, c := range s.Comparisons {
+				if c.DecidedBy != "" {
+					tests++
+				}
+			}
+		}
+	}
+	a := strconv.FormatFloat(alpha, 'f', -1, 64)
+	expected := strconv.FormatFloat(alpha*float64(tests), 'f', 1, 64)
+	return tests, fmt.Sprintf("Segment results are exploratory: %s %s tested at alpha %s each, outside the multiple-comparison family and without adjustment. "+
+		"Even if no treatment had any effect, about %s of them would be expected to come out significant by chance, and the more segments, the more such false positives; "+
+		"treat a segment difference as a lead to test in a new experiment, not as a finding.",
+		plural(int64(tests), "segment comparison"), wasWere(tests), a, expected)
+}
+
+func wasWere(n int) string {
+	if n == 1 {
+		return "was"
+	}
+	return "were"
+}
