@@ -5,28 +5,44 @@
 //
 // The stages, per source, in order:
 //
-//  1. FileSources or BytesSource name the inputs; the extension (.csv,
-//     .parquet, .parq) decides the format.
-//  2. A Mapping names the physical column behind each logical column. A
-//     missing or unusable column stops the reader with a *ColumnError
-//     (ErrMissingColumn, ErrColumnType) before any row is read.
-//  3. Each row is decoded: CSV cells with encoding/csv, Parquet values page
-//     by page with parquet-go (only the mapped columns). Timestamps of every
-//     form become int64 nanoseconds UTC, range checked (ParseTimestamp for
-//     text).
+//  1. FileSources or BytesSource name the inputs: files, folders (walked
+//     recursively) and filepath.Match patterns; the end of a name (.csv,
+//     .csv.gz, .parquet, .parq) decides the format. Hive-style folders
+//     (dt=2026-11-30/country=br/) below a named folder or pattern root
+//     become each source's Partitions. Names starting with '.' or '_'
+//     below a root are skipped.
+//  2. A Mapping names the physical column behind each logical column; a
+//     name that is not a file column but is a partition key takes the
+//     partition's value on every row (a file column of the same name
+//     wins). A missing or unusable column stops the reader with a
+//     *ColumnError (ErrMissingColumn, ErrColumnType) before any row is
+//     read. For Parquet, each mapped column chunk's metadata is checked
+//     against the schema and the row group first (ErrCorrupt, ErrCodec).
+//  3. Each row is decoded: CSV cells with encoding/csv (after gzip, a BOM,
+//     with Options.Delimiter), Parquet values page by page with parquet-go
+//     (only the mapped columns). Timestamps of every form become int64
+//     nanoseconds UTC, range checked (ParseTimestamp for text).
 //  4. One function decides whether a row is valid and, if not, its reason:
 //     ErrNullUser, ErrNullTimestamp, ErrBadTimestamp, ErrTimestampRange,
-//     ErrNullEvent, ErrNoArm (and ErrFieldCount for a CSV record of the wrong
-//     width). In this version the first bad row stops the reader with a
-//     *RowError naming file, line or row, column and value.
+//     ErrNullEvent, ErrNoArm (and ErrFieldCount for a CSV record of the
+//     wrong width). Every bad row is counted by reason (Stats.BadRows, with
+//     the first example of each). Without an error budget the first bad row
+//     stops the reader with a *RowError naming file, line or row, column
+//     and value; with one (Options.MaxBadRows, MaxBadShare) bad rows are
+//     skipped until the budget is exceeded, which stops the reader with a
+//     *BudgetError.
 //  5. Valid rows are appended to Arrow builders and handed out as record
 //     batches of at most Options.BatchSize rows, one source per batch.
 //
 // Ownership: a batch returned by Reader.Record is valid until the next call
-// to Next or Close; the Reader releases it. Stats counts files, rows read
-// and rows delivered.
+// to Next or Close; the Reader releases it. Stats counts files, rows read,
+// rows delivered and bad rows by reason; the slices it returns are the
+// caller's.
 //
-// Not checked: that text is valid UTF-8, and anything about the meaning of
-// the rows (duplicates, order, exposure rules), which belongs to package
-// experiment.
+// Not checked: that text is valid UTF-8; that a file is listed only once;
+// that a partition value agrees with a file column of the same name; and
+// anything about the meaning of the rows (duplicates, order, exposure
+// rules), which belongs to package experiment. A malformed CSV file (bare
+// or unclosed quote) and a corrupt Parquet file are not bad rows: they
+// always stop the reader.
 package ingest

@@ -147,7 +147,8 @@ func TestFromDate(t *testing.T) {
 
 // FuzzParseTimestamp checks two properties. It never panics. Anything it
 // accepts survives a round trip: formatting the result as RFC 3339 with
-// nanoseconds and parsing that again gives the same instant; and where
+// nanoseconds, or as YYYY-MM-DD HH:MM:SS.frac, and parsing that again gives
+// the same instant; and where
 // Go's time.Parse also accepts the input as RFC 3339, both agree.
 func FuzzParseTimestamp(f *testing.F) {
 	// Seeds: testdata/fuzz/FuzzParseTimestamp, which go test runs too.
@@ -163,6 +164,11 @@ func FuzzParseTimestamp(f *testing.F) {
 		again, err := parseTimestamp(text)
 		if err != nil || again != ns {
 			t.Fatalf("parseTimestamp(%q) = %d, formatted %q, parsed again = %d, %v", s, ns, text, again, err)
+		}
+		// The other accepted form, without an offset (UTC).
+		plain := time.Unix(0, ns).UTC().Format("2006-01-02 15:04:05.999999999")
+		if again, err := parseTimestamp(plain); err != nil || again != ns {
+			t.Fatalf("parseTimestamp(%q) = %d, formatted %q, parsed again = %d, %v", s, ns, plain, again, err)
 		}
 		if tm, err := time.Parse(time.RFC3339Nano, s); err == nil && tm.UnixNano() != ns {
 			t.Fatalf("parseTimestamp(%q) = %d; time.Parse gives %d", s, ns, tm.UnixNano())
