@@ -293,6 +293,59 @@ func (l *locator) keyAt(line int, plain string) string {
 	return best
 }
 
+// checkKeys reports keys that are not exactly a documented key. The TOML
+// decoder matches keys to fields regardless of case; a spec file's keys
+// are lower case, as TOML keys are case-sensitive.
+func (l *locator) checkKeys() error {
+	var bad specErrors
+	for path, line := range l.lines {
+		plain := stripIndices(path)
+		if _, ok := specKeys[plain]; ok || l.underValue(plain) {
+			continue
+		}
+		msg := "unknown key"
+		for _, k := range documentedKeys() {
+			if strings.EqualFold(k, plain) {
+				msg += fmt.Sprintf(" (keys are lower case: %s)", k[strings.LastIndexByte(k, '.')+1:])
+				break
+			}
+		}
+		bad = append(bad, &specError{File: l.file, Line: line, Key: path, Msg: msg})
+	}
+	if len(bad) == 0 {
+		return nil
+	}
+	sort.Slice(bad, func(i, j int) bool {
+		if bad[i].Line != bad[j].Line {
+			return bad[i].Line < bad[j].Line
+		}
+		return bad[i].Key < bad[j].Key
+	})
+	// Report the outermost unknown key of each line once.
+	var out specErrors
+	for _, e := range bad {
+		if n := len(out); n > 0 && (out[n-1].Line == e.Line || strings.HasPrefix(e.Key, out[n-1].Key+".") || strings.HasPrefix(e.Key, out[n-1].Key+"[")) {
+			continue
+		}
+		out = append(out, e)
+	}
+	if len(out) == 1 {
+		return out[0]
+	}
+	return out
+}
+
+// underValue reports whether plain lies inside the value of a documented
+// key that is not a table (start = {...}, say): its type check reports it.
+func (l *locator) underValue(plain string) bool {
+	for p := parentKey(plain); p != ""; p = parentKey(p) {
+		if want, ok := specKeys[p]; ok {
+			return !strings.HasPrefix(want, "a table") && !strings.HasPrefix(want, "an array of tables")
+		}
+	}
+	return false
+}
+
 // stripIndices turns "experiment[1].metric[0].name" into
 // "experiment.metric.name".
 func stripIndices(p string) string {
@@ -461,21 +514,29 @@ func readSpecFile(path string) (*specFile, error) {
 // values that contradict each other are errors naming the file, the line
 // and the key. Keys whose feature is not available yet are accepted here
 // and refused by unsupported.
-func parseSpecFile(name string, data []byte) (sf *specFile, err error) {
-	defer func() {
-		// Last-resort guard: the TOML library must not crash the command.
-		if v := recover(); v != nil {
-			sf, err = nil, &specError{File: name, Msg: fmt.Sprintf("cannot parse the file (TOML parser failed: %v)", v)}
-		}
-	}()
+func parseSpecFile(name string, data []byte) (*specFile, error) {
 	var fsp fileSpec
-	dec := toml.NewDecoder(bytes.NewReader(data))
-	dec.DisallowUnknownFields()
-	if derr := dec.Decode(&fsp); derr != nil {
-		return nil, decodeError(name, data, derr)
+	l, err := decodeSpec(name, data, &fsp)
+	if err != nil {
+		return nil, err
 	}
-	l := locate(name, data)
-	sf = &specFile{name: name, dir: filepath.Dir(name), mapping: ingest.DefaultMapping(),
+	if err := l.checkKeys(); err != nil {
+		return nil, err
+	}
+	if _, ok := l.lines["experiment[0]"]; len(fsp.Experiment) > 0 && !ok {
+		// The decoder takes a lone table for a one-element list; in TOML,
+		// [[experiment.metric]] before any [[experiment]] makes experiment
+		// a plain table.
+		line := 0
+		for p, n := range l.lines {
+			if strings.HasPrefix(p, "experiment") && (line == 0 || n < line) {
+				line = n
+			}
+		}
+		return nil, &specError{File: name, Line: line, Key: "experiment",
+			Msg: "want an array of tables: start each experiment with [[experiment]], before its [[experiment.metric]] tables"}
+	}
+	sf := &specFile{name: name, dir: filepath.Dir(name), mapping: ingest.DefaultMapping(),
 		mappingFrom: map[string]origin{}, shape: shapeEvents}
 	if err := sf.parseInput(l, fsp.Input); err != nil {
 		return nil, err
@@ -508,6 +569,22 @@ func parseSpecFile(name string, data []byte) (sf *specFile, err error) {
 		sf.experiments = append(sf.experiments, e)
 	}
 	return sf, nil
+}
+
+// decodeSpec decodes data strictly into fsp and locates its keys.
+func decodeSpec(name string, data []byte, fsp *fileSpec) (l *locator, err error) {
+	defer func() {
+		// Last-resort guard: the TOML library must not crash the command.
+		if v := recover(); v != nil {
+			l, err = nil, &specError{File: name, Msg: fmt.Sprintf("cannot parse the file (TOML parser failed: %v)", v)}
+		}
+	}()
+	dec := toml.NewDecoder(bytes.NewReader(data))
+	dec.DisallowUnknownFields()
+	if derr := dec.Decode(fsp); derr != nil {
+		return nil, decodeError(name, data, derr)
+	}
+	return locate(name, data), nil
 }
 
 // decodeError turns go-toml's errors into spec errors with the file, line,
