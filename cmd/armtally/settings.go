@@ -134,6 +134,7 @@ func (e *expSettings) build() (experiment.Spec, experiment.AnalysisOptions, erro
 	spec := experiment.Spec{
 		Key: e.key, ExposureEvent: e.exposureEvent, Control: e.control,
 		Start: e.start, End: e.end, MultiArm: e.multiArm, Maturity: e.maturity,
+		Segments: append([]string(nil), e.segments...),
 	}
 	if len(e.arms) > 0 {
 		spec.Arms = append([]string(nil), e.arms...)

@@ -266,3 +266,71 @@ func TestSpecInputOptions(t *testing.T) {
 		}
 	}
 }
+
+// TestSpecSegments breaks booking-form down by platform: the log of
+// TestSpecTwoExperiments with a platform column (v1, v3, v5, v7, v8 on
+// ios; v2, v4, v6 on android). By hand, from the counts worked out there:
+//
+//	ios:     classic v1 (converted) -> 1 unit, 1; one-step v3, v5 (both
+//	         converted) -> 2 units, 2
+//	android: classic v2 (not) -> 1 unit, 0; one-step v4 (not) -> 1, 0
+func TestSpecSegments(t *testing.T) {
+	src, err := os.ReadFile(filepath.Join("testdata", "spec", "two", "spec.toml"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	log, err := os.ReadFile(filepath.Join("testdata", "spec", "two", "events.csv"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	platform := map[string]string{"v1": "ios", "v3": "ios", "v5": "ios", "v7": "ios", "v8": "ios", "v2": "android", "v4": "android", "v6": "android"}
+	var b strings.Builder
+	for i, line := range strings.Split(strings.TrimSpace(string(log)), "\n") {
+		user, _, _ := strings.Cut(line, ",")
+		if i == 0 {
+			b.WriteString(line + ",platform\n")
+			continue
+		}
+		b.WriteString(line + "," + platform[user] + "\n")
+	}
+	dir := t.TempDir()
+	if err := os.WriteFile(filepath.Join(dir, "events.csv"), []byte(b.String()), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	text := strings.Replace(string(src), "arm = \"variant\"\n", "arm = \"variant\"\nsegments = [\"platform\"]\n", 1)
+	text = strings.Replace(text, "end = 2027-03-20\n", "end = 2027-03-20\nsegments = [\"platform\"]\n", 1)
+	spec := filepath.Join(dir, "spec.toml")
+	if err := os.WriteFile(spec, []byte(text), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	out := filepath.Join(dir, "readout.json")
+	code, _, stderr := runCmd(t, "analyze", "--spec", spec, "--json", out, "--out", filepath.Join(dir, "readout.md"))
+	if code != exitOK {
+		t.Fatalf("exit %d: %s", code, stderr)
+	}
+	raw, rs := readReadouts(t, out)
+	validate(t, raw)
+	twoCounts(t, rs)
+	if !equalStrings(rs[0].Segmentation.Dimensions, []string{"platform"}) || len(rs[1].Segmentation.Dimensions) != 0 {
+		t.Fatalf("segmentation: %+v, %+v", rs[0].Segmentation, rs[1].Segmentation)
+	}
+	want := map[string]map[string][2]int64{
+		"ios":     {"classic": {1, 1}, "one-step": {2, 2}},
+		"android": {"classic": {1, 0}, "one-step": {1, 0}},
+	}
+	segs := rs[0].Metrics[0].Segments
+	if len(segs) != 2 {
+		t.Fatalf("%d segment results, want 2: %+v", len(segs), segs)
+	}
+	for _, s := range segs {
+		if s.Dimension != "platform" || s.Value == nil || !s.Exploratory {
+			t.Errorf("segment %+v", s)
+			continue
+		}
+		for _, a := range s.Arms {
+			if w := want[*s.Value][a.Arm]; a.Units != w[0] || a.Conversions != w[1] {
+				t.Errorf("platform %s, %s: %d units, %d conversions; want %d, %d", *s.Value, a.Arm, a.Units, a.Conversions, w[0], w[1])
+			}
+		}
+	}
+}

@@ -102,7 +102,8 @@ func TestExampleSpec(t *testing.T) {
 		!equalStrings(spec.Arms, []string{"classic-form", "one-step-form", "calendar-first"}) ||
 		len(spec.Split) != 3 || spec.Split[0] != 50 || spec.Split[1] != 25 || spec.Split[2] != 25 ||
 		spec.Start == nil || !spec.Start.Equal(start) || spec.End == nil || !spec.End.Equal(end) ||
-		spec.MultiArm != experiment.MultiArmExclude || spec.Maturity != experiment.MaturityExclude {
+		spec.MultiArm != experiment.MultiArmExclude || spec.Maturity != experiment.MaturityExclude ||
+		!equalStrings(spec.Segments, []string{"platform"}) {
 		t.Errorf("experiment[0] = %+v", spec)
 	}
 	if opts.Stats.Alpha != 0.05 || opts.Stats.Alternative != stats.TwoSided || opts.Adjust != stats.Holm ||
@@ -181,8 +182,6 @@ func TestSpecUnsupported(t *testing.T) {
 	}{
 		{"shape", "[input]\nshape = \"counts\"\n", "s.toml:2: not supported yet: input.shape"},
 		{"audit", "[output]\naudit = \"audit.json\"\n", "s.toml:2: not supported yet: output.audit"},
-		{"segments", "[columns]\nsegments = [\"platform\"]\n[[experiment]]\nkey = \"k\"\nsegments = [\"platform\"]\n" +
-			"[[experiment.metric]]\nname = \"rang\"\nevents = [\"bell_rung\"]\n", "s.toml:5: not supported yet: experiment[0].segments"},
 	}
 	for _, tc := range cases {
 		dir := t.TempDir()

@@ -1118,8 +1118,8 @@ func listOrNone(list []string) string {
 }
 
 // unsupported returns an error for the first key that asks for a feature
-// the analysis does not have yet: "not supported yet: KEY". The events
-// shape is fine.
+// armtally does not have yet: "not supported yet: KEY". The events shape
+// is fine.
 func (sf *specFile) unsupported() error {
 	nope := func(o origin, what string) error {
 		msg := "not supported yet: " + o.key
@@ -1133,11 +1133,6 @@ func (sf *specFile) unsupported() error {
 		return nope(sf.shapeFrom, fmt.Sprintf("only the %q shape can be read so far, not %q", shapeEvents, sf.shape))
 	case sf.audit != "":
 		return nope(sf.auditFrom, "")
-	}
-	for _, e := range sf.experiments {
-		if len(e.segments) > 0 {
-			return nope(e.from["segments"], "results by segment are not computed so far")
-		}
 	}
 	return nil
 }

@@ -47,7 +47,7 @@ Rules:
     built; a run that uses them stops with "not supported yet: KEY":
     input.shape other than "events" (and so columns.metric, columns.units,
     columns.conversions and experiment.metric.column, which belong to the
-    "counts" and "units" shapes), output.audit and experiment.segments.
+    "counts" and "units" shapes) and output.audit.
 
 An example that shows every key:
 
