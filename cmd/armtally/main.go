@@ -87,9 +87,8 @@ Exit codes:
   3  data error (unreadable input, malformed row, data that contradicts the settings)
   4  sample ratio mismatch with --fail-on-sample-ratio (the readout is still written)
 
-Run 'armtally help analyze', 'armtally help gen', 'armtally help plan' or
-'armtally help inspect' for the flags,
-and 'armtally help spec' for the experiment spec file of 'armtally analyze --spec'.
+Run 'armtally help COMMAND' for the flags of analyze, gen, plan or inspect,
+and 'armtally help spec' for the experiment spec file (analyze --spec).
 `
 
 // run runs the command line args and returns the exit code.
