@@ -1,0 +1,120 @@
+package main
+
+import (
+	"fmt"
+	"io"
+	"os"
+	"runtime/pprof"
+	"time"
+
+	"github.com/spf13/pflag"
+
+	"github.com/armtally/armtally/experiment"
+	"github.com/armtally/armtally/ingest"
+)
+
+// spec returns the experiment.Spec that `armtally analyze` builds from
+// armtallyArgs.
+func (a analysis) spec() experiment.Spec {
+	start, end := a.Start, a.End
+	return experiment.Spec{
+		Key:           a.Experiment,
+		ExposureEvent: a.ExposureEvent,
+		Control:       a.Control,
+		Arms:          a.Arms,
+		Start:         &start,
+		End:           &end,
+		MultiArm:      experiment.MultiArmExclude,
+		Maturity:      experiment.MaturityExclude,
+		Metrics:       []experiment.Metric{{Name: a.Metric, Events: a.Events, Window: a.Window}},
+	}
+}
+
+// analyzeInProcess runs armtally's analysis of a over files in this
+// process, through the same calls as `armtally analyze`: an ingest.Reader
+// over the files, a Tallier fed each record batch, Tally, then Analyze. It
+// returns the readout.
+func analyzeInProcess(a analysis, files []string) (experiment.Readout, error) {
+	spec := a.spec()
+	sources, err := ingest.FileSources(files)
+	if err != nil {
+		return experiment.Readout{}, fmt.Errorf("analyze: %w", err)
+	}
+	r, err := ingest.NewReader(sources, ingest.Options{Mapping: ingest.DefaultMapping(), ExposureEvent: spec.ExposureEvent})
+	if err != nil {
+		return experiment.Readout{}, fmt.Errorf("analyze: %w", err)
+	}
+	defer r.Close()
+	tl, err := experiment.NewTallier(spec)
+	if err != nil {
+		return experiment.Readout{}, fmt.Errorf("analyze: %w", err)
+	}
+	for r.Next() {
+		if err := tl.Add(r.Record()); err != nil {
+			return experiment.Readout{}, fmt.Errorf("analyze: %w", err)
+		}
+	}
+	if err := r.Err(); err != nil {
+		return experiment.Readout{}, fmt.Errorf("analyze: %w", err)
+	}
+	t, err := tl.Tally()
+	if err != nil {
+		return experiment.Readout{}, fmt.Errorf("analyze: %w", err)
+	}
+	opts := experiment.DefaultAnalysisOptions()
+	opts.RowsRead = r.Stats().RowsRead
+	readout, err := experiment.Analyze(spec, t, opts)
+	if err != nil {
+		return experiment.Readout{}, fmt.Errorf("analyze: %w", err)
+	}
+	return readout, nil
+}
+
+// runProfile is the profile mode: it runs analyzeInProcess over --file
+// with a CPU profile (and, with --memprofile, a heap profile at the end).
+func runProfile(args []string, stdout, stderr io.Writer) error {
+	fs := pflag.NewFlagSet("profile", pflag.ContinueOnError)
+	fs.SetOutput(stderr)
+	file := fs.String("file", "", "event log to analyse")
+	cpu := fs.String("cpuprofile", "cpu.prof", "write the CPU profile here")
+	mem := fs.String("memprofile", "", "write a heap profile (after the analysis) here")
+	if err := fs.Parse(args); err != nil {
+		return err
+	}
+	if *file == "" {
+		return fmt.Errorf("profile: --file is required")
+	}
+	f, err := os.Create(*cpu)
+	if err != nil {
+		return fmt.Errorf("profile: %w", err)
+	}
+	defer f.Close()
+	if err := pprof.StartCPUProfile(f); err != nil {
+		return fmt.Errorf("profile: %w", err)
+	}
+	start := time.Now()
+	ro, err := analyzeInProcess(defaultAnalysis(), []string{*file})
+	elapsed := time.Since(start)
+	pprof.StopCPUProfile()
+	if err != nil {
+		return fmt.Errorf("profile: %w", err)
+	}
+	if err := f.Close(); err != nil {
+		return fmt.Errorf("profile: %w", err)
+	}
+	if *mem != "" {
+		mf, err := os.Create(*mem)
+		if err != nil {
+			return fmt.Errorf("profile: %w", err)
+		}
+		if err := pprof.Lookup("allocs").WriteTo(mf, 0); err != nil {
+			mf.Close()
+			return fmt.Errorf("profile: %w", err)
+		}
+		if err := mf.Close(); err != nil {
+			return fmt.Errorf("profile: %w", err)
+		}
+	}
+	fmt.Fprintf(stdout, "analysed %s in %.2f s: %d rows read\n", *file, elapsed.Seconds(), ro.Diagnostics.RowsRead)
+	return nil
+}
