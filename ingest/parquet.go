@@ -359,7 +359,7 @@ func (r *parquetReader) nextRowGroup() error {
 // of c in the current row group with the schema and the row group: the
 // chunk must be of the same column and physical type, be compressed with a
 // codec parquet-go has (not the deprecated Hadoop LZ4 or LZO), lie inside
-// the file,
+// the file, decompress to its stated sizes if it is LZ4_RAW (checkLZ4Chunk),
 // and, the column being non-repeated,
 // hold one value (or null) per row. The pages are checked against the
 // chunk as they are read (one value per row, no more, no fewer).
@@ -392,6 +392,9 @@ func (r *parquetReader) checkChunk(c *pqColumn) error {
 	if start < 4 || md.TotalCompressedSize < 0 || start > r.src.size-md.TotalCompressedSize {
 		return fmt.Errorf("%w: the column chunk's bytes (offset %d, %d bytes) lie outside the file of %d bytes",
 			ErrCorrupt, start, md.TotalCompressedSize, r.src.size)
+	}
+	if md.Codec == format.Lz4Raw {
+		return checkLZ4Chunk(r.src.r, start, md.TotalCompressedSize)
 	}
 	return nil
 }

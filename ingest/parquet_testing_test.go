@@ -560,3 +560,39 @@ func TestParquetTestingGH41317(t *testing.T) {
 		}
 	}
 }
+
+// Every single-byte corruption of the LZ4_RAW column chunks of
+// lz4_raw_compressed.parquet ends in rows or an error, never a hang: without
+// checkLZ4Chunk, parquet-go v0.32.0 loops (measured at byte 18 of the c0
+// chunk and byte 185 of the c1 chunk, counted from the file's start).
+func TestParquetLZ4RawCorruption(t *testing.T) {
+	dir := parquetTesting(t)
+	data, err := os.ReadFile(filepath.Join(dir, "data", "lz4_raw_compressed.parquet"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	pf, err := parquet.OpenFile(bytes.NewReader(data), int64(len(data)))
+	if err != nil {
+		t.Fatal(err)
+	}
+	rg := pf.Metadata().RowGroups[0]
+	detected := 0
+	for ci, col := range []string{"c0", "c1"} {
+		md := rg.Columns[ci].MetaData
+		for pos := md.DataPageOffset; pos < md.DataPageOffset+md.TotalCompressedSize; pos++ {
+			bad := bytes.Clone(data)
+			bad[pos] ^= 0xa5
+			got := readParquetColumn(t, "lz4.parquet", bad, col, false)
+			if errors.Is(got.err, errPanicked) {
+				t.Errorf("byte %d: parquet-go panicked: %v", pos, got.err)
+			}
+			if errors.Is(got.err, ErrCorrupt) {
+				detected++
+			}
+		}
+	}
+	if detected == 0 {
+		t.Error("no corruption detected as ErrCorrupt")
+	}
+	t.Logf("%d corruptions detected as ErrCorrupt", detected)
+}
