@@ -29,6 +29,12 @@
 // precision. Schema returns the JSON Schema (draft 2020-12) that describes
 // it exactly. Both writers reject NaN and infinity instead of writing them.
 //
+// WriteAudit writes the first stage of a tally, one row per exposed unit
+// (arm, first exposure, segment values, status, conversion and maturity
+// flags per metric), as a Parquet table sorted by unit (AuditSchema). The
+// module in testdata/auditcheck reads it back with a second Parquet
+// library; run it by hand.
+//
 // Both writers are deterministic: the same readouts give the same bytes.
 // Nothing is written to w until the whole output is built, so a failed
 // call writes nothing. WriteFileAtomic puts either output in a file with a
