@@ -6,6 +6,7 @@ import (
 	"strings"
 	"time"
 
+	"github.com/apache/arrow-go/v18/arrow"
 	"github.com/spf13/pflag"
 
 	"github.com/armtally/armtally/experiment"
@@ -131,8 +132,15 @@ func newAnalyzeFlagSet(f *analyzeFlags, stderr io.Writer) *pflag.FlagSet {
 // analyzeRun is what one analyze run does: read the sources once with the
 // mapping, tally and analyse each experiment, and write the readouts.
 type analyzeRun struct {
-	sources           []ingest.Source
-	mapping           ingest.Mapping
+	sources []ingest.Source
+	// shape is input.shape: events, units or counts.
+	shape   string
+	mapping ingest.Mapping
+	// tsMapped says whether the ts column was named (by the spec file or
+	// --ts-col): a unit table's exposure time column is optional.
+	tsMapped bool
+	// counts names the columns of a counts table.
+	counts            ingest.CountsOptions
 	delimiter         rune
 	maxBadRows        int64
 	maxBadShare       float64
@@ -145,6 +153,8 @@ type analyzeRun struct {
 type builtExperiment struct {
 	spec experiment.Spec
 	opts experiment.AnalysisOptions
+	// metricColumns maps each metric to its column of a unit table.
+	metricColumns []ingest.ColumnMap
 }
 
 // parseAnalyze parses the analyze command line, and the spec file it
@@ -165,7 +175,10 @@ func parseAnalyze(args []string, stdout, stderr io.Writer) (*analyzeRun, error) 
 			return nil, err
 		}
 	}
-	run := &analyzeRun{}
+	run := &analyzeRun{shape: shapeEvents}
+	if sf != nil {
+		run.shape, run.counts = sf.shape, sf.counts
+	}
 
 	// Experiments: the spec file's (those --experiment picks), or one
 	// made from the flags alone.
@@ -215,7 +228,15 @@ func parseAnalyze(args []string, stdout, stderr io.Writer) (*analyzeRun, error) 
 		if err != nil {
 			return nil, err
 		}
-		run.experiments = append(run.experiments, builtExperiment{spec: spec, opts: opts})
+		be := builtExperiment{spec: spec, opts: opts}
+		for _, ms := range e.metrics {
+			col := ms.column
+			if col == "" {
+				col = ms.metric.Name
+			}
+			be.metricColumns = append(be.metricColumns, ingest.ColumnMap{Logical: ms.metric.Name, Physical: col})
+		}
+		run.experiments = append(run.experiments, be)
 	}
 
 	// Column mapping: the spec file's, then the flags.
@@ -238,6 +259,11 @@ func parseAnalyze(args []string, stdout, stderr io.Writer) (*analyzeRun, error) 
 		if sf == nil || fs.Changed(c.flag) {
 			*c.dst = c.v
 		}
+	}
+	run.tsMapped = fs.Changed("ts-col")
+	if sf != nil {
+		_, inFile := sf.mappingFrom["ts"]
+		run.tsMapped = run.tsMapped || inFile
 	}
 	switch run.mapping.EpochUnit {
 	case "", "s", "ms", "us", "ns":
@@ -535,26 +561,64 @@ func runAnalyze(args []string, stdout, stderr io.Writer) error {
 	return nil
 }
 
+// recordReader is what the event-log reader and the table reader have in
+// common.
+type recordReader interface {
+	Next() bool
+	Record() arrow.RecordBatch
+	Err() error
+	Stats() ingest.Stats
+	Close() error
+}
+
+// newRecordReader returns the reader of the run's input shape.
+func newRecordReader(run *analyzeRun) (recordReader, error) {
+	m := run.mapping
+	switch run.shape {
+	case shapeUnits, shapeCounts:
+		e := run.experiments[0] // a table holds one experiment
+		var segs []ingest.ColumnMap
+		for _, s := range e.spec.Segments {
+			segs = append(segs, ingest.ColumnMap{Logical: s, Physical: s})
+		}
+		if run.shape == shapeUnits {
+			ts := ""
+			if run.tsMapped {
+				ts = m.TS
+			}
+			return ingest.NewUnitTableReader(run.sources, ingest.UnitTableOptions{Unit: m.User, Arm: m.Arm, TS: ts,
+				EpochUnit: m.EpochUnit, Metrics: e.metricColumns, Segments: segs})
+		}
+		o := run.counts
+		o.Arm, o.Segments = m.Arm, segs
+		for _, mt := range e.spec.Metrics {
+			o.Metrics = append(o.Metrics, mt.Name)
+		}
+		return ingest.NewCountsReader(run.sources, o)
+	}
+	exposure := ""
+	for i, e := range run.experiments {
+		if i > 0 && e.spec.ExposureEvent != exposure {
+			return nil, fmt.Errorf("not supported yet: experiments with different exposure events in one run (%q and %q); run them separately", exposure, e.spec.ExposureEvent)
+		}
+		exposure = e.spec.ExposureEvent
+	}
+	return ingest.NewReader(run.sources, ingest.Options{Mapping: m, ExposureEvent: exposure,
+		Delimiter: run.delimiter, MaxBadRows: run.maxBadRows, MaxBadShare: run.maxBadShare})
+}
+
 // analyze reads the sources once, feeds every record batch to one tallier
 // per experiment and analyses each tally. The readouts follow the order of
 // run.experiments.
 func analyze(run *analyzeRun) ([]experiment.Readout, error) {
-	exposure := ""
-	for i, e := range run.experiments {
-		if i > 0 && e.spec.ExposureEvent != exposure {
-			return nil, usagef("analyze: not supported yet: experiments with different exposure events in one run (%q and %q); run them separately", exposure, e.spec.ExposureEvent)
-		}
-		exposure = e.spec.ExposureEvent
-	}
-	r, err := ingest.NewReader(run.sources, ingest.Options{Mapping: run.mapping, ExposureEvent: exposure,
-		Delimiter: run.delimiter, MaxBadRows: run.maxBadRows, MaxBadShare: run.maxBadShare})
+	r, err := newRecordReader(run)
 	if err != nil {
 		return nil, usagef("analyze: %v", err)
 	}
 	defer r.Close()
-	talliers := make([]*experiment.Tallier, len(run.experiments))
+	talliers := make([]tallier, len(run.experiments))
 	for i, e := range run.experiments {
-		if talliers[i], err = experiment.NewTallier(e.spec); err != nil {
+		if talliers[i], err = newTallier(run.shape, e.spec); err != nil {
 			return nil, usagef("analyze: %v", err)
 		}
 	}

@@ -4,6 +4,8 @@ import (
 	"strings"
 	"time"
 
+	"github.com/apache/arrow-go/v18/arrow"
+
 	"github.com/armtally/armtally/experiment"
 	"github.com/armtally/armtally/experiment/stats"
 )
@@ -13,7 +15,8 @@ import (
 // checked against each other and turned into an experiment.Spec and
 // experiment.AnalysisOptions by build.
 type expSettings struct {
-	index int // position in the spec file; -1 for an experiment from flags alone
+	index int    // position in the spec file; -1 for an experiment from flags alone
+	shape string // input.shape: events (also for flags alone), units or counts
 
 	key, exposureEvent, control string
 	arms                        []string
@@ -48,7 +51,7 @@ type metricSetting struct {
 func newExpSettings() *expSettings {
 	opts := experiment.DefaultAnalysisOptions()
 	opts.Stats.Level = 0 // 1 - alpha, or 1 - 2 alpha for a one-sided alternative
-	return &expSettings{index: -1, exposureEvent: "exposure", control: "control", opts: opts,
+	return &expSettings{index: -1, shape: shapeEvents, exposureEvent: "exposure", control: "control", opts: opts,
 		from: map[string]origin{}}
 }
 
@@ -177,7 +180,7 @@ func (e *expSettings) build() (experiment.Spec, experiment.AnalysisOptions, erro
 			}
 		}
 	}
-	if _, err := experiment.NewTallier(spec); err != nil {
+	if _, err := newTallier(e.shape, spec); err != nil {
 		if o := e.from["experiment"]; o.file != "" {
 			return spec, e.opts, o.errorf("%v", err)
 		}
@@ -193,4 +196,21 @@ func (e *expSettings) originOf(name, def string) string {
 		return o.String()
 	}
 	return "the default"
+}
+
+// tallier is what the three input shapes' talliers have in common.
+type tallier interface {
+	Add(arrow.RecordBatch) error
+	Tally() (experiment.Tally, error)
+}
+
+// newTallier returns the tallier of the input shape for spec.
+func newTallier(shape string, spec experiment.Spec) (tallier, error) {
+	switch shape {
+	case shapeUnits:
+		return experiment.NewUnitTableTallier(spec)
+	case shapeCounts:
+		return experiment.NewCountsTallier(spec)
+	}
+	return experiment.NewTallier(spec)
 }

@@ -3,6 +3,7 @@ package main
 import (
 	"encoding/json"
 	"fmt"
+	"math"
 	"os"
 	"path/filepath"
 	"strings"
@@ -330,6 +331,86 @@ func TestSpecSegments(t *testing.T) {
 		for _, a := range s.Arms {
 			if w := want[*s.Value][a.Arm]; a.Units != w[0] || a.Conversions != w[1] {
 				t.Errorf("platform %s, %s: %d units, %d conversions; want %d, %d", *s.Value, a.Arm, a.Units, a.Conversions, w[0], w[1])
+			}
+		}
+	}
+}
+
+// TestSpecTableShapes runs a hand-made unit table and a hand-made counts
+// table.
+//
+// units/units.csv, window [03-01, 03-20), booked within 7 days:
+//
+//	classic:  u1 (converted), u2 (not) -> 2 units, 1; u6 was exposed on
+//	          02-20, before the window, and is left out
+//	one-step: u3 (yes), u4 (no), u5 (true) -> 3 units, 2; u7 was exposed
+//	          on 03-15, and 03-15 + 7 days = 03-22 is after the end: immature
+//	by platform, one-step on ios: u3, u5 -> 2 units, 2 (u7 immature)
+//
+// counts/counts.csv gives the counts themselves: booked 200/20 and 210/30,
+// signed_up 200/8 and 210/9. The sample ratio check of 200 against 210
+// units under an equal split: expected 205 each, chi-square = 2 x 5^2 / 205
+// = 0.243902 (hand calculation). booked is the primary metric, so it comes
+// first although the file lists signed_up first.
+func TestSpecTableShapes(t *testing.T) {
+	type armCount struct {
+		units, conversions, immature int64
+	}
+	cases := []struct {
+		dir     string
+		metrics []string
+		want    map[string]map[string]armCount // metric -> arm -> counts
+	}{
+		{"units", []string{"booked"}, map[string]map[string]armCount{
+			"booked": {"classic": {2, 1, 0}, "one-step": {3, 2, 1}},
+		}},
+		{"counts", []string{"booked", "signed_up"}, map[string]map[string]armCount{
+			"booked":    {"classic": {200, 20, 0}, "one-step": {210, 30, 0}},
+			"signed_up": {"classic": {200, 8, 0}, "one-step": {210, 9, 0}},
+		}},
+	}
+	for _, tc := range cases {
+		out := filepath.Join(t.TempDir(), "readout.json")
+		spec := filepath.Join("testdata", "spec", tc.dir, "spec.toml")
+		code, _, stderr := runCmd(t, "analyze", "--spec", spec, "--json", out, "--out", filepath.Join(t.TempDir(), "readout.md"))
+		if code != exitOK {
+			t.Fatalf("%s: exit %d: %s", tc.dir, code, stderr)
+		}
+		raw, rs := readReadouts(t, out)
+		validate(t, raw)
+		if len(rs) != 1 || len(rs[0].Metrics) != len(tc.metrics) {
+			t.Fatalf("%s: %d readouts", tc.dir, len(rs))
+		}
+		r := rs[0]
+		for i, m := range r.Metrics {
+			if m.Name != tc.metrics[i] {
+				t.Errorf("%s: metric %d is %s, want %s", tc.dir, i, m.Name, tc.metrics[i])
+			}
+			for _, a := range m.Arms {
+				if w := tc.want[m.Name][a.Arm]; a.Units != w.units || a.Conversions != w.conversions || a.Immature != w.immature {
+					t.Errorf("%s: %s/%s: %d units, %d conversions, %d immature; want %+v", tc.dir, m.Name, a.Arm, a.Units, a.Conversions, a.Immature, w)
+				}
+			}
+		}
+		switch tc.dir {
+		case "units":
+			found := false
+			for _, s := range r.Metrics[0].Segments {
+				if s.Value == nil || *s.Value != "ios" {
+					continue
+				}
+				for _, a := range s.Arms {
+					if a.Arm == "one-step" {
+						found = a.Units == 2 && a.Conversions == 2
+					}
+				}
+			}
+			if !found {
+				t.Errorf("units: platform ios, one-step: want 2 units, 2 conversions in %+v", r.Metrics[0].Segments)
+			}
+		case "counts":
+			if sr := r.SampleRatio; !sr.Checked || math.Abs(sr.Statistic-50.0/205) > 1e-9 || sr.DF != 1 {
+				t.Errorf("counts: sample ratio %+v, want chi-square 50/205 on 1 df", sr)
 			}
 		}
 	}

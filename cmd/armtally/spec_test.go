@@ -177,10 +177,12 @@ func equalStrings(a, b []string) bool {
 // are refused by the run with "not supported yet: KEY" and the line.
 func TestSpecUnsupported(t *testing.T) {
 	const experimentTable = "\n[[experiment]]\nkey = \"bike-bell-2027\"\n[[experiment.metric]]\nname = \"rang\"\nevents = [\"bell_rung\"]\n"
+	const tableExperiment = "\n[[experiment]]\nkey = \"bike-bell-2027\"\n[[experiment.metric]]\nname = \"rang\"\n"
 	cases := []struct {
 		name, text, want string
 	}{
-		{"shape", "[input]\nshape = \"counts\"\n", "s.toml:2: not supported yet: input.shape"},
+		{"budget of a table", "[input]\nshape = \"counts\"\nmax_bad_rows = 5\n" + tableExperiment, "s.toml:3: not supported yet: input.max_bad_rows"},
+		{"delimiter of a table", "[input]\nshape = \"units\"\ndelimiter = \";\"\n" + tableExperiment, "s.toml:3: not supported yet: input.delimiter"},
 		{"audit", "[output]\naudit = \"audit.json\"\n", "s.toml:2: not supported yet: output.audit"},
 	}
 	for _, tc := range cases {

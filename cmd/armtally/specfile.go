@@ -48,6 +48,7 @@ type fileColumns struct {
 	Metric      *string  `toml:"metric"`
 	Units       *string  `toml:"units"`
 	Conversions *string  `toml:"conversions"`
+	Immature    *string  `toml:"immature"`
 }
 
 type fileOutput struct {
@@ -112,6 +113,7 @@ var specKeys = map[string]string{
 	"columns.metric":                    "a string",
 	"columns.units":                     "a string",
 	"columns.conversions":               "a string",
+	"columns.immature":                  "a string",
 	"output":                            "a table",
 	"output.markdown":                   "a string",
 	"output.json":                       "a string",
@@ -491,7 +493,10 @@ type specFile struct {
 
 	mapping     ingest.Mapping
 	mappingFrom map[string]origin // logical name (user, ts, ..., segments) -> origin
-	countsCols  []origin          // columns.metric, units and conversions when set
+	// counts holds the counts table's column names (columns.metric,
+	// units, conversions and immature; the defaults are metric, units,
+	// conversions and none).
+	counts ingest.CountsOptions
 
 	markdown, json, audit string // resolved against dir; "" when not set
 	auditFrom             origin
@@ -561,6 +566,10 @@ func parseSpecFile(name string, data []byte) (*specFile, error) {
 			return nil, e.from["key"].errorf("experiment key %q is also the key of %s", e.key, prev)
 		}
 		keys[e.key] = e.from["key"].String()
+		if i > 0 && sf.shape != shapeEvents {
+			return nil, e.from["experiment"].errorf("a %s table holds one experiment; this file has %d (input.shape = %q)",
+				map[string]string{shapeUnits: "unit", shapeCounts: "counts"}[sf.shape], len(fsp.Experiment), sf.shape)
+		}
 		// Check the experiment as it stands, so that contradictions are
 		// reported against the file even before flags are applied.
 		if _, _, err := e.build(); err != nil {
@@ -773,10 +782,13 @@ func (sf *specFile) parseColumns(l *locator, c fileColumns) error {
 	if c.Segments != nil {
 		sf.mappingFrom["segments"] = l.at("columns.segments")
 	}
+	sf.counts = ingest.CountsOptions{Metric: experiment.ColMetric, Units: experiment.ColUnits, Conversions: experiment.ColConversions}
 	for _, col := range []struct {
 		key string
 		v   *string
-	}{{"metric", c.Metric}, {"units", c.Units}, {"conversions", c.Conversions}} {
+		dst *string
+	}{{"metric", c.Metric, &sf.counts.Metric}, {"units", c.Units, &sf.counts.Units},
+		{"conversions", c.Conversions, &sf.counts.Conversions}, {"immature", c.Immature, &sf.counts.Immature}} {
 		if col.v == nil {
 			continue
 		}
@@ -787,7 +799,7 @@ func (sf *specFile) parseColumns(l *locator, c fileColumns) error {
 		if sf.shape != shapeCounts {
 			return o.errorf("is for input.shape = \"counts\" (the shape is %q)", sf.shape)
 		}
-		sf.countsCols = append(sf.countsCols, o)
+		*col.dst = *col.v
 	}
 	return nil
 }
@@ -816,6 +828,7 @@ func (sf *specFile) parseOutput(l *locator, o fileOutput) error {
 func (sf *specFile) parseExperiment(l *locator, i int, fe fileExperiment) (*expSettings, error) {
 	e := newExpSettings()
 	e.index = i
+	e.shape = sf.shape
 	p := fmt.Sprintf("experiment[%d]", i)
 	at := func(key string) origin { return l.at(p + "." + key) }
 	e.from["experiment"] = l.at(p)
@@ -964,6 +977,9 @@ func (sf *specFile) parseMetric(l *locator, p string, fm fileMetric, exposure st
 	m.Name = *fm.Name
 	if sf.shape == shapeEvents && fm.Events == nil {
 		return ms, l.at(p).errorf("metric %q needs its events (%s.events)", m.Name, p)
+	}
+	if fm.Events != nil && sf.shape != shapeEvents {
+		return ms, at("events").errorf("events are for input.shape = \"events\"; a %s table holds the conversions already", sf.shape)
 	}
 	if fm.Events != nil && len(fm.Events) == 0 {
 		return ms, at("events").errorf("metric %q: empty list of events", m.Name)
@@ -1118,8 +1134,7 @@ func listOrNone(list []string) string {
 }
 
 // unsupported returns an error for the first key that asks for a feature
-// armtally does not have yet: "not supported yet: KEY". The events shape
-// is fine.
+// armtally does not have yet: "not supported yet: KEY".
 func (sf *specFile) unsupported() error {
 	nope := func(o origin, what string) error {
 		msg := "not supported yet: " + o.key
@@ -1128,10 +1143,18 @@ func (sf *specFile) unsupported() error {
 		}
 		return &specError{File: o.file, Line: o.line, Msg: msg}
 	}
-	switch {
-	case sf.shape != shapeEvents:
-		return nope(sf.shapeFrom, fmt.Sprintf("only the %q shape can be read so far, not %q", shapeEvents, sf.shape))
-	case sf.audit != "":
+	if sf.shape != shapeEvents {
+		table := fmt.Sprintf("with input.shape = %q", sf.shape)
+		switch {
+		case sf.delimiter != 0 && sf.delimiter != ',':
+			return nope(sf.delimFrom, table+" CSV files are read with \",\" so far")
+		case sf.maxBadRows != 0:
+			return nope(sf.badRowFrom, table+" the first bad row stops the run so far")
+		case sf.maxBad != 0:
+			return nope(sf.badFrom, table+" the first bad row stops the run so far")
+		}
+	}
+	if sf.audit != "" {
 		return nope(sf.auditFrom, "")
 	}
 	return nil

@@ -45,9 +45,8 @@ Rules:
     the second metric of that experiment.
   - Some keys are read and checked now for features that are still being
     built; a run that uses them stops with "not supported yet: KEY":
-    input.shape other than "events" (and so columns.metric, columns.units,
-    columns.conversions and experiment.metric.column, which belong to the
-    "counts" and "units" shapes) and output.audit.
+    output.audit, and input.delimiter other than ",", input.max_bad_rows
+    and input.max_bad_share with the units and counts shapes.
 
 An example that shows every key:
 
