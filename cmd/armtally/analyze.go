@@ -3,6 +3,8 @@ package main
 import (
 	"fmt"
 	"io"
+	"iter"
+	"path/filepath"
 	"strings"
 	"time"
 
@@ -85,6 +87,7 @@ type analyzeFlags struct {
 	delimiter                                string
 	maxBadRows                               int64
 	maxBadShare                              float64
+	audit                                    string
 }
 
 func newAnalyzeFlagSet(f *analyzeFlags, stderr io.Writer) *pflag.FlagSet {
@@ -116,6 +119,7 @@ func newAnalyzeFlagSet(f *analyzeFlags, stderr io.Writer) *pflag.FlagSet {
 	fs.Float64Var(&f.srThreshold, "sample-ratio-threshold", experiment.DefaultSampleRatioThreshold, "p-value below which the sample ratio check fails")
 	fs.StringVarP(&f.out, "out", "o", "", "write the Markdown readout to this file instead of stdout")
 	fs.StringVar(&f.jsonOut, "json", "", "also write the JSON readout to this file")
+	fs.StringVar(&f.audit, "audit", "", "also write the per-unit audit table (Parquet) to this file; with several experiments, one file each, named FILE-KEY.parquet")
 	fs.BoolVar(&f.failOnSampleRatio, "fail-on-sample-ratio", false, "exit with code 4 when the sample ratio check fails")
 	fs.StringVar(&f.userCol, "user-col", m.User, "column holding the unit (user) id")
 	fs.StringVar(&f.tsCol, "ts-col", m.TS, "column holding the event time")
@@ -146,6 +150,7 @@ type analyzeRun struct {
 	maxBadShare       float64
 	experiments       []builtExperiment
 	out, jsonOut      string
+	audit             string
 	failOnSampleRatio bool
 }
 
@@ -307,6 +312,15 @@ func parseAnalyze(args []string, stdout, stderr io.Writer) (*analyzeRun, error) 
 	}
 	if sf == nil || fs.Changed("json") {
 		run.jsonOut = f.jsonOut
+	}
+	if sf != nil {
+		run.audit = sf.audit
+	}
+	if sf == nil || fs.Changed("audit") {
+		run.audit = f.audit
+	}
+	if run.audit != "" && run.shape == shapeCounts {
+		return nil, usagef("analyze: an audit table lists units, and a counts table has none (output.audit or --audit)")
 	}
 	if sf == nil || fs.Changed("fail-on-sample-ratio") {
 		run.failOnSampleRatio = f.failOnSampleRatio
@@ -524,7 +538,7 @@ func runAnalyze(args []string, stdout, stderr io.Writer) error {
 	if err != nil {
 		return err
 	}
-	readouts, err := analyze(run)
+	readouts, talliers, err := analyze(run)
 	if err != nil {
 		return err
 	}
@@ -541,6 +555,11 @@ func runAnalyze(args []string, stdout, stderr io.Writer) error {
 	}
 	if err != nil {
 		return fmt.Errorf("writing the Markdown readout: %w", err)
+	}
+	if run.audit != "" {
+		if err := writeAudits(run, talliers); err != nil {
+			return err
+		}
 	}
 	if !run.failOnSampleRatio {
 		return nil
@@ -610,41 +629,86 @@ func newRecordReader(run *analyzeRun) (recordReader, error) {
 // analyze reads the sources once, feeds every record batch to one tallier
 // per experiment and analyses each tally. The readouts follow the order of
 // run.experiments.
-func analyze(run *analyzeRun) ([]experiment.Readout, error) {
+func analyze(run *analyzeRun) ([]experiment.Readout, []tallier, error) {
 	r, err := newRecordReader(run)
 	if err != nil {
-		return nil, usagef("analyze: %v", err)
+		return nil, nil, usagef("analyze: %v", err)
 	}
 	defer r.Close()
 	talliers := make([]tallier, len(run.experiments))
 	for i, e := range run.experiments {
 		if talliers[i], err = newTallier(run.shape, e.spec); err != nil {
-			return nil, usagef("analyze: %v", err)
+			return nil, nil, usagef("analyze: %v", err)
 		}
 	}
 	for r.Next() {
 		rec := r.Record()
 		for _, tl := range talliers {
 			if err := tl.Add(rec); err != nil {
-				return nil, &dataError{err}
+				return nil, nil, &dataError{err}
 			}
 		}
 	}
 	if err := r.Err(); err != nil {
-		return nil, &dataError{err}
+		return nil, nil, &dataError{err}
 	}
 	readouts := make([]experiment.Readout, len(run.experiments))
 	for i, e := range run.experiments {
 		t, err := talliers[i].Tally()
 		if err != nil {
-			return nil, &dataError{err}
+			return nil, nil, &dataError{err}
 		}
 		opts := e.opts
 		opts.RowsRead = r.Stats().RowsRead
 		opts.BadRows = r.Stats().BadRows
 		if readouts[i], err = experiment.Analyze(e.spec, t, opts); err != nil {
-			return nil, &dataError{err}
+			return nil, nil, &dataError{err}
 		}
 	}
-	return readouts, nil
+	return readouts, talliers, nil
+}
+
+// writeAudits writes each experiment's per-unit audit table to run.audit,
+// or, with several experiments, to run.audit with "-KEY" before the
+// extension.
+func writeAudits(run *analyzeRun, talliers []tallier) error {
+	for i, e := range run.experiments {
+		var units iter.Seq[experiment.UnitRecord]
+		switch tl := talliers[i].(type) {
+		case *experiment.Tallier:
+			var err error
+			if units, err = tl.Units(); err != nil {
+				return &dataError{err}
+			}
+		case *experiment.UnitTableTallier:
+			units = tl.Units()
+		default:
+			return fmt.Errorf("experiment %q: its input has no units to audit", e.spec.Key)
+		}
+		path := auditPath(run.audit, e.spec.Key, len(run.experiments))
+		err := report.WriteFileAtomic(path, func(w io.Writer) error { return report.WriteAudit(w, e.spec, units) })
+		if err != nil {
+			return fmt.Errorf("writing the audit table of experiment %q: %w", e.spec.Key, err)
+		}
+	}
+	return nil
+}
+
+// auditPath returns the audit file of the experiment key: path itself for
+// a run of one experiment, else path with "-KEY" before its extension
+// (characters other than letters, digits, '.', '_' and '-' in the key
+// become '_').
+func auditPath(path, key string, experiments int) string {
+	if experiments == 1 {
+		return path
+	}
+	safe := strings.Map(func(r rune) rune {
+		switch {
+		case r >= 'a' && r <= 'z', r >= 'A' && r <= 'Z', r >= '0' && r <= '9', r == '.', r == '_', r == '-':
+			return r
+		}
+		return '_'
+	}, key)
+	ext := filepath.Ext(path)
+	return strings.TrimSuffix(path, ext) + "-" + safe + ext
 }

@@ -9,6 +9,8 @@ import (
 	"strings"
 	"testing"
 
+	"github.com/parquet-go/parquet-go"
+
 	"github.com/armtally/armtally/experiment"
 )
 
@@ -413,5 +415,64 @@ func TestSpecTableShapes(t *testing.T) {
 				t.Errorf("counts: sample ratio %+v, want chi-square 50/205 on 1 df", sr)
 			}
 		}
+	}
+}
+
+// auditRow holds the audit table columns the test checks; the metric
+// column is converted_booked or converted_showed_up.
+type auditRow struct {
+	Unit      string `parquet:"unit"`
+	Arm       string `parquet:"arm"`
+	Status    string `parquet:"status"`
+	Booked    *int8  `parquet:"converted_booked,optional"`
+	ShowedUp  *int8  `parquet:"converted_showed_up,optional"`
+	converted int8
+}
+
+// TestSpecAudit writes the audit tables of the two-experiment log, one per
+// experiment, and reads them back with parquet-go. By hand (see
+// TestSpecTwoExperiments), units sorted:
+//
+//	booking-form: v1 classic 1, v2 classic 0, v3 one-step 1, v4 one-step 0,
+//	              v5 one-step 1
+//	reminder-sms: v1 sms 1, v2 none 0, v6 none 1, v7 sms 0
+func TestSpecAudit(t *testing.T) {
+	dir := t.TempDir()
+	spec := filepath.Join("testdata", "spec", "two", "spec.toml")
+	audit := filepath.Join(dir, "audit.parquet")
+	code, _, stderr := runCmd(t, "analyze", "--spec", spec, "--audit", audit, "--out", filepath.Join(dir, "readout.md"))
+	if code != exitOK {
+		t.Fatalf("exit %d: %s", code, stderr)
+	}
+	want := map[string][]auditRow{
+		"booking-form": {{Unit: "v1", Arm: "classic", converted: 1}, {Unit: "v2", Arm: "classic"},
+			{Unit: "v3", Arm: "one-step", converted: 1}, {Unit: "v4", Arm: "one-step"}, {Unit: "v5", Arm: "one-step", converted: 1}},
+		"reminder-sms": {{Unit: "v1", Arm: "sms", converted: 1}, {Unit: "v2", Arm: "none"},
+			{Unit: "v6", Arm: "none", converted: 1}, {Unit: "v7", Arm: "sms"}},
+	}
+	for key, rows := range want {
+		path := filepath.Join(dir, "audit-"+key+".parquet")
+		got, err := parquet.ReadFile[auditRow](path)
+		if err != nil {
+			t.Fatalf("%s: %v", path, err)
+		}
+		if len(got) != len(rows) {
+			t.Fatalf("%s: %d rows, want %d", path, len(got), len(rows))
+		}
+		for i, g := range got {
+			c := g.Booked
+			if key == "reminder-sms" {
+				c = g.ShowedUp
+			}
+			w := rows[i]
+			if g.Unit != w.Unit || g.Arm != w.Arm || g.Status != "analysed" || c == nil || *c != w.converted {
+				t.Errorf("%s row %d: %+v (converted %v), want %+v", key, i, g, c, w)
+			}
+		}
+	}
+	// A counts table has no units to audit.
+	code, _, stderr = runCmd(t, "analyze", "--spec", filepath.Join("testdata", "spec", "counts", "spec.toml"), "--audit", audit)
+	if code != exitUsage || !strings.Contains(stderr, "a counts table has none") {
+		t.Errorf("counts with --audit: exit %d, stderr %q", code, stderr)
 	}
 }

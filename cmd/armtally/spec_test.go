@@ -83,6 +83,7 @@ func TestExampleSpec(t *testing.T) {
 		t.Errorf("mapping = %+v, want %+v", m, wantMapping)
 	}
 	if sf.markdown != filepath.Join(dir, "readout.md") || sf.json != filepath.Join(dir, "readout.json") ||
+		sf.audit != filepath.Join(dir, "audit.parquet") ||
 		sf.failOnSampleRatio == nil || !*sf.failOnSampleRatio {
 		t.Errorf("output = %q, %q, %v", sf.markdown, sf.json, sf.failOnSampleRatio)
 	}
@@ -183,7 +184,6 @@ func TestSpecUnsupported(t *testing.T) {
 	}{
 		{"budget of a table", "[input]\nshape = \"counts\"\nmax_bad_rows = 5\n" + tableExperiment, "s.toml:3: not supported yet: input.max_bad_rows"},
 		{"delimiter of a table", "[input]\nshape = \"units\"\ndelimiter = \";\"\n" + tableExperiment, "s.toml:3: not supported yet: input.delimiter"},
-		{"audit", "[output]\naudit = \"audit.json\"\n", "s.toml:2: not supported yet: output.audit"},
 	}
 	for _, tc := range cases {
 		dir := t.TempDir()

@@ -819,6 +819,9 @@ func (sf *specFile) parseOutput(l *locator, o fileOutput) error {
 		*out.dst = sf.resolve(*out.v)
 	}
 	sf.auditFrom = l.at("output.audit")
+	if sf.audit != "" && sf.shape == shapeCounts {
+		return sf.auditFrom.errorf("an audit table lists units, and a counts table (input.shape = \"counts\") has none")
+	}
 	sf.failOnSampleRatio = o.FailOnSampleRatio
 	return nil
 }
@@ -1153,9 +1156,6 @@ func (sf *specFile) unsupported() error {
 		case sf.maxBad != 0:
 			return nope(sf.badFrom, table+" the first bad row stops the run so far")
 		}
-	}
-	if sf.audit != "" {
-		return nope(sf.auditFrom, "")
 	}
 	return nil
 }

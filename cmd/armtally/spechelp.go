@@ -25,7 +25,8 @@ Rules:
         --epoch-unit replace the [columns] keys;
       --delimiter, --max-bad-rows and --max-bad-share replace the [input]
         keys of the same names;
-      --out, --json and --fail-on-sample-ratio replace the [output] keys;
+      --out, --json, --audit and --fail-on-sample-ratio replace the
+        [output] keys;
       --exposure-event, --control, --start, --end, --multi-arm, --maturity,
         --alpha, --alternative, --adjust, --interval, --difference-interval,
         --non-inferiority-method, --min-count and --sample-ratio-threshold
@@ -43,10 +44,9 @@ Rules:
     that contradict each other are errors naming the file, line and key.
     experiment[0] is the first [[experiment]] table, experiment[0].metric[1]
     the second metric of that experiment.
-  - Some keys are read and checked now for features that are still being
-    built; a run that uses them stops with "not supported yet: KEY":
-    output.audit, and input.delimiter other than ",", input.max_bad_rows
-    and input.max_bad_share with the units and counts shapes.
+  - With the units and counts shapes, input.delimiter other than "," and
+    input.max_bad_rows or input.max_bad_share other than 0 stop the run with
+    "not supported yet: KEY": those readers do not have them yet.
 
 An example that shows every key:
 
