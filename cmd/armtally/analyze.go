@@ -97,7 +97,7 @@ func newAnalyzeFlagSet(f *analyzeFlags, stderr io.Writer) *pflag.FlagSet {
 	m := ingest.DefaultMapping()
 	fs.StringVar(&f.spec, "spec", "", "read the input, column mapping, outputs and experiments from this TOML spec file (see armtally help spec); flags you give override it")
 	fs.BoolVar(&f.demo, "demo", false, "analyse the embedded demo event log (its experiment, metrics and window are the defaults)")
-	fs.StringVar(&f.experiment, "experiment", "", "experiment key on exposure rows (required when the log holds several experiments)")
+	fs.StringVar(&f.experiment, "experiment", "", "experiment key on exposure rows (required when the log holds several experiments); with --spec, run only the file's experiment of this key")
 	fs.StringVar(&f.exposureEvent, "exposure-event", "exposure", "event name of exposure rows")
 	fs.StringVar(&f.control, "control", "control", "name of the control arm")
 	fs.StringSliceVar(&f.arms, "arms", nil, "planned arms, comma-separated (the control is added first when missing); any other arm in the data is an error")
