@@ -6,7 +6,9 @@ require (
 	github.com/apache/arrow-go/v18 v18.8.0
 	github.com/parquet-go/parquet-go v0.32.0
 	github.com/pelletier/go-toml/v2 v2.4.3
+	github.com/pierrec/lz4/v4 v4.1.29
 	github.com/santhosh-tekuri/jsonschema/v6 v6.0.3
+	github.com/spf13/pflag v1.1.0
 	gonum.org/v1/gonum v0.17.0
 )
 
@@ -19,8 +21,6 @@ require (
 	github.com/klauspost/cpuid/v2 v2.4.0 // indirect
 	github.com/parquet-go/bitpack v1.0.0 // indirect
 	github.com/parquet-go/jsonlite v1.0.0 // indirect
-	github.com/pierrec/lz4/v4 v4.1.29 // indirect
-	github.com/spf13/pflag v1.1.0 // indirect
 	github.com/twpayne/go-geom v1.6.1 // indirect
 	github.com/zeebo/xxh3 v1.1.0 // indirect
 	golang.org/x/exp v0.0.0-20260112195511-716be5621a96 // indirect
