@@ -5,6 +5,7 @@ import (
 	"io"
 	"iter"
 	"path/filepath"
+	"slices"
 	"strings"
 	"time"
 
@@ -70,6 +71,7 @@ type analyzeFlags struct {
 	demo                                     bool
 	userCol, tsCol, eventCol, expCol, armCol string
 	epochUnit                                string
+	segments                                 []string
 	experiment, exposureEvent, control       string
 	arms                                     []string
 	split                                    string
@@ -127,6 +129,7 @@ func newAnalyzeFlagSet(f *analyzeFlags, stderr io.Writer) *pflag.FlagSet {
 	fs.StringVar(&f.expCol, "experiment-col", m.Experiment, "column holding the experiment key (\"\" when the log has none)")
 	fs.StringVar(&f.armCol, "arm-col", m.Arm, "column holding the arm name")
 	fs.StringVar(&f.epochUnit, "epoch-unit", "", "unit of integer timestamps: s, ms, us or ns")
+	fs.StringArrayVar(&f.segments, "segment", nil, "column to break every metric down by (read from each unit's first exposure row); exploratory results (repeatable)")
 	fs.StringVar(&f.delimiter, "delimiter", ",", "field separator of CSV files: one character; tab or \\t for a tab")
 	fs.Int64Var(&f.maxBadRows, "max-bad-rows", 0, "skip and count up to this many bad rows (-1: any number); 0 stops at the first")
 	fs.Float64Var(&f.maxBadShare, "max-bad-share", 0, "skip and count bad rows up to this share of the rows read (0.001); checked at the end")
@@ -228,6 +231,16 @@ func parseAnalyze(args []string, stdout, stderr io.Writer) (*analyzeRun, error) 
 	if err := applyLowerIsBetter(f.lowerIsBetter, exps); err != nil {
 		return nil, err
 	}
+	for _, name := range f.segments {
+		if name = strings.TrimSpace(name); name == "" {
+			return nil, usagef("analyze: --segment: empty column name")
+		}
+		for _, e := range exps {
+			if !slices.Contains(e.segments, name) {
+				e.segments = append(e.segments, name)
+			}
+		}
+	}
 	for _, e := range exps {
 		spec, opts, err := e.build()
 		if err != nil {
@@ -263,6 +276,11 @@ func parseAnalyze(args []string, stdout, stderr io.Writer) (*analyzeRun, error) 
 	} {
 		if sf == nil || fs.Changed(c.flag) {
 			*c.dst = c.v
+		}
+	}
+	for _, name := range f.segments {
+		if name = strings.TrimSpace(name); !slices.Contains(run.mapping.Segments, name) {
+			run.mapping.Segments = append(run.mapping.Segments, name)
 		}
 	}
 	run.tsMapped = fs.Changed("ts-col")

@@ -343,3 +343,38 @@ func TestHelpExamples(t *testing.T) {
 		}
 	}
 }
+
+// TestSegmentFlag breaks the demo down by platform with --segment and
+// checks that the segments partition each arm: units and conversions of
+// the values add up to the arm's (common practice: every analysed unit has
+// exactly one first-exposure platform in the demo).
+func TestSegmentFlag(t *testing.T) {
+	out := filepath.Join(t.TempDir(), "seg.json")
+	code, _, stderr := runCmd(t, "analyze", "--demo", "--segment", "platform", "--json", out)
+	if code != exitOK {
+		t.Fatalf("exit %d: %s", code, stderr)
+	}
+	_, doc := readDoc(t, out)
+	for _, m := range doc.Readouts[0].Metrics {
+		sums := map[string][2]int64{}
+		values := map[string]bool{}
+		for _, s := range m.Segments {
+			if s.Dimension != "platform" || s.Value == nil || !s.Exploratory {
+				t.Fatalf("%s: segment %+v", m.Name, s)
+			}
+			values[*s.Value] = true
+			for _, a := range s.Arms {
+				v := sums[a.Arm]
+				sums[a.Arm] = [2]int64{v[0] + a.Units, v[1] + a.Conversions}
+			}
+		}
+		if len(values) != 3 || !values["web"] || !values["ios"] || !values["android"] {
+			t.Errorf("%s: segment values %v, want web, ios, android", m.Name, values)
+		}
+		for _, a := range m.Arms {
+			if got := sums[a.Arm]; got != [2]int64{a.Units, a.Conversions} {
+				t.Errorf("%s/%s: segments sum to %v, arm has %d units, %d conversions", m.Name, a.Arm, got, a.Units, a.Conversions)
+			}
+		}
+	}
+}
