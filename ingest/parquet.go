@@ -1,6 +1,7 @@
 package ingest
 
 import (
+	"encoding/binary"
 	"errors"
 	"fmt"
 	"io"
@@ -87,6 +88,9 @@ var errPanicked = errors.New("parquet-go panicked")
 
 func newParquetReader(source Source, src *openedSource, p *plan) (pr *parquetReader, err error) {
 	file := source.Name
+	if err := checkFooterLength(src.r, src.size); err != nil {
+		return nil, fmt.Errorf("%s: %w", file, err)
+	}
 	var pf *parquet.File
 	func() {
 		// Last-resort guard: parquet-go may panic on a corrupt footer.
@@ -136,6 +140,29 @@ func newParquetReader(source Source, src *openedSource, p *plan) (pr *parquetRea
 	}
 	r.row.cells = make([]cell, len(p.physical))
 	return r, nil
+}
+
+// checkFooterLength checks the footer length in a Parquet file's last 8
+// bytes (4-byte little-endian length, then the magic) against the file's
+// size: parquet-go v0.32.0 allocates whatever length is written there, so a
+// corrupt length of up to 4 GiB would be allocated for a file of a few
+// bytes. A file without the magic is left to parquet-go to reject.
+func checkFooterLength(r io.ReaderAt, size int64) error {
+	if size < 8 {
+		return nil
+	}
+	var tail [8]byte
+	if _, err := r.ReadAt(tail[:], size-8); err != nil {
+		return fmt.Errorf("reading the footer: %w", err)
+	}
+	if m := string(tail[4:]); m != "PAR1" && m != "PARE" {
+		return nil
+	}
+	// The file starts with 4 bytes of magic and ends with 8.
+	if n := int64(binary.LittleEndian.Uint32(tail[:4])); n > size-12 {
+		return fmt.Errorf("%w: the footer claims %d bytes, the file has %d", ErrCorrupt, n, size)
+	}
+	return nil
 }
 
 // lookupLeaf finds the leaf column called name: a top-level column, or a
@@ -359,7 +386,7 @@ func (r *parquetReader) nextRowGroup() error {
 // of c in the current row group with the schema and the row group: the
 // chunk must be of the same column and physical type, be compressed with a
 // codec parquet-go has (not the deprecated Hadoop LZ4 or LZO), lie inside
-// the file, decompress to its stated sizes if it is LZ4_RAW (checkLZ4Chunk),
+// the file, have page headers whose claims are possible (checkPages),
 // and, the column being non-repeated,
 // hold one value (or null) per row. The pages are checked against the
 // chunk as they are read (one value per row, no more, no fewer).
@@ -393,10 +420,7 @@ func (r *parquetReader) checkChunk(c *pqColumn) error {
 		return fmt.Errorf("%w: the column chunk's bytes (offset %d, %d bytes) lie outside the file of %d bytes",
 			ErrCorrupt, start, md.TotalCompressedSize, r.src.size)
 	}
-	if md.Codec == format.Lz4Raw {
-		return checkLZ4Chunk(r.src.r, start, md.TotalCompressedSize)
-	}
-	return nil
+	return checkPages(r.src.r, start, md.TotalCompressedSize, md.Codec, md.NumValues)
 }
 
 func (r *parquetReader) close() error {
