@@ -379,8 +379,8 @@ func TestParquetTestingBad(t *testing.T) {
 	}{
 		{"bad_data/PARQUET-1481.parquet", ErrColumnType,
 			"the schema's corrupted type leaves a column armtally cannot map; parquet-go opens the file"},
-		{"bad_data/ARROW-RS-GH-6229-DICTHEADER.parquet", parquet.ErrCorrupted,
-			"a negative value count in the dictionary page header: parquet-go's page header check"},
+		{"bad_data/ARROW-RS-GH-6229-DICTHEADER.parquet", ErrCorrupt,
+			"a negative value count in the dictionary page header: checkPages finds page headers that do not decode and chunks that lie outside the file"},
 		{"bad_data/ARROW-RS-GH-6229-LEVELS.parquet", ErrColumnType,
 			"insufficient repetition levels: its only column is repeated, which armtally refuses before reading a page"},
 		{"bad_data/ARROW-GH-41321.parquet", io.ErrUnexpectedEOF,
@@ -393,8 +393,8 @@ func TestParquetTestingBad(t *testing.T) {
 			"row group 0's page of column timestamp_us_no_tz has the page type INDEX_PAGE; TestParquetTestingGH41317 shows the metadata check"},
 		{"data/datapage_v1-corrupt-checksum.parquet", parquet.ErrCorrupted,
 			"page checksums that do not match"},
-		{"data/nation.dict-malformed.parquet", io.ErrUnexpectedEOF,
-			"a dictionary page shorter than it claims"},
+		{"data/nation.dict-malformed.parquet", ErrCorrupt,
+			"a malformed dictionary: checkPages finds a page that claims 28 bytes where the chunk has 13 left"},
 	}
 	listed, err := filepath.Glob(filepath.Join(dir, "bad_data", "*.parquet"))
 	if err != nil {
@@ -563,7 +563,7 @@ func TestParquetTestingGH41317(t *testing.T) {
 
 // Every single-byte corruption of the LZ4_RAW column chunks of
 // lz4_raw_compressed.parquet ends in rows or an error, never a hang: without
-// checkLZ4Chunk, parquet-go v0.32.0 loops (measured at byte 18 of the c0
+// checkPages, parquet-go v0.32.0 loops (measured at byte 18 of the c0
 // chunk and byte 185 of the c1 chunk, counted from the file's start).
 func TestParquetLZ4RawCorruption(t *testing.T) {
 	dir := parquetTesting(t)
