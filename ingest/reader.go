@@ -564,7 +564,7 @@ func (p *plan) parseTSText(s string) (int64, error) {
 	if s == "" {
 		return 0, ErrNullTimestamp
 	}
-	if p.epochUnit != 0 {
+	if p.epochUnit != 0 && isInteger(s) { // checked first: a failed ParseInt allocates its error
 		if v, err := strconv.ParseInt(s, 10, 64); err == nil {
 			ns, ok := fromEpoch(v, p.epochUnit)
 			if !ok {
@@ -574,6 +574,23 @@ func (p *plan) parseTSText(s string) (int64, error) {
 		}
 	}
 	return parseTimestamp(s)
+}
+
+// isInteger reports whether s is an optional sign and one or more ASCII
+// digits, the form strconv.ParseInt accepts in base 10.
+func isInteger(s string) bool {
+	if s != "" && (s[0] == '-' || s[0] == '+') {
+		s = s[1:]
+	}
+	if s == "" {
+		return false
+	}
+	for i := 0; i < len(s); i++ {
+		if s[i] < '0' || s[i] > '9' {
+			return false
+		}
+	}
+	return true
 }
 
 // partitionCols holds the logical columns that a source supplies from its

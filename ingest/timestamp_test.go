@@ -175,3 +175,32 @@ func FuzzParseTimestamp(f *testing.F) {
 		}
 	})
 }
+
+// Text timestamps with an epoch unit set: integers are epoch counts,
+// everything else goes to ParseTimestamp, and no row allocates.
+func TestParseTSTextEpoch(t *testing.T) {
+	p := &plan{epochUnit: epochUnitNanos("s")}
+	tests := []struct {
+		in   string
+		want int64
+		err  error
+	}{
+		{"1704112496", 1704112496e9, nil}, // date -u -d @1704112496 = 2024-01-01 12:34:56 UTC
+		{"-1", -1e9, nil},
+		{"+1", 1e9, nil},
+		{"2024-01-01 12:34:56", 1704112496e9, nil},
+		{"9223372037", 0, ErrTimestampRange},         // 9223372037 s > MaxInt64 ns
+		{"99999999999999999999", 0, ErrBadTimestamp}, // beyond int64: not a count, not a date
+		{"-", 0, ErrBadTimestamp},
+		{"", 0, ErrNullTimestamp},
+	}
+	for _, tc := range tests {
+		got, err := p.parseTSText(tc.in)
+		if err != tc.err || (err == nil && got != tc.want) {
+			t.Errorf("parseTSText(%q) = %d, %v; want %d, %v", tc.in, got, err, tc.want, tc.err)
+		}
+	}
+	if n := testing.AllocsPerRun(100, func() { p.parseTSText("2024-01-01T12:34:56Z") }); n != 0 {
+		t.Errorf("%v allocations per text timestamp with an epoch unit, want 0", n)
+	}
+}
