@@ -114,8 +114,11 @@ func reasonSentinel(i int) error {
 // metadata contradicts itself or its pages.
 var (
 	// ErrCorrupt: a Parquet file claims something that is not so (a
-	// column chunk of another column or type, a value count that does not
-	// match the rows, offsets outside the file).
+	// footer longer than the file, a column chunk of another column or
+	// type, a value count that does not match the rows, offsets outside
+	// the file, page headers that do not decode or claim sizes their codec
+	// cannot produce), or a page cannot be decoded (parquet-go's error is
+	// wrapped too).
 	ErrCorrupt = errors.New("corrupt parquet file")
 	// ErrCodec: a Parquet column chunk is compressed with a codec that
 	// cannot be decoded here (LZ4 in its deprecated Hadoop framing, LZO).
