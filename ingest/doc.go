@@ -16,8 +16,11 @@
 //     partition's value on every row (a file column of the same name
 //     wins). A missing or unusable column stops the reader with a
 //     *ColumnError (ErrMissingColumn, ErrColumnType) before any row is
-//     read. For Parquet, each mapped column chunk's metadata is checked
-//     against the schema and the row group first (ErrCorrupt, ErrCodec).
+//     read. For Parquet, mapped column chunks in the deprecated LZ4 codec
+//     (Hadoop's framing or a bare LZ4 block), which parquet-go cannot
+//     decode, are first rewritten uncompressed in memory; each mapped
+//     column chunk's metadata is checked against the schema and the row
+//     group (ErrCorrupt, ErrCodec).
 //  3. Each row is decoded: CSV cells with encoding/csv (after gzip, a BOM,
 //     with Options.Delimiter), Parquet values page by page with parquet-go
 //     (only the mapped columns). Timestamps of every form become int64

@@ -30,35 +30,15 @@ import (
 // and the data pages together may hold no more values than the chunk
 // claims. A failed check is ErrCorrupt.
 func checkPages(r io.ReaderAt, start, size int64, codec format.CompressionCodec, chunkValues int64) error {
-	var proto thrift.CompactProtocol
 	var buf, body, dst []byte
 	var values int64
 	end := start + size
 	for page, pos := 0, start; pos < end; page++ {
-		var h format.PageHeader
-		hlen := 0
-		// Headers are small, unless they carry statistics of long
-		// values: read more until the header decodes.
-		for n := int64(256); ; n *= 4 {
-			n = min(n, end-pos)
-			if int64(cap(buf)) < n {
-				buf = make([]byte, n)
-			}
-			if _, err := r.ReadAt(buf[:n], pos); err != nil {
-				return fmt.Errorf("reading page %d's header: %w", page, err)
-			}
-			pr := proto.NewReaderFromBytes(buf[:n])
-			h = format.PageHeader{}
-			err := thrift.NewDecoder(pr).Decode(&h)
-			if err == nil {
-				hlen = pr.BytesRead()
-				break
-			}
-			if n == end-pos || n >= 64<<20 {
-				return fmt.Errorf("%w: page %d: header: %w", ErrCorrupt, page, err)
-			}
+		h, hlen, err := readPageHeader(r, pos, end, page, &buf)
+		if err != nil {
+			return err
 		}
-		pos += int64(hlen)
+		pos += hlen
 		comp, uncomp := int64(h.CompressedPageSize), int64(h.UncompressedPageSize)
 		if comp < 0 || uncomp < 0 || comp > end-pos {
 			return fmt.Errorf("%w: page %d: header claims %d bytes (%d uncompressed), %d left in the chunk",
@@ -128,4 +108,33 @@ func checkPages(r io.ReaderAt, start, size int64, codec format.CompressionCodec,
 		}
 	}
 	return nil
+}
+
+// readPageHeader decodes the header of page number page, at pos of a
+// column chunk that ends at end, and returns it with its length in bytes.
+// Headers are small, unless they carry statistics of long values: it reads
+// more until the header decodes, up to the chunk's end or 64 MiB. buf is
+// scratch space, grown as needed. A header that does not decode is
+// ErrCorrupt.
+func readPageHeader(r io.ReaderAt, pos, end int64, page int, buf *[]byte) (format.PageHeader, int64, error) {
+	var proto thrift.CompactProtocol
+	for n := int64(256); ; n *= 4 {
+		n = min(n, end-pos)
+		if int64(cap(*buf)) < n {
+			*buf = make([]byte, n)
+		}
+		b := (*buf)[:n]
+		if _, err := r.ReadAt(b, pos); err != nil {
+			return format.PageHeader{}, 0, fmt.Errorf("reading page %d's header: %w", page, err)
+		}
+		pr := proto.NewReaderFromBytes(b)
+		var h format.PageHeader
+		err := thrift.NewDecoder(pr).Decode(&h)
+		if err == nil {
+			return h, int64(pr.BytesRead()), nil
+		}
+		if n == end-pos || n >= 64<<20 {
+			return format.PageHeader{}, 0, fmt.Errorf("%w: page %d: header: %w", ErrCorrupt, page, err)
+		}
+	}
 }

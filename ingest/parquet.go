@@ -91,23 +91,9 @@ func newParquetReader(source Source, src *openedSource, p *plan) (pr *parquetRea
 	if err := checkFooterLength(src.r, src.size); err != nil {
 		return nil, fmt.Errorf("%s: %w", file, err)
 	}
-	var pf *parquet.File
-	func() {
-		// Last-resort guard: parquet-go may panic on a corrupt footer.
-		// Turn that into an error naming the file.
-		defer func() {
-			if v := recover(); v != nil {
-				err = fmt.Errorf("%s: corrupt parquet file: %w reading the footer: %v", file, errPanicked, v)
-			}
-		}()
-		pf, err = parquet.OpenFile(src.r, src.size,
-			parquet.SkipPageIndex(true), parquet.SkipBloomFilters(true))
-	}()
+	pf, err := openParquet(src.r, src.size)
 	if err != nil {
-		if !errors.Is(err, errPanicked) {
-			err = fmt.Errorf("%s: %w", file, err)
-		}
-		return nil, err
+		return nil, fmt.Errorf("%s: %w", file, err)
 	}
 	r := &parquetReader{file: file, src: src, pf: pf, p: p, rg: -1, rowGroups: pf.RowGroups()}
 	schema := pf.Schema()
@@ -139,7 +125,51 @@ func newParquetReader(source Source, src *openedSource, p *plan) (pr *parquetRea
 			path: schema.Columns()[leaf.ColumnIndex], typ: leaf.Node.Type(), p: p, buf: make([]parquet.Value, 1024)})
 	}
 	r.row.cells = make([]cell, len(p.physical))
+	if err := r.transcodeLZ4(); err != nil {
+		return nil, err
+	}
 	return r, nil
+}
+
+// transcodeLZ4 rewrites the mapped column chunks compressed with the
+// deprecated LZ4 codec, which parquet-go cannot decode, as uncompressed
+// ones (see transcodeLZ4 in lz4hadoop.go) and reopens the rewritten file.
+// A file without such chunks is left as it is.
+func (r *parquetReader) transcodeLZ4() error {
+	cols := map[int]string{}
+	for _, c := range r.cols {
+		if c != nil {
+			cols[c.index] = c.name
+		}
+	}
+	md := r.pf.Metadata()
+	if !hasLZ4(md, cols) {
+		return nil
+	}
+	t, err := transcodeLZ4(r.src.r, r.src.size, md, cols)
+	if err != nil {
+		return fmt.Errorf("%s: %w", r.file, err)
+	}
+	pf, err := openParquet(t, t.size)
+	if err != nil {
+		return fmt.Errorf("%s: reopening the file with its LZ4 column chunks rewritten: %w", r.file, err)
+	}
+	r.pf, r.rowGroups = pf, pf.RowGroups()
+	r.src = &openedSource{r: t, size: t.size, c: r.src.c}
+	return nil
+}
+
+// openParquet opens a Parquet file with parquet-go, reading only its
+// footer.
+func openParquet(ra io.ReaderAt, size int64) (pf *parquet.File, err error) {
+	defer func() {
+		// Last-resort guard: parquet-go may panic on a corrupt footer.
+		// Turn that into an error.
+		if v := recover(); v != nil {
+			pf, err = nil, fmt.Errorf("corrupt parquet file: %w reading the footer: %v", errPanicked, v)
+		}
+	}()
+	return parquet.OpenFile(ra, size, parquet.SkipPageIndex(true), parquet.SkipBloomFilters(true))
 }
 
 // checkFooterLength checks the footer length in a Parquet file's last 8
@@ -385,11 +415,11 @@ func (r *parquetReader) nextRowGroup() error {
 // checkChunk compares what the file's metadata says about the column chunk
 // of c in the current row group with the schema and the row group: the
 // chunk must be of the same column and physical type, be compressed with a
-// codec parquet-go has (not the deprecated Hadoop LZ4 or LZO), lie inside
-// the file, have page headers whose claims are possible (checkPages),
-// and, the column being non-repeated,
-// hold one value (or null) per row. The pages are checked against the
-// chunk as they are read (one value per row, no more, no fewer).
+// codec parquet-go has (not LZO; the deprecated LZ4 was rewritten by
+// transcodeLZ4), lie inside the file, have page headers whose claims are
+// possible (checkPages), and, the column being non-repeated, hold one
+// value (or null) per row. The pages are checked against the chunk as they
+// are read (one value per row, no more, no fewer).
 func (r *parquetReader) checkChunk(c *pqColumn) error {
 	groups := r.pf.Metadata().RowGroups
 	if r.rg >= len(groups) || c.index >= len(groups[r.rg].Columns) {
@@ -412,10 +442,7 @@ func (r *parquetReader) checkChunk(c *pqColumn) error {
 		return fmt.Errorf("%w: compressed with %v, a codec parquet-go cannot decode (rewrite the file with SNAPPY, ZSTD, GZIP or LZ4_RAW)",
 			ErrCodec, md.Codec)
 	}
-	start := md.DataPageOffset
-	if md.DictionaryPageOffset > 0 && md.DictionaryPageOffset < start {
-		start = md.DictionaryPageOffset
-	}
+	start := chunkStart(md)
 	if start < 4 || md.TotalCompressedSize < 0 || start > r.src.size-md.TotalCompressedSize {
 		return fmt.Errorf("%w: the column chunk's bytes (offset %d, %d bytes) lie outside the file of %d bytes",
 			ErrCorrupt, start, md.TotalCompressedSize, r.src.size)
