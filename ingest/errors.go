@@ -121,7 +121,8 @@ var (
 	// wrapped too).
 	ErrCorrupt = errors.New("corrupt parquet file")
 	// ErrCodec: a Parquet column chunk is compressed with a codec that
-	// cannot be decoded here (LZO), or with the deprecated LZ4 codec in
+	// cannot be decoded here (LZO), with another codec than the column's
+	// chunk in the first row group, or with the deprecated LZ4 codec in
 	// chunks that decompress to more than can be rewritten in memory.
 	ErrCodec = errors.New("unsupported compression codec")
 	// ErrMissingColumn: a mapped column is not in the file.

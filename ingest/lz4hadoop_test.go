@@ -351,6 +351,29 @@ func TestParquetHadoopLZ4RoundTrip(t *testing.T) {
 	}
 }
 
+// parquet-go decodes every chunk of a column with the codec of its chunk in
+// row group 0: a column whose row groups differ (here SNAPPY and LZ4,
+// rewritten uncompressed) is refused with ErrCodec naming the row group,
+// instead of being misread.
+func TestParquetMixedCodecs(t *testing.T) {
+	rows := lz4Events(40)
+	snappy := writeParquet(t, rows, parquet.Compression(&parquet.Snappy), parquet.MaxRowsPerRowGroup(20))
+	m := Mapping{User: "user_id", TS: "ts", Event: "event"}
+	for _, rg := range []int{0, 1} {
+		data := toHadoopLZ4(t, snappy, 1000, func(g, _ int) bool { return g == rg })
+		_, _, err := readAll(t, []Source{BytesSource("mixed.parquet", data)}, Options{Mapping: m})
+		want := `mixed.parquet: row group 1: column "user_id": unsupported compression codec: compressed with `
+		if !errors.Is(err, ErrCodec) || !strings.HasPrefix(err.Error(), want) {
+			t.Errorf("LZ4 in row group %d: error %v, want ErrCodec starting %q", rg, err, want)
+		}
+	}
+	// LZ4 in both: rewritten alike, read.
+	data := toHadoopLZ4(t, snappy, 1000, func(int, int) bool { return true })
+	if got, _, err := readAll(t, []Source{BytesSource("lz4.parquet", data)}, Options{Mapping: m}); err != nil || len(got) != 40 {
+		t.Errorf("%d rows, %v", len(got), err)
+	}
+}
+
 // A file without LZ4 chunks is not rewritten: the reader keeps the source.
 func TestParquetNoLZ4NoRewrite(t *testing.T) {
 	data := writeParquet(t, lz4Events(10), parquet.Compression(&parquet.Snappy))

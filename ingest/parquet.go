@@ -416,10 +416,12 @@ func (r *parquetReader) nextRowGroup() error {
 // of c in the current row group with the schema and the row group: the
 // chunk must be of the same column and physical type, be compressed with a
 // codec parquet-go has (not LZO; the deprecated LZ4 was rewritten by
-// transcodeLZ4), lie inside the file, have page headers whose claims are
-// possible (checkPages), and, the column being non-repeated, hold one
-// value (or null) per row. The pages are checked against the chunk as they
-// are read (one value per row, no more, no fewer).
+// transcodeLZ4) and with the codec of the column's chunk in row group 0
+// (parquet-go decodes all of a column's chunks with that one), lie inside
+// the file, have page headers whose claims are possible (checkPages), and,
+// the column being non-repeated, hold one value (or null) per row. The
+// pages are checked against the chunk as they are read (one value per
+// row, no more, no fewer).
 func (r *parquetReader) checkChunk(c *pqColumn) error {
 	groups := r.pf.Metadata().RowGroups
 	if r.rg >= len(groups) || c.index >= len(groups[r.rg].Columns) {
@@ -441,6 +443,10 @@ func (r *parquetReader) checkChunk(c *pqColumn) error {
 	if codec := parquet.LookupCompressionCodec(md.Codec); codec.String() == "UNSUPPORTED" {
 		return fmt.Errorf("%w: compressed with %v, a codec parquet-go cannot decode (rewrite the file with SNAPPY, ZSTD, GZIP or LZ4_RAW)",
 			ErrCodec, md.Codec)
+	}
+	if first := groups[0].Columns; c.index < len(first) && first[c.index].MetaData.Codec != md.Codec {
+		return fmt.Errorf("%w: compressed with %v, the column's chunk in row group 0 with %v: parquet-go decodes all chunks of a column with the codec of the first (rewrite the file with one codec)",
+			ErrCodec, md.Codec, first[c.index].MetaData.Codec)
 	}
 	start := chunkStart(md)
 	if start < 4 || md.TotalCompressedSize < 0 || start > r.src.size-md.TotalCompressedSize {
