@@ -27,8 +27,7 @@ const segNull = -1
 // values are interned per dimension, so a unit costs one int32 per
 // dimension.
 type exposures struct {
-	units    map[string]int32
-	keys     []string // unit key by index
+	units    unitIndex
 	state    []unitState
 	dims     int
 	segs     []int32 // dims values per unit, segNull for null
@@ -41,7 +40,7 @@ type exposures struct {
 
 func newExposures(spec Spec) exposures {
 	x := exposures{
-		units:    make(map[string]int32),
+		units:    newUnitIndex(),
 		dims:     len(spec.Segments),
 		armIndex: make(map[string]int32),
 	}
@@ -71,13 +70,10 @@ func (x *exposures) arm(name string) int32 {
 
 // unit returns the index of the unit, adding it (unexposed) when new.
 func (x *exposures) unit(key string) int32 {
-	if u, ok := x.units[key]; ok {
+	u, ok := x.units.lookup(key)
+	if ok {
 		return u
 	}
-	u := int32(len(x.state))
-	key = strings.Clone(key)
-	x.units[key] = u
-	x.keys = append(x.keys, key)
 	x.state = append(x.state, unitState{armAtT0: -1, firstArm: -1})
 	for range x.dims {
 		x.segs = append(x.segs, segNull)
@@ -163,10 +159,15 @@ func status(s *unitState, policy MultiArmPolicy) UnitStatus {
 
 // fill sets the fields of rec that the exposures decide: unit, arm, t0,
 // segment values, status and the multi-arm flag. rec.Segments is reused
-// when it has the right length.
-func (x *exposures) fill(u int32, policy MultiArmPolicy, hasT0 bool, rec *UnitRecord) {
+// when it has the right length. The unit key is materialised only when
+// withKey: the records that stay inside the package (summed at once, and
+// always matching the spec) do without it.
+func (x *exposures) fill(u int32, policy MultiArmPolicy, hasT0, withKey bool, rec *UnitRecord) {
 	s := &x.state[u]
-	rec.Unit = x.keys[u]
+	rec.Unit = ""
+	if withKey {
+		rec.Unit = x.units.keyString(u)
+	}
 	rec.Arm = x.arms[s.armAtT0]
 	rec.T0, rec.HasT0 = 0, hasT0
 	if hasT0 {
@@ -195,7 +196,7 @@ func (x *exposures) sortedUnits() []int32 {
 			idx = append(idx, int32(u))
 		}
 	}
-	slices.SortFunc(idx, func(a, b int32) int { return strings.Compare(x.keys[a], x.keys[b]) })
+	slices.SortFunc(idx, func(a, b int32) int { return x.units.compare(a, b) })
 	return idx
 }
 

@@ -341,9 +341,9 @@ func (t *Tallier) finish() *finished {
 	return f
 }
 
-// record fills rec for exposed unit u.
-func (t *Tallier) record(f *finished, u int32, rec *UnitRecord) {
-	t.fill(u, t.spec.MultiArm, true, rec)
+// record fills rec for exposed unit u (its key only when withKey).
+func (t *Tallier) record(f *finished, u int32, withKey bool, rec *UnitRecord) {
+	t.fill(u, t.spec.MultiArm, true, withKey, rec)
 	nm := len(t.spec.Metrics)
 	if len(rec.Converted) != nm {
 		rec.Converted, rec.Immature = make([]bool, nm), make([]bool, nm)
@@ -373,7 +373,7 @@ func (t *Tallier) Units() (iter.Seq[UnitRecord], error) {
 	return func(yield func(UnitRecord) bool) {
 		for _, u := range order {
 			var rec UnitRecord
-			t.record(f, u, &rec)
+			t.record(f, u, true, &rec)
 			if !yield(rec) {
 				return
 			}
@@ -401,7 +401,7 @@ func (t *Tallier) Tally() (Tally, error) {
 		if t.state[u].armAtT0 < 0 {
 			continue
 		}
-		t.record(f, int32(u), &rec)
+		t.record(f, int32(u), false, &rec)
 		if err := acc.Add(rec); err != nil {
 			return Tally{}, err
 		}

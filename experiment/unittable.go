@@ -156,10 +156,10 @@ func (t *UnitTableTallier) Add(rec arrow.RecordBatch) error {
 	return nil
 }
 
-// record fills rec for exposed unit u.
-func (t *UnitTableTallier) record(u int32, rec *UnitRecord) {
+// record fills rec for exposed unit u (its key only when withKey).
+func (t *UnitTableTallier) record(u int32, withKey bool, rec *UnitRecord) {
 	timed := t.hasTS > 0
-	t.fill(u, t.spec.MultiArm, timed, rec)
+	t.fill(u, t.spec.MultiArm, timed, withKey, rec)
 	nm := len(t.spec.Metrics)
 	if len(rec.Converted) != nm {
 		rec.Converted, rec.Immature = make([]bool, nm), make([]bool, nm)
@@ -179,7 +179,7 @@ func (t *UnitTableTallier) Units() iter.Seq[UnitRecord] {
 	return func(yield func(UnitRecord) bool) {
 		for _, u := range order {
 			var rec UnitRecord
-			t.record(u, &rec)
+			t.record(u, true, &rec)
 			if !yield(rec) {
 				return
 			}
@@ -204,7 +204,7 @@ func (t *UnitTableTallier) Tally() (Tally, error) {
 		if t.state[u].armAtT0 < 0 {
 			continue
 		}
-		t.record(int32(u), &rec)
+		t.record(int32(u), false, &rec)
 		if err := acc.Add(rec); err != nil {
 			return Tally{}, err
 		}

@@ -1,0 +1,98 @@
+package experiment
+
+import (
+	"bytes"
+	"hash/maphash"
+)
+
+// unitIndex numbers unit keys densely (0, 1, ...) in order of first
+// sight. It holds no pointers the collector must follow per unit: the key
+// bytes live in one arena, the key boundaries in a slice of offsets, and
+// the hash table is open addressing over uint64 slots, each holding the
+// low 32 bits of the key's hash (high half) and the unit index plus one
+// (low half; zero marks an empty slot). Collisions are resolved by
+// comparing the key bytes.
+type unitIndex struct {
+	seed  maphash.Seed
+	slots []uint64
+	mask  uint32
+	arena []byte   // the keys, back to back
+	ends  []uint64 // ends[u] is the end of key u in arena; it starts at ends[u-1] (0 for u = 0)
+}
+
+const unitIndexMinSlots = 1 << 10
+
+func newUnitIndex() unitIndex {
+	return unitIndex{
+		seed:  maphash.MakeSeed(),
+		slots: make([]uint64, unitIndexMinSlots),
+		mask:  unitIndexMinSlots - 1,
+	}
+}
+
+// len returns the number of units.
+func (x *unitIndex) len() int { return len(x.ends) }
+
+// key returns the bytes of unit u's key; they are not to be modified.
+func (x *unitIndex) key(u int32) []byte {
+	var lo uint64
+	if u > 0 {
+		lo = x.ends[u-1]
+	}
+	return x.arena[lo:x.ends[u]:x.ends[u]]
+}
+
+// keyString returns unit u's key as a fresh string.
+func (x *unitIndex) keyString(u int32) string { return string(x.key(u)) }
+
+// compare orders units a and b by key, bytewise.
+func (x *unitIndex) compare(a, b int32) int { return bytes.Compare(x.key(a), x.key(b)) }
+
+// lookup returns the index of key and true, or, when key is new, adds it
+// as unit x.len() and returns that index and false.
+func (x *unitIndex) lookup(key string) (int32, bool) {
+	h := uint32(maphash.String(x.seed, key))
+	for i := h & x.mask; ; i = (i + 1) & x.mask {
+		s := x.slots[i]
+		if s == 0 {
+			break
+		}
+		if uint32(s>>32) == h {
+			u := int32(uint32(s) - 1)
+			if string(x.key(u)) == key {
+				return u, true
+			}
+		}
+	}
+	u := int32(len(x.ends))
+	x.arena = append(x.arena, key...)
+	x.ends = append(x.ends, uint64(len(x.arena)))
+	// Keep the load at most one half.
+	if 2*len(x.ends) > len(x.slots) {
+		x.grow()
+	}
+	x.place(uint64(h)<<32 | uint64(uint32(u)+1))
+	return u, false
+}
+
+// place puts slot s in the first free place of its probe sequence.
+func (x *unitIndex) place(s uint64) {
+	i := uint32(s>>32) & x.mask
+	for x.slots[i] != 0 {
+		i = (i + 1) & x.mask
+	}
+	x.slots[i] = s
+}
+
+// grow doubles the table; the stored hash bits place each slot again
+// without reading its key.
+func (x *unitIndex) grow() {
+	old := x.slots
+	x.slots = make([]uint64, 2*len(old))
+	x.mask = uint32(len(x.slots) - 1)
+	for _, s := range old {
+		if s != 0 {
+			x.place(s)
+		}
+	}
+}
