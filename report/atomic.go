@@ -19,6 +19,10 @@ import (
 // keeps its old content, or stays absent. A replaced file keeps its
 // permission bits; a new file gets 0644.
 //
+// A path that names a device or a pipe (/dev/null, /dev/stdout, a named
+// pipe) cannot be replaced by a rename: the output is then written to it
+// directly, in one piece after write has built it. A directory is an error.
+//
 // WriteFileAtomic does not lock: two concurrent writers to the same path
 // each rename a complete file, and the last rename wins.
 func WriteFileAtomic(path string, write func(io.Writer) error) (err error) {
@@ -28,8 +32,11 @@ func WriteFileAtomic(path string, write func(io.Writer) error) (err error) {
 	}
 	perm := fs.FileMode(0o644)
 	if fi, statErr := os.Stat(path); statErr == nil {
-		if !fi.Mode().IsRegular() {
-			return fmt.Errorf("write %s: not a regular file", path)
+		switch {
+		case fi.IsDir():
+			return fmt.Errorf("write %s: is a directory", path)
+		case !fi.Mode().IsRegular():
+			return writeDevice(path, write)
 		}
 		perm = fi.Mode().Perm()
 	}
@@ -64,6 +71,27 @@ func WriteFileAtomic(path string, write func(io.Writer) error) (err error) {
 		return fmt.Errorf("write %s: %w", path, err)
 	}
 	syncDir(dir)
+	return nil
+}
+
+// writeDevice writes the output of write to an existing device or pipe.
+func writeDevice(path string, write func(io.Writer) error) error {
+	f, err := os.OpenFile(path, os.O_WRONLY, 0)
+	if err != nil {
+		return fmt.Errorf("write %s: %w", path, err)
+	}
+	bw := bufio.NewWriter(f)
+	if err := write(bw); err != nil {
+		f.Close()
+		return fmt.Errorf("write %s: %w", path, err)
+	}
+	if err := bw.Flush(); err != nil {
+		f.Close()
+		return fmt.Errorf("write %s: %w", path, err)
+	}
+	if err := f.Close(); err != nil {
+		return fmt.Errorf("write %s: %w", path, err)
+	}
 	return nil
 }
 

@@ -6,6 +6,7 @@ import (
 	"os"
 	"path/filepath"
 	"runtime"
+	"strings"
 	"testing"
 )
 
@@ -146,5 +147,27 @@ func TestWriteFileAtomicErrors(t *testing.T) {
 				t.Errorf("directory holds %q, want nothing", names)
 			}
 		})
+	}
+}
+
+// TestWriteFileAtomicNonRegular checks that a device is written directly
+// (a rename cannot replace it) and that a directory is refused.
+func TestWriteFileAtomicNonRegular(t *testing.T) {
+	if _, err := os.Stat(os.DevNull); err != nil {
+		t.Skip("no null device")
+	}
+	called := false
+	err := WriteFileAtomic(os.DevNull, func(w io.Writer) error {
+		called = true
+		_, err := io.WriteString(w, "discarded\n")
+		return err
+	})
+	if err != nil || !called {
+		t.Errorf("writing %s: err %v, called %v", os.DevNull, err, called)
+	}
+	dir := t.TempDir()
+	err = WriteFileAtomic(dir, func(w io.Writer) error { return nil })
+	if err == nil || !strings.Contains(err.Error(), "is a directory") {
+		t.Errorf("writing a directory: err %v", err)
 	}
 }
