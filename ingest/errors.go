@@ -17,6 +17,7 @@ var (
 	ErrNullEvent      = errors.New("null or empty event name")
 	ErrNoArm          = errors.New("exposure row without an arm")
 	ErrFieldCount     = errors.New("wrong number of fields")
+	ErrUnknownArm     = errors.New("exposure row with an arm that is not planned")
 )
 
 // Reason names of the row sentinels, as Stats.BadRows and the readout's
@@ -29,11 +30,12 @@ const (
 	ReasonNullEvent          = "null_event"             // ErrNullEvent
 	ReasonExposureWithoutArm = "exposure_without_arm"   // ErrNoArm
 	ReasonWrongFieldCount    = "wrong_field_count"      // ErrFieldCount
+	ReasonUnknownArm         = "unknown_arm"            // ErrUnknownArm
 )
 
 // numReasons is the number of row sentinels; reasonIndex numbers them in
 // the order of the Reason constants, which is the order of Stats.BadRows.
-const numReasons = 7
+const numReasons = 8
 
 // reasonIndex returns the position of a row sentinel, or -1.
 func reasonIndex(err error) int {
@@ -52,6 +54,8 @@ func reasonIndex(err error) int {
 		return 5
 	case ErrFieldCount:
 		return 6
+	case ErrUnknownArm:
+		return 7
 	}
 	return -1
 }
@@ -73,6 +77,8 @@ func reasonName(i int) string {
 		return ReasonExposureWithoutArm
 	case 6:
 		return ReasonWrongFieldCount
+	case 7:
+		return ReasonUnknownArm
 	}
 	return ""
 }
@@ -105,6 +111,8 @@ func reasonSentinel(i int) error {
 		return ErrNoArm
 	case 6:
 		return ErrFieldCount
+	case 7:
+		return ErrUnknownArm
 	}
 	return nil
 }

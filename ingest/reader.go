@@ -56,6 +56,13 @@ type Options struct {
 	// carry a non-empty arm; otherwise it is bad (ErrNoArm). "" turns the
 	// check off. Setting it requires Mapping.Arm.
 	ExposureEvent string
+	// PlannedArms, when not empty, lists the planned arms per experiment
+	// key: an exposure row whose experiment key (its experiment cell; ""
+	// when there is no experiment column) is in the map and whose arm is
+	// not among that key's arms is bad (ErrUnknownArm). The key "" also
+	// applies to exposure rows of any key not in the map. Exposure rows of
+	// other experiments are not checked.
+	PlannedArms map[string][]string
 	// BatchSize is the most rows per record batch; 0 means 65536.
 	BatchSize int
 	// Allocator allocates the record batches; nil means
@@ -404,6 +411,9 @@ type plan struct {
 	exposure  string
 	delimiter rune
 	schema    *arrow.Schema
+	// planned maps an experiment key to its planned arms (see
+	// Options.PlannedArms); nil checks nothing.
+	planned map[string]map[string]bool
 }
 
 func newPlan(opts Options) (*plan, error) {
@@ -414,6 +424,19 @@ func newPlan(opts Options) (*plan, error) {
 		}
 	}
 	p := &plan{expCol: -1, armCol: -1, exposure: opts.ExposureEvent, delimiter: ','}
+	if len(opts.PlannedArms) > 0 {
+		if p.exposure == "" {
+			return nil, errors.New("planned arms need the exposure event")
+		}
+		p.planned = make(map[string]map[string]bool, len(opts.PlannedArms))
+		for key, arms := range opts.PlannedArms {
+			set := make(map[string]bool, len(arms))
+			for _, a := range arms {
+				set[a] = true
+			}
+			p.planned[key] = set
+		}
+	}
 	if d := opts.Delimiter; d != 0 {
 		if d == '"' || d == '\r' || d == '\n' || d == utf8.RuneError || !utf8.ValidRune(d) {
 			return nil, fmt.Errorf("CSV delimiter %q: cannot be a quote, a line end or an invalid rune", d)
@@ -498,8 +521,22 @@ func (p *plan) check(r *row) (col int, reason error) {
 		return colEvent, ErrNullEvent
 	}
 	if p.exposure != "" && ev.s == p.exposure {
-		if a := r.cells[p.armCol]; a.null || a.s == "" {
+		a := r.cells[p.armCol]
+		if a.null || a.s == "" {
 			return p.armCol, ErrNoArm
+		}
+		if p.planned != nil {
+			key := ""
+			if p.expCol >= 0 && !r.cells[p.expCol].null {
+				key = r.cells[p.expCol].s
+			}
+			arms, ok := p.planned[key]
+			if !ok {
+				arms, ok = p.planned[""]
+			}
+			if ok && !arms[a.s] {
+				return p.armCol, ErrUnknownArm
+			}
 		}
 	}
 	return -1, nil

@@ -640,7 +640,18 @@ func newRecordReader(run *analyzeRun) (recordReader, error) {
 		}
 		exposure = e.spec.ExposureEvent
 	}
-	return ingest.NewReader(run.sources, ingest.Options{Mapping: m, ExposureEvent: exposure,
+	// Planned arms are checked row by row, so that an exposure in an arm
+	// that is not planned is a bad row (unknown_arm) named by file, row and
+	// column, skipped and counted under an error budget.
+	planned := map[string][]string{}
+	for _, e := range run.experiments {
+		if len(e.spec.Arms) > 0 {
+			planned[e.spec.Key] = e.spec.Arms
+		}
+	}
+	// An experiment without a key takes every exposure row: its arms are
+	// listed under "", which ingest applies to any key.
+	return ingest.NewReader(run.sources, ingest.Options{Mapping: m, ExposureEvent: exposure, PlannedArms: planned,
 		Delimiter: run.delimiter, MaxBadRows: run.maxBadRows, MaxBadShare: run.maxBadShare})
 }
 

@@ -5,6 +5,7 @@ import (
 	"encoding/json"
 	"os"
 	"path/filepath"
+	"reflect"
 	"strconv"
 	"strings"
 	"testing"
@@ -290,7 +291,7 @@ func TestExitCodes(t *testing.T) {
 		{"split without arms", []string{"analyze", "--demo", "--arms", "", "--split", "1,1"}, exitUsage, "--split needs --arms"},
 		{"missing file", []string{"analyze", filepath.Join(dir, "nope.csv"), "--metric", "buy"}, exitData, "nope.csv"},
 		{"bad row", []string{"analyze", bad, "--metric", "buy"}, exitData, `bad.csv:4: column "ts": cannot parse "yesterday"`},
-		{"unplanned arm", []string{"analyze", skewed, "--metric", "buy", "--arms", "control,other"}, exitData, `arms that are not planned: "treat" (1200 units exposed)`},
+		{"unplanned arm", []string{"analyze", skewed, "--metric", "buy", "--arms", "control,other"}, exitData, `part-0.csv:1002: column "arm": exposure row with an arm that is not planned (value "treat")`},
 		{"sample ratio ignored", []string{"analyze", skewed, "--metric", "buy"}, exitOK, ""},
 		{"sample ratio fails", []string{"analyze", skewed, "--metric", "buy", "--fail-on-sample-ratio"}, exitSampleRatio, "sample ratio mismatch"},
 		{"bad adjustment", []string{"analyze", "--demo", "--adjust", "sidak"}, exitUsage, "--adjust"},
@@ -376,5 +377,37 @@ func TestSegmentFlag(t *testing.T) {
 				t.Errorf("%s/%s: segments sum to %v, arm has %d units, %d conversions", m.Name, a.Arm, got, a.Units, a.Conversions)
 			}
 		}
+	}
+}
+
+// TestUnknownArmBudget checks that, under an error budget, exposures in an
+// arm that is not planned are skipped and counted: the skewed log of
+// TestExitCodes has 1,000 control and 1,200 "treat" exposures (counted by
+// construction), and only control is planned besides "other".
+func TestUnknownArmBudget(t *testing.T) {
+	dir := t.TempDir()
+	var b strings.Builder
+	b.WriteString("user_id,ts,event,experiment,arm\n")
+	for i := 0; i < 2200; i++ {
+		arm := "control"
+		if i >= 1000 {
+			arm = "treat"
+		}
+		b.WriteString("u" + strconv.Itoa(i) + ",2026-11-02T10:00:00Z,exposure,exp," + arm + "\n")
+	}
+	in := filepath.Join(dir, "log.csv")
+	if err := os.WriteFile(in, []byte(b.String()), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	out := filepath.Join(dir, "r.json")
+	code, _, stderr := runCmd(t, "analyze", in, "--metric", "buy", "--arms", "control,other", "--max-bad-rows", "-1", "--json", out)
+	if code != exitOK {
+		t.Fatalf("exit %d: %s", code, stderr)
+	}
+	_, doc := readDoc(t, out)
+	d := doc.Readouts[0].Diagnostics
+	want := []experiment.ReasonCount{{Reason: "unknown_arm", Count: 1200}}
+	if !reflect.DeepEqual(d.BadRows, want) || d.RowsRead != 2200 || d.UnitsExposed != 1000 {
+		t.Errorf("bad rows %+v, rows read %d, units exposed %d; want %+v, 2200, 1000", d.BadRows, d.RowsRead, d.UnitsExposed, want)
 	}
 }
