@@ -27,8 +27,9 @@
 //     nanoseconds UTC, range checked (ParseTimestamp for text).
 //  4. One function decides whether a row is valid and, if not, its reason:
 //     ErrNullUser, ErrNullTimestamp, ErrBadTimestamp, ErrTimestampRange,
-//     ErrNullEvent, ErrNoArm (and ErrFieldCount for a CSV record of the
-//     wrong width). Every bad row is counted by reason (Stats.BadRows, with
+//     ErrNullEvent, ErrNoArm, ErrUnknownArm (with Options.PlannedArms), and
+//     ErrFieldCount for a CSV record of the
+//     wrong width. Every bad row is counted by reason (Stats.BadRows, with
 //     the first example of each). Without an error budget the first bad row
 //     stops the reader with a *RowError naming file, line or row, column
 //     and value; with one (Options.MaxBadRows, MaxBadShare) bad rows are
