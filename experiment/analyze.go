@@ -140,10 +140,13 @@ func Analyze(spec Spec, t Tally, opts AnalysisOptions) (Readout, error) {
 		opts.Difference = DifferenceNewcombe
 	}
 	m := methods{single: opts.Interval, diff: opts.Difference, ni: opts.NonInferiority}
-	if _, err := m.rate(1, 2, 0.95); err != nil {
+	// A trial call checks each method name and gives its printed name.
+	rateIv, err := m.rate(1, 2, 0.95)
+	if err != nil {
 		return Readout{}, err
 	}
-	if _, err := m.difference(1, 2, 1, 2, 0.95); err != nil {
+	diffIv, err := m.difference(1, 2, 1, 2, 0.95)
+	if err != nil {
 		return Readout{}, err
 	}
 	if _, err := stats.AdjustPValues(nil, opts.Adjust); err != nil {
@@ -173,23 +176,19 @@ func Analyze(spec Spec, t Tally, opts AnalysisOptions) (Readout, error) {
 		WindowStart:   utcPtr(spec.Start),
 		WindowEnd:     utcPtr(spec.End),
 		Settings: Settings{
-			Alpha:                so.Alpha,
-			ConfidenceLevel:      so.Level,
-			Alternative:          so.Alternative.String(),
-			MultiArmPolicy:       spec.MultiArm.String(),
-			MaturityPolicy:       spec.Maturity.String(),
-			MinCount:             so.MinCount,
-			SampleRatioThreshold: opts.SampleRatioThreshold,
-			Adjustment:           opts.Adjust.String(),
-			NonInferiorityMethod: opts.NonInferiority.String(),
-			LiftIntervalMethod:   methodLift,
+			Alpha:                    so.Alpha,
+			ConfidenceLevel:          so.Level,
+			Alternative:              so.Alternative.String(),
+			MultiArmPolicy:           spec.MultiArm.String(),
+			MaturityPolicy:           spec.Maturity.String(),
+			MinCount:                 so.MinCount,
+			SampleRatioThreshold:     opts.SampleRatioThreshold,
+			Adjustment:               opts.Adjust.String(),
+			NonInferiorityMethod:     opts.NonInferiority.String(),
+			LiftIntervalMethod:       methodLift,
+			IntervalMethod:           rateIv.Method,
+			DifferenceIntervalMethod: diffIv.Method,
 		},
-	}
-	if iv, err := m.rate(1, 2, 0.95); err == nil {
-		r.Settings.IntervalMethod = iv.Method
-	}
-	if iv, err := m.difference(1, 2, 1, 2, 0.95); err == nil {
-		r.Settings.DifferenceIntervalMethod = iv.Method
 	}
 	if t.HasFreshness {
 		f := time.Unix(0, t.Freshness).UTC()
@@ -443,20 +442,9 @@ func compare(treatment string, tc Count, control string, cc Count, so stats.Opti
 	}
 	c.Z = test(z)
 	c.Warnings = append(c.Warnings, z.Warnings...)
-	c.ConditionMet = true
-	for _, arm := range []struct {
-		name string
-		x, n int64
-	}{{treatment, x1, n1}, {control, x2, n2}} {
-		if arm.x < so.MinCount {
-			c.ConditionMet = false
-			c.Warnings = append(c.Warnings, fmt.Sprintf("normal approximation not justified: %s has %s, needs at least %d", arm.name, plural(arm.x, "conversion"), so.MinCount))
-		}
-		if f := arm.n - arm.x; f < so.MinCount {
-			c.ConditionMet = false
-			c.Warnings = append(c.Warnings, fmt.Sprintf("normal approximation not justified: %s has %s, needs at least %d", arm.name, plural(f, "non-conversion"), so.MinCount))
-		}
-	}
+	ok, warn := stats.TwoSampleConditionNamed(x1, n1, x2, n2, so.MinCount, treatment, control)
+	c.ConditionMet = ok
+	c.Warnings = append(c.Warnings, warn...)
 	if c.ConditionMet {
 		c.SignificantUnadjusted, c.DecidedBy = z.RejectByPValue, DecidedByZ
 	} else {

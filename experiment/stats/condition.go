@@ -34,12 +34,18 @@ func plural(n int64, word string) string {
 //  1. Fleiss JL, Levin B, Paik MC (2003). Statistical Methods for Rates and
 //     Proportions, 3rd edition. Wiley, chapter 2.
 func TwoSampleCondition(x1, n1, x2, n2, minCount int64) (ok bool, warnings []string) {
+	return TwoSampleConditionNamed(x1, n1, x2, n2, minCount, "treatment", "control")
+}
+
+// TwoSampleConditionNamed is [TwoSampleCondition] with the arms' names in
+// the warnings instead of "treatment" and "control".
+func TwoSampleConditionNamed(x1, n1, x2, n2, minCount int64, name1, name2 string) (ok bool, warnings []string) {
 	minCount = max(minCount, 1)
 	ok = true
 	for _, arm := range []struct {
 		name string
 		x, n int64
-	}{{"treatment", x1, n1}, {"control", x2, n2}} {
+	}{{name1, x1, n1}, {name2, x2, n2}} {
 		if err := checkCount(arm.x, arm.n); err != nil {
 			ok = false
 			warnings = append(warnings, fmt.Sprintf("normal approximation not checked: %s: %v", arm.name, err))
