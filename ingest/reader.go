@@ -6,6 +6,7 @@ import (
 	"io"
 	"strconv"
 	"strings"
+	"sync/atomic"
 	"unicode/utf8"
 	"unsafe"
 
@@ -145,6 +146,8 @@ type Reader struct {
 	acct   accounting
 	ended  bool // the end-of-input budget check is done
 	closed bool
+
+	progress atomic.Int64 // rows read, as of the last batch (see Progress)
 }
 
 // fileReader reads the rows of one source.
@@ -239,6 +242,7 @@ func (r *Reader) Next() bool {
 			r.err = err
 			return false
 		}
+		r.progress.Store(r.acct.rowsRead)
 		if n > 0 {
 			r.rec = r.bld.newRecord()
 			r.acct.rows += int64(n)
@@ -260,6 +264,11 @@ func (r *Reader) Err() error { return r.err }
 
 // Stats returns the counts so far. The slices are the caller's.
 func (r *Reader) Stats() Stats { return r.acct.stats() }
+
+// Progress returns the number of rows read so far (Stats.RowsRead as of the
+// last batch). Unlike every other method it is safe to call from another
+// goroutine while the reader is in use, for a progress display.
+func (r *Reader) Progress() int64 { return r.progress.Load() }
 
 // Close releases the current batch and closes the open source. It does not
 // report earlier read errors; use Err.
