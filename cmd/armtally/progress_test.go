@@ -1,0 +1,294 @@
+package main
+
+import (
+	"bytes"
+	"io"
+	"os"
+	"path/filepath"
+	"strings"
+	"sync"
+	"sync/atomic"
+	"testing"
+	"time"
+
+	"github.com/apache/arrow-go/v18/arrow"
+
+	"github.com/armtally/armtally/ingest"
+)
+
+// The expected strings below are worked out by hand from the inputs. The
+// SI prefixes k = 10^3, M = 10^6, G = 10^9, T = 10^12 and the grouping of
+// digits in threes with commas are common practice.
+
+func TestFormatCount(t *testing.T) {
+	for _, tc := range []struct {
+		n    int64
+		want string
+	}{
+		{0, "0"},
+		{7, "7"},
+		{999, "999"},
+		{1000, "1,000"},
+		{12345, "12,345"},
+		{123456, "123,456"},
+		{1234567, "1,234,567"},
+		{-1234567, "-1,234,567"},
+		{9223372036854775807, "9,223,372,036,854,775,807"}, // math.MaxInt64
+	} {
+		if got := formatCount(tc.n); got != tc.want {
+			t.Errorf("formatCount(%d) = %q, want %q", tc.n, got, tc.want)
+		}
+	}
+}
+
+func TestFormatRate(t *testing.T) {
+	for _, tc := range []struct {
+		v    float64
+		want string
+	}{
+		{0, "0"},
+		{-5, "0"},
+		{0.4, "0"},
+		{950, "950"},
+		{999.4, "999"},
+		{999.5, "1.00k"}, // would be "1000" without a prefix
+		{1234, "1.23k"},
+		{9994, "9.99k"},
+		{9996, "10.0k"},
+		{12345, "12.3k"},
+		{99960, "100k"},
+		{123456, "123k"},
+		{999600, "1.00M"},
+		{12_345_678, "12.3M"},
+		{4_560_000_000, "4.56G"},
+		{7.1e12, "7.10T"},
+		{5e15, "5000T"}, // no prefix above T
+	} {
+		if got := formatRate(tc.v); got != tc.want {
+			t.Errorf("formatRate(%v) = %q, want %q", tc.v, got, tc.want)
+		}
+	}
+}
+
+func TestFormatElapsed(t *testing.T) {
+	for _, tc := range []struct {
+		d    time.Duration
+		want string
+	}{
+		{-time.Second, "0s"},
+		{0, "0s"},
+		{999 * time.Millisecond, "0s"}, // rounded down
+		{7 * time.Second, "7s"},
+		{59*time.Second + 900*time.Millisecond, "59s"},
+		{62 * time.Second, "1m02s"},
+		{59*time.Minute + 59*time.Second, "59m59s"},
+		{time.Hour + 2*time.Minute + 3*time.Second, "1h02m03s"},
+		{100 * time.Hour, "100h00m00s"},
+	} {
+		if got := formatElapsed(tc.d); got != tc.want {
+			t.Errorf("formatElapsed(%v) = %q, want %q", tc.d, got, tc.want)
+		}
+	}
+}
+
+func TestProgressLine(t *testing.T) {
+	for _, tc := range []struct {
+		rows    int64
+		elapsed time.Duration
+		want    string
+	}{
+		{0, 0, "reading: 0 rows, 0 rows/s, 0s"},
+		{500, 0, "reading: 500 rows, 0 rows/s, 0s"}, // no rate before any time has passed
+		{12_345_678, time.Second, "reading: 12,345,678 rows, 12.3M rows/s, 1s"},
+		{1_000_000, 4 * time.Second, "reading: 1,000,000 rows, 250k rows/s, 4s"},
+		{3_000_000, 62 * time.Second, "reading: 3,000,000 rows, 48.4k rows/s, 1m02s"}, // 3e6/62 = 48387
+	} {
+		if got := progressLine(tc.rows, tc.elapsed); got != tc.want {
+			t.Errorf("progressLine(%d, %v) = %q, want %q", tc.rows, tc.elapsed, got, tc.want)
+		}
+	}
+}
+
+// syncBuffer is a writer the test can read while the progress goroutine
+// writes to it; each write is also signalled on wrote.
+type syncBuffer struct {
+	mu    sync.Mutex
+	buf   bytes.Buffer
+	wrote chan struct{}
+}
+
+func newSyncBuffer() *syncBuffer { return &syncBuffer{wrote: make(chan struct{}, 1)} }
+
+func (b *syncBuffer) Write(p []byte) (int, error) {
+	b.mu.Lock()
+	defer b.mu.Unlock()
+	select {
+	case b.wrote <- struct{}{}:
+	default:
+	}
+	return b.buf.Write(p)
+}
+
+func (b *syncBuffer) String() string {
+	b.mu.Lock()
+	defer b.mu.Unlock()
+	return b.buf.String()
+}
+
+// fakeClock returns start plus one second more at each call, safely from
+// several goroutines.
+func fakeClock(start time.Time) func() time.Time {
+	var calls atomic.Int64
+	return func() time.Time { return start.Add(time.Duration(calls.Add(1)-1) * time.Second) }
+}
+
+// waitFor waits until w holds s, failing the test after 5s.
+func waitFor(t *testing.T, w *syncBuffer, s string) {
+	t.Helper()
+	timeout := time.After(5 * time.Second)
+	for !strings.Contains(w.String(), s) {
+		select {
+		case <-w.wrote:
+		case <-timeout:
+			t.Fatalf("no %q within 5s; output %q", s, w.String())
+		}
+	}
+}
+
+func TestStartProgressDrawsAndStops(t *testing.T) {
+	w := newSyncBuffer()
+	var rows atomic.Int64
+	rows.Store(2_000_000)
+	stop := startProgress(w, rows.Load, time.Millisecond, fakeClock(time.Unix(0, 0)))
+	waitFor(t, w, "reading: 2,000,000 rows")
+	rows.Store(5_000_000)
+	waitFor(t, w, "reading: 5,000,000 rows")
+	stop()
+	stop() // a second call is harmless
+
+	out := w.String()
+	// The first call of the clock is the start, the first draw one second
+	// after it: 2e6 rows in 1s.
+	first := "\rreading: 2,000,000 rows, 2.00M rows/s, 1s"
+	if !strings.HasPrefix(out, first) {
+		t.Errorf("output %q does not start with %q", out, first)
+	}
+	// Every line starts with '\r' and none ends with a newline: the
+	// lines are drawn over each other.
+	if strings.Contains(out, "\n") {
+		t.Errorf("output %q has a newline", out)
+	}
+	// The last write blanks the widest line drawn and returns to its start.
+	lines := strings.Split(out, "\r")
+	width := 0
+	for _, l := range lines[1 : len(lines)-2] {
+		width = max(width, len(l))
+	}
+	wantEnd := "\r" + strings.Repeat(" ", width) + "\r"
+	if width == 0 || !strings.HasSuffix(out, wantEnd) {
+		t.Errorf("output %q does not end by blanking %d columns", out, width)
+	}
+
+	// stop returned after the goroutine exited: nothing more is written.
+	time.Sleep(20 * time.Millisecond)
+	if got := w.String(); got != out {
+		t.Errorf("written after stop: %q", strings.TrimPrefix(got, out))
+	}
+}
+
+func TestStartProgressStopBeforeFirstLine(t *testing.T) {
+	w := newSyncBuffer()
+	stop := startProgress(w, func() int64 { return 1 }, time.Hour, time.Now)
+	stop()
+	if got := w.String(); got != "" {
+		t.Errorf("stop before the first interval wrote %q, want nothing", got)
+	}
+}
+
+// fakeReader is a recordReader with no rows, like a table reader without
+// Progress.
+type fakeReader struct{}
+
+func (fakeReader) Next() bool                { return false }
+func (fakeReader) Record() arrow.RecordBatch { return nil }
+func (fakeReader) Err() error                { return nil }
+func (fakeReader) Stats() ingest.Stats       { return ingest.Stats{} }
+func (fakeReader) Close() error              { return nil }
+
+// fakeProgressReader also reports its progress, like ingest.Reader.
+type fakeProgressReader struct {
+	fakeReader
+	rows atomic.Int64
+}
+
+func (r *fakeProgressReader) Progress() int64 { return r.rows.Load() }
+
+func TestWithProgress(t *testing.T) {
+	for _, tc := range []struct {
+		name     string
+		progress bool
+		r        recordReader
+		wantLine bool
+	}{
+		{"off", false, &fakeProgressReader{}, false},
+		{"reader without progress (a table)", true, fakeReader{}, false},
+		{"on", true, &fakeProgressReader{}, true},
+	} {
+		t.Run(tc.name, func(t *testing.T) {
+			t.Parallel()
+			w := newSyncBuffer()
+			stop := withProgress(&analyzeRun{progress: tc.progress, stderr: w}, tc.r)
+			if tc.wantLine {
+				// The real interval is one second; wait for the first line.
+				waitFor(t, w, "reading: 0 rows")
+			} else {
+				time.Sleep(progressInterval + 200*time.Millisecond)
+			}
+			stop()
+			got := w.String()
+			if drew := strings.Contains(got, "reading: 0 rows"); drew != tc.wantLine {
+				t.Errorf("output %q; want a progress line: %v", got, tc.wantLine)
+			}
+		})
+	}
+}
+
+func TestIsTerminal(t *testing.T) {
+	f, err := os.Create(filepath.Join(t.TempDir(), "stderr.txt"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer f.Close()
+	var nilFile *os.File
+	for _, tc := range []struct {
+		name string
+		w    io.Writer
+	}{
+		{"buffer", &bytes.Buffer{}},
+		{"regular file", f},
+		{"nil file", nilFile},
+	} {
+		if isTerminal(tc.w) {
+			t.Errorf("isTerminal(%s) = true, want false", tc.name)
+		}
+	}
+}
+
+// Commands run by the tests write stderr to a buffer, so a run never shows
+// progress unless a test turns it on.
+func TestParseAnalyzeProgress(t *testing.T) {
+	for _, args := range [][]string{{"--demo"}, {"--demo", "--no-progress"}} {
+		var out, errOut bytes.Buffer
+		run, err := parseAnalyze(args, &out, &errOut)
+		if err != nil {
+			t.Fatalf("%v: %v", args, err)
+		}
+		if run.progress || run.stderr != &errOut {
+			t.Errorf("%v: progress %v, stderr set %v; want false, true", args, run.progress, run.stderr == &errOut)
+		}
+	}
+	code, stdout, _ := runCmd(t, "analyze", "--help")
+	if code != exitOK || !strings.Contains(stdout, "--no-progress") {
+		t.Errorf("analyze --help: exit %d, no --no-progress in %q", code, stdout)
+	}
+}
