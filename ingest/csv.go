@@ -121,6 +121,10 @@ func (c *csvReader) read(b *batchBuilder, limit int, a *accounting) (int, error)
 			}
 			continue
 		}
+		if !c.p.keep(r) {
+			a.filter(r.ts)
+			continue
+		}
 		b.append(r)
 		n++
 	}

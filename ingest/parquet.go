@@ -10,6 +10,7 @@ import (
 	"strings"
 	"unsafe"
 
+	"github.com/apache/arrow-go/v18/arrow/memory"
 	"github.com/parquet-go/parquet-go"
 	"github.com/parquet-go/parquet-go/deprecated"
 	"github.com/parquet-go/parquet-go/format"
@@ -41,6 +42,14 @@ type parquetReader struct {
 	rgDone    int64 // rows of the current row group already read
 	rowBase   int64 // rows of the file before the current row group
 	row       row
+
+	// The bulk path (pqbulk.go), when bulk.
+	bulk      bool
+	mem       memory.Allocator
+	batchSize int
+	rgStart   []int64 // rows before each row group
+	pl        *pipeline
+	plDone    bool
 }
 
 // textKind says how a column's values become text or time.
@@ -68,6 +77,7 @@ type pqColumn struct {
 	typ     parquet.Type
 	kind    valueKind
 	unit    int64 // nanoseconds per unit for kindTSEpoch*
+	maxDef  byte  // the column's maximum definition level
 	p       *plan // for text timestamps
 	scratch []byte
 
@@ -121,12 +131,18 @@ func newParquetReader(source Source, src *openedSource, p *plan) (pr *parquetRea
 		if detail != "" {
 			return nil, &ColumnError{File: file, Column: name, Err: ErrColumnType, Detail: detail}
 		}
-		r.cols = append(r.cols, &pqColumn{name: name, index: leaf.ColumnIndex, kind: kind, unit: unit,
+		r.cols = append(r.cols, &pqColumn{name: name, index: leaf.ColumnIndex, kind: kind, unit: unit, maxDef: byte(leaf.MaxDefinitionLevel),
 			path: schema.Columns()[leaf.ColumnIndex], typ: leaf.Node.Type(), p: p, buf: make([]parquet.Value, 1024)})
 	}
 	r.row.cells = make([]cell, len(p.physical))
 	if err := r.transcodeLZ4(); err != nil {
 		return nil, err
+	}
+	r.bulk = r.bulkable() && !p.rowByRow
+	var rows int64
+	for _, g := range r.rowGroups {
+		r.rgStart = append(r.rgStart, rows)
+		rows += g.NumRows()
 	}
 	return r, nil
 }
@@ -361,6 +377,10 @@ func (r *parquetReader) read(b *batchBuilder, limit int, a *accounting) (n int, 
 			}
 			continue
 		}
+		if !r.p.keep(row) {
+			a.filter(row.ts)
+			continue
+		}
 		b.append(row)
 		n++
 	}
@@ -403,7 +423,7 @@ func (r *parquetReader) nextRowGroup() error {
 		if c.index < 0 || c.index >= len(chunks) {
 			return fmt.Errorf("%s: row group %d: column %q: %w: no column chunk", r.file, r.rg, c.name, ErrCorrupt)
 		}
-		if err := r.checkChunk(c); err != nil {
+		if err := r.checkChunk(c, r.rg, r.rgRows); err != nil {
 			return fmt.Errorf("%s: row group %d: column %q: %w", r.file, r.rg, c.name, err)
 		}
 		c.pages = chunks[c.index].Pages()
@@ -422,12 +442,12 @@ func (r *parquetReader) nextRowGroup() error {
 // the column being non-repeated, hold one value (or null) per row. The
 // pages are checked against the chunk as they are read (one value per
 // row, no more, no fewer).
-func (r *parquetReader) checkChunk(c *pqColumn) error {
+func (r *parquetReader) checkChunk(c *pqColumn, rg int, rgRows int64) error {
 	groups := r.pf.Metadata().RowGroups
-	if r.rg >= len(groups) || c.index >= len(groups[r.rg].Columns) {
+	if rg >= len(groups) || c.index >= len(groups[rg].Columns) {
 		return fmt.Errorf("%w: no column chunk metadata", ErrCorrupt)
 	}
-	cc := &groups[r.rg].Columns[c.index]
+	cc := &groups[rg].Columns[c.index]
 	md := &cc.MetaData
 	if !slices.Equal(md.PathInSchema, c.path) {
 		return fmt.Errorf("%w: the column chunk's metadata names column %q, the schema %q",
@@ -436,9 +456,9 @@ func (r *parquetReader) checkChunk(c *pqColumn) error {
 	if want := c.typ.Kind(); int32(md.Type) != int32(want) {
 		return fmt.Errorf("%w: the column chunk's metadata gives type %v, the schema %v", ErrCorrupt, md.Type, want)
 	}
-	if md.NumValues != r.rgRows {
+	if md.NumValues != rgRows {
 		return fmt.Errorf("%w: the column chunk claims %d values, the row group %d rows (a non-repeated column has one per row)",
-			ErrCorrupt, md.NumValues, r.rgRows)
+			ErrCorrupt, md.NumValues, rgRows)
 	}
 	if codec := parquet.LookupCompressionCodec(md.Codec); codec.String() == "UNSUPPORTED" {
 		return fmt.Errorf("%w: compressed with %v, a codec parquet-go cannot decode (rewrite the file with SNAPPY, ZSTD, GZIP or LZ4_RAW)",
@@ -457,6 +477,7 @@ func (r *parquetReader) checkChunk(c *pqColumn) error {
 }
 
 func (r *parquetReader) close() error {
+	r.stopPipeline()
 	for _, c := range r.cols {
 		if c != nil {
 			c.closePages()

@@ -592,7 +592,7 @@ func TestParquetTestingGH41317(t *testing.T) {
 		"timestamp_us_no_tz": `corrupt parquet file: the column chunk's metadata names column "timestampWus_no_tz", the schema "timestamp_us_no_tz"`,
 	}
 	for _, c := range r.cols {
-		err := r.checkChunk(c)
+		err := r.checkChunk(c, r.rg, r.rgRows)
 		if w := want[c.name]; (w == "" && err != nil) || (w != "" && (err == nil || err.Error() != w || !errors.Is(err, ErrCorrupt))) {
 			t.Errorf("column %s: %v, want %q", c.name, err, w)
 		}

@@ -4,6 +4,7 @@ import (
 	"errors"
 	"fmt"
 	"io"
+	"runtime"
 	"strconv"
 	"strings"
 	"sync/atomic"
@@ -72,6 +73,16 @@ type Options struct {
 	// Delimiter separates CSV fields; 0 means ','. It may be '\t' or any
 	// other rune except '"', '\r', '\n' and utf8.RuneError.
 	Delimiter rune
+	// Events, when not empty, lists the event names the caller needs
+	// (the filter pushed down from the tallies): a valid row whose event
+	// is not listed is checked like any other row, counted in
+	// Stats.Filtered (and its ts in Stats.FilteredMaxTS) and left out of
+	// the batches. Bad rows are bad whatever their event.
+	Events []string
+	// Workers is the most goroutines that decode the row groups of a
+	// Parquet file at once; 0 means runtime.GOMAXPROCS(0). Batches still
+	// come in file order and the first bad row is the same as with one.
+	Workers int
 
 	// MaxBadRows and MaxBadShare are the error budget. With both zero (the
 	// default) the first bad row stops the reader with its *RowError.
@@ -90,6 +101,10 @@ type Options struct {
 	// file is not a bad row: it always stops the reader.
 	MaxBadRows  int64
 	MaxBadShare float64
+
+	// rowByRow makes Parquet files be read row by row on one goroutine,
+	// for tests that compare the two paths.
+	rowByRow bool
 }
 
 // DefaultBatchSize is the number of rows per record batch when
@@ -105,10 +120,15 @@ type Stats struct {
 	RowsRead int64
 	// Rows is the number of rows delivered in record batches.
 	Rows int64
+	// Filtered is the number of valid rows left out because their event
+	// is not in Options.Events. FilteredMaxTS is the largest ts among
+	// them (Unix nanoseconds) when Filtered > 0.
+	Filtered      int64
+	FilteredMaxTS int64
 	// BadRows counts the bad rows by reason (the Reason constants), in the
 	// order of those constants, leaving out reasons with no rows. It
 	// includes a bad row that stopped the reader. After a clean end,
-	// RowsRead = Rows + the sum of BadRows.
+	// RowsRead = Rows + Filtered + the sum of BadRows.
 	BadRows []experiment.ReasonCount
 	// BadRowExamples holds the first bad row of each reason:
 	// BadRowExamples[i] is the first of BadRows[i].Reason.
@@ -137,6 +157,7 @@ type Reader struct {
 	plan      *plan
 	mem       memory.Allocator
 	batchSize int
+	workers   int
 
 	next   int        // index of the next source to open
 	cur    fileReader // the source being read, or nil
@@ -190,7 +211,13 @@ func NewReader(sources []Source, opts Options) (*Reader, error) {
 	if !(opts.MaxBadShare >= 0 && opts.MaxBadShare <= 1) { // also NaN
 		return nil, fmt.Errorf("max bad share %v: want a share from 0 to 1", opts.MaxBadShare)
 	}
-	r := &Reader{sources: sources, plan: p, mem: mem, batchSize: bs}
+	if opts.Workers < 0 {
+		return nil, fmt.Errorf("workers %d: must not be negative", opts.Workers)
+	}
+	r := &Reader{sources: sources, plan: p, mem: mem, batchSize: bs, workers: opts.Workers}
+	if r.workers == 0 {
+		r.workers = runtime.GOMAXPROCS(0)
+	}
 	r.acct.budget = opts.MaxBadRows != 0 || opts.MaxBadShare != 0
 	r.acct.maxRows = max(opts.MaxBadRows, 0)
 	r.acct.maxShare = opts.MaxBadShare
@@ -231,6 +258,27 @@ func (r *Reader) Next() bool {
 			}
 			r.acct.files++
 			r.cur = fr
+			if pr, ok := fr.(*parquetReader); ok {
+				pr.mem, pr.batchSize = r.mem, r.batchSize
+			}
+		}
+		if pr, ok := r.cur.(*parquetReader); ok && pr.bulk {
+			rec, err := pr.nextBatch(r.workers, &r.acct)
+			r.progress.Store(r.acct.rowsRead)
+			if err == io.EOF {
+				err = r.cur.close()
+				r.cur = nil
+				if err == nil {
+					continue
+				}
+			}
+			if err != nil {
+				r.err = err
+				return false
+			}
+			r.rec = rec
+			r.acct.rows += rec.NumRows()
+			return true
 		}
 		n, err := r.cur.read(r.bld, r.batchSize, &r.acct)
 		if err == io.EOF {
@@ -319,6 +367,8 @@ type accounting struct {
 	files    int
 	rowsRead int64
 	rows     int64
+	filtered int64
+	fMaxTS   int64 // largest ts of the filtered rows, when filtered > 0
 
 	badBy    [numReasons]int64
 	badTotal int64
@@ -379,6 +429,26 @@ func (a *accounting) lastError() *RowError {
 	return e
 }
 
+// filter counts a valid row left out by Options.Events.
+func (a *accounting) filter(ts int64) {
+	if a.filtered == 0 || ts > a.fMaxTS {
+		a.fMaxTS = ts
+	}
+	a.filtered++
+}
+
+// addFiltered counts n valid rows left out by Options.Events, the largest
+// of whose ts is maxTS.
+func (a *accounting) addFiltered(n, maxTS int64) {
+	if n == 0 {
+		return
+	}
+	if a.filtered == 0 || maxTS > a.fMaxTS {
+		a.fMaxTS = maxTS
+	}
+	a.filtered += n
+}
+
 // endCheck applies the share limit once all rows are read.
 func (a *accounting) endCheck() error {
 	if a.maxShare > 0 && a.badTotal > 0 && float64(a.badTotal) > a.maxShare*float64(a.rowsRead) {
@@ -388,7 +458,7 @@ func (a *accounting) endCheck() error {
 }
 
 func (a *accounting) stats() Stats {
-	st := Stats{Files: a.files, RowsRead: a.rowsRead, Rows: a.rows}
+	st := Stats{Files: a.files, RowsRead: a.rowsRead, Rows: a.rows, Filtered: a.filtered, FilteredMaxTS: a.fMaxTS}
 	for i, n := range a.badBy {
 		if n == 0 {
 			continue
@@ -423,6 +493,16 @@ type plan struct {
 	// planned maps an experiment key to its planned arms (see
 	// Options.PlannedArms); nil checks nothing.
 	planned map[string]map[string]bool
+	// events is the set of Options.Events; nil keeps every event.
+	events map[string]bool
+	// rowByRow is Options.rowByRow.
+	rowByRow bool
+}
+
+// keep reports whether a valid row goes into the batches: its event is
+// wanted (see Options.Events).
+func (p *plan) keep(r *row) bool {
+	return p.events == nil || p.events[r.cells[colEvent].s]
 }
 
 func newPlan(opts Options) (*plan, error) {
@@ -432,7 +512,7 @@ func newPlan(opts Options) (*plan, error) {
 			return nil, fmt.Errorf("column mapping: no column named for %s", c.name)
 		}
 	}
-	p := &plan{expCol: -1, armCol: -1, exposure: opts.ExposureEvent, delimiter: ','}
+	p := &plan{expCol: -1, armCol: -1, exposure: opts.ExposureEvent, delimiter: ',', rowByRow: opts.rowByRow}
 	if len(opts.PlannedArms) > 0 {
 		if p.exposure == "" {
 			return nil, errors.New("planned arms need the exposure event")
@@ -444,6 +524,12 @@ func newPlan(opts Options) (*plan, error) {
 				set[a] = true
 			}
 			p.planned[key] = set
+		}
+	}
+	if len(opts.Events) > 0 {
+		p.events = make(map[string]bool, len(opts.Events))
+		for _, e := range opts.Events {
+			p.events[e] = true
 		}
 	}
 	if d := opts.Delimiter; d != 0 {

@@ -1,0 +1,652 @@
+package ingest
+
+import (
+	"errors"
+	"fmt"
+	"io"
+	"strconv"
+	"sync"
+	"unsafe"
+
+	"github.com/apache/arrow-go/v18/arrow"
+	"github.com/parquet-go/parquet-go"
+	"github.com/parquet-go/parquet-go/encoding"
+)
+
+// The bulk path reads a Parquet file's row groups in parallel, each by one
+// worker, column chunk by column chunk in windows of rows, straight from
+// the pages' buffers: a dictionary-encoded page stays dictionary indices,
+// each index looked up in a table of strings (and of event verdicts, see
+// Options.Events) built once per dictionary; plain pages are read in place.
+// Each worker applies the same row rules (plan.check, plan.keep) to its
+// rows and builds its own record batches; the reader hands the row groups'
+// batches and bad rows on in file order, so batches, bad rows and errors
+// come in the same order as on one goroutine.
+//
+// It takes the common columns: text columns that are BYTE_ARRAY and a ts
+// column that is an INT64 count of a unit (TIMESTAMP or with an epoch
+// unit), any of them taken from a partition instead. Files with other
+// column types are read row by row (parquetReader.read).
+
+// bulkWindow is the number of rows a worker decodes per column before it
+// assembles them into rows.
+const bulkWindow = 4096
+
+// bulkable reports whether the bulk path can read the file's mapped columns.
+func (r *parquetReader) bulkable() bool {
+	for i, c := range r.cols {
+		if c == nil {
+			continue
+		}
+		if i == colTS {
+			if c.kind != kindTSEpoch64 {
+				return false
+			}
+		} else if c.kind != kindBytes {
+			return false
+		}
+	}
+	return true
+}
+
+// rgResult is what a worker made of one row group.
+type rgResult struct {
+	recs []arrow.RecordBatch // the kept rows, in order
+	bad  []badRow            // the bad rows, in order; values are copies
+	// rows is the number of rows read: all of the row group's, or those
+	// up to the bad row that stops the reader (without a budget) or up to
+	// an error.
+	rows     int64
+	filtered int64
+	fMaxTS   int64
+	err      error // after the bad rows
+	rgIndex  int
+}
+
+func (res *rgResult) release() {
+	for _, rec := range res.recs {
+		rec.Release()
+	}
+	res.recs = nil
+}
+
+// pipeline runs the workers of one file.
+type pipeline struct {
+	futures chan chan rgResult // one per row group, in file order
+	stop    chan struct{}
+	wg      sync.WaitGroup
+	cur     rgResult // the row group being handed on
+	base    int64    // accounting.rowsRead when the file was opened
+}
+
+type rgTask struct {
+	rg  int
+	out chan rgResult
+}
+
+// startPipeline starts the dispatcher and the workers.
+func (r *parquetReader) startPipeline(workers int, a *accounting) {
+	n := len(r.rowGroups)
+	workers = max(1, min(workers, n))
+	pl := &pipeline{futures: make(chan chan rgResult, 2*workers), stop: make(chan struct{}), base: a.rowsRead}
+	r.pl = pl
+	tasks := make(chan rgTask)
+	pl.wg.Add(1 + workers)
+	go func() {
+		defer pl.wg.Done()
+		defer close(tasks)
+		defer close(pl.futures)
+		for rg := 0; rg < n; rg++ {
+			out := make(chan rgResult, 1)
+			select {
+			case pl.futures <- out:
+			case <-pl.stop:
+				return
+			}
+			select {
+			case tasks <- rgTask{rg: rg, out: out}:
+			case <-pl.stop:
+				return
+			}
+		}
+	}()
+	for w := 0; w < workers; w++ {
+		go func() {
+			defer pl.wg.Done()
+			wk := r.newWorker(a.budget, pl.stop)
+			defer wk.close()
+			for t := range tasks {
+				t.out <- wk.run(t.rg)
+			}
+		}()
+	}
+}
+
+// stopPipeline stops the workers and releases what they made.
+func (r *parquetReader) stopPipeline() {
+	pl := r.pl
+	if pl == nil {
+		return
+	}
+	r.pl = nil
+	close(pl.stop)
+	pl.wg.Wait()
+	pl.cur.release()
+	for out := range pl.futures {
+		select {
+		case res := <-out:
+			res.release()
+		default:
+		}
+	}
+}
+
+// nextBatch returns the next record batch of the file in order, or io.EOF
+// after the last. It counts rows and bad rows in a as the row-by-row
+// reader does: a bad row that stops the reader stops it at the same row.
+func (r *parquetReader) nextBatch(workers int, a *accounting) (rec arrow.RecordBatch, err error) {
+	if r.pl == nil {
+		if r.plDone {
+			return nil, io.EOF
+		}
+		r.startPipeline(workers, a)
+	}
+	pl := r.pl
+	for len(pl.cur.recs) == 0 {
+		out, ok := <-pl.futures
+		if !ok {
+			r.plDone = true
+			r.stopPipeline()
+			return nil, io.EOF
+		}
+		res := <-out
+		pl.cur = res
+		for _, b := range res.bad {
+			a.rowsRead = pl.base + b.row
+			if err := a.bad(b); err != nil {
+				return nil, err
+			}
+		}
+		a.rowsRead = pl.base + r.rowStart(res.rg()) + res.rows
+		a.addFiltered(res.filtered, res.fMaxTS)
+		if res.err != nil {
+			return nil, res.err
+		}
+	}
+	rec = pl.cur.recs[0]
+	pl.cur.recs[0] = nil
+	pl.cur.recs = pl.cur.recs[1:]
+	return rec, nil
+}
+
+// rowStart returns the number of rows in the row groups before rg.
+func (r *parquetReader) rowStart(rg int) int64 { return r.rgStart[rg] }
+
+// rg is stored in the result so that the reader knows where it is.
+func (res *rgResult) rg() int { return res.rgIndex }
+
+// rgWorker decodes row groups for one pipeline.
+type rgWorker struct {
+	r      *parquetReader
+	pf     *parquet.File
+	openEr error
+	budget bool
+	stop   <-chan struct{}
+	cols   []*bulkColumn // per logical column; nil for a partition column
+	bld    *batchBuilder
+	row    row
+	keep   []bool // per window row: the row's event is wanted
+}
+
+func (r *parquetReader) newWorker(budget bool, stop <-chan struct{}) *rgWorker {
+	w := &rgWorker{r: r, budget: budget, stop: stop}
+	// Each worker has its own view of the file: parquet-go's File is
+	// only read here, but its row groups' page readers are not shared.
+	w.pf, w.openEr = openParquet(r.src.r, r.src.size)
+	w.cols = make([]*bulkColumn, len(r.cols))
+	for i, c := range r.cols {
+		if c == nil {
+			continue
+		}
+		bc := &bulkColumn{pqColumn: c}
+		if i == colTS {
+			bc.ts = make([]tsCell, bulkWindow)
+		} else {
+			bc.cells = make([]cell, bulkWindow)
+		}
+		if i == colEvent && r.p.events != nil {
+			bc.events = r.p.events
+			bc.keep = make([]bool, bulkWindow)
+		}
+		w.cols[i] = bc
+	}
+	w.row.cells = make([]cell, len(r.p.physical))
+	w.bld = newBatchBuilder(r.mem, r.p)
+	return w
+}
+
+func (w *rgWorker) close() {
+	for _, c := range w.cols {
+		if c != nil {
+			c.closePages()
+		}
+	}
+	w.bld.release()
+}
+
+// run decodes row group rg.
+func (w *rgWorker) run(rg int) (res rgResult) {
+	r := w.r
+	res.rgIndex = rg
+	defer func() {
+		// Last-resort guard, as in parquetReader.read.
+		if v := recover(); v != nil {
+			res.err = fmt.Errorf("%s: row group %d: corrupt parquet data: %w: %v", r.file, rg, errPanicked, v)
+		}
+		for _, c := range w.cols {
+			if c != nil {
+				c.closePages()
+			}
+		}
+		if res.err != nil {
+			w.bld.discard()
+		}
+	}()
+	if w.openEr != nil {
+		res.err = fmt.Errorf("%s: %w", r.file, w.openEr)
+		return res
+	}
+	g := w.pf.RowGroups()[rg]
+	rgRows := g.NumRows()
+	if rgRows < 0 {
+		res.err = fmt.Errorf("%s: row group %d: %w: %d rows", r.file, rg, ErrCorrupt, rgRows)
+		return res
+	}
+	chunks := g.ColumnChunks()
+	for _, c := range w.cols {
+		if c == nil {
+			continue
+		}
+		if c.index < 0 || c.index >= len(chunks) {
+			res.err = fmt.Errorf("%s: row group %d: column %q: %w: no column chunk", r.file, rg, c.name, ErrCorrupt)
+			return res
+		}
+		if err := r.checkChunk(c.pqColumn, rg, rgRows); err != nil {
+			res.err = fmt.Errorf("%s: row group %d: column %q: %w", r.file, rg, c.name, err)
+			return res
+		}
+		c.open(chunks[c.index].Pages())
+	}
+	base := r.rowStart(rg)
+	batch := 0
+	for done := int64(0); done < rgRows; {
+		select {
+		case <-w.stop:
+			res.err = errStopped
+			return res
+		default:
+		}
+		n := int(min(int64(bulkWindow), rgRows-done))
+		for i, c := range w.cols {
+			if c == nil {
+				continue
+			}
+			if err := c.fill(n); err != nil {
+				res.rows = done
+				res.err = chunkError(r.file, rg, c.name, rgRows, err)
+				return res
+			}
+			if i == colEvent && c.keep != nil {
+				w.keep = c.keep
+			}
+		}
+		for k := 0; k < n; k++ {
+			row := &w.row
+			r.part.fill(row)
+			for i, c := range w.cols {
+				if c == nil {
+					continue
+				}
+				if i == colTS {
+					row.ts, row.tsErr, row.cells[i] = c.ts[k].get(c.unit)
+					continue
+				}
+				row.cells[i] = c.cells[k]
+			}
+			if col, reason := r.p.check(row); reason != nil {
+				b := r.p.badRow(r.file, base+done+int64(k)+1, rg, row, col, reason)
+				b.value = string([]byte(b.value)) // the page buffers are reused
+				res.bad = append(res.bad, b)
+				if !w.budget {
+					res.rows = done + int64(k) + 1
+					return w.flush(res, batch)
+				}
+				continue
+			}
+			if w.keep != nil && !w.keep[k] || w.keep == nil && !r.p.keep(row) {
+				if res.filtered == 0 || row.ts > res.fMaxTS {
+					res.fMaxTS = row.ts
+				}
+				res.filtered++
+				continue
+			}
+			w.bld.append(row)
+			batch++
+			if batch == r.batchSize {
+				res.recs = append(res.recs, w.bld.newRecord())
+				batch = 0
+			}
+		}
+		done += int64(n)
+		for _, c := range w.cols {
+			if c != nil {
+				c.retire()
+			}
+		}
+	}
+	res.rows = rgRows
+	for _, c := range w.cols {
+		if c == nil {
+			continue
+		}
+		// A column with values beyond the row group's rows is corrupt.
+		if err := c.end(rgRows); err != nil {
+			res.err = fmt.Errorf("%s: row group %d: column %q: %w", r.file, rg, c.name, err)
+			return res
+		}
+	}
+	return w.flush(res, batch)
+}
+
+// flush ends the row group's last batch.
+func (w *rgWorker) flush(res rgResult, batch int) rgResult {
+	if batch > 0 {
+		res.recs = append(res.recs, w.bld.newRecord())
+	}
+	return res
+}
+
+// errStopped ends a worker's row group when the reader is closed.
+var errStopped = errors.New("reader closed")
+
+// chunkError wraps an error reading the pages of a column chunk as the
+// row-by-row reader does.
+func chunkError(file string, rg int, col string, rgRows int64, err error) error {
+	if err == errColumnShort {
+		return fmt.Errorf("%s: row group %d: column %q: %w: %w (%d rows)", file, rg, col, ErrCorrupt, err, rgRows)
+	}
+	return fmt.Errorf("%s: row group %d: column %q: %w: %w", file, rg, col, ErrCorrupt, err)
+}
+
+// tsCell is one decoded ts value before its conversion.
+type tsCell struct {
+	v    int64
+	null bool
+}
+
+// get converts the value as pqColumn.timestamp does.
+func (t tsCell) get(unit int64) (int64, error, cell) {
+	if t.null {
+		return 0, ErrNullTimestamp, cell{null: true}
+	}
+	ns, ok := fromEpoch(t.v, unit)
+	if !ok {
+		return 0, ErrTimestampRange, cell{s: strconv.FormatInt(t.v, 10) + " " + unitName(unit)}
+	}
+	return ns, nil, cell{}
+}
+
+// bulkColumn reads one column chunk in windows of rows, page by page.
+type bulkColumn struct {
+	*pqColumn
+	cells  []cell   // text: the window's values; they point into pages
+	ts     []tsCell // ts: the window's values
+	events map[string]bool
+	keep   []bool // event column with a filter: the window's verdicts
+
+	pages   parquet.Pages
+	page    parquet.Page
+	retired []parquet.Page // pages whose values the window may still use
+	levels  []byte         // definition levels of the page; nil: all defined
+	nrows   int            // rows (values and nulls) in the page
+	pos     int            // next row of the page
+	vpos    int            // next non-null value of the page
+	nvals   int
+
+	idx      []int32 // dictionary indices of the page, or nil
+	data     []byte  // plain byte arrays of the page
+	offs     []uint32
+	i64      []int64 // plain int64 values of the page
+	lastDict parquet.Dictionary
+	dictStr  []string
+	dictKeep []bool
+	dictI64  []int64
+}
+
+func (c *bulkColumn) open(pages parquet.Pages) {
+	c.closePages()
+	c.pages = pages
+}
+
+// fill decodes the next n rows into c.cells or c.ts (and c.keep).
+func (c *bulkColumn) fill(n int) error {
+	for k := 0; k < n; {
+		if c.pos >= c.nrows {
+			if err := c.nextPage(); err != nil {
+				return err
+			}
+			continue
+		}
+		m := min(n-k, c.nrows-c.pos)
+		if c.ts != nil {
+			if err := c.fillTS(c.ts[k : k+m]); err != nil {
+				return err
+			}
+		} else if err := c.fillText(k, m); err != nil {
+			return err
+		}
+		k += m
+	}
+	return nil
+}
+
+func (c *bulkColumn) defined(i int) bool {
+	return c.levels == nil || c.levels[i] == c.maxDef
+}
+
+func (c *bulkColumn) fillText(k, m int) error {
+	cells := c.cells[k : k+m]
+	var keep []bool
+	if c.keep != nil {
+		keep = c.keep[k : k+m]
+	}
+	for j := range cells {
+		if !c.defined(c.pos) {
+			c.pos++
+			cells[j] = cell{null: true}
+			if keep != nil {
+				keep[j] = false
+			}
+			continue
+		}
+		c.pos++
+		v := c.vpos
+		c.vpos++
+		if c.idx != nil {
+			x := int(c.idx[v])
+			if x < 0 || x >= len(c.dictStr) {
+				return fmt.Errorf("dictionary index %d of a dictionary of %d values", x, len(c.dictStr))
+			}
+			cells[j] = cell{s: c.dictStr[x]}
+			if keep != nil {
+				keep[j] = c.dictKeep[x]
+			}
+			continue
+		}
+		b := c.data[c.offs[v]:c.offs[v+1]]
+		s := unsafe.String(unsafe.SliceData(b), len(b))
+		cells[j] = cell{s: s}
+		if keep != nil {
+			keep[j] = c.events[s]
+		}
+	}
+	return nil
+}
+
+func (c *bulkColumn) fillTS(dst []tsCell) error {
+	for j := range dst {
+		if !c.defined(c.pos) {
+			c.pos++
+			dst[j] = tsCell{null: true}
+			continue
+		}
+		c.pos++
+		v := c.vpos
+		c.vpos++
+		if c.idx != nil {
+			x := int(c.idx[v])
+			if x < 0 || x >= len(c.dictI64) {
+				return fmt.Errorf("dictionary index %d of a dictionary of %d values", x, len(c.dictI64))
+			}
+			dst[j] = tsCell{v: c.dictI64[x]}
+			continue
+		}
+		dst[j] = tsCell{v: c.i64[v]}
+	}
+	return nil
+}
+
+// nextPage reads the next page of the chunk and checks that its values
+// match its definition levels.
+func (c *bulkColumn) nextPage() error {
+	if c.page != nil {
+		c.retired = append(c.retired, c.page)
+		c.page = nil
+	}
+	if c.pages == nil {
+		return errColumnShort
+	}
+	p, err := c.pages.ReadPage()
+	if err == io.EOF {
+		return errColumnShort
+	}
+	if err != nil {
+		return err
+	}
+	c.page = p
+	c.levels = p.DefinitionLevels()
+	c.idx, c.data, c.offs, c.i64 = nil, nil, nil, nil
+	data := p.Data()
+	if d := p.Dictionary(); d != nil {
+		if data.Kind() != encoding.Int32 {
+			return fmt.Errorf("dictionary-encoded page of %v values", data.Kind())
+		}
+		c.idx = data.Int32()
+		c.nvals = len(c.idx)
+		if d != c.lastDict {
+			if err := c.readDictionary(d); err != nil {
+				return err
+			}
+		}
+	} else {
+		switch {
+		case c.ts == nil && data.Kind() == encoding.ByteArray:
+			c.data, c.offs = data.ByteArray()
+			c.nvals = max(len(c.offs)-1, 0)
+		case c.ts != nil && data.Kind() == encoding.Int64:
+			c.i64 = data.Int64()
+			c.nvals = len(c.i64)
+		default:
+			return fmt.Errorf("page of %v values", data.Kind())
+		}
+	}
+	c.nrows, c.pos, c.vpos = c.nvals, 0, 0
+	if c.levels != nil {
+		c.nrows = len(c.levels)
+		defined := 0
+		for _, l := range c.levels {
+			if l == c.maxDef {
+				defined++
+			}
+		}
+		if defined != c.nvals {
+			return fmt.Errorf("page with %d defined values among %d rows holds %d values", defined, c.nrows, c.nvals)
+		}
+	}
+	return nil
+}
+
+// readDictionary builds the lookup tables of dictionary d.
+func (c *bulkColumn) readDictionary(d parquet.Dictionary) error {
+	data := d.Page().Data()
+	c.lastDict = d
+	if c.ts != nil {
+		if data.Kind() != encoding.Int64 {
+			return fmt.Errorf("dictionary of %v values", data.Kind())
+		}
+		c.dictI64 = data.Int64()
+		return nil
+	}
+	if data.Kind() != encoding.ByteArray {
+		return fmt.Errorf("dictionary of %v values", data.Kind())
+	}
+	b, offs := data.ByteArray()
+	n := max(len(offs)-1, 0)
+	c.dictStr = c.dictStr[:0]
+	for i := 0; i < n; i++ {
+		v := b[offs[i]:offs[i+1]]
+		c.dictStr = append(c.dictStr, unsafe.String(unsafe.SliceData(v), len(v)))
+	}
+	if c.keep != nil {
+		c.dictKeep = c.dictKeep[:0]
+		for _, s := range c.dictStr {
+			c.dictKeep = append(c.dictKeep, c.events[s])
+		}
+	}
+	return nil
+}
+
+// retire releases the pages no longer needed once the window's rows are
+// used.
+func (c *bulkColumn) retire() {
+	for i, p := range c.retired {
+		parquet.Release(p)
+		c.retired[i] = nil
+	}
+	c.retired = c.retired[:0]
+}
+
+// end checks that the chunk has no values beyond the rows read.
+func (c *bulkColumn) end(rgRows int64) error {
+	more := fmt.Errorf("%w: more values than the %d rows of the row group", ErrCorrupt, rgRows)
+	if c.pos < c.nrows {
+		return more
+	}
+	for {
+		err := c.nextPage()
+		if err == errColumnShort {
+			return nil
+		}
+		if err != nil {
+			return fmt.Errorf("%w: %w", ErrCorrupt, err)
+		}
+		if c.nrows > 0 {
+			return more
+		}
+	}
+}
+
+func (c *bulkColumn) closePages() {
+	c.retire()
+	if c.page != nil {
+		parquet.Release(c.page)
+		c.page = nil
+	}
+	if c.pages != nil {
+		c.pages.Close()
+		c.pages = nil
+	}
+	c.levels, c.idx, c.data, c.offs, c.i64 = nil, nil, nil, nil, nil
+	c.nrows, c.pos, c.vpos, c.nvals = 0, 0, 0, 0
+	c.lastDict, c.dictStr, c.dictKeep, c.dictI64 = nil, c.dictStr[:0], c.dictKeep[:0], nil
+}
