@@ -257,6 +257,31 @@ func (t *Tallier) Add(rec arrow.RecordBatch) error {
 	return nil
 }
 
+// Events returns the event names whose rows the tallier uses: the
+// exposure event, then the metrics' events in spec order. A reader may
+// leave out the rows of every other event and report them through
+// AddFiltered instead: the tally is the same.
+func (t *Tallier) Events() []string {
+	return append([]string{t.spec.ExposureEvent}, t.metricNames...)
+}
+
+// AddFiltered accounts for the given number of valid rows that a reader left out because
+// their event is not among Events, the largest of whose ts is maxTS (Unix
+// nanoseconds): they count as rows read and as rows of other events, and
+// their times move the data's freshness (the maturity horizon when the spec
+// has no end), exactly as if Add had seen them.
+func (t *Tallier) AddFiltered(rows, maxTS int64) {
+	if rows <= 0 {
+		return
+	}
+	t.fin = nil
+	t.diag.RowsRead += rows
+	t.diag.NotMetricEvents += rows
+	if !t.hasFresh || maxTS > t.fresh {
+		t.fresh, t.hasFresh = maxTS, true
+	}
+}
+
 func (t *Tallier) addExposure(users, exps, arms *array.String, segs []*array.String, i int, at int64) {
 	if exps != nil {
 		key := ""
