@@ -90,6 +90,7 @@ type analyzeFlags struct {
 	maxBadRows                               int64
 	maxBadShare                              float64
 	audit                                    string
+	noProgress                               bool
 }
 
 func newAnalyzeFlagSet(f *analyzeFlags, stderr io.Writer) *pflag.FlagSet {
@@ -123,6 +124,7 @@ func newAnalyzeFlagSet(f *analyzeFlags, stderr io.Writer) *pflag.FlagSet {
 	fs.StringVar(&f.jsonOut, "json", "", "also write the JSON readout to this file")
 	fs.StringVar(&f.audit, "audit", "", "also write the per-unit audit table (Parquet) to this file; with several experiments, one file each, named FILE-KEY.parquet")
 	fs.BoolVar(&f.failOnSampleRatio, "fail-on-sample-ratio", false, "exit with code 4 when the sample ratio check fails")
+	fs.BoolVar(&f.noProgress, "no-progress", false, "do not show the rows read, rate and elapsed time on stderr while reading (shown only when stderr is a terminal, and not for unit or counts tables)")
 	fs.StringVar(&f.userCol, "user-col", m.User, "column holding the unit (user) id")
 	fs.StringVar(&f.tsCol, "ts-col", m.TS, "column holding the event time")
 	fs.StringVar(&f.eventCol, "event-col", m.Event, "column holding the event name")
@@ -155,6 +157,11 @@ type analyzeRun struct {
 	out, jsonOut      string
 	audit             string
 	failOnSampleRatio bool
+	// progress says whether to show a progress line on stderr while
+	// reading: stderr is a terminal and --no-progress is not given.
+	progress bool
+	// stderr is where the progress line goes.
+	stderr io.Writer
 }
 
 // builtExperiment is one experiment of a run, checked.
@@ -343,6 +350,8 @@ func parseAnalyze(args []string, stdout, stderr io.Writer) (*analyzeRun, error) 
 	if sf == nil || fs.Changed("fail-on-sample-ratio") {
 		run.failOnSampleRatio = f.failOnSampleRatio
 	}
+	run.stderr = stderr
+	run.progress = !f.noProgress && isTerminal(stderr)
 
 	// Sources: --demo, the arguments, or the spec file's input.paths.
 	switch {
@@ -608,8 +617,10 @@ type recordReader interface {
 	Close() error
 }
 
-// newRecordReader returns the reader of the run's input shape.
-func newRecordReader(run *analyzeRun) (recordReader, error) {
+// newRecordReader returns the reader of the run's input shape. For an
+// event log, events lists the events the talliers use: the reader leaves
+// out the rows of other events and counts them (see ingest.Options.Events).
+func newRecordReader(run *analyzeRun, events []string) (recordReader, error) {
 	m := run.mapping
 	switch run.shape {
 	case shapeUnits, shapeCounts:
@@ -652,24 +663,37 @@ func newRecordReader(run *analyzeRun) (recordReader, error) {
 	// An experiment without a key takes every exposure row: its arms are
 	// listed under "", which ingest applies to any key.
 	return ingest.NewReader(run.sources, ingest.Options{Mapping: m, ExposureEvent: exposure, PlannedArms: planned,
-		Delimiter: run.delimiter, MaxBadRows: run.maxBadRows, MaxBadShare: run.maxBadShare})
+		Delimiter: run.delimiter, MaxBadRows: run.maxBadRows, MaxBadShare: run.maxBadShare, Events: events})
 }
 
 // analyze reads the sources once, feeds every record batch to one tallier
 // per experiment and analyses each tally. The readouts follow the order of
 // run.experiments.
 func analyze(run *analyzeRun) ([]experiment.Readout, []tallier, error) {
-	r, err := newRecordReader(run)
+	talliers := make([]tallier, len(run.experiments))
+	// The events the experiments use (nil for a unit or counts table):
+	// the reader leaves out the rows of every other event.
+	var events []string
+	for i, e := range run.experiments {
+		var err error
+		if talliers[i], err = newTallier(run.shape, e.spec); err != nil {
+			return nil, nil, usagef("analyze: %v", err)
+		}
+		if tl, ok := talliers[i].(*experiment.Tallier); ok {
+			for _, ev := range tl.Events() {
+				if !slices.Contains(events, ev) {
+					events = append(events, ev)
+				}
+			}
+		}
+	}
+	r, err := newRecordReader(run, events)
 	if err != nil {
 		return nil, nil, usagef("analyze: %v", err)
 	}
 	defer r.Close()
-	talliers := make([]tallier, len(run.experiments))
-	for i, e := range run.experiments {
-		if talliers[i], err = newTallier(run.shape, e.spec); err != nil {
-			return nil, nil, usagef("analyze: %v", err)
-		}
-	}
+	stopProgress := withProgress(run, r)
+	defer stopProgress()
 	for r.Next() {
 		rec := r.Record()
 		for _, tl := range talliers {
@@ -678,8 +702,16 @@ func analyze(run *analyzeRun) ([]experiment.Readout, []tallier, error) {
 			}
 		}
 	}
+	stopProgress()
 	if err := r.Err(); err != nil {
 		return nil, nil, &dataError{err}
+	}
+	if st := r.Stats(); st.Filtered > 0 {
+		for _, tl := range talliers {
+			if tl, ok := tl.(*experiment.Tallier); ok {
+				tl.AddFiltered(st.Filtered, st.FilteredMaxTS)
+			}
+		}
 	}
 	readouts := make([]experiment.Readout, len(run.experiments))
 	for i, e := range run.experiments {
