@@ -127,6 +127,9 @@ func (c *csvReader) read(b *batchBuilder, limit int, a *accounting) (int, error)
 		}
 		b.append(r)
 		n++
+		if b.full() {
+			break
+		}
 	}
 	return n, nil
 }

@@ -383,6 +383,9 @@ func (r *parquetReader) read(b *batchBuilder, limit int, a *accounting) (n int, 
 		}
 		b.append(row)
 		n++
+		if b.full() {
+			break
+		}
 	}
 	return n, nil
 }

@@ -4,6 +4,7 @@ import (
 	"errors"
 	"fmt"
 	"io"
+	"math"
 	"strconv"
 	"sync"
 	"unsafe"
@@ -279,6 +280,9 @@ func (w *rgWorker) run(rg int) (res rgResult) {
 	}
 	base := r.rowStart(rg)
 	batch := 0
+	// fast: user, ts and event come from the file and there is a filter.
+	uc, tc, ec := w.cols[colUser], w.cols[colTS], w.cols[colEvent]
+	fast := uc != nil && tc != nil && ec != nil && ec.keep != nil
 	for done := int64(0); done < rgRows; {
 		select {
 		case <-w.stop:
@@ -301,6 +305,19 @@ func (w *rgWorker) run(rg int) (res rgResult) {
 			}
 		}
 		for k := 0; k < n; k++ {
+			if fast && !w.keep[k] {
+				// A row of an unwanted event: valid when its user,
+				// ts and event are (it is no exposure), and then
+				// only counted; otherwise the full rules below.
+				u, ev, ts := &uc.cells[k], &ec.cells[k], &tc.ts[k]
+				if !u.null && u.s != "" && ts.state == tsOK && !ev.null && ev.s != "" && ev.s != r.p.exposure {
+					if res.filtered == 0 || ts.ns > res.fMaxTS {
+						res.fMaxTS = ts.ns
+					}
+					res.filtered++
+					continue
+				}
+			}
 			row := &w.row
 			r.part.fill(row)
 			for i, c := range w.cols {
@@ -332,7 +349,7 @@ func (w *rgWorker) run(rg int) (res rgResult) {
 			}
 			w.bld.append(row)
 			batch++
-			if batch == r.batchSize {
+			if batch == r.batchSize || w.bld.full() {
 				res.recs = append(res.recs, w.bld.newRecord())
 				batch = 0
 			}
@@ -378,22 +395,41 @@ func chunkError(file string, rg int, col string, rgRows int64, err error) error 
 	return fmt.Errorf("%s: row group %d: column %q: %w: %w", file, rg, col, ErrCorrupt, err)
 }
 
-// tsCell is one decoded ts value before its conversion.
+// tsCell is one decoded ts value: v in the column's unit, ns in
+// nanoseconds when state is tsOK.
 type tsCell struct {
-	v    int64
-	null bool
+	v, ns int64
+	state uint8
 }
 
-// get converts the value as pqColumn.timestamp does.
-func (t tsCell) get(unit int64) (int64, error, cell) {
-	if t.null {
-		return 0, ErrNullTimestamp, cell{null: true}
+const (
+	tsOK = iota
+	tsNull
+	tsRange
+)
+
+// makeTS converts v units of unit nanoseconds as fromEpoch does; lim is
+// math.MaxInt64/unit, within which the product cannot overflow.
+func makeTS(v, unit, lim int64) tsCell {
+	if v <= lim && v >= -lim {
+		return tsCell{v: v, ns: v * unit}
 	}
-	ns, ok := fromEpoch(t.v, unit)
+	ns, ok := fromEpoch(v, unit)
 	if !ok {
+		return tsCell{v: v, state: tsRange}
+	}
+	return tsCell{v: v, ns: ns}
+}
+
+// get returns the value as pqColumn.timestamp does.
+func (t tsCell) get(unit int64) (int64, error, cell) {
+	switch t.state {
+	case tsNull:
+		return 0, ErrNullTimestamp, cell{null: true}
+	case tsRange:
 		return 0, ErrTimestampRange, cell{s: strconv.FormatInt(t.v, 10) + " " + unitName(unit)}
 	}
-	return ns, nil, cell{}
+	return t.ns, nil, cell{}
 }
 
 // bulkColumn reads one column chunk in windows of rows, page by page.
@@ -494,10 +530,11 @@ func (c *bulkColumn) fillText(k, m int) error {
 }
 
 func (c *bulkColumn) fillTS(dst []tsCell) error {
+	lim := int64(math.MaxInt64) / c.unit
 	for j := range dst {
 		if !c.defined(c.pos) {
 			c.pos++
-			dst[j] = tsCell{null: true}
+			dst[j] = tsCell{state: tsNull}
 			continue
 		}
 		c.pos++
@@ -508,10 +545,10 @@ func (c *bulkColumn) fillTS(dst []tsCell) error {
 			if x < 0 || x >= len(c.dictI64) {
 				return fmt.Errorf("dictionary index %d of a dictionary of %d values", x, len(c.dictI64))
 			}
-			dst[j] = tsCell{v: c.dictI64[x]}
+			dst[j] = makeTS(c.dictI64[x], c.unit, lim)
 			continue
 		}
-		dst[j] = tsCell{v: c.i64[v]}
+		dst[j] = makeTS(c.i64[v], c.unit, lim)
 	}
 	return nil
 }

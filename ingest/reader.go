@@ -9,10 +9,8 @@ import (
 	"strings"
 	"sync/atomic"
 	"unicode/utf8"
-	"unsafe"
 
 	"github.com/apache/arrow-go/v18/arrow"
-	"github.com/apache/arrow-go/v18/arrow/array"
 	"github.com/apache/arrow-go/v18/arrow/memory"
 
 	"github.com/armtally/armtally/experiment"
@@ -636,52 +634,6 @@ func (p *plan) check(r *row) (col int, reason error) {
 	}
 	return -1, nil
 }
-
-// batchBuilder accumulates valid rows into Arrow arrays.
-type batchBuilder struct {
-	p   *plan
-	rb  *array.RecordBuilder
-	str []*array.StringBuilder // per logical column; nil at colTS
-	ts  *array.TimestampBuilder
-}
-
-func newBatchBuilder(mem memory.Allocator, p *plan) *batchBuilder {
-	b := &batchBuilder{p: p, rb: array.NewRecordBuilder(mem, p.schema)}
-	b.str = make([]*array.StringBuilder, len(p.logical))
-	for i := range p.logical {
-		if i == colTS {
-			b.ts = b.rb.Field(i).(*array.TimestampBuilder)
-			continue
-		}
-		b.str[i] = b.rb.Field(i).(*array.StringBuilder)
-	}
-	return b
-}
-
-// append adds a row that plan.check accepted.
-func (b *batchBuilder) append(r *row) {
-	for i, sb := range b.str {
-		if sb == nil {
-			continue
-		}
-		c := r.cells[i]
-		if c.null || (i > colEvent && c.s == "") {
-			sb.AppendNull()
-			continue
-		}
-		sb.BinaryBuilder.Append(unsafe.Slice(unsafe.StringData(c.s), len(c.s))) // copied, not kept
-	}
-	b.ts.Append(arrow.Timestamp(r.ts))
-}
-
-// newRecord returns the rows appended so far as a record batch and starts
-// a new one.
-func (b *batchBuilder) newRecord() arrow.RecordBatch { return b.rb.NewRecordBatch() }
-
-// discard drops the rows appended so far.
-func (b *batchBuilder) discard() { b.rb.NewRecordBatch().Release() }
-
-func (b *batchBuilder) release() { b.rb.Release() }
 
 // badRow describes a row that plan.check rejected; the value may point into
 // the reader's buffers.
