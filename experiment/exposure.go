@@ -81,6 +81,20 @@ func (x *exposures) unit(key string) int32 {
 	return u
 }
 
+// unitHashed is unit with the key's hash under the index's seed already
+// computed.
+func (x *exposures) unitHashed(key string, hash uint64) int32 {
+	u, ok := x.units.lookupHashed(key, hash)
+	if ok {
+		return u
+	}
+	x.state = append(x.state, unitState{armAtT0: -1, firstArm: -1})
+	for range x.dims {
+		x.segs = append(x.segs, segNull)
+	}
+	return u
+}
+
 // segValue interns the segment value of dimension d in row i of col.
 func (x *exposures) segValue(d int, col *array.String, i int) int32 {
 	if !col.IsValid(i) {

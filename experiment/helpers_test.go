@@ -1,6 +1,8 @@
 package experiment
 
 import (
+	"reflect"
+	"slices"
 	"testing"
 	"time"
 
@@ -68,20 +70,49 @@ func batch(t testing.TB, rows []row, dims ...string) arrow.RecordBatch {
 
 // tally runs a Tallier over rows, split into batches of at most size rows
 // (size <= 0: one batch).
+//
+// It also checks that the tally does not depend on the number of hash
+// partitions: 1, 2 and 7 partitions must give the same Tally and the same
+// unit records.
 func tally(t testing.TB, spec Spec, rows []row, size int) Tally {
 	t.Helper()
-	tl := tallier(t, spec, rows, size)
-	out, err := tl.Tally()
-	if err != nil {
-		t.Fatalf("Tally: %v", err)
+	var first Tally
+	var firstUnits []UnitRecord
+	for i, parts := range []int{1, 2, 7} {
+		tl := tallierParts(t, spec, rows, size, parts)
+		out, err := tl.Tally()
+		if err != nil {
+			t.Fatalf("Tally: %v", err)
+		}
+		seq, err := tl.Units()
+		if err != nil {
+			t.Fatalf("Units: %v", err)
+		}
+		units := slices.Collect(seq)
+		if i == 0 {
+			first, firstUnits = out, units
+			continue
+		}
+		if !reflect.DeepEqual(out, first) {
+			t.Fatalf("%d partitions: tally\n%+v\none partition\n%+v", parts, out, first)
+		}
+		if !reflect.DeepEqual(units, firstUnits) {
+			t.Fatalf("%d partitions: unit records\n%+v\none partition\n%+v", parts, units, firstUnits)
+		}
 	}
-	return out
+	return first
 }
 
 // tallier runs a Tallier over rows as tally does and returns it.
 func tallier(t testing.TB, spec Spec, rows []row, size int) *Tallier {
 	t.Helper()
-	tl, err := NewTallier(spec)
+	return tallierParts(t, spec, rows, size, 3)
+}
+
+// tallierParts is tallier with the given number of hash partitions.
+func tallierParts(t testing.TB, spec Spec, rows []row, size, parts int) *Tallier {
+	t.Helper()
+	tl, err := newTallier(spec, parts)
 	if err != nil {
 		t.Fatalf("NewTallier: %v", err)
 	}

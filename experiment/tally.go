@@ -1,10 +1,15 @@
 package experiment
 
 import (
+	"bytes"
 	"fmt"
+	"hash/maphash"
 	"iter"
+	"runtime"
+	"slices"
 	"sort"
 	"strings"
+	"sync"
 
 	"github.com/apache/arrow-go/v18/arrow"
 	"github.com/apache/arrow-go/v18/arrow/array"
@@ -123,50 +128,95 @@ type metricEvent struct {
 // distinct units that have an exposure or a metric event, and with the
 // number of metric events; rows of other events are counted and dropped at
 // once. A Tallier is not safe for concurrent use.
+//
+// Inside, the units are split by a hash of their key into partitions that
+// share nothing (the tally of a unit depends on that unit's rows only), and
+// Add hands each partition's rows to its own goroutine: the per-unit work
+// runs on all cores. Each Add first makes one pass over the batch that
+// decides each row's role and hashes its unit.
 type Tallier struct {
 	spec     Spec
 	start    int64
 	end      int64
 	hasStart bool
 	hasEnd   bool
-	// eventKind maps an event name to its role: kindExposure, or an index
-	// into metricNames (>= 0).
-	eventKind   map[string]int32
+	// names and kinds give each used event name its role: kindExposure,
+	// or an index into metricNames (>= 0).
+	names       []string
+	kinds       []int32
 	metricNames []string
 	// metricsOf[i] lists the metric indices whose event set holds
 	// metricNames[i].
 	metricsOf [][]int
-	exposures
-	events   []metricEvent
+	seed      maphash.Seed
+	parts     []*tallyPart
+	// armIndex and arms intern the arm names; every partition's
+	// exposures lists the same arms in the same order.
+	armIndex map[string]int32
+	arms     []string
 	expKeys  map[string]struct{}
 	diag     TallyDiagnostics
 	fresh    int64
 	hasFresh bool
 	fin      *finished // the attribution of the events, until Add is called again
+
+	// Per batch: each row's role (rowSkip, kindExposure with its arm in
+	// rowArm, or a metric event index) and its key's hash.
+	rowKind []int32
+	rowArm  []int32
+	rowHash []uint64
+}
+
+// tallyPart is one hash partition of the units.
+type tallyPart struct {
+	exposures
+	events []metricEvent
 }
 
 // finished is the result of attributing the metric events to units.
 type finished struct {
-	// converted[u*nm+m] marks unit u converted on metric m.
-	converted []bool
+	// converted[p][u*nm+m] marks unit u of partition p converted on
+	// metric m.
+	converted [][]bool
 	diag      TallyDiagnostics
 }
 
-const kindExposure = -1
+const (
+	kindExposure = -1
+	rowSkip      = -2
+)
 
-// NewTallier validates spec and returns a Tallier for it.
+// NewTallier validates spec and returns a Tallier for it, with one
+// partition per core (runtime.GOMAXPROCS).
 func NewTallier(spec Spec) (*Tallier, error) {
+	return newTallier(spec, runtime.GOMAXPROCS(0))
+}
+
+// newTallier returns a Tallier with the given number of partitions (1 to
+// 256); the tally does not depend on it.
+func newTallier(spec Spec, partitions int) (*Tallier, error) {
 	if spec.ExposureEvent == "" {
 		return nil, fmt.Errorf("experiment %q: no exposure event name", spec.Key)
 	}
 	if err := spec.validate(ColUser, ColTS, ColEvent, ColExperiment, ColArm); err != nil {
 		return nil, err
 	}
+	partitions = max(1, min(partitions, 256))
 	t := &Tallier{
-		spec:      spec,
-		eventKind: map[string]int32{spec.ExposureEvent: kindExposure},
-		exposures: newExposures(spec),
-		expKeys:   make(map[string]struct{}),
+		spec:     spec,
+		names:    []string{spec.ExposureEvent},
+		kinds:    []int32{kindExposure},
+		seed:     maphash.MakeSeed(),
+		armIndex: make(map[string]int32),
+		expKeys:  make(map[string]struct{}),
+	}
+	for range partitions {
+		pt := &tallyPart{exposures: newExposures(spec)}
+		pt.units = newUnitIndexSeed(t.seed)
+		t.parts = append(t.parts, pt)
+	}
+	for _, a := range spec.Arms {
+		t.arm(a)
 	}
 	for mi, m := range spec.Metrics {
 		if len(m.Events) == 0 {
@@ -176,10 +226,11 @@ func NewTallier(spec Spec) (*Tallier, error) {
 			if e == spec.ExposureEvent {
 				return nil, fmt.Errorf("experiment %q: metric %q counts the exposure event %q", spec.Key, m.Name, e)
 			}
-			k, ok := t.eventKind[e]
+			k, ok := t.kind(e)
 			if !ok {
 				k = int32(len(t.metricNames))
-				t.eventKind[e] = k
+				t.names = append(t.names, e)
+				t.kinds = append(t.kinds, k)
 				t.metricNames = append(t.metricNames, e)
 				t.metricsOf = append(t.metricsOf, nil)
 			}
@@ -196,6 +247,39 @@ func NewTallier(spec Spec) (*Tallier, error) {
 	}
 	t.diag.OutsideAttribution = make([]int64, len(spec.Metrics))
 	return t, nil
+}
+
+// kind returns the role of an event name. The names are few: a linear
+// scan beats a map's hashing.
+func (t *Tallier) kind(name string) (int32, bool) {
+	for i, n := range t.names {
+		if n == name {
+			return t.kinds[i], true
+		}
+	}
+	return 0, false
+}
+
+// arm returns the index of the named arm, adding it to every partition
+// when new.
+func (t *Tallier) arm(name string) int32 {
+	if a, ok := t.armIndex[name]; ok {
+		return a
+	}
+	name = strings.Clone(name)
+	a := int32(len(t.arms))
+	t.armIndex[name] = a
+	t.arms = append(t.arms, name)
+	for _, pt := range t.parts {
+		pt.arm(name)
+	}
+	return a
+}
+
+// partOf returns the partition of a key's hash: its top bits, which the
+// unit index does not use.
+func (t *Tallier) partOf(h uint64) int {
+	return int((h >> 32) % uint64(len(t.parts)))
 }
 
 // Add applies one record batch. It reads the user, ts, event, experiment
@@ -232,57 +316,81 @@ func (t *Tallier) Add(rec arrow.RecordBatch) error {
 	ts := tsCol.TimestampValues()
 	n := int(rec.NumRows())
 	t.diag.RowsRead += int64(n)
+	t.rowKind = slices.Grow(t.rowKind[:0], n)[:n]
+	t.rowArm = slices.Grow(t.rowArm[:0], n)[:n]
+	t.rowHash = slices.Grow(t.rowHash[:0], n)[:n]
+	units := 0
+	// The first pass: the rules that do not depend on the unit.
 	for i := 0; i < n; i++ {
 		at := int64(ts[i])
 		if !t.hasFresh || at > t.fresh {
 			t.fresh, t.hasFresh = at, true
 		}
-		kind, relevant := t.eventKind[events.Value(i)]
+		t.rowKind[i] = rowSkip
+		kind, relevant := t.kind(events.Value(i))
 		if !relevant {
 			t.diag.NotMetricEvents++
 			continue
 		}
 		if kind == kindExposure {
-			t.addExposure(users, exps, arms, segs, i, at)
-			continue
+			a, ok := t.exposureArm(exps, arms, i, at)
+			if !ok {
+				continue
+			}
+			t.rowArm[i] = a
+		} else {
+			t.diag.MetricEvents++
+			if t.hasEnd && at >= t.end {
+				t.diag.AfterWindowEnd++
+				continue
+			}
 		}
-		t.diag.MetricEvents++
-		if t.hasEnd && at >= t.end {
-			t.diag.AfterWindowEnd++
-			continue
-		}
-		u := t.unit(users.Value(i))
-		t.events = append(t.events, metricEvent{unit: u, event: kind, ts: at})
+		t.rowKind[i] = kind
+		t.rowHash[i] = maphash.String(t.seed, users.Value(i))
+		units++
 	}
+	if units == 0 {
+		return nil
+	}
+	// The second: each partition's rows, on its own goroutine.
+	if len(t.parts) == 1 {
+		t.addPart(0, users, ts, segs, n)
+		return nil
+	}
+	var wg sync.WaitGroup
+	for p := range t.parts {
+		wg.Go(func() { t.addPart(p, users, ts, segs, n) })
+	}
+	wg.Wait()
 	return nil
 }
 
-// Events returns the event names whose rows the tallier uses: the
-// exposure event, then the metrics' events in spec order. A reader may
-// leave out the rows of every other event and report them through
-// AddFiltered instead: the tally is the same.
-func (t *Tallier) Events() []string {
-	return append([]string{t.spec.ExposureEvent}, t.metricNames...)
-}
-
-// AddFiltered accounts for the given number of valid rows that a reader left out because
-// their event is not among Events, the largest of whose ts is maxTS (Unix
-// nanoseconds): they count as rows read and as rows of other events, and
-// their times move the data's freshness (the maturity horizon when the spec
-// has no end), exactly as if Add had seen them.
-func (t *Tallier) AddFiltered(rows, maxTS int64) {
-	if rows <= 0 {
-		return
-	}
-	t.fin = nil
-	t.diag.RowsRead += rows
-	t.diag.NotMetricEvents += rows
-	if !t.hasFresh || maxTS > t.fresh {
-		t.fresh, t.hasFresh = maxTS, true
+// addPart applies the rows of partition p that the first pass kept.
+func (t *Tallier) addPart(p int, users *array.String, ts []arrow.Timestamp, segs []*array.String, n int) {
+	pt := t.parts[p]
+	single := len(t.parts) == 1
+	for i := 0; i < n; i++ {
+		kind := t.rowKind[i]
+		if kind == rowSkip {
+			continue
+		}
+		h := t.rowHash[i]
+		if !single && t.partOf(h) != p {
+			continue
+		}
+		u := pt.unitHashed(users.Value(i), h)
+		if kind == kindExposure {
+			pt.expose(u, t.rowArm[i], int64(ts[i]), segs, i)
+			continue
+		}
+		pt.events = append(pt.events, metricEvent{unit: u, event: kind, ts: int64(ts[i])})
 	}
 }
 
-func (t *Tallier) addExposure(users, exps, arms *array.String, segs []*array.String, i int, at int64) {
+// exposureArm applies the rules of an exposure row that do not depend on
+// the unit: its experiment key and the window. It returns the row's arm,
+// or false when the row is not an in-window exposure of this experiment.
+func (t *Tallier) exposureArm(exps, arms *array.String, i int, at int64) (int32, bool) {
 	if exps != nil {
 		key := ""
 		if exps.IsValid(i) {
@@ -294,19 +402,44 @@ func (t *Tallier) addExposure(users, exps, arms *array.String, segs []*array.Str
 			}
 		} else if key != t.spec.Key {
 			t.diag.OtherExperimentRows++
-			return
+			return 0, false
 		}
 	}
 	t.diag.ExposureRows++
 	if (t.hasStart && at < t.start) || (t.hasEnd && at >= t.end) {
 		t.diag.ExposuresOutsideWindow++
-		return
+		return 0, false
 	}
 	armName := ""
 	if arms != nil && arms.IsValid(i) {
 		armName = arms.Value(i)
 	}
-	t.expose(t.unit(users.Value(i)), t.arm(armName), at, segs, i)
+	return t.arm(armName), true
+}
+
+// Events returns the event names whose rows the tallier uses: the
+// exposure event, then the metrics' events in spec order. A reader may
+// leave out the rows of every other event and report them through
+// AddFiltered instead: the tally is the same.
+func (t *Tallier) Events() []string {
+	return append([]string{t.spec.ExposureEvent}, t.metricNames...)
+}
+
+// AddFiltered accounts for the given number of valid rows that a reader
+// left out because their event is not among Events, the largest of whose
+// ts is maxTS (Unix nanoseconds): they count as rows read and as rows of
+// other events, and their times move the data's freshness (the maturity
+// horizon when the spec has no end), exactly as if Add had seen them.
+func (t *Tallier) AddFiltered(rows, maxTS int64) {
+	if rows <= 0 {
+		return
+	}
+	t.fin = nil
+	t.diag.RowsRead += rows
+	t.diag.NotMetricEvents += rows
+	if !t.hasFresh || maxTS > t.fresh {
+		t.fresh, t.hasFresh = maxTS, true
+	}
 }
 
 // checkKeys refuses a run without an experiment key over exposures of
@@ -336,39 +469,45 @@ func (t *Tallier) finish() *finished {
 		return t.fin
 	}
 	nm := len(t.spec.Metrics)
-	f := &finished{converted: make([]bool, len(t.state)*nm), diag: t.diag}
+	f := &finished{diag: t.diag}
 	d := &f.diag
 	d.OutsideAttribution = append([]int64(nil), t.diag.OutsideAttribution...)
-	for _, e := range t.events {
-		s := &t.state[e.unit]
-		switch {
-		case s.armAtT0 < 0:
-			d.UnitNeverExposed++
-			continue
-		case status(s, t.spec.MultiArm) != StatusAnalysed:
-			d.UnitExcluded++
-			continue
-		case e.ts < s.t0:
-			d.BeforeExposure++
-			continue
-		}
-		d.MetricEventsInUnit++
-		for _, m := range t.metricsOf[e.event] {
-			w := int64(t.spec.Metrics[m].Window)
-			if w > 0 && e.ts-s.t0 >= w {
-				d.OutsideAttribution[m]++
+	for _, pt := range t.parts {
+		converted := make([]bool, len(pt.state)*nm)
+		f.converted = append(f.converted, converted)
+		for _, e := range pt.events {
+			s := &pt.state[e.unit]
+			switch {
+			case s.armAtT0 < 0:
+				d.UnitNeverExposed++
+				continue
+			case status(s, t.spec.MultiArm) != StatusAnalysed:
+				d.UnitExcluded++
+				continue
+			case e.ts < s.t0:
+				d.BeforeExposure++
 				continue
 			}
-			f.converted[int(e.unit)*nm+m] = true
+			d.MetricEventsInUnit++
+			for _, m := range t.metricsOf[e.event] {
+				w := int64(t.spec.Metrics[m].Window)
+				if w > 0 && e.ts-s.t0 >= w {
+					d.OutsideAttribution[m]++
+					continue
+				}
+				converted[int(e.unit)*nm+m] = true
+			}
 		}
 	}
 	t.fin = f
 	return f
 }
 
-// record fills rec for exposed unit u (its key only when withKey).
-func (t *Tallier) record(f *finished, u int32, withKey bool, rec *UnitRecord) {
-	t.fill(u, t.spec.MultiArm, true, withKey, rec)
+// record fills rec for exposed unit u of partition p (its key only when
+// withKey).
+func (t *Tallier) record(f *finished, p int, u int32, withKey bool, rec *UnitRecord) {
+	pt := t.parts[p]
+	pt.fill(u, t.spec.MultiArm, true, withKey, rec)
 	nm := len(t.spec.Metrics)
 	if len(rec.Converted) != nm {
 		rec.Converted, rec.Immature = make([]bool, nm), make([]bool, nm)
@@ -380,8 +519,8 @@ func (t *Tallier) record(f *finished, u int32, withKey bool, rec *UnitRecord) {
 	analysed := rec.Status == StatusAnalysed
 	for m, mt := range t.spec.Metrics {
 		w := int64(mt.Window)
-		rec.Converted[m] = analysed && f.converted[int(u)*nm+m]
-		rec.Immature[m] = analysed && w > 0 && t.state[u].t0 > horizon-w
+		rec.Converted[m] = analysed && f.converted[p][int(u)*nm+m]
+		rec.Immature[m] = analysed && w > 0 && pt.state[u].t0 > horizon-w
 	}
 }
 
@@ -394,11 +533,33 @@ func (t *Tallier) Units() (iter.Seq[UnitRecord], error) {
 		return nil, err
 	}
 	f := t.finish()
-	order := t.sortedUnits()
+	// Each partition's units sorted, then merged: keys are unique
+	// across partitions.
+	type cursor struct {
+		p     int
+		order []int32
+	}
+	var cs []*cursor
+	for p, pt := range t.parts {
+		if order := pt.sortedUnits(); len(order) > 0 {
+			cs = append(cs, &cursor{p: p, order: order})
+		}
+	}
 	return func(yield func(UnitRecord) bool) {
-		for _, u := range order {
+		for len(cs) > 0 {
+			best := 0
+			for i := 1; i < len(cs); i++ {
+				a, b := cs[i], cs[best]
+				if bytes.Compare(t.parts[a.p].units.key(a.order[0]), t.parts[b.p].units.key(b.order[0])) < 0 {
+					best = i
+				}
+			}
+			c := cs[best]
 			var rec UnitRecord
-			t.record(f, u, true, &rec)
+			t.record(f, c.p, c.order[0], true, &rec)
+			if c.order = c.order[1:]; len(c.order) == 0 {
+				cs = slices.Delete(cs, best, best+1)
+			}
 			if !yield(rec) {
 				return
 			}
@@ -420,15 +581,19 @@ func (t *Tallier) Tally() (Tally, error) {
 	if err != nil {
 		return Tally{}, err
 	}
-	t.seeArms(acc)
+	for _, pt := range t.parts {
+		pt.seeArms(acc)
+	}
 	var rec UnitRecord
-	for u := range t.state {
-		if t.state[u].armAtT0 < 0 {
-			continue
-		}
-		t.record(f, int32(u), false, &rec)
-		if err := acc.Add(rec); err != nil {
-			return Tally{}, err
+	for p, pt := range t.parts {
+		for u := range pt.state {
+			if pt.state[u].armAtT0 < 0 {
+				continue
+			}
+			t.record(f, p, int32(u), false, &rec)
+			if err := acc.Add(rec); err != nil {
+				return Tally{}, err
+			}
 		}
 	}
 	out := acc.Tally()

@@ -22,9 +22,13 @@ type unitIndex struct {
 
 const unitIndexMinSlots = 1 << 10
 
-func newUnitIndex() unitIndex {
+func newUnitIndex() unitIndex { return newUnitIndexSeed(maphash.MakeSeed()) }
+
+// newUnitIndexSeed returns an index that hashes keys with seed, so that a
+// caller can hash a key once (hashKey) for several uses.
+func newUnitIndexSeed(seed maphash.Seed) unitIndex {
 	return unitIndex{
-		seed:  maphash.MakeSeed(),
+		seed:  seed,
 		slots: make([]uint64, unitIndexMinSlots),
 		mask:  unitIndexMinSlots - 1,
 	}
@@ -51,7 +55,13 @@ func (x *unitIndex) compare(a, b int32) int { return bytes.Compare(x.key(a), x.k
 // lookup returns the index of key and true, or, when key is new, adds it
 // as unit x.len() and returns that index and false.
 func (x *unitIndex) lookup(key string) (int32, bool) {
-	h := uint32(maphash.String(x.seed, key))
+	return x.lookupHashed(key, maphash.String(x.seed, key))
+}
+
+// lookupHashed is lookup with the key's hash under the index's seed
+// already computed.
+func (x *unitIndex) lookupHashed(key string, hash uint64) (int32, bool) {
+	h := uint32(hash)
 	for i := h & x.mask; ; i = (i + 1) & x.mask {
 		s := x.slots[i]
 		if s == 0 {

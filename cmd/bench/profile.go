@@ -32,7 +32,9 @@ func (a analysis) spec() experiment.Spec {
 
 // analyzeInProcess runs armtally's analysis of a over files in this
 // process, through the same calls as `armtally analyze`: an ingest.Reader
-// over the files, a Tallier fed each record batch, Tally, then Analyze. It
+// over the files that leaves out the events the Tallier does not use, the
+// Tallier fed each record batch and told of the rows left out, Tally, then
+// Analyze. It
 // returns the readout.
 func analyzeInProcess(a analysis, files []string) (experiment.Readout, error) {
 	spec := a.spec()
@@ -40,15 +42,16 @@ func analyzeInProcess(a analysis, files []string) (experiment.Readout, error) {
 	if err != nil {
 		return experiment.Readout{}, fmt.Errorf("analyze: %w", err)
 	}
-	r, err := ingest.NewReader(sources, ingest.Options{Mapping: ingest.DefaultMapping(), ExposureEvent: spec.ExposureEvent})
-	if err != nil {
-		return experiment.Readout{}, fmt.Errorf("analyze: %w", err)
-	}
-	defer r.Close()
 	tl, err := experiment.NewTallier(spec)
 	if err != nil {
 		return experiment.Readout{}, fmt.Errorf("analyze: %w", err)
 	}
+	r, err := ingest.NewReader(sources, ingest.Options{Mapping: ingest.DefaultMapping(), ExposureEvent: spec.ExposureEvent,
+		PlannedArms: map[string][]string{spec.Key: spec.Arms}, Events: tl.Events()})
+	if err != nil {
+		return experiment.Readout{}, fmt.Errorf("analyze: %w", err)
+	}
+	defer r.Close()
 	for r.Next() {
 		if err := tl.Add(r.Record()); err != nil {
 			return experiment.Readout{}, fmt.Errorf("analyze: %w", err)
@@ -57,6 +60,7 @@ func analyzeInProcess(a analysis, files []string) (experiment.Readout, error) {
 	if err := r.Err(); err != nil {
 		return experiment.Readout{}, fmt.Errorf("analyze: %w", err)
 	}
+	tl.AddFiltered(r.Stats().Filtered, r.Stats().FilteredMaxTS)
 	t, err := tl.Tally()
 	if err != nil {
 		return experiment.Readout{}, fmt.Errorf("analyze: %w", err)
