@@ -28,7 +28,7 @@ const segNull = -1
 // dimension.
 type exposures struct {
 	units    unitIndex
-	state    []unitState
+	state    chunked[unitState]
 	dims     int
 	segs     []int32 // dims values per unit, segNull for null
 	segIndex []map[string]int32
@@ -74,7 +74,7 @@ func (x *exposures) unit(key string) int32 {
 	if ok {
 		return u
 	}
-	x.state = append(x.state, unitState{armAtT0: -1, firstArm: -1})
+	x.state.add(unitState{armAtT0: -1, firstArm: -1})
 	for range x.dims {
 		x.segs = append(x.segs, segNull)
 	}
@@ -88,7 +88,7 @@ func (x *exposures) unitHashed(key string, hash uint64) int32 {
 	if ok {
 		return u
 	}
-	x.state = append(x.state, unitState{armAtT0: -1, firstArm: -1})
+	x.state.add(unitState{armAtT0: -1, firstArm: -1})
 	for range x.dims {
 		x.segs = append(x.segs, segNull)
 	}
@@ -132,7 +132,7 @@ func (x *exposures) expose(u, a int32, at int64, segCols []*array.String, i int)
 	if at < x.armFirst[a] {
 		x.armFirst[a] = at
 	}
-	s := &x.state[u]
+	s := x.state.at(int(u))
 	base := int(u) * x.dims
 	switch {
 	case s.armAtT0 < 0 || at < s.t0:
@@ -177,7 +177,7 @@ func status(s *unitState, policy MultiArmPolicy) UnitStatus {
 // withKey: the records that stay inside the package (summed at once, and
 // always matching the spec) do without it.
 func (x *exposures) fill(u int32, policy MultiArmPolicy, hasT0, withKey bool, rec *UnitRecord) {
-	s := &x.state[u]
+	s := x.state.at(int(u))
 	rec.Unit = ""
 	if withKey {
 		rec.Unit = x.units.keyString(u)
@@ -205,8 +205,8 @@ func (x *exposures) fill(u int32, policy MultiArmPolicy, hasT0, withKey bool, re
 // sortedUnits returns the indices of the exposed units sorted by key.
 func (x *exposures) sortedUnits() []int32 {
 	var idx []int32
-	for u := range x.state {
-		if x.state[u].armAtT0 >= 0 {
+	for u := range x.state.len() {
+		if x.state.at(u).armAtT0 >= 0 {
 			idx = append(idx, int32(u))
 		}
 	}

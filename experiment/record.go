@@ -138,7 +138,13 @@ func NewAccumulator(spec Spec) (*Accumulator, error) {
 }
 
 func (a *Accumulator) arm(name string) *accArm {
-	if i, ok := a.index[name]; ok {
+	if len(a.arms) <= smallArms {
+		for _, r := range a.arms {
+			if r.name == name {
+				return r
+			}
+		}
+	} else if i, ok := a.index[name]; ok {
 		return a.arms[i]
 	}
 	r := &accArm{name: name, first: math.MaxInt64, metrics: make([]Count, len(a.spec.Metrics)),

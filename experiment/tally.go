@@ -171,6 +171,7 @@ type Tallier struct {
 type tallyPart struct {
 	exposures
 	events []metricEvent
+	sink   uint64 // see unitIndex.touch
 }
 
 // finished is the result of attributing the metric events to units.
@@ -185,6 +186,10 @@ const (
 	kindExposure = -1
 	rowSkip      = -2
 )
+
+// smallArms is the most arms looked up by a linear scan of their names,
+// which beats a map's hashing when there are few; more use the map.
+const smallArms = 8
 
 // NewTallier validates spec and returns a Tallier for it, with one
 // partition per core (runtime.GOMAXPROCS).
@@ -263,7 +268,13 @@ func (t *Tallier) kind(name string) (int32, bool) {
 // arm returns the index of the named arm, adding it to every partition
 // when new.
 func (t *Tallier) arm(name string) int32 {
-	if a, ok := t.armIndex[name]; ok {
+	if len(t.arms) <= smallArms {
+		for i, a := range t.arms {
+			if a == name {
+				return int32(i)
+			}
+		}
+	} else if a, ok := t.armIndex[name]; ok {
 		return a
 	}
 	name = strings.Clone(name)
@@ -366,25 +377,37 @@ func (t *Tallier) Add(rec arrow.RecordBatch) error {
 }
 
 // addPart applies the rows of partition p that the first pass kept.
+//
+// The rows go in groups: the unit index's memory for a whole group is
+// read first (unitIndex.touch), so that the cache misses of the group
+// overlap, then the group is applied in order.
 func (t *Tallier) addPart(p int, users *array.String, ts []arrow.Timestamp, segs []*array.String, n int) {
+	const group = 32
 	pt := t.parts[p]
 	single := len(t.parts) == 1
-	for i := 0; i < n; i++ {
-		kind := t.rowKind[i]
-		if kind == rowSkip {
-			continue
+	var rows [group]int32
+	var sink uint64
+	for i := 0; i < n; {
+		g := 0
+		for ; i < n && g < group; i++ {
+			if t.rowKind[i] == rowSkip || !single && t.partOf(t.rowHash[i]) != p {
+				continue
+			}
+			rows[g] = int32(i)
+			sink += pt.units.touch(t.rowHash[i])
+			g++
 		}
-		h := t.rowHash[i]
-		if !single && t.partOf(h) != p {
-			continue
+		for _, r := range rows[:g] {
+			i := int(r)
+			u := pt.unitHashed(users.Value(i), t.rowHash[i])
+			if kind := t.rowKind[i]; kind == kindExposure {
+				pt.expose(u, t.rowArm[i], int64(ts[i]), segs, i)
+			} else {
+				pt.events = append(pt.events, metricEvent{unit: u, event: kind, ts: int64(ts[i])})
+			}
 		}
-		u := pt.unitHashed(users.Value(i), h)
-		if kind == kindExposure {
-			pt.expose(u, t.rowArm[i], int64(ts[i]), segs, i)
-			continue
-		}
-		pt.events = append(pt.events, metricEvent{unit: u, event: kind, ts: int64(ts[i])})
 	}
+	pt.sink += sink
 }
 
 // exposureArm applies the rules of an exposure row that do not depend on
@@ -473,10 +496,10 @@ func (t *Tallier) finish() *finished {
 	d := &f.diag
 	d.OutsideAttribution = append([]int64(nil), t.diag.OutsideAttribution...)
 	for _, pt := range t.parts {
-		converted := make([]bool, len(pt.state)*nm)
+		converted := make([]bool, pt.state.len()*nm)
 		f.converted = append(f.converted, converted)
 		for _, e := range pt.events {
-			s := &pt.state[e.unit]
+			s := pt.state.at(int(e.unit))
 			switch {
 			case s.armAtT0 < 0:
 				d.UnitNeverExposed++
@@ -520,7 +543,7 @@ func (t *Tallier) record(f *finished, p int, u int32, withKey bool, rec *UnitRec
 	for m, mt := range t.spec.Metrics {
 		w := int64(mt.Window)
 		rec.Converted[m] = analysed && f.converted[p][int(u)*nm+m]
-		rec.Immature[m] = analysed && w > 0 && pt.state[u].t0 > horizon-w
+		rec.Immature[m] = analysed && w > 0 && pt.state.at(int(u)).t0 > horizon-w
 	}
 }
 
@@ -586,8 +609,8 @@ func (t *Tallier) Tally() (Tally, error) {
 	}
 	var rec UnitRecord
 	for p, pt := range t.parts {
-		for u := range pt.state {
-			if pt.state[u].armAtT0 < 0 {
+		for u := range pt.state.len() {
+			if pt.state.at(u).armAtT0 < 0 {
 				continue
 			}
 			t.record(f, p, int32(u), false, &rec)

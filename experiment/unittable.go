@@ -143,7 +143,7 @@ func (t *UnitTableTallier) Add(rec arrow.RecordBatch) error {
 		}
 		u := t.unit(users.Value(i))
 		t.expose(u, t.arm(arms.Value(i)), at, segs, i)
-		for len(t.converted) < len(t.state)*nm {
+		for len(t.converted) < t.state.len()*nm {
 			t.converted = append(t.converted, false)
 		}
 		for m, col := range flags {
@@ -168,7 +168,7 @@ func (t *UnitTableTallier) record(u int32, withKey bool, rec *UnitRecord) {
 	for m, mt := range t.spec.Metrics {
 		w := int64(mt.Window)
 		rec.Converted[m] = analysed && t.converted[int(u)*nm+m]
-		rec.Immature[m] = analysed && timed && t.hasEnd && w > 0 && t.state[u].t0 > t.end-w
+		rec.Immature[m] = analysed && timed && t.hasEnd && w > 0 && t.state.at(int(u)).t0 > t.end-w
 	}
 }
 
@@ -200,8 +200,8 @@ func (t *UnitTableTallier) Tally() (Tally, error) {
 		acc.SeeArm(name, t.armFirst[a], t.hasTS > 0 && t.armFirst[a] != math.MaxInt64)
 	}
 	var rec UnitRecord
-	for u := range t.state {
-		if t.state[u].armAtT0 < 0 {
+	for u := range t.state.len() {
+		if t.state.at(u).armAtT0 < 0 {
 			continue
 		}
 		t.record(int32(u), false, &rec)
