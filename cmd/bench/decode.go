@@ -16,6 +16,8 @@ import (
 	"github.com/apache/arrow-go/v18/parquet/file"
 	"github.com/apache/arrow-go/v18/parquet/pqarrow"
 	"github.com/parquet-go/parquet-go"
+
+	"github.com/armtally/armtally/ingest"
 )
 
 // decodeColumns are the columns the analysis needs, in the order the
@@ -59,7 +61,39 @@ func decodeMethods() []decodeMethod {
 		{"arrow-go pqarrow (dictionary)", "arrow-go `pqarrow` record reader, batch 64Ki rows, `Parallel` and `SetReadDict` on: strings as dictionary arrays", decodePQArrowDict},
 		{"arrow-go pqarrow (strings)", "arrow-go `pqarrow` record reader, batch 64Ki rows, `Parallel` on, strings materialised as utf8 arrays", decodePQArrowPlain},
 		{"arrow-go column readers", "arrow-go `file` column chunk readers: `ReadBatch` of `int64` / `parquet.ByteArray` values with definition levels", decodeArrowColumns},
+		{"armtally ingest.Reader", "armtally's own reader (`ingest.NewReader`, the bulk path: parquet-go pages, one row group per worker) with the row rules, into utf8 record batches of every row (no event filter)", decodeIngest},
 	}
+}
+
+// decodeIngest reads the file through armtally's ingest.Reader with
+// workers goroutines and no event filter, so every row becomes a row of a
+// record batch, and sums the batches.
+func decodeIngest(path string, workers int) (decodeSum, error) {
+	srcs, err := ingest.FileSources([]string{path})
+	if err != nil {
+		return decodeSum{}, err
+	}
+	r, err := ingest.NewReader(srcs, ingest.Options{Mapping: ingest.DefaultMapping(), Workers: workers})
+	if err != nil {
+		return decodeSum{}, err
+	}
+	defer r.Close()
+	var s decodeSum
+	for r.Next() {
+		rec := r.Record()
+		ts := rec.Column(1).(*array.Timestamp).TimestampValues()
+		s.Rows += int64(len(ts))
+		for _, v := range ts {
+			s.TSSum += int64(v) / 1000 // the file holds microseconds
+		}
+		for _, c := range []int{0, 2, 3, 4} {
+			col := rec.Column(c).(*array.String)
+			s.Nulls += int64(col.NullN())
+			offs := col.ValueOffsets()
+			s.StrBytes += int64(offs[len(offs)-1] - offs[0])
+		}
+	}
+	return s, r.Err()
 }
 
 // eachRowGroup runs workers goroutines over the row groups 0..n-1. open
