@@ -465,6 +465,18 @@ func (t *Tallier) AddFiltered(rows, maxTS int64) {
 	}
 }
 
+// SeeTime raises the data's freshness (the largest ts read, the maturity
+// horizon of a spec without an end) to ts when it is later, without
+// counting a row. Talliers of the hash partitions of one input see the
+// whole input's freshness this way, so that their tallies merge exactly
+// (see MergeTallies).
+func (t *Tallier) SeeTime(ts int64) {
+	if !t.hasFresh || ts > t.fresh {
+		t.fin = nil
+		t.fresh, t.hasFresh = ts, true
+	}
+}
+
 // checkKeys refuses a run without an experiment key over exposures of
 // several experiments.
 func (t *Tallier) checkKeys() error {

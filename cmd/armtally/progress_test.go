@@ -209,6 +209,7 @@ func TestStartProgressStopBeforeFirstLine(t *testing.T) {
 // Progress.
 type fakeReader struct{}
 
+func (fakeReader) Schema() *arrow.Schema     { return nil }
 func (fakeReader) Next() bool                { return false }
 func (fakeReader) Record() arrow.RecordBatch { return nil }
 func (fakeReader) Err() error                { return nil }
