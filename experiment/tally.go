@@ -170,7 +170,7 @@ type Tallier struct {
 // tallyPart is one hash partition of the units.
 type tallyPart struct {
 	exposures
-	events []metricEvent
+	events chunked[metricEvent]
 	sink   uint64 // see unitIndex.touch
 }
 
@@ -403,7 +403,7 @@ func (t *Tallier) addPart(p int, users *array.String, ts []arrow.Timestamp, segs
 			if kind := t.rowKind[i]; kind == kindExposure {
 				pt.expose(u, t.rowArm[i], int64(ts[i]), segs, i)
 			} else {
-				pt.events = append(pt.events, metricEvent{unit: u, event: kind, ts: int64(ts[i])})
+				pt.events.add(metricEvent{unit: u, event: kind, ts: int64(ts[i])})
 			}
 		}
 	}
@@ -510,7 +510,8 @@ func (t *Tallier) finish() *finished {
 	for _, pt := range t.parts {
 		converted := make([]bool, pt.state.len()*nm)
 		f.converted = append(f.converted, converted)
-		for _, e := range pt.events {
+		for j := range pt.events.len() {
+			e := pt.events.at(j)
 			s := pt.state.at(int(e.unit))
 			switch {
 			case s.armAtT0 < 0:

@@ -17,7 +17,7 @@ type unitIndex struct {
 	slots []uint64
 	mask  uint32
 	arena []byte   // the keys, back to back
-	ends  []uint64 // ends[u] is the end of key u in arena; it starts at ends[u-1] (0 for u = 0)
+	ends  chunked[uint64] // ends[u] is the end of key u in arena; it starts at ends[u-1] (0 for u = 0)
 }
 
 const unitIndexMinSlots = 1 << 10
@@ -35,15 +35,16 @@ func newUnitIndexSeed(seed maphash.Seed) unitIndex {
 }
 
 // len returns the number of units.
-func (x *unitIndex) len() int { return len(x.ends) }
+func (x *unitIndex) len() int { return x.ends.len() }
 
 // key returns the bytes of unit u's key; they are not to be modified.
 func (x *unitIndex) key(u int32) []byte {
 	var lo uint64
 	if u > 0 {
-		lo = x.ends[u-1]
+		lo = *x.ends.at(int(u) - 1)
 	}
-	return x.arena[lo:x.ends[u]:x.ends[u]]
+	hi := *x.ends.at(int(u))
+	return x.arena[lo:hi:hi]
 }
 
 // keyString returns unit u's key as a fresh string.
@@ -74,11 +75,13 @@ func (x *unitIndex) lookupHashed(key string, hash uint64) (int32, bool) {
 			}
 		}
 	}
-	u := int32(len(x.ends))
+	u := int32(x.ends.len())
 	x.arena = append(x.arena, key...)
-	x.ends = append(x.ends, uint64(len(x.arena)))
-	// Keep the load at most one half.
-	if 2*len(x.ends) > len(x.slots) {
+	x.ends.add(uint64(len(x.arena)))
+	// Keep the load at most three quarters: with the hash bits in the
+	// slot, a probe rarely reads a key, and the smaller table means fewer
+	// fresh pages to fault in as it grows.
+	if 4*x.ends.len() > 3*len(x.slots) {
 		x.grow()
 	}
 	x.place(uint64(h)<<32 | uint64(uint32(u)+1))
@@ -94,8 +97,8 @@ func (x *unitIndex) touch(hash uint64) uint64 {
 	h := uint32(hash)
 	s := x.slots[h&x.mask]
 	if uint32(s>>32) == h {
-		if u := uint32(s) - 1; int(u) < len(x.ends) {
-			return s + x.ends[u]
+		if u := uint32(s) - 1; int(u) < x.ends.len() {
+			return s + *x.ends.at(int(u))
 		}
 	}
 	return s
