@@ -2,12 +2,13 @@ package experiment
 
 import (
 	"fmt"
+	"strings"
 	"testing"
 )
 
 // TestUnitIndex checks that keys are numbered in order of first sight and
-// read back exactly across many table growths, including the empty key
-// and keys that are prefixes of one another.
+// read back exactly across many table growths, including the empty key,
+// keys that are prefixes of one another and keys of megabytes.
 func TestUnitIndex(t *testing.T) {
 	x := newUnitIndex()
 	var keys []string
@@ -15,6 +16,10 @@ func TestUnitIndex(t *testing.T) {
 		keys = append(keys, fmt.Sprint(i), fmt.Sprint(i)+"x")
 	}
 	keys = append(keys, "", "\x00", "\x00\x00")
+	for i := range 40 { // 40 keys of 100,000 bytes
+		keys = append(keys, strings.Repeat(string(rune('a'+i%26)), 99_999)+fmt.Sprint(i%10))
+	}
+	keys = append(keys, strings.Repeat("z", 3<<20), "after-the-long-one", strings.Repeat("y", 1<<20), "tail")
 	for pass := range 2 {
 		for i, k := range keys {
 			u, seen := x.lookup(k)
