@@ -77,7 +77,8 @@ type pipeline struct {
 	stop    chan struct{}
 	wg      sync.WaitGroup
 	cur     rgResult // the row group being handed on
-	base    int64    // accounting.rowsRead when the file was opened
+	base    int64    // accounting.rowsRead when the file's first batch was asked for
+	baseSet bool
 }
 
 type rgTask struct {
@@ -86,10 +87,10 @@ type rgTask struct {
 }
 
 // startPipeline starts the dispatcher and the workers.
-func (r *parquetReader) startPipeline(workers int, a *accounting) {
+func (r *parquetReader) startPipeline(workers int, budget bool) {
 	n := len(r.rowGroups)
 	workers = max(1, min(workers, n))
-	pl := &pipeline{futures: make(chan chan rgResult, 2*workers), stop: make(chan struct{}), base: a.rowsRead}
+	pl := &pipeline{futures: make(chan chan rgResult, 2*workers), stop: make(chan struct{})}
 	r.pl = pl
 	tasks := make(chan rgTask)
 	pl.wg.Add(1 + workers)
@@ -114,7 +115,7 @@ func (r *parquetReader) startPipeline(workers int, a *accounting) {
 	for w := 0; w < workers; w++ {
 		go func() {
 			defer pl.wg.Done()
-			wk := r.newWorker(a.budget, pl.stop)
+			wk := r.newWorker(budget, pl.stop)
 			defer wk.close()
 			for t := range tasks {
 				t.out <- wk.run(t.rg)
@@ -150,9 +151,14 @@ func (r *parquetReader) nextBatch(workers int, a *accounting) (rec arrow.RecordB
 		if r.plDone {
 			return nil, io.EOF
 		}
-		r.startPipeline(workers, a)
+		r.startPipeline(workers, a.budget)
 	}
 	pl := r.pl
+	if !pl.baseSet {
+		// A file read ahead (Reader.readAhead) started before the
+		// rows of the files before it were counted.
+		pl.base, pl.baseSet = a.rowsRead, true
+	}
 	for len(pl.cur.recs) == 0 {
 		out, ok := <-pl.futures
 		if !ok {

@@ -180,3 +180,38 @@ func TestBulkPathCloseEarly(t *testing.T) {
 		}
 	}
 }
+
+// The next file is opened while the current one is read (Reader.readAhead);
+// its errors must still come only when the reader reaches it, after the
+// current file's rows and bad rows, as on the row-by-row path.
+func TestReadAheadKeepsErrorOrder(t *testing.T) {
+	rng := rand.New(rand.NewPCG(13, 17))
+	good := writeParquet(t, randomBulkRows(rng, 2000), parquet.MaxRowsPerRowGroup(300))
+	type other struct {
+		User string `parquet:"user_id"`
+	}
+	noTS := writeParquet(t, []other{{"u1"}, {"u2"}})
+	m := DefaultMapping()
+	srcs := []Source{BytesSource("a.parquet", good), BytesSource("b.parquet", good), BytesSource("c.parquet", noTS), BytesSource("d.parquet", good)}
+	for _, budget := range []int64{0, NoLimit} {
+		ref := Options{Mapping: m, MaxBadRows: budget, rowByRow: true}
+		wantRows, wantSt, wantErr := readAll(t, srcs, ref)
+		if wantErr == nil {
+			t.Fatalf("budget %d: no error from the file without a ts column", budget)
+		}
+		for _, workers := range []int{1, 3} {
+			o := Options{Mapping: m, MaxBadRows: budget, Workers: workers}
+			gotRows, gotSt, gotErr := readAll(t, srcs, o)
+			if fmt.Sprint(gotErr) != fmt.Sprint(wantErr) {
+				t.Fatalf("budget %d, workers %d: error %v, row by row %v", budget, workers, gotErr, wantErr)
+			}
+			if budget != 0 && !slices.Equal(gotRows, wantRows) {
+				t.Fatalf("budget %d, workers %d: %d rows, row by row %d", budget, workers, len(gotRows), len(wantRows))
+			}
+			gotSt.Rows = wantSt.Rows
+			if fmt.Sprintf("%+v", gotSt) != fmt.Sprintf("%+v", wantSt) {
+				t.Fatalf("budget %d, workers %d: stats\n%+v\nrow by row\n%+v", budget, workers, gotSt, wantSt)
+			}
+		}
+	}
+}

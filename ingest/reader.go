@@ -167,6 +167,11 @@ type Reader struct {
 	closed bool
 
 	progress atomic.Int64 // rows read, as of the last batch (see Progress)
+
+	// The next source, opened while the current one is read (see
+	// readAhead), or the error opening it, reported when it is reached.
+	ahead    fileReader
+	aheadErr error
 }
 
 // fileReader reads the rows of one source.
@@ -240,16 +245,23 @@ func (r *Reader) Next() bool {
 	}
 	for {
 		if r.cur == nil {
-			if r.next >= len(r.sources) {
+			if r.next >= len(r.sources) && r.ahead == nil && r.aheadErr == nil {
 				if !r.ended {
 					r.ended = true
 					r.err = r.acct.endCheck()
 				}
 				return false
 			}
-			src := r.sources[r.next]
-			r.next++
-			fr, err := openFile(src, r.plan)
+			var fr fileReader
+			var err error
+			if r.ahead != nil || r.aheadErr != nil {
+				fr, err = r.ahead, r.aheadErr
+				r.ahead, r.aheadErr = nil, nil
+			} else {
+				src := r.sources[r.next]
+				r.next++
+				fr, err = openFile(src, r.plan)
+			}
 			if err != nil {
 				r.err = err
 				return false
@@ -262,6 +274,9 @@ func (r *Reader) Next() bool {
 		}
 		if pr, ok := r.cur.(*parquetReader); ok && pr.bulk {
 			rec, err := pr.nextBatch(r.workers, &r.acct)
+			if err == nil || err == io.EOF {
+				r.readAhead()
+			}
 			r.progress.Store(r.acct.rowsRead)
 			if err == io.EOF {
 				err = r.cur.close()
@@ -331,12 +346,40 @@ func (r *Reader) Close() error {
 		r.bld.release()
 		r.bld = nil
 	}
-	if r.cur != nil {
-		err := r.cur.close()
-		r.cur = nil
-		return err
+	var errs []error
+	if r.ahead != nil {
+		errs = append(errs, r.ahead.close())
+		r.ahead = nil
 	}
-	return nil
+	if r.cur != nil {
+		errs = append(errs, r.cur.close())
+		r.cur = nil
+	}
+	return errors.Join(errs...)
+}
+
+// readAhead opens the next source while the current one, a Parquet file
+// read by the bulk path, is still being read, and starts decoding it when
+// it is a Parquet file too: the workers of both keep the cores busy across
+// the boundary, which matters for logs of many small files (one row group
+// each is common in partitioned exports). An error opening it is kept
+// until the reader reaches it.
+func (r *Reader) readAhead() {
+	if r.ahead != nil || r.aheadErr != nil || r.next >= len(r.sources) || r.sources[r.next].kind != formatParquet {
+		return
+	}
+	src := r.sources[r.next]
+	r.next++
+	fr, err := openFile(src, r.plan)
+	if err != nil {
+		r.aheadErr = err
+		return
+	}
+	r.ahead = fr
+	if pr, ok := fr.(*parquetReader); ok && pr.bulk {
+		pr.mem, pr.batchSize = r.mem, r.batchSize
+		pr.startPipeline(r.workers, r.acct.budget)
+	}
 }
 
 func openFile(src Source, p *plan) (fileReader, error) {
