@@ -260,7 +260,7 @@ func (r *Reader) Next() bool {
 			} else {
 				src := r.sources[r.next]
 				r.next++
-				fr, err = openFile(src, r.plan)
+				fr, err = r.open(src)
 			}
 			if err != nil {
 				r.err = err
@@ -268,9 +268,6 @@ func (r *Reader) Next() bool {
 			}
 			r.acct.files++
 			r.cur = fr
-			if pr, ok := fr.(*parquetReader); ok {
-				pr.mem, pr.batchSize = r.mem, r.batchSize
-			}
 		}
 		if pr, ok := r.cur.(*parquetReader); ok && pr.bulk {
 			rec, err := pr.nextBatch(r.workers, &r.acct)
@@ -370,16 +367,24 @@ func (r *Reader) readAhead() {
 	}
 	src := r.sources[r.next]
 	r.next++
-	fr, err := openFile(src, r.plan)
+	fr, err := r.open(src)
 	if err != nil {
 		r.aheadErr = err
 		return
 	}
 	r.ahead = fr
 	if pr, ok := fr.(*parquetReader); ok && pr.bulk {
-		pr.mem, pr.batchSize = r.mem, r.batchSize
 		pr.startPipeline(r.workers, r.acct.budget)
 	}
+}
+
+// open opens a source with the reader's settings.
+func (r *Reader) open(src Source) (fileReader, error) {
+	fr, err := openFile(src, r.plan)
+	if pr, ok := fr.(*parquetReader); ok && err == nil {
+		pr.mem, pr.batchSize = r.mem, r.batchSize
+	}
+	return fr, err
 }
 
 func openFile(src Source, p *plan) (fileReader, error) {
