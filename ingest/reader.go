@@ -168,10 +168,16 @@ type Reader struct {
 
 	progress atomic.Int64 // rows read, as of the last batch (see Progress)
 
-	// The next source, opened while the current one is read (see
-	// readAhead), or the error opening it, reported when it is reached.
-	ahead    fileReader
-	aheadErr error
+	// The next sources, opened while the current one is read (see
+	// readAhead), each with the error opening it, reported when the
+	// reader reaches it.
+	ahead []openedFile
+}
+
+// openedFile is a source opened ahead, or the error opening it.
+type openedFile struct {
+	fr  fileReader
+	err error
 }
 
 // fileReader reads the rows of one source.
@@ -245,7 +251,7 @@ func (r *Reader) Next() bool {
 	}
 	for {
 		if r.cur == nil {
-			if r.next >= len(r.sources) && r.ahead == nil && r.aheadErr == nil {
+			if r.next >= len(r.sources) && len(r.ahead) == 0 {
 				if !r.ended {
 					r.ended = true
 					r.err = r.acct.endCheck()
@@ -254,9 +260,9 @@ func (r *Reader) Next() bool {
 			}
 			var fr fileReader
 			var err error
-			if r.ahead != nil || r.aheadErr != nil {
-				fr, err = r.ahead, r.aheadErr
-				r.ahead, r.aheadErr = nil, nil
+			if len(r.ahead) > 0 {
+				fr, err = r.ahead[0].fr, r.ahead[0].err
+				r.ahead = r.ahead[1:]
 			} else {
 				src := r.sources[r.next]
 				r.next++
@@ -344,10 +350,12 @@ func (r *Reader) Close() error {
 		r.bld = nil
 	}
 	var errs []error
-	if r.ahead != nil {
-		errs = append(errs, r.ahead.close())
-		r.ahead = nil
+	for _, a := range r.ahead {
+		if a.fr != nil {
+			errs = append(errs, a.fr.close())
+		}
 	}
+	r.ahead = nil
 	if r.cur != nil {
 		errs = append(errs, r.cur.close())
 		r.cur = nil
@@ -355,26 +363,25 @@ func (r *Reader) Close() error {
 	return errors.Join(errs...)
 }
 
-// readAhead opens the next source while the current one, a Parquet file
-// read by the bulk path, is still being read, and starts decoding it when
-// it is a Parquet file too: the workers of both keep the cores busy across
-// the boundary, which matters for logs of many small files (one row group
-// each is common in partitioned exports). An error opening it is kept
-// until the reader reaches it.
+// readAhead opens up to Workers of the next sources while the current one,
+// a Parquet file read by the bulk path, is still being read, and starts
+// decoding those that are Parquet files too: the workers of all of them
+// keep the cores busy across file boundaries, which matters for logs of
+// many small files (one row group each is common in partitioned exports).
+// It stops at the first source that is not Parquet or cannot be opened;
+// that error is kept until the reader reaches it.
 func (r *Reader) readAhead() {
-	if r.ahead != nil || r.aheadErr != nil || r.next >= len(r.sources) || r.sources[r.next].kind != formatParquet {
-		return
-	}
-	src := r.sources[r.next]
-	r.next++
-	fr, err := r.open(src)
-	if err != nil {
-		r.aheadErr = err
-		return
-	}
-	r.ahead = fr
-	if pr, ok := fr.(*parquetReader); ok && pr.bulk {
-		pr.startPipeline(r.workers, r.acct.budget)
+	for len(r.ahead) < r.workers && r.next < len(r.sources) && r.sources[r.next].kind == formatParquet {
+		if n := len(r.ahead); n > 0 && r.ahead[n-1].err != nil {
+			return
+		}
+		src := r.sources[r.next]
+		r.next++
+		fr, err := r.open(src)
+		r.ahead = append(r.ahead, openedFile{fr: fr, err: err})
+		if pr, ok := fr.(*parquetReader); ok && err == nil && pr.bulk {
+			pr.startPipeline(r.workers, r.acct.budget)
+		}
 	}
 }
 
