@@ -16,7 +16,7 @@ type unitIndex struct {
 	seed  maphash.Seed
 	slots []uint64
 	mask  uint32
-	arena []byte   // the keys, back to back
+	arena []byte          // the keys, back to back
 	ends  chunked[uint64] // ends[u] is the end of key u in arena; it starts at ends[u-1] (0 for u = 0)
 }
 
