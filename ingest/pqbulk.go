@@ -443,7 +443,7 @@ type bulkColumn struct {
 	*pqColumn
 	cells  []cell   // text: the window's values; they point into pages
 	ts     []tsCell // ts: the window's values
-	events map[string]bool
+	events *nameSet
 	keep   []bool // event column with a filter: the window's verdicts
 
 	pages   parquet.Pages
@@ -529,7 +529,7 @@ func (c *bulkColumn) fillText(k, m int) error {
 		s := unsafe.String(unsafe.SliceData(b), len(b))
 		cells[j] = cell{s: s}
 		if keep != nil {
-			keep[j] = c.events[s]
+			keep[j] = c.events.has(s)
 		}
 	}
 	return nil
@@ -643,7 +643,7 @@ func (c *bulkColumn) readDictionary(d parquet.Dictionary) error {
 	if c.keep != nil {
 		c.dictKeep = c.dictKeep[:0]
 		for _, s := range c.dictStr {
-			c.dictKeep = append(c.dictKeep, c.events[s])
+			c.dictKeep = append(c.dictKeep, c.events.has(s))
 		}
 	}
 	return nil

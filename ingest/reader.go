@@ -545,9 +545,9 @@ type plan struct {
 	schema    *arrow.Schema
 	// planned maps an experiment key to its planned arms (see
 	// Options.PlannedArms); nil checks nothing.
-	planned map[string]map[string]bool
+	planned *plannedArms
 	// events is the set of Options.Events; nil keeps every event.
-	events map[string]bool
+	events *nameSet
 	// rowByRow is Options.rowByRow.
 	rowByRow bool
 }
@@ -555,7 +555,7 @@ type plan struct {
 // keep reports whether a valid row goes into the batches: its event is
 // wanted (see Options.Events).
 func (p *plan) keep(r *row) bool {
-	return p.events == nil || p.events[r.cells[colEvent].s]
+	return p.events == nil || p.events.has(r.cells[colEvent].s)
 }
 
 func newPlan(opts Options) (*plan, error) {
@@ -570,20 +570,10 @@ func newPlan(opts Options) (*plan, error) {
 		if p.exposure == "" {
 			return nil, errors.New("planned arms need the exposure event")
 		}
-		p.planned = make(map[string]map[string]bool, len(opts.PlannedArms))
-		for key, arms := range opts.PlannedArms {
-			set := make(map[string]bool, len(arms))
-			for _, a := range arms {
-				set[a] = true
-			}
-			p.planned[key] = set
-		}
+		p.planned = newPlannedArms(opts.PlannedArms)
 	}
 	if len(opts.Events) > 0 {
-		p.events = make(map[string]bool, len(opts.Events))
-		for _, e := range opts.Events {
-			p.events[e] = true
-		}
+		p.events = newNameSet(opts.Events)
 	}
 	if d := opts.Delimiter; d != 0 {
 		if d == '"' || d == '\r' || d == '\n' || d == utf8.RuneError || !utf8.ValidRune(d) {
@@ -678,11 +668,7 @@ func (p *plan) check(r *row) (col int, reason error) {
 			if p.expCol >= 0 && !r.cells[p.expCol].null {
 				key = r.cells[p.expCol].s
 			}
-			arms, ok := p.planned[key]
-			if !ok {
-				arms, ok = p.planned[""]
-			}
-			if ok && !arms[a.s] {
+			if arms := p.planned.of(key); arms != nil && !arms.has(a.s) {
 				return p.armCol, ErrUnknownArm
 			}
 		}
