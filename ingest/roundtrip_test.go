@@ -9,7 +9,7 @@ import (
 	"github.com/parquet-go/parquet-go"
 )
 
-func writeParquet[T any](t *testing.T, rows []T, opts ...parquet.WriterOption) []byte {
+func writeParquet[T any](t testing.TB, rows []T, opts ...parquet.WriterOption) []byte {
 	t.Helper()
 	var buf bytes.Buffer
 	w := parquet.NewGenericWriter[T](&buf, opts...)
