@@ -19,9 +19,9 @@ const pFloor = 0.0001
 // percentage points and statistics.
 const maxDecimals = 6
 
-// formatCount prints a count with comma thousands separators: 1234567 is
-// "1,234,567".
-func formatCount(n int64) string {
+// FormatCount prints a count with comma thousands separators: 1234567 is
+// "1,234,567". The command's progress line uses it too.
+func FormatCount(n int64) string {
 	s := strconv.FormatInt(n, 10)
 	neg := strings.HasPrefix(s, "-")
 	if neg {
@@ -269,10 +269,10 @@ func formatDuration(seconds int64) string {
 			if n == 1 {
 				return "1 " + u.name
 			}
-			return formatCount(n) + " " + u.name + "s"
+			return FormatCount(n) + " " + u.name + "s"
 		}
 	}
-	return formatCount(seconds) + " seconds"
+	return FormatCount(seconds) + " seconds"
 }
 
 // formatReason turns a snake_case reason into words: "bad_timestamp" is

@@ -14,11 +14,14 @@ func TestFormatNumbers(t *testing.T) {
 		got  string
 		want string
 	}{
-		{"count zero", formatCount(0), "0"},
-		{"count below a thousand", formatCount(999), "999"},
-		{"count thousands", formatCount(1000), "1,000"},
-		{"count millions", formatCount(1482913), "1,482,913"},
-		{"count negative", formatCount(-1234567), "-1,234,567"},
+		{"count zero", FormatCount(0), "0"},
+		{"count below a thousand", FormatCount(999), "999"},
+		{"count thousands", FormatCount(1000), "1,000"},
+		{"count millions", FormatCount(1482913), "1,482,913"},
+		{"count negative", FormatCount(-1234567), "-1,234,567"},
+		{"count five digits", FormatCount(12345), "12,345"},
+		{"count six digits", FormatCount(123456), "123,456"},
+		{"count largest", FormatCount(9223372036854775807), "9,223,372,036,854,775,807"}, // math.MaxInt64
 		// 0.12204 * 100 = 12.204: two decimals
 		{"percent", formatPercent(0.12204081632653062), "12.20%"},
 		{"percent zero", formatPercent(0), "0.00%"},

@@ -44,7 +44,7 @@ func (md *markdown) header(r experiment.Readout) {
 	md.line("- Data freshness: " + fresh)
 	md.line(fmt.Sprintf("- Settings: alpha %s, %s confidence intervals, %s tests; multi-arm units: %s; immature units: %s; normal approximation when each arm has at least %s conversions and %s non-conversions; sample-ratio threshold %s",
 		formatAlpha(s.Alpha), formatLevel(s.ConfidenceLevel), alternativeName(s.Alternative),
-		s.MultiArmPolicy, s.MaturityPolicy, formatCount(s.MinCount), formatCount(s.MinCount),
+		s.MultiArmPolicy, s.MaturityPolicy, FormatCount(s.MinCount), FormatCount(s.MinCount),
 		formatAlpha(s.SampleRatioThreshold)))
 	md.line("- Methods: " + methods(r))
 	if s.Alternative == "greater" || s.Alternative == "less" {
@@ -127,19 +127,19 @@ func (md *markdown) warnings(r experiment.Readout) {
 		if r.Settings.MultiArmPolicy == "first" {
 			what = "kept in the arm of their first exposure (multi-arm policy first)"
 		}
-		list = append(list, fmt.Sprintf("%s %s exposed to more than one arm and %s.", formatCount(d.MultiArmUnits), unitsWere(d.MultiArmUnits), what))
+		list = append(list, fmt.Sprintf("%s %s exposed to more than one arm and %s.", FormatCount(d.MultiArmUnits), unitsWere(d.MultiArmUnits), what))
 	}
 	if d.TiedUnits > 0 {
-		list = append(list, fmt.Sprintf("%s %s first exposed to two arms at the same instant and left out.", formatCount(d.TiedUnits), unitsWere(d.TiedUnits)))
+		list = append(list, fmt.Sprintf("%s %s first exposed to two arms at the same instant and left out.", FormatCount(d.TiedUnits), unitsWere(d.TiedUnits)))
 	}
 	for _, im := range d.Immature {
 		if im.Units == 0 {
 			continue
 		}
 		if r.Settings.MaturityPolicy == "include" {
-			list = append(list, fmt.Sprintf("%s: %s %s counted before their attribution window closed; their conversions may still come.", code(im.Metric), formatCount(im.Units), unitsWere(im.Units)))
+			list = append(list, fmt.Sprintf("%s: %s %s counted before their attribution window closed; their conversions may still come.", code(im.Metric), FormatCount(im.Units), unitsWere(im.Units)))
 		} else {
-			list = append(list, fmt.Sprintf("%s: %s %s left out because their attribution window had not closed.", code(im.Metric), formatCount(im.Units), unitsWere(im.Units)))
+			list = append(list, fmt.Sprintf("%s: %s %s left out because their attribution window had not closed.", code(im.Metric), FormatCount(im.Units), unitsWere(im.Units)))
 		}
 	}
 	for _, m := range r.Metrics {
@@ -278,7 +278,7 @@ func (md *markdown) arms(r experiment.Readout) {
 	md.heading(1, "Arms")
 	rows := make([][]string, 0, len(r.Arms))
 	for _, a := range r.Arms {
-		rows = append(rows, []string{armLabel(a.Name, r.Control), formatCount(a.Units), formatShare(a.PlannedShare), formatShare(a.ObservedShare)})
+		rows = append(rows, []string{armLabel(a.Name, r.Control), FormatCount(a.Units), formatShare(a.PlannedShare), formatShare(a.ObservedShare)})
 	}
 	md.table([]string{"Arm", "Units", "Planned share", "Observed share"}, "lrrr", rows)
 	sr := r.SampleRatio
@@ -319,7 +319,7 @@ func (md *markdown) metric(r experiment.Readout, m experiment.MetricReadout) {
 			interval = formatPercent(a.Interval.Lower) + " to " + formatPercent(a.Interval.Upper)
 			method = a.Interval.Method + ", " + formatLevel(a.Interval.Level)
 		}
-		rows = append(rows, []string{armLabel(a.Arm, r.Control), formatCount(a.Units), formatCount(a.Conversions), rate, interval, method, formatCount(a.Immature)})
+		rows = append(rows, []string{armLabel(a.Arm, r.Control), FormatCount(a.Units), FormatCount(a.Conversions), rate, interval, method, FormatCount(a.Immature)})
 	}
 	md.table([]string{"Arm", "Units", "Conversions", "Rate", "Interval", "Interval method", "Immature (left out)"}, "lrrrrlr", rows)
 	n.add(m.Warnings...)
@@ -560,25 +560,25 @@ func (md *markdown) diagnostics(r experiment.Readout) {
 	md.heading(1, "Diagnostics")
 	rows := [][]string{
 		{"Input", inputName(d.Input)},
-		{"Rows read", formatCount(d.RowsRead)},
-		{"Bad rows", formatCount(sumReasons(d.BadRows))},
+		{"Rows read", FormatCount(d.RowsRead)},
+		{"Bad rows", FormatCount(sumReasons(d.BadRows))},
 	}
 	for _, rc := range d.BadRows {
-		rows = append(rows, []string{"Bad rows: " + formatReason(rc.Reason), formatCount(rc.Count)})
+		rows = append(rows, []string{"Bad rows: " + formatReason(rc.Reason), FormatCount(rc.Count)})
 	}
 	// Counts cannot show exposure rows or units in two arms.
 	unknown := func(n int64) string {
 		if d.Input == "counts" {
 			return "n/a (not in counts)"
 		}
-		return formatCount(n)
+		return FormatCount(n)
 	}
 	rows = append(rows,
 		[]string{"Exposure rows of this experiment (in or out of the window)", unknown(d.ExposureRows)},
-		[]string{"Units exposed in the window", formatCount(d.UnitsExposed)},
+		[]string{"Units exposed in the window", FormatCount(d.UnitsExposed)},
 	)
 	for _, a := range d.UnitsPerArm {
-		rows = append(rows, []string{"Units in arm " + armLabel(a.Arm, r.Control), formatCount(a.Units)})
+		rows = append(rows, []string{"Units in arm " + armLabel(a.Arm, r.Control), FormatCount(a.Units)})
 	}
 	rows = append(rows,
 		[]string{"Multi-arm units (policy " + r.Settings.MultiArmPolicy + ")", unknown(d.MultiArmUnits)},
@@ -588,13 +588,13 @@ func (md *markdown) diagnostics(r experiment.Readout) {
 	for _, im := range d.Immature {
 		immature += im.Units
 	}
-	rows = append(rows, []string{"Immature units (policy " + r.Settings.MaturityPolicy + ")", formatCount(immature)})
+	rows = append(rows, []string{"Immature units (policy " + r.Settings.MaturityPolicy + ")", FormatCount(immature)})
 	for _, im := range d.Immature {
-		rows = append(rows, []string{"Immature units: " + code(im.Metric), formatCount(im.Units)})
+		rows = append(rows, []string{"Immature units: " + code(im.Metric), FormatCount(im.Units)})
 	}
-	rows = append(rows, []string{"Ignored events", formatCount(sumReasons(d.IgnoredEvents))})
+	rows = append(rows, []string{"Ignored events", FormatCount(sumReasons(d.IgnoredEvents))})
 	for _, rc := range d.IgnoredEvents {
-		rows = append(rows, []string{"Ignored events: " + formatReason(rc.Reason), formatCount(rc.Count)})
+		rows = append(rows, []string{"Ignored events: " + formatReason(rc.Reason), FormatCount(rc.Count)})
 	}
 	md.table([]string{"Count", "Value"}, "lr", rows)
 }

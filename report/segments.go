@@ -49,7 +49,7 @@ func (md *markdown) segments(r experiment.Readout, m experiment.MetricReadout) {
 					rate += " (" + formatPercent(iv.Lower) + " to " + formatPercent(iv.Upper) + ")"
 				}
 			}
-			row := []string{label, armLabel(a.Arm, r.Control), formatCount(a.Units), formatCount(a.Conversions), rate}
+			row := []string{label, armLabel(a.Arm, r.Control), FormatCount(a.Units), FormatCount(a.Conversions), rate}
 			c := segmentComparison(s, a.Arm)
 			if c == nil {
 				row = append(row, "", "", "", "")

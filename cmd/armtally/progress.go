@@ -8,6 +8,8 @@ import (
 	"strings"
 	"sync"
 	"time"
+
+	"github.com/armtally/armtally/report"
 )
 
 // progressInterval is how often the progress line is redrawn.
@@ -121,26 +123,7 @@ func progressLine(rows int64, elapsed time.Duration) string {
 	if elapsed > 0 {
 		rate = float64(rows) / elapsed.Seconds()
 	}
-	return "reading: " + formatCount(rows) + " rows, " + formatRate(rate) + " rows/s, " + formatElapsed(elapsed)
-}
-
-// formatCount writes n in decimal with a comma between groups of three
-// digits: 1234567 is "1,234,567".
-func formatCount(n int64) string {
-	s := strconv.FormatInt(n, 10)
-	sign := ""
-	if n < 0 {
-		sign, s = "-", s[1:]
-	}
-	var b strings.Builder
-	b.WriteString(sign)
-	for i, c := range s {
-		if i > 0 && (len(s)-i)%3 == 0 {
-			b.WriteByte(',')
-		}
-		b.WriteRune(c)
-	}
-	return b.String()
+	return "reading: " + report.FormatCount(rows) + " rows, " + formatRate(rate) + " rows/s, " + formatElapsed(elapsed)
 }
 
 // formatRate writes a rate per second with three significant digits and an

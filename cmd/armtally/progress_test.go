@@ -20,27 +20,6 @@ import (
 // SI prefixes k = 10^3, M = 10^6, G = 10^9, T = 10^12 and the grouping of
 // digits in threes with commas are common practice.
 
-func TestFormatCount(t *testing.T) {
-	for _, tc := range []struct {
-		n    int64
-		want string
-	}{
-		{0, "0"},
-		{7, "7"},
-		{999, "999"},
-		{1000, "1,000"},
-		{12345, "12,345"},
-		{123456, "123,456"},
-		{1234567, "1,234,567"},
-		{-1234567, "-1,234,567"},
-		{9223372036854775807, "9,223,372,036,854,775,807"}, // math.MaxInt64
-	} {
-		if got := formatCount(tc.n); got != tc.want {
-			t.Errorf("formatCount(%d) = %q, want %q", tc.n, got, tc.want)
-		}
-	}
-}
-
 func TestFormatRate(t *testing.T) {
 	for _, tc := range []struct {
 		v    float64
