@@ -350,8 +350,9 @@ func orderArms(spec Spec, arms []ArmTally) {
 //   - for counts tables, the parts hold disjoint units (a unit counted in
 //     two parts is counted twice).
 //
-// Freshness is the largest of the parts'; experiment keys are the union;
-// every other counter is the sum. All parts must come from the same input
+// Freshness is the largest of the parts'; experiment keys are the union,
+// and a spec without a key whose parts together carry several is refused
+// as the whole input would be; every other counter is the sum. All parts must come from the same input
 // shape and have the spec's metrics and segment dimensions.
 func MergeTallies(spec Spec, parts ...Tally) (Tally, error) {
 	if len(parts) == 0 {
@@ -452,6 +453,11 @@ func MergeTallies(spec Spec, parts ...Tally) (Tally, error) {
 		out.Diag.ExperimentKeys = append(out.Diag.ExperimentKeys, k)
 	}
 	sort.Strings(out.Diag.ExperimentKeys)
+	// Each part saw only its own keys: the whole may be ambiguous where no
+	// part was, and is refused as Tallier.Tally refuses it.
+	if spec.Key == "" && len(out.Diag.ExperimentKeys) > 1 {
+		return Tally{}, ambiguousKeys(out.Diag.ExperimentKeys)
+	}
 	orderArms(spec, out.Arms)
 	return out, nil
 }

@@ -528,4 +528,19 @@ func TestMergeTallies(t *testing.T) {
 	if _, err := MergeTallies(spec2(), Tally{}, Tally{Input: InputCounts}); err == nil {
 		t.Error("tallies of two input shapes merged")
 	}
+	// Two parts, each with exposures of one experiment: without a key the
+	// whole is ambiguous, as Tally would say of the unsplit log.
+	spec := spec2()
+	spec.Key = ""
+	a := tally(t, spec, []row{seen("a", 0, "control")}, 0)
+	other := seen("b", hour, "treat")
+	other.exp = "exp-other"
+	b := tally(t, spec, []row{other}, 0)
+	want := ambiguousKeys([]string{"exp", "exp-other"}).Error()
+	if _, err := tallier(t, spec, []row{seen("a", 0, "control"), other}, 0).Tally(); err == nil || err.Error() != want {
+		t.Fatalf("the unsplit log: %v, want %q", err, want)
+	}
+	if _, err := MergeTallies(spec, a, b); err == nil || err.Error() != want {
+		t.Errorf("merged parts of two experiments without a key: %v, want %q", err, want)
+	}
 }

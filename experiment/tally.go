@@ -481,10 +481,15 @@ func (t *Tallier) SeeTime(ts int64) {
 // several experiments.
 func (t *Tallier) checkKeys() error {
 	if t.spec.Key == "" && len(t.expKeys) > 1 {
-		keys := t.experimentKeys()
-		return fmt.Errorf("exposure rows carry %d experiment keys (%s): choose one", len(keys), strings.Join(keys, ", "))
+		return ambiguousKeys(t.experimentKeys())
 	}
 	return nil
+}
+
+// ambiguousKeys is the error of a run without an experiment key over
+// exposure rows of the sorted keys.
+func ambiguousKeys(keys []string) error {
+	return fmt.Errorf("exposure rows carry %d experiment keys (%s): choose one", len(keys), strings.Join(keys, ", "))
 }
 
 func (t *Tallier) experimentKeys() []string {

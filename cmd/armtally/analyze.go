@@ -701,11 +701,7 @@ func tallySpilled(run *analyzeRun, spill *ingest.Spill, st ingest.Stats) ([]expe
 	for i, e := range run.experiments {
 		t, err := experiment.MergeTallies(e.spec, parts[i]...)
 		if err != nil {
-			return nil, err
-		}
-		// Each group judged only its own experiment keys.
-		if keys := t.Diag.ExperimentKeys; e.spec.Key == "" && len(keys) > 1 {
-			return nil, &dataError{fmt.Errorf("exposure rows carry %d experiment keys (%s): choose one", len(keys), strings.Join(keys, ", "))}
+			return nil, &dataError{err}
 		}
 		out[i] = t
 	}
