@@ -589,7 +589,7 @@ func (c *pqColumn) timestamp(v parquet.Value) (int64, error, cell) {
 		}
 		ns, ok := fromEpoch(x, c.unit)
 		if !ok {
-			return 0, ErrTimestampRange, cell{s: strconv.FormatInt(x, 10) + " " + unitName(c.unit)}
+			return 0, ErrTimestampRange, epochText(x, c.unit)
 		}
 		return ns, nil, cell{}
 	case kindTSDate:
@@ -608,6 +608,12 @@ func (c *pqColumn) timestamp(v parquet.Value) (int64, error, cell) {
 		return ns, nil, cell{}
 	}
 	return 0, ErrBadTimestamp, cell{}
+}
+
+// epochText is how an integer timestamp out of range shows in an error:
+// the count and its unit, "4611686018427387904 ms".
+func epochText(v, unitNanos int64) cell {
+	return cell{s: strconv.FormatInt(v, 10) + " " + unitName(unitNanos)}
 }
 
 func unitName(nanos int64) string {

@@ -5,7 +5,6 @@ import (
 	"fmt"
 	"io"
 	"math"
-	"strconv"
 	"sync"
 	"unsafe"
 
@@ -61,7 +60,7 @@ type rgResult struct {
 	filtered int64
 	fMaxTS   int64
 	err      error // after the bad rows
-	rgIndex  int
+	rg       int   // the row group
 }
 
 func (res *rgResult) release() {
@@ -174,7 +173,7 @@ func (r *parquetReader) nextBatch(workers int, a *accounting) (rec arrow.RecordB
 				return nil, err
 			}
 		}
-		a.rowsRead = pl.base + r.rowStart(res.rg()) + res.rows
+		a.rowsRead = pl.base + r.rgStart[res.rg] + res.rows
 		a.addFiltered(res.filtered, res.fMaxTS)
 		if res.err != nil {
 			return nil, res.err
@@ -186,12 +185,6 @@ func (r *parquetReader) nextBatch(workers int, a *accounting) (rec arrow.RecordB
 	return rec, nil
 }
 
-// rowStart returns the number of rows in the row groups before rg.
-func (r *parquetReader) rowStart(rg int) int64 { return r.rgStart[rg] }
-
-// rg is stored in the result so that the reader knows where it is.
-func (res *rgResult) rg() int { return res.rgIndex }
-
 // rgWorker decodes row groups for one pipeline.
 type rgWorker struct {
 	r      *parquetReader
@@ -202,7 +195,6 @@ type rgWorker struct {
 	cols   []*bulkColumn // per logical column; nil for a partition column
 	bld    *batchBuilder
 	row    row
-	keep   []bool // per window row: the row's event is wanted
 }
 
 func (r *parquetReader) newWorker(budget bool, stop <-chan struct{}) *rgWorker {
@@ -244,7 +236,7 @@ func (w *rgWorker) close() {
 // run decodes row group rg.
 func (w *rgWorker) run(rg int) (res rgResult) {
 	r := w.r
-	res.rgIndex = rg
+	res.rg = rg
 	defer func() {
 		// Last-resort guard, as in parquetReader.read.
 		if v := recover(); v != nil {
@@ -284,7 +276,7 @@ func (w *rgWorker) run(rg int) (res rgResult) {
 		}
 		c.open(chunks[c.index].Pages())
 	}
-	base := r.rowStart(rg)
+	base := r.rgStart[rg]
 	batch := 0
 	// fast: user, ts and event come from the file and there is a filter.
 	uc, tc, ec := w.cols[colUser], w.cols[colTS], w.cols[colEvent]
@@ -297,7 +289,7 @@ func (w *rgWorker) run(rg int) (res rgResult) {
 		default:
 		}
 		n := int(min(int64(bulkWindow), rgRows-done))
-		for i, c := range w.cols {
+		for _, c := range w.cols {
 			if c == nil {
 				continue
 			}
@@ -306,12 +298,9 @@ func (w *rgWorker) run(rg int) (res rgResult) {
 				res.err = chunkError(r.file, rg, c.name, rgRows, err)
 				return res
 			}
-			if i == colEvent && c.keep != nil {
-				w.keep = c.keep
-			}
 		}
 		for k := 0; k < n; k++ {
-			if fast && !w.keep[k] {
+			if fast && !ec.keep[k] {
 				// A row of an unwanted event: valid when its user,
 				// ts and event are (it is no exposure), and then
 				// only counted; otherwise the full rules below.
@@ -346,7 +335,7 @@ func (w *rgWorker) run(rg int) (res rgResult) {
 				}
 				continue
 			}
-			if w.keep != nil && !w.keep[k] || w.keep == nil && !r.p.keep(row) {
+			if !r.p.keep(row) {
 				if res.filtered == 0 || row.ts > res.fMaxTS {
 					res.fMaxTS = row.ts
 				}
@@ -433,7 +422,7 @@ func (t tsCell) get(unit int64) (int64, error, cell) {
 	case tsNull:
 		return 0, ErrNullTimestamp, cell{null: true}
 	case tsRange:
-		return 0, ErrTimestampRange, cell{s: strconv.FormatInt(t.v, 10) + " " + unitName(unit)}
+		return 0, ErrTimestampRange, epochText(t.v, unit)
 	}
 	return t.ns, nil, cell{}
 }
