@@ -7,8 +7,6 @@ import (
 	"testing"
 
 	"github.com/parquet-go/parquet-go"
-
-	"github.com/armtally/armtally/experiment"
 )
 
 // budgetCSV has 10 data rows on lines 2-11: 2 good (lines 2 and 11) and 8
@@ -32,7 +30,7 @@ func TestErrorBudget(t *testing.T) {
 	src := []Source{BytesSource("b.csv", []byte(budgetCSV))}
 	// Counted by hand from the comments in budgetCSV, in the order of the
 	// Reason constants.
-	allBad := []experiment.ReasonCount{
+	allBad := []BadRowCount{
 		{Reason: "null_user", Count: 2},
 		{Reason: "null_timestamp", Count: 1},
 		{Reason: "bad_timestamp", Count: 1},
@@ -62,13 +60,13 @@ func TestErrorBudget(t *testing.T) {
 		maxShare  float64
 		rows      []string // delivered, when there is no error
 		read      int64
-		bad       []experiment.ReasonCount
+		bad       []BadRowCount
 		first     []string
 		err       string // "" for none
 		budgetErr bool
 	}{
 		{name: "no budget: the first bad row stops", read: 2,
-			bad: []experiment.ReasonCount{{Reason: "null_user", Count: 1}}, first: allFirst[:1], err: allFirst[0]},
+			bad: []BadRowCount{{Reason: "null_user", Count: 1}}, first: allFirst[:1], err: allFirst[0]},
 		{name: "no limit", maxRows: NoLimit, rows: good, read: 10, bad: allBad, first: allFirst},
 		// 8 bad rows are not more than 8.
 		{name: "count at the limit", maxRows: 8, rows: good, read: 10, bad: allBad, first: allFirst},
@@ -136,7 +134,7 @@ func TestErrorBudget(t *testing.T) {
 	}
 }
 
-func equalReasons(a, b []experiment.ReasonCount) bool {
+func equalReasons(a, b []BadRowCount) bool {
 	if len(a) != len(b) {
 		return false
 	}
@@ -192,7 +190,7 @@ func TestErrorBudgetParquet(t *testing.T) {
 		"u | 1970-01-01T00:00:03Z | view | ∅",
 		"u | 1970-01-01T00:00:04Z | view | ∅",
 	})
-	want := []experiment.ReasonCount{{Reason: "null_user", Count: 1}, {Reason: "exposure_without_arm", Count: 1}}
+	want := []BadRowCount{{Reason: "null_user", Count: 1}, {Reason: "exposure_without_arm", Count: 1}}
 	if !equalReasons(st.BadRows, want) || st.RowsRead != 5 || st.Rows != 3 {
 		t.Fatalf("stats %+v, want 5 read, 3 rows, bad %v", st, want)
 	}
@@ -233,7 +231,7 @@ func TestReason(t *testing.T) {
 	// Common practice: snake_case words.
 	tests := []struct {
 		err  error
-		want string
+		want BadRowReason
 	}{
 		{ErrNullUser, "null_user"},
 		{ErrNullTimestamp, "null_timestamp"},
@@ -247,7 +245,7 @@ func TestReason(t *testing.T) {
 		{nil, ""},
 	}
 	for _, tc := range tests {
-		if got := Reason(tc.err); got != tc.want {
+		if got := Reason(tc.err); got != tc.want || got.String() != string(tc.want) {
 			t.Errorf("Reason(%v) = %q, want %q", tc.err, got, tc.want)
 		}
 	}

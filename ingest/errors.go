@@ -8,7 +8,10 @@ import (
 )
 
 // Reasons a row is bad. A *RowError returns one of these from Unwrap, so
-// callers count bad rows by reason with errors.Is.
+// callers count bad rows by reason with errors.Is. The first eight are the
+// event log's (each has a BadRowReason); the rest, with the timestamp
+// reasons, are those of a unit table or a counts table (for a duplicate the
+// *RowError returns an error that wraps ErrDuplicateCell).
 var (
 	ErrNullUser       = errors.New("null or empty user id")
 	ErrNullTimestamp  = errors.New("null timestamp")
@@ -18,103 +21,88 @@ var (
 	ErrNoArm          = errors.New("exposure row without an arm")
 	ErrFieldCount     = errors.New("wrong number of fields")
 	ErrUnknownArm     = errors.New("exposure row with an arm that is not planned")
+
+	ErrNullCell      = errors.New("null or empty value")
+	ErrBadFlag       = errors.New("not a conversion flag (want 0/1, true/false or yes/no, in any case)")
+	ErrBadCount      = errors.New("not a count (want a whole number, 0 or more)")
+	ErrTooMany       = errors.New("more conversions than units")
+	ErrUnknownMetric = errors.New("not a metric of the experiment")
+	ErrDuplicateCell = errors.New("duplicate row: the same arm, segment values and metric as an earlier row")
 )
 
-// Reason names of the row sentinels, as Stats.BadRows and the readout's
-// diagnostics spell them. They are stable: scripts may match on them.
+// BadRowReason names why a row of an event log is bad, as Stats.BadRows
+// and the readout's diagnostics spell it: a snake_case word. The names are
+// stable; scripts may match on them.
+type BadRowReason string
+
+// String returns the reason's name.
+func (r BadRowReason) String() string { return string(r) }
+
+// The reasons of the row sentinels, in the order of Stats.BadRows.
 const (
-	ReasonNullUser           = "null_user"              // ErrNullUser
-	ReasonNullTimestamp      = "null_timestamp"         // ErrNullTimestamp
-	ReasonBadTimestamp       = "bad_timestamp"          // ErrBadTimestamp
-	ReasonTimestampRange     = "timestamp_out_of_range" // ErrTimestampRange
-	ReasonNullEvent          = "null_event"             // ErrNullEvent
-	ReasonExposureWithoutArm = "exposure_without_arm"   // ErrNoArm
-	ReasonWrongFieldCount    = "wrong_field_count"      // ErrFieldCount
-	ReasonUnknownArm         = "unknown_arm"            // ErrUnknownArm
+	ReasonNullUser           BadRowReason = "null_user"              // ErrNullUser
+	ReasonNullTimestamp      BadRowReason = "null_timestamp"         // ErrNullTimestamp
+	ReasonBadTimestamp       BadRowReason = "bad_timestamp"          // ErrBadTimestamp
+	ReasonTimestampRange     BadRowReason = "timestamp_out_of_range" // ErrTimestampRange
+	ReasonNullEvent          BadRowReason = "null_event"             // ErrNullEvent
+	ReasonExposureWithoutArm BadRowReason = "exposure_without_arm"   // ErrNoArm
+	ReasonWrongFieldCount    BadRowReason = "wrong_field_count"      // ErrFieldCount
+	ReasonUnknownArm         BadRowReason = "unknown_arm"            // ErrUnknownArm
 )
 
-// numReasons is the number of row sentinels; reasonIndex numbers them in
-// the order of the Reason constants, which is the order of Stats.BadRows.
+// BadRowCount is the number of bad rows of one reason.
+type BadRowCount struct {
+	Reason BadRowReason `json:"reason"`
+	Count  int64        `json:"count"`
+}
+
+// numReasons is the number of event-log row sentinels.
 const numReasons = 8
+
+// reasonOf pairs each row sentinel with its reason, in the order of
+// Stats.BadRows; reasonIndex numbers them by position here.
+func reasonOf(i int) (error, BadRowReason) {
+	switch i {
+	case 0:
+		return ErrNullUser, ReasonNullUser
+	case 1:
+		return ErrNullTimestamp, ReasonNullTimestamp
+	case 2:
+		return ErrBadTimestamp, ReasonBadTimestamp
+	case 3:
+		return ErrTimestampRange, ReasonTimestampRange
+	case 4:
+		return ErrNullEvent, ReasonNullEvent
+	case 5:
+		return ErrNoArm, ReasonExposureWithoutArm
+	case 6:
+		return ErrFieldCount, ReasonWrongFieldCount
+	case 7:
+		return ErrUnknownArm, ReasonUnknownArm
+	}
+	return nil, ""
+}
 
 // reasonIndex returns the position of a row sentinel, or -1.
 func reasonIndex(err error) int {
-	switch err {
-	case ErrNullUser:
-		return 0
-	case ErrNullTimestamp:
-		return 1
-	case ErrBadTimestamp:
-		return 2
-	case ErrTimestampRange:
-		return 3
-	case ErrNullEvent:
-		return 4
-	case ErrNoArm:
-		return 5
-	case ErrFieldCount:
-		return 6
-	case ErrUnknownArm:
-		return 7
+	for i := 0; i < numReasons; i++ {
+		if s, _ := reasonOf(i); s == err {
+			return i
+		}
 	}
 	return -1
 }
 
-// reasonName returns the reason name at position i of reasonIndex.
-func reasonName(i int) string {
-	switch i {
-	case 0:
-		return ReasonNullUser
-	case 1:
-		return ReasonNullTimestamp
-	case 2:
-		return ReasonBadTimestamp
-	case 3:
-		return ReasonTimestampRange
-	case 4:
-		return ReasonNullEvent
-	case 5:
-		return ReasonExposureWithoutArm
-	case 6:
-		return ReasonWrongFieldCount
-	case 7:
-		return ReasonUnknownArm
-	}
-	return ""
-}
-
-// Reason returns the reason name (ReasonNullUser, ...) of a bad-row error:
-// an error for which errors.Is matches one of the row sentinels, such as a
-// *RowError. For any other error it returns "".
-func Reason(err error) string {
+// Reason returns the reason (ReasonNullUser, ...) of a bad-row error: an
+// error for which errors.Is matches one of the event log's row sentinels,
+// such as a *RowError. For any other error it returns "".
+func Reason(err error) BadRowReason {
 	for i := 0; i < numReasons; i++ {
-		if s := reasonSentinel(i); errors.Is(err, s) {
-			return reasonName(i)
+		if s, r := reasonOf(i); errors.Is(err, s) {
+			return r
 		}
 	}
 	return ""
-}
-
-func reasonSentinel(i int) error {
-	switch i {
-	case 0:
-		return ErrNullUser
-	case 1:
-		return ErrNullTimestamp
-	case 2:
-		return ErrBadTimestamp
-	case 3:
-		return ErrTimestampRange
-	case 4:
-		return ErrNullEvent
-	case 5:
-		return ErrNoArm
-	case 6:
-		return ErrFieldCount
-	case 7:
-		return ErrUnknownArm
-	}
-	return nil
 }
 
 // Reasons a whole file cannot be read. A *ColumnError returns one of these
@@ -201,8 +189,12 @@ func (e *RowError) Error() string {
 // Unwrap returns the reason.
 func (e *RowError) Unwrap() error { return e.Err }
 
-// Reason returns the reason's name, such as "null_user".
-func (e *RowError) Reason() string { return reasonName(reasonIndex(e.Err)) }
+// Reason returns the reason, such as ReasonNullUser; "" for a reason of a
+// unit table or a counts table.
+func (e *RowError) Reason() BadRowReason {
+	_, r := reasonOf(reasonIndex(e.Err))
+	return r
+}
 
 // ErrBudgetExceeded is returned (inside a *BudgetError) when the bad rows
 // exceed the error budget of Options.MaxBadRows or Options.MaxBadShare.

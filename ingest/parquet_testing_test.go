@@ -388,7 +388,7 @@ func TestParquetTestingInt96Reader(t *testing.T) {
 	wantBad := []string{"null_timestamp 1", "timestamp_out_of_range 2"}
 	var bad []string
 	for _, rc := range got.st.BadRows {
-		bad = append(bad, rc.Reason+" "+strconv.FormatInt(rc.Count, 10))
+		bad = append(bad, rc.Reason.String()+" "+strconv.FormatInt(rc.Count, 10))
 	}
 	if !slices.Equal(bad, wantBad) {
 		t.Errorf("bad rows %v, want %v", bad, wantBad)

@@ -5,8 +5,6 @@ import (
 	"reflect"
 	"strings"
 	"testing"
-
-	"github.com/armtally/armtally/experiment"
 )
 
 // TestPlannedArms checks the unknown-arm rule on a hand-made log. Line 1 is
@@ -52,7 +50,7 @@ func TestPlannedArms(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	want := []experiment.ReasonCount{{Reason: ReasonExposureWithoutArm, Count: 1}, {Reason: ReasonUnknownArm, Count: 1}}
+	want := []BadRowCount{{Reason: ReasonExposureWithoutArm, Count: 1}, {Reason: ReasonUnknownArm, Count: 1}}
 	if rows != 3 || !reflect.DeepEqual(st.BadRows, want) {
 		t.Errorf("rows %d, bad rows %+v; want 3 and %+v", rows, st.BadRows, want)
 	}
@@ -64,7 +62,7 @@ func TestPlannedArms(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	if rows != 2 || st.BadRows[len(st.BadRows)-1] != (experiment.ReasonCount{Reason: ReasonUnknownArm, Count: 2}) {
+	if rows != 2 || st.BadRows[len(st.BadRows)-1] != (BadRowCount{Reason: ReasonUnknownArm, Count: 2}) {
 		t.Errorf("with the key \"\": rows %d, bad rows %+v", rows, st.BadRows)
 	}
 }

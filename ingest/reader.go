@@ -127,7 +127,7 @@ type Stats struct {
 	// order of those constants, leaving out reasons with no rows. It
 	// includes a bad row that stopped the reader. After a clean end,
 	// RowsRead = Rows + Filtered + the sum of BadRows.
-	BadRows []experiment.ReasonCount
+	BadRows []BadRowCount
 	// BadRowExamples holds the first bad row of each reason:
 	// BadRowExamples[i] is the first of BadRows[i].Reason.
 	BadRowExamples []*RowError
@@ -516,7 +516,8 @@ func (a *accounting) stats() Stats {
 		if n == 0 {
 			continue
 		}
-		st.BadRows = append(st.BadRows, experiment.ReasonCount{Reason: reasonName(i), Count: n})
+		_, reason := reasonOf(i)
+		st.BadRows = append(st.BadRows, BadRowCount{Reason: reason, Count: n})
 		e := *a.first[i]
 		st.BadRowExamples = append(st.BadRowExamples, &e)
 	}

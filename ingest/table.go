@@ -20,19 +20,6 @@ import (
 	"github.com/armtally/armtally/experiment"
 )
 
-// Reasons a row of a unit table or a counts table is bad, beside the
-// timestamp reasons of the event log (ErrNullTimestamp, ErrBadTimestamp,
-// ErrTimestampRange). A *RowError returns one of these from Unwrap (for a
-// duplicate, an error that wraps ErrDuplicateCell).
-var (
-	ErrNullCell      = errors.New("null or empty value")
-	ErrBadFlag       = errors.New("not a conversion flag (want 0/1, true/false or yes/no, in any case)")
-	ErrBadCount      = errors.New("not a count (want a whole number, 0 or more)")
-	ErrTooMany       = errors.New("more conversions than units")
-	ErrUnknownMetric = errors.New("not a metric of the experiment")
-	ErrDuplicateCell = errors.New("duplicate row: the same arm, segment values and metric as an earlier row")
-)
-
 // ColumnMap maps one logical column (a metric or a segment dimension
 // name) to the physical column that holds it.
 type ColumnMap struct {

@@ -641,6 +641,15 @@ type recordReader interface {
 	Close() error
 }
 
+// reasonCounts converts the reader's bad-row counts for the readout.
+func reasonCounts(bad []ingest.BadRowCount) []experiment.ReasonCount {
+	var out []experiment.ReasonCount
+	for _, b := range bad {
+		out = append(out, experiment.ReasonCount{Reason: b.Reason.String(), Count: b.Count})
+	}
+	return out
+}
+
 // spillPartitions is the number of hash partitions of --memory-limit.
 const spillPartitions = 64
 
@@ -854,7 +863,7 @@ func analyze(run *analyzeRun) ([]experiment.Readout, []tallier, error) {
 		t := tallies[i]
 		opts := e.opts
 		opts.RowsRead = r.Stats().RowsRead
-		opts.BadRows = r.Stats().BadRows
+		opts.BadRows = reasonCounts(r.Stats().BadRows)
 		if readouts[i], err = experiment.Analyze(e.spec, t, opts); err != nil {
 			return nil, nil, &dataError{err}
 		}

@@ -297,13 +297,14 @@ func inspect(sources []ingest.Source, open opener, opts ingest.Options, top int)
 		rep.RowsRead += st.RowsRead
 		rep.ValidRows += st.Rows
 		for i, b := range st.BadRows {
-			if _, seen := bad[b.Reason]; !seen {
-				badOrder = append(badOrder, b.Reason)
+			reason := b.Reason.String()
+			if _, seen := bad[reason]; !seen {
+				badOrder = append(badOrder, reason)
 				if i < len(st.BadRowExamples) && st.BadRowExamples[i] != nil {
 					rep.BadRowExamples = append(rep.BadRowExamples, st.BadRowExamples[i].Error())
 				}
 			}
-			bad[b.Reason] += b.Count
+			bad[reason] += b.Count
 		}
 		rep.Files = append(rep.Files, fr)
 	}
