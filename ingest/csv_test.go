@@ -55,7 +55,7 @@ func TestCSVTimestampValues(t *testing.T) {
 	if !r.Next() {
 		t.Fatal(r.Err())
 	}
-	ts := r.Record().Column(colTS).(*array.Timestamp)
+	ts := r.RecordBatch().Column(colTS).(*array.Timestamp)
 	if got := []int64{int64(ts.Value(0)), int64(ts.Value(1))}; got[0] != 1773563400e9 || got[1] != 1773532800e9 {
 		t.Errorf("ts = %d, want [1773563400e9 1773532800e9]", got)
 	}

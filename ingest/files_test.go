@@ -53,7 +53,7 @@ func TestCSVGzip(t *testing.T) {
 		data []byte
 		is   error
 	}{
-		{"not gzip", []byte("user_id,ts,event\n"), gzip.ErrHeader},
+		{"bad header", append([]byte{0x1f, 0x8b, 99}, good[3:]...), gzip.ErrHeader}, // CM 99 is no method (RFC 1952, 2.3.1)
 		{"checksum", corrupt, gzip.ErrChecksum},
 		{"truncated", good[:len(good)-4], nil}, // io.ErrUnexpectedEOF inside flate
 		{"empty", nil, nil},
@@ -66,6 +66,57 @@ func TestCSVGzip(t *testing.T) {
 			}
 			if tc.is != nil && !errors.Is(err, tc.is) {
 				t.Errorf("error %v, want errors.Is %v", err, tc.is)
+			}
+		})
+	}
+}
+
+// TestCSVGzipByContent checks that gzip is told by the data's first two
+// bytes, 0x1f 0x8b (RFC 1952, 2.3.1), not by the name: a .csv.gz that is
+// plain text and a compressed file named .csv read the same rows, through
+// the event reader, the table reader and OpenCSV.
+func TestCSVGzipByContent(t *testing.T) {
+	text := "user_id,ts,event,arm,buy\nu1,2026-03-01,view,a,1\nu2,2026-03-02,buy,b,0\n"
+	want := []string{"u1 | 2026-03-01T00:00:00Z | view", "u2 | 2026-03-02T00:00:00Z | buy"}
+	tests := []struct {
+		name string
+		data []byte
+		gzip bool
+	}{
+		{"plain.csv.gz", []byte(text), false},
+		{"packed.csv", gzipped(t, text), true},
+		{"packed.csv.gz", gzipped(t, text), true},
+		{"plain.csv", []byte(text), false},
+	}
+	for _, tc := range tests {
+		t.Run(tc.name, func(t *testing.T) {
+			src := BytesSource(tc.name, tc.data)
+			rows, _, err := readAll(t, []Source{src}, Options{Mapping: Mapping{User: "user_id", TS: "ts", Event: "event"}})
+			if err != nil {
+				t.Fatal(err)
+			}
+			equalRows(t, rows, want)
+
+			tr, err := NewUnitTableReader([]Source{src}, UnitTableOptions{Unit: "user_id", Arm: "arm", Metrics: []ColumnMap{{"buy", "buy"}}})
+			if err != nil {
+				t.Fatal(err)
+			}
+			defer tr.Close()
+			var n int64
+			for tr.Next() {
+				n += tr.RecordBatch().NumRows()
+			}
+			if tr.Err() != nil || n != 2 {
+				t.Errorf("table reader: %d rows, error %v; want 2 rows", n, tr.Err())
+			}
+
+			f, err := OpenCSV(src, 0)
+			if err != nil {
+				t.Fatal(err)
+			}
+			defer f.Close()
+			if f.Gzipped() != tc.gzip || strings.Join(f.Header(), ",") != "user_id,ts,event,arm,buy" {
+				t.Errorf("OpenCSV: gzipped %v, header %q", f.Gzipped(), f.Header())
 			}
 		})
 	}

@@ -94,7 +94,7 @@ func readParquetColumn(t *testing.T, name string, data []byte, path string, asTS
 		}
 		defer r.Close()
 		for r.Next() {
-			rec := r.Record()
+			rec := r.RecordBatch()
 			if asTS {
 				ts := rec.Column(colTS).(*array.Timestamp)
 				for i := 0; i < ts.Len(); i++ {

@@ -26,7 +26,7 @@ func TestPlannedArms(t *testing.T) {
 		defer r.Close()
 		var rows int64
 		for r.Next() {
-			rows += r.Record().NumRows()
+			rows += r.RecordBatch().NumRows()
 		}
 		return rows, r.Stats(), r.Err()
 	}

@@ -151,6 +151,7 @@ type Stats struct {
 //
 // A Reader is not safe for concurrent use.
 type Reader struct {
+	refCount
 	sources   []Source
 	plan      *plan
 	mem       memory.Allocator
@@ -315,9 +316,23 @@ func (r *Reader) Next() bool {
 	}
 }
 
-// Record returns the current record batch. It is valid until the next call
-// to Next or Close; the Reader releases it. Call Retain to keep it longer.
+// RecordBatch returns the current record batch. It is valid until the next
+// call to Next or Close; the Reader releases it. Call the batch's Retain to
+// keep it longer.
+func (r *Reader) RecordBatch() arrow.RecordBatch { return r.rec }
+
+// Record returns the current record batch.
+//
+// Deprecated: Use RecordBatch; Record is there for array.RecordReader.
 func (r *Reader) Record() arrow.RecordBatch { return r.rec }
+
+// Release drops a reference to the reader (see Retain); the last closes
+// it.
+func (r *Reader) Release() {
+	if r.drop() {
+		r.Close()
+	}
+}
 
 // Err returns the error that stopped the reader, or nil at a clean end. A
 // bad row gives a *RowError (without a budget), a budget exceeded a

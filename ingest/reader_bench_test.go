@@ -57,7 +57,7 @@ func benchRead(b *testing.B, path string, want int64) {
 		}
 		var rows int64
 		for r.Next() {
-			rows += r.Record().NumRows()
+			rows += r.RecordBatch().NumRows()
 		}
 		if err := r.Err(); err != nil {
 			b.Fatal(err)

@@ -27,7 +27,7 @@ func readAll(t *testing.T, sources []Source, opts Options) ([]string, Stats, err
 	defer r.Close()
 	var rows []string
 	for r.Next() {
-		rec := r.Record()
+		rec := r.RecordBatch()
 		if !rec.Schema().Equal(r.Schema()) {
 			t.Fatalf("batch schema %v, want %v", rec.Schema(), r.Schema())
 		}

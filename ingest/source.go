@@ -8,6 +8,7 @@ import (
 	"io/fs"
 	"net/url"
 	"os"
+	"path"
 	"path/filepath"
 	"sort"
 	"strings"
@@ -24,19 +25,17 @@ const (
 // knownTypes lists the extensions in error messages.
 const knownTypes = ".csv, .csv.gz, .parquet or .parq"
 
-// formatOf returns the format of a file name and whether it is
-// gzip-compressed (.csv.gz).
-func formatOf(name string) (f fileFormat, gzipped bool, ok bool) {
+// formatOf returns the format of a file name. Whether a CSV file is
+// gzip-compressed is decided by its contents when it is opened.
+func formatOf(name string) (fileFormat, bool) {
 	lower := strings.ToLower(name)
 	switch {
-	case strings.HasSuffix(lower, ".csv.gz"):
-		return formatCSV, true, true
-	case strings.HasSuffix(lower, ".csv"):
-		return formatCSV, false, true
+	case strings.HasSuffix(lower, ".csv.gz"), strings.HasSuffix(lower, ".csv"):
+		return formatCSV, true
 	case strings.HasSuffix(lower, ".parquet"), strings.HasSuffix(lower, ".parq"):
-		return formatParquet, false, true
+		return formatParquet, true
 	}
-	return 0, false, false
+	return 0, false
 }
 
 // Partition is one key=value folder name of a Hive-style partitioned layout,
@@ -52,24 +51,26 @@ type Partition struct {
 // hiveNull is the partition value Hive-style writers use for null.
 const hiveNull = "__HIVE_DEFAULT_PARTITION__"
 
-// Source is one named input: a file on disk or bytes held in memory. Its
-// format comes from the end of Name, in any case: .csv, .csv.gz (CSV
-// compressed with gzip, one member or several concatenated), .parquet or
-// .parq.
+// Source is one named input: a file on disk, a file of an fs.FS or bytes
+// held in memory. Its format comes from the end of Name, in any case: .csv
+// or .csv.gz (CSV), .parquet or .parq. A CSV source whose first two bytes
+// are gzip's magic number (0x1f 0x8b) is decompressed, whatever its name
+// (one member or several concatenated).
 type Source struct {
-	// Name is the path of a file, or the name of in-memory data; errors
-	// use it as the file name.
+	// Name is the path of a file (for FSSources, its path inside the
+	// fs.FS), or the name of in-memory data; errors use it as the file
+	// name.
 	Name string
 	// Partitions are the key=value folder names between the folder or
-	// pattern root given to FileSources and the file, outermost first.
-	// A Mapping may name a key as a column: every row of the file then
-	// has that value (see Mapping).
+	// pattern root given to FileSources or FSSources and the file,
+	// outermost first. A Mapping may name a key as a column: every row of
+	// the file then has that value (see Mapping).
 	Partitions []Partition
 
-	data    []byte // in-memory contents; nil for a file
-	inMem   bool
-	kind    fileFormat
-	gzipped bool
+	data  []byte // in-memory contents; nil for a file
+	inMem bool
+	fsys  fs.FS // the file system of a source from FSSources
+	kind  fileFormat
 }
 
 // BytesSource returns a source that reads data, named name. The format comes
@@ -77,8 +78,8 @@ type Source struct {
 // changed while a Reader uses it. Set Partitions on the result to give the
 // source partition values.
 func BytesSource(name string, data []byte) Source {
-	f, gz, _ := formatOf(name)
-	return Source{Name: name, data: data, inMem: true, kind: f, gzipped: gz}
+	f, _ := formatOf(name)
+	return Source{Name: name, data: data, inMem: true, kind: f}
 }
 
 // FileSources returns the sources named by paths, in order. Each path is
@@ -103,11 +104,90 @@ func BytesSource(name string, data []byte) Source {
 // A file named twice (directly and through a folder, say) is listed twice.
 // FileSources does not open the files.
 func FileSources(paths []string) ([]Source, error) {
+	return tree{}.sources(paths)
+}
+
+// FSSources returns the sources named by patterns inside fsys, by the rules
+// of FileSources with fs.FS paths (slash-separated, unrooted, no "..";
+// patterns in path.Match syntax): files, folders walked recursively and
+// patterns, with the same extensions, hidden names and key=value partition
+// folders. No patterns means ".", every file of fsys. Each source's Name is
+// its path inside fsys; the sources read fsys when opened, so it must stay
+// usable while a reader uses them.
+func FSSources(fsys fs.FS, patterns ...string) ([]Source, error) {
+	if len(patterns) == 0 {
+		patterns = []string{"."}
+	}
+	return tree{fsys: fsys}.sources(patterns)
+}
+
+// tree is the file system that FileSources (the operating system's, with
+// filepath's rules) or FSSources (an fs.FS, with path's rules) walks.
+type tree struct {
+	fsys fs.FS // nil: the operating system's
+}
+
+func (t tree) stat(name string) (fs.FileInfo, error) {
+	if t.fsys == nil {
+		return os.Stat(name)
+	}
+	return fs.Stat(t.fsys, name)
+}
+
+func (t tree) glob(pattern string) ([]string, error) {
+	if t.fsys == nil {
+		return filepath.Glob(pattern)
+	}
+	return fs.Glob(t.fsys, pattern)
+}
+
+func (t tree) walk(root string, fn fs.WalkDirFunc) error {
+	if t.fsys == nil {
+		return filepath.WalkDir(root, fn)
+	}
+	return fs.WalkDir(t.fsys, root, fn)
+}
+
+func (t tree) dir(name string) string {
+	if t.fsys == nil {
+		return filepath.Dir(name)
+	}
+	return path.Dir(name)
+}
+
+// segments returns the names on the way from base down to target, or
+// false when target is not below base.
+func (t tree) segments(base, target string) ([]string, bool) {
+	if t.fsys == nil {
+		rel, err := filepath.Rel(base, target)
+		if err != nil {
+			return nil, false
+		}
+		return strings.Split(rel, string(filepath.Separator)), true
+	}
+	switch {
+	case target == base:
+		return []string{"."}, true
+	case base == ".":
+		return strings.Split(target, "/"), true
+	case strings.HasPrefix(target, base+"/"):
+		return strings.Split(target[len(base)+1:], "/"), true
+	}
+	return nil, false
+}
+
+// isPattern reports whether p holds the pattern characters of Match.
+func (t tree) isPattern(p string) bool {
+	return strings.ContainsAny(p, `*?[`) || ((t.fsys != nil || filepath.Separator != '\\') && strings.Contains(p, `\`))
+}
+
+// sources lists the sources of paths; see FileSources.
+func (t tree) sources(paths []string) ([]Source, error) {
 	var out []Source
 	for _, p := range paths {
-		info, err := os.Stat(p)
-		if err != nil && isPattern(p) {
-			found, err := globSources(p)
+		info, err := t.stat(p)
+		if err != nil && t.isPattern(p) {
+			found, err := t.globSources(p)
 			if err != nil {
 				return nil, err
 			}
@@ -118,14 +198,14 @@ func FileSources(paths []string) ([]Source, error) {
 			return nil, err // *fs.PathError names the path
 		}
 		if !info.IsDir() {
-			f, gz, ok := formatOf(p)
+			f, ok := formatOf(p)
 			if !ok {
 				return nil, fmt.Errorf("%s: unknown file type (want %s)", p, knownTypes)
 			}
-			out = append(out, Source{Name: p, kind: f, gzipped: gz})
+			out = append(out, Source{Name: p, fsys: t.fsys, kind: f})
 			continue
 		}
-		found, err := walkSources(p, p)
+		found, err := t.walkSources(p, p)
 		if err != nil {
 			return nil, err
 		}
@@ -134,37 +214,32 @@ func FileSources(paths []string) ([]Source, error) {
 	return out, nil
 }
 
-// isPattern reports whether p holds filepath.Match's special characters.
-func isPattern(p string) bool {
-	return strings.ContainsAny(p, `*?[`) || (filepath.Separator != '\\' && strings.Contains(p, `\`))
-}
-
 // globSources expands a pattern; see FileSources.
-func globSources(pattern string) ([]Source, error) {
-	matches, err := filepath.Glob(pattern)
+func (t tree) globSources(pattern string) ([]Source, error) {
+	matches, err := t.glob(pattern)
 	if err != nil {
 		return nil, fmt.Errorf("%s: bad pattern: %w", pattern, err)
 	}
-	root := patternRoot(pattern)
+	root := t.patternRoot(pattern)
 	sort.Strings(matches)
 	var out []Source
 	for _, m := range matches {
-		if hiddenBelow(root, m) {
+		if t.hiddenBelow(root, m) {
 			continue
 		}
-		info, err := os.Stat(m)
+		info, err := t.stat(m)
 		if err != nil {
 			return nil, err
 		}
 		if info.IsDir() {
-			found, err := walkSources(root, m)
+			found, err := t.walkSources(root, m)
 			if err != nil {
 				return nil, err
 			}
 			out = append(out, found...)
 			continue
 		}
-		s, ok, err := sourceBelow(root, m)
+		s, ok, err := t.sourceBelow(root, m)
 		if err != nil {
 			return nil, err
 		}
@@ -181,32 +256,32 @@ func globSources(pattern string) ([]Source, error) {
 
 // patternRoot returns the leading folders of pattern that hold no pattern
 // characters: "exports" for "exports/dt=*/part-*.parquet", "." for "*.csv".
-func patternRoot(pattern string) string {
-	dir := filepath.Dir(pattern)
-	for isPattern(dir) {
-		dir = filepath.Dir(dir)
+func (t tree) patternRoot(pattern string) string {
+	dir := t.dir(pattern)
+	for t.isPattern(dir) {
+		dir = t.dir(dir)
 	}
 	return dir
 }
 
 // walkSources lists the files below dir; partitions are taken from the
 // folders below root (root is dir or one of its parents).
-func walkSources(root, dir string) ([]Source, error) {
+func (t tree) walkSources(root, dir string) ([]Source, error) {
 	var found []Source
-	err := filepath.WalkDir(dir, func(path string, d fs.DirEntry, err error) error {
+	err := t.walk(dir, func(path string, d fs.DirEntry, err error) error {
 		if err != nil {
 			return err
 		}
 		if path != dir && hidden(d.Name()) {
 			if d.IsDir() {
-				return filepath.SkipDir
+				return fs.SkipDir
 			}
 			return nil
 		}
 		if d.IsDir() {
 			return nil
 		}
-		s, ok, err := sourceBelow(root, path)
+		s, ok, err := t.sourceBelow(root, path)
 		if ok {
 			found = append(found, s)
 		}
@@ -222,12 +297,9 @@ func walkSources(root, dir string) ([]Source, error) {
 func hidden(name string) bool { return strings.HasPrefix(name, ".") || strings.HasPrefix(name, "_") }
 
 // hiddenBelow reports whether a name on path below root is hidden.
-func hiddenBelow(root, path string) bool {
-	rel, err := filepath.Rel(root, path)
-	if err != nil {
-		return false
-	}
-	for _, seg := range strings.Split(rel, string(filepath.Separator)) {
+func (t tree) hiddenBelow(root, path string) bool {
+	segs, _ := t.segments(root, path)
+	for _, seg := range segs {
 		if seg != "." && seg != ".." && hidden(seg) {
 			return true
 		}
@@ -237,29 +309,29 @@ func hiddenBelow(root, path string) bool {
 
 // sourceBelow returns the source for a file found below root, or false when
 // its extension is not one armtally reads.
-func sourceBelow(root, path string) (Source, bool, error) {
-	f, gz, ok := formatOf(path)
+func (t tree) sourceBelow(root, path string) (Source, bool, error) {
+	f, ok := formatOf(path)
 	if !ok {
 		return Source{}, false, nil
 	}
-	parts, err := partitionsOf(root, path)
+	parts, err := t.partitionsOf(root, path)
 	if err != nil {
 		return Source{}, false, err
 	}
-	return Source{Name: path, Partitions: parts, kind: f, gzipped: gz}, true, nil
+	return Source{Name: path, Partitions: parts, fsys: t.fsys, kind: f}, true, nil
 }
 
 // errPartition marks a path with a partition key twice or a bad escape.
 var errPartition = errors.New("bad partition folder")
 
 // partitionsOf parses the key=value folder names between root and the file.
-func partitionsOf(root, path string) ([]Partition, error) {
-	rel, err := filepath.Rel(root, filepath.Dir(path))
-	if err != nil || rel == "." {
+func (t tree) partitionsOf(root, path string) ([]Partition, error) {
+	segs, ok := t.segments(root, t.dir(path))
+	if !ok || (len(segs) == 1 && segs[0] == ".") {
 		return nil, nil
 	}
 	var parts []Partition
-	for _, seg := range strings.Split(rel, string(filepath.Separator)) {
+	for _, seg := range segs {
 		key, val, ok := strings.Cut(seg, "=")
 		if !ok || key == "" {
 			continue
@@ -300,32 +372,51 @@ func (s Source) partitionKeys() []string {
 	return keys
 }
 
-// openedSource is a source opened for reading.
-type openedSource struct {
-	r    io.ReaderAt
-	size int64
-	c    io.Closer // nil for in-memory data
-}
-
-func (s Source) open() (*openedSource, error) {
+// Open opens the source for reading: r reads its bytes, of which there are
+// size; close c when done (c is never nil). Errors name the file. A file of
+// an fs.FS that does not implement io.ReaderAt is read into memory whole.
+func (s Source) Open() (r io.ReaderAt, size int64, c io.Closer, err error) {
 	if s.inMem {
-		return &openedSource{r: bytes.NewReader(s.data), size: int64(len(s.data))}, nil
+		return bytes.NewReader(s.data), int64(len(s.data)), io.NopCloser(nil), nil
 	}
-	f, err := os.Open(s.Name)
+	var f fs.File
+	if s.fsys != nil {
+		f, err = s.fsys.Open(s.Name)
+	} else {
+		f, err = os.Open(s.Name)
+	}
 	if err != nil {
-		return nil, err
+		return nil, 0, nil, err // *fs.PathError names the file
 	}
 	info, err := f.Stat()
 	if err != nil {
 		f.Close()
-		return nil, err
+		return nil, 0, nil, err
 	}
-	return &openedSource{r: f, size: info.Size(), c: f}, nil
+	if ra, ok := f.(io.ReaderAt); ok {
+		return ra, info.Size(), f, nil
+	}
+	data, err := io.ReadAll(f)
+	f.Close()
+	if err != nil {
+		return nil, 0, nil, fmt.Errorf("%s: %w", s.Name, err)
+	}
+	return bytes.NewReader(data), int64(len(data)), io.NopCloser(nil), nil
 }
 
-func (o *openedSource) Close() error {
-	if o.c == nil {
-		return nil
-	}
-	return o.c.Close()
+// openedSource is a source opened for reading.
+type openedSource struct {
+	r    io.ReaderAt
+	size int64
+	c    io.Closer
 }
+
+func (s Source) open() (*openedSource, error) {
+	r, size, c, err := s.Open()
+	if err != nil {
+		return nil, err
+	}
+	return &openedSource{r: r, size: size, c: c}, nil
+}
+
+func (o *openedSource) Close() error { return o.c.Close() }

@@ -157,7 +157,7 @@ func (s *Spill) Reader(p int, mem memory.Allocator, batchSize int) (*SpillReader
 	for i, f := range s.schema.Fields() {
 		logical[i] = f.Name
 	}
-	r := &SpillReader{path: part.path, f: f, in: bufio.NewReaderSize(f, 64<<10), left: part.rows,
+	r := &SpillReader{schema: s.schema, path: part.path, f: f, in: bufio.NewReaderSize(f, 64<<10), left: part.rows,
 		bld: newBatchBuilder(mem, &plan{logical: logical, schema: s.schema}), batchSize: batchSize}
 	r.row.cells = make([]cell, len(logical))
 	return r, nil
@@ -177,9 +177,12 @@ func (s *Spill) Close() error {
 	return errors.Join(errs...)
 }
 
-// SpillReader reads one partition of a Spill back; it has the methods of
-// Reader that a tally loop uses.
+// SpillReader reads one partition of a Spill back as record batches; it
+// has the methods of Reader that a tally loop uses and is an
+// array.RecordReader.
 type SpillReader struct {
+	refCount
+	schema    *arrow.Schema
 	path      string
 	f         *os.File
 	in        *bufio.Reader
@@ -198,7 +201,7 @@ func (r *SpillReader) Next() bool {
 		r.rec.Release()
 		r.rec = nil
 	}
-	if r.err != nil || r.left == 0 {
+	if r.err != nil || r.left == 0 || r.f == nil {
 		return false
 	}
 	if r.text == nil {
@@ -252,19 +255,41 @@ func (r *SpillReader) readRow() error {
 	return nil
 }
 
-// Record returns the current batch, valid until the next call to Next or
-// Close.
+// Schema returns the schema of the record batches, the Spill's.
+func (r *SpillReader) Schema() *arrow.Schema { return r.schema }
+
+// RecordBatch returns the current batch, valid until the next call to Next
+// or Close.
+func (r *SpillReader) RecordBatch() arrow.RecordBatch { return r.rec }
+
+// Record returns the current batch.
+//
+// Deprecated: Use RecordBatch; Record is there for array.RecordReader.
 func (r *SpillReader) Record() arrow.RecordBatch { return r.rec }
+
+// Release drops a reference to the reader (see Retain); the last closes
+// it.
+func (r *SpillReader) Release() {
+	if r.drop() {
+		r.Close()
+	}
+}
 
 // Err returns the error that stopped the reader, or nil.
 func (r *SpillReader) Err() error { return r.err }
 
-// Close releases the current batch and closes the partition file.
+// Close releases the current batch and closes the partition file. Calls
+// after the first do nothing.
 func (r *SpillReader) Close() error {
+	if r.f == nil {
+		return nil
+	}
 	if r.rec != nil {
 		r.rec.Release()
 		r.rec = nil
 	}
 	r.bld.release()
-	return r.f.Close()
+	err := r.f.Close()
+	r.f = nil
+	return err
 }

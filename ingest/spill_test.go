@@ -42,7 +42,7 @@ func TestSpillRoundTrip(t *testing.T) {
 		t.Fatal(err)
 	}
 	for r.Next() {
-		if err := s.Add(r.Record()); err != nil {
+		if err := s.Add(r.RecordBatch()); err != nil {
 			t.Fatal(err)
 		}
 	}
@@ -59,7 +59,7 @@ func TestSpillRoundTrip(t *testing.T) {
 		}
 		var rows []string
 		for sr.Next() {
-			rec := sr.Record()
+			rec := sr.RecordBatch()
 			if !rec.Schema().Equal(r.Schema()) {
 				t.Fatalf("schema %v", rec.Schema())
 			}

@@ -1,9 +1,6 @@
 package ingest
 
 import (
-	"bufio"
-	"compress/gzip"
-	"encoding/csv"
 	"errors"
 	"fmt"
 	"io"
@@ -350,6 +347,7 @@ type tableSource interface {
 // metric is bad (ErrDuplicateCell), naming the first. A CSV file may be
 // gzip-compressed (.csv.gz). A TableReader is not safe for concurrent use.
 type TableReader struct {
+	refCount
 	sources   []Source
 	plan      *tablePlan
 	mem       memory.Allocator
@@ -451,9 +449,22 @@ func (r *TableReader) Next() bool {
 	}
 }
 
-// Record returns the current record batch, valid until the next call to
-// Next or Close.
+// RecordBatch returns the current record batch, valid until the next call
+// to Next or Close.
+func (r *TableReader) RecordBatch() arrow.RecordBatch { return r.rec }
+
+// Record returns the current record batch.
+//
+// Deprecated: Use RecordBatch; Record is there for array.RecordReader.
 func (r *TableReader) Record() arrow.RecordBatch { return r.rec }
+
+// Release drops a reference to the reader (see Retain); the last closes
+// it.
+func (r *TableReader) Release() {
+	if r.drop() {
+		r.Close()
+	}
+}
 
 // Err returns the error that stopped the reader, or nil at a clean end.
 func (r *TableReader) Err() error { return r.err }
@@ -502,12 +513,10 @@ func openTableSource(src Source, p *tablePlan) (tableSource, error) {
 	return ts, nil
 }
 
-// csvTable reads one CSV source of a table with encoding/csv.
+// csvTable reads one CSV source of a table, opened by openCSV.
 type csvTable struct {
 	file  string
-	src   *openedSource
-	gz    *gzip.Reader
-	cr    *csv.Reader
+	f     *CSVFile
 	p     *tablePlan
 	field []int
 	nhead int
@@ -515,45 +524,18 @@ type csvTable struct {
 }
 
 func newCSVTable(src Source, o *openedSource, p *tablePlan) (*csvTable, error) {
-	file := src.Name
-	var in io.Reader = io.NewSectionReader(o.r, 0, o.size)
-	c := &csvTable{file: file, src: o, p: p}
-	if strings.HasSuffix(strings.ToLower(file), ".gz") {
-		gz, err := gzip.NewReader(in)
-		if err != nil {
-			return nil, fmt.Errorf("%s: gzip: %w", file, err)
-		}
-		c.gz, in = gz, gz
-	}
-	br := bufio.NewReaderSize(in, 64<<10)
-	if b, err := br.Peek(len(utf8BOM)); err == nil && string(b) == string(utf8BOM) {
-		br.Discard(len(utf8BOM))
-	}
-	cr := csv.NewReader(br)
-	cr.FieldsPerRecord = -1
-	header, err := cr.Read()
-	if err == io.EOF {
-		return nil, fmt.Errorf("%s: empty file: want a header row", file)
-	}
+	f, err := openCSV(src.Name, o, 0)
 	if err != nil {
-		return nil, fmt.Errorf("%s: %w", file, err)
+		return nil, err
 	}
-	cr.ReuseRecord = true
-	c.cr, c.nhead = cr, len(header)
+	c := &csvTable{file: src.Name, f: f, p: p, nhead: len(f.Header())}
 	c.field = make([]int, len(p.cols))
 	for i, col := range p.cols {
-		c.field[i] = -1
-		for j, h := range header {
-			if h != col.physical {
-				continue
-			}
-			if c.field[i] >= 0 {
-				return nil, &ColumnError{File: file, Column: col.physical, Err: ErrColumnType, Detail: "the header names it more than once"}
-			}
-			c.field[i] = j
+		if c.field[i], err = f.column(col.physical); err == nil && c.field[i] < 0 {
+			err = missingColumn(src.Name, col.physical, f.Header(), nil)
 		}
-		if c.field[i] < 0 {
-			return nil, &ColumnError{File: file, Column: col.physical, Err: ErrMissingColumn, Detail: "the file has: " + strings.Join(header, ", ")}
+		if err != nil {
+			return nil, err
 		}
 	}
 	c.row = make([]tval, len(p.cols))
@@ -563,26 +545,20 @@ func newCSVTable(src Source, o *openedSource, p *tablePlan) (*csvTable, error) {
 func (c *csvTable) read(b *array.RecordBuilder, limit int) (int, int64, error) {
 	n, read := 0, int64(0)
 	for n < limit {
-		rec, err := c.cr.Read()
-		if err == io.EOF {
-			return n, read, io.EOF
-		}
+		rec, err := c.f.Read()
 		if err != nil {
-			return n, read, fmt.Errorf("%s: %w", c.file, err)
+			return n, read, err
 		}
 		read++
 		if len(rec) != c.nhead {
-			line, _ := c.cr.FieldPos(0)
-			return n, read, &RowError{File: c.file, Row: int64(line), RowGroup: -1, Err: ErrFieldCount,
+			return n, read, &RowError{File: c.file, Row: int64(c.f.Line(0)), RowGroup: -1, Err: ErrFieldCount,
 				Value: strconv.Itoa(len(rec)), wantFields: c.nhead}
 		}
 		for i, j := range c.field {
 			c.row[i] = c.p.textCell(c.p.cols[i].kind, rec[j])
 		}
-		line, _ := c.cr.FieldPos(0)
-		if col, reason := c.p.check(c.row, "line "+strconv.Itoa(line)); reason != nil {
-			line, _ := c.cr.FieldPos(c.field[col])
-			return n, read, c.p.rowError(c.file, int64(line), -1, c.row, col, reason)
+		if col, reason := c.p.check(c.row, "line "+strconv.Itoa(c.f.Line(0))); reason != nil {
+			return n, read, c.p.rowError(c.file, int64(c.f.Line(c.field[col])), -1, c.row, col, reason)
 		}
 		appendRow(b, c.p, c.row)
 		n++
@@ -590,12 +566,7 @@ func (c *csvTable) read(b *array.RecordBuilder, limit int) (int, int64, error) {
 	return n, read, nil
 }
 
-func (c *csvTable) close() error {
-	if c.gz != nil {
-		c.gz.Close()
-	}
-	return c.src.Close()
-}
+func (c *csvTable) close() error { return c.f.Close() }
 
 // pqKind says how a Parquet leaf becomes a cell.
 type pqKind int

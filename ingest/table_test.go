@@ -56,7 +56,7 @@ func readUnitTable(t *testing.T, spec experiment.Spec, sources []Source, opts Un
 		t.Fatal(err)
 	}
 	for r.Next() {
-		if err := ut.Add(r.Record()); err != nil {
+		if err := ut.Add(r.RecordBatch()); err != nil {
 			t.Fatal(err)
 		}
 	}
@@ -87,7 +87,7 @@ func readCounts(t *testing.T, spec experiment.Spec, sources []Source, opts Count
 		t.Fatal(err)
 	}
 	for r.Next() {
-		if err := ct.Add(r.Record()); err != nil {
+		if err := ct.Add(r.RecordBatch()); err != nil {
 			t.Fatal(err)
 		}
 	}
@@ -573,7 +573,7 @@ func TestThreeShapesAgree(t *testing.T) {
 				t.Fatal(err)
 			}
 			for rd.Next() {
-				if err := tlr.Add(rd.Record()); err != nil {
+				if err := tlr.Add(rd.RecordBatch()); err != nil {
 					t.Fatal(err)
 				}
 			}

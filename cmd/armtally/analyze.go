@@ -635,7 +635,7 @@ func runAnalyze(args []string, stdout, stderr io.Writer) error {
 type recordReader interface {
 	Schema() *arrow.Schema
 	Next() bool
-	Record() arrow.RecordBatch
+	RecordBatch() arrow.RecordBatch
 	Err() error
 	Stats() ingest.Stats
 	Close() error
@@ -726,7 +726,7 @@ func addSpilled(spill *ingest.Spill, k int, talliers []*experiment.Tallier) erro
 	defer sr.Close()
 	for sr.Next() {
 		for _, tl := range talliers {
-			if err := tl.Add(sr.Record()); err != nil {
+			if err := tl.Add(sr.RecordBatch()); err != nil {
 				return &dataError{err}
 			}
 		}
@@ -825,7 +825,7 @@ func analyze(run *analyzeRun) ([]experiment.Readout, []tallier, error) {
 	stopProgress := withProgress(run, r)
 	defer stopProgress()
 	for r.Next() {
-		rec := r.Record()
+		rec := r.RecordBatch()
 		if spill != nil {
 			if err := spill.Add(rec); err != nil {
 				return nil, nil, fmt.Errorf("analyze: --memory-limit: %w", err)

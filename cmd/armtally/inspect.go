@@ -254,7 +254,7 @@ func inspect(sources []ingest.Source, open opener, opts ingest.Options, top int)
 			return nil, usagef("inspect: %v", err)
 		}
 		for r.Next() {
-			rec := r.Record()
+			rec := r.RecordBatch()
 			n := int(rec.NumRows())
 			ev := column(rec, experiment.ColEvent)
 			ex := column(rec, experiment.ColExperiment)

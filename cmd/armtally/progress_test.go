@@ -188,12 +188,12 @@ func TestStartProgressStopBeforeFirstLine(t *testing.T) {
 // Progress.
 type fakeReader struct{}
 
-func (fakeReader) Schema() *arrow.Schema     { return nil }
-func (fakeReader) Next() bool                { return false }
-func (fakeReader) Record() arrow.RecordBatch { return nil }
-func (fakeReader) Err() error                { return nil }
-func (fakeReader) Stats() ingest.Stats       { return ingest.Stats{} }
-func (fakeReader) Close() error              { return nil }
+func (fakeReader) Schema() *arrow.Schema          { return nil }
+func (fakeReader) Next() bool                     { return false }
+func (fakeReader) RecordBatch() arrow.RecordBatch { return nil }
+func (fakeReader) Err() error                     { return nil }
+func (fakeReader) Stats() ingest.Stats            { return ingest.Stats{} }
+func (fakeReader) Close() error                   { return nil }
 
 // fakeProgressReader also reports its progress, like ingest.Reader.
 type fakeProgressReader struct {
