@@ -52,7 +52,7 @@ type parquetReader struct {
 	plDone    bool
 }
 
-// textKind says how a column's values become text or time.
+// valueKind says how a column's values become text or time.
 type valueKind int
 
 const (
@@ -75,10 +75,9 @@ type pqColumn struct {
 	index   int      // leaf column index in the file
 	path    []string // path in the schema
 	typ     parquet.Type
-	kind    valueKind
-	unit    int64 // nanoseconds per unit for kindTSEpoch*
-	maxDef  byte  // the column's maximum definition level
-	p       *plan // for text timestamps
+	kind    valueKind // a text column's kind
+	ts      tsDecoder // the ts column's decoder
+	maxDef  byte      // the column's maximum definition level
 	scratch []byte
 
 	pages parquet.Pages
@@ -127,12 +126,18 @@ func newParquetReader(source Source, src *openedSource, p *plan) (pr *parquetRea
 		if leaf.MaxRepetitionLevel > 0 {
 			return nil, &ColumnError{File: file, Column: name, Err: ErrColumnType, Detail: "a repeated column"}
 		}
-		kind, unit, detail := columnKind(leaf.Node.Type(), i == colTS, p.epochUnit)
+		c := &pqColumn{name: name, index: leaf.ColumnIndex, maxDef: byte(leaf.MaxDefinitionLevel),
+			path: schema.Columns()[leaf.ColumnIndex], typ: leaf.Node.Type(), buf: make([]parquet.Value, 1024)}
+		var detail string
+		if i == colTS {
+			c.ts, detail = newTSDecoder(c.typ, p.epochUnit)
+		} else {
+			c.kind, detail = textKind(c.typ)
+		}
 		if detail != "" {
 			return nil, &ColumnError{File: file, Column: name, Err: ErrColumnType, Detail: detail}
 		}
-		r.cols = append(r.cols, &pqColumn{name: name, index: leaf.ColumnIndex, kind: kind, unit: unit, maxDef: byte(leaf.MaxDefinitionLevel),
-			path: schema.Columns()[leaf.ColumnIndex], typ: leaf.Node.Type(), p: p, buf: make([]parquet.Value, 1024)})
+		r.cols = append(r.cols, c)
 	}
 	r.row.cells = make([]cell, len(p.physical))
 	if err := r.transcodeLZ4(); err != nil {
@@ -225,110 +230,48 @@ func lookupLeaf(schema *parquet.Schema, name string) (parquet.LeafColumn, bool) 
 	return parquet.LeafColumn{}, false
 }
 
-// columnKind decides how to read a column of type t. For a column it cannot
-// read it returns a non-empty detail for the error.
-func columnKind(t parquet.Type, isTS bool, epochUnit int64) (valueKind, int64, string) {
-	var lt format.LogicalTypeValue
-	if l := t.LogicalType(); l != nil {
-		lt = l.Value
-	}
-	var ct *deprecated.ConvertedType
-	if c := t.ConvertedType(); c != nil {
-		ct = c
-	}
-	physical := t.Kind().String()
-	if lt != nil {
-		physical += " " + lt.String()
-	}
-	if !isTS {
-		switch t.Kind() {
-		case parquet.ByteArray:
-			switch lt.(type) {
-			case nil, *format.StringType, *format.EnumType, *format.JsonType:
-				return kindBytes, 0, ""
-			}
-		case parquet.Int32, parquet.Int64:
-			unsigned := false
-			switch l := lt.(type) {
-			case nil:
-				if ct != nil && *ct != deprecated.Int32 && *ct != deprecated.Int64 &&
-					*ct != deprecated.Uint32 && *ct != deprecated.Uint64 &&
-					*ct != deprecated.Int8 && *ct != deprecated.Int16 &&
-					*ct != deprecated.Uint8 && *ct != deprecated.Uint16 {
-					return 0, 0, "cannot read " + physical + " as text"
-				}
-				unsigned = ct != nil && (*ct == deprecated.Uint32 || *ct == deprecated.Uint64 ||
-					*ct == deprecated.Uint8 || *ct == deprecated.Uint16)
-			case *format.IntType:
-				unsigned = !l.IsSigned
-			default:
-				return 0, 0, "cannot read " + physical + " as text"
-			}
-			switch {
-			case t.Kind() == parquet.Int32 && unsigned:
-				return kindUint32, 0, ""
-			case t.Kind() == parquet.Int32:
-				return kindInt32, 0, ""
-			case unsigned:
-				return kindUint64, 0, ""
-			default:
-				return kindInt64, 0, ""
-			}
-		case parquet.Boolean:
-			return kindBool, 0, ""
-		}
-		return 0, 0, "cannot read " + physical + " as text"
-	}
-
+// textKind decides how to read a text column (user, event, experiment,
+// arm, a segment) of type t. For a column it cannot read it returns a
+// non-empty detail for the error.
+func textKind(t parquet.Type) (valueKind, string) {
+	lt, ct, physical := typeNames(t)
 	switch t.Kind() {
-	case parquet.Int96:
-		return kindTSInt96, 0, ""
 	case parquet.ByteArray:
 		switch lt.(type) {
-		case nil, *format.StringType:
-			return kindTSText, 0, ""
+		case nil, *format.StringType, *format.EnumType, *format.JsonType:
+			return kindBytes, ""
 		}
-	case parquet.Int64:
+	case parquet.Int32, parquet.Int64:
+		unsigned := false
 		switch l := lt.(type) {
-		case *format.TimestampType:
-			// Not UTC-adjusted ("local") timestamps are taken as UTC.
-			switch l.Unit.Value.(type) {
-			case *format.MilliSeconds:
-				return kindTSEpoch64, epochUnitNanos("ms"), ""
-			case *format.MicroSeconds:
-				return kindTSEpoch64, epochUnitNanos("us"), ""
-			case *format.NanoSeconds:
-				return kindTSEpoch64, epochUnitNanos("ns"), ""
+		case nil:
+			if ct != nil && *ct != deprecated.Int32 && *ct != deprecated.Int64 &&
+				*ct != deprecated.Uint32 && *ct != deprecated.Uint64 &&
+				*ct != deprecated.Int8 && *ct != deprecated.Int16 &&
+				*ct != deprecated.Uint8 && *ct != deprecated.Uint16 {
+				return 0, "cannot read " + physical + " as text"
 			}
-		case nil, *format.IntType:
-			if ct != nil {
-				switch *ct {
-				case deprecated.TimestampMillis:
-					return kindTSEpoch64, epochUnitNanos("ms"), ""
-				case deprecated.TimestampMicros:
-					return kindTSEpoch64, epochUnitNanos("us"), ""
-				}
-			}
-			if epochUnit == 0 {
-				return 0, 0, "integer timestamps need an epoch unit (s, ms, us or ns)"
-			}
-			return kindTSEpoch64, epochUnit, ""
+			unsigned = ct != nil && (*ct == deprecated.Uint32 || *ct == deprecated.Uint64 ||
+				*ct == deprecated.Uint8 || *ct == deprecated.Uint16)
+		case *format.IntType:
+			unsigned = !l.IsSigned
+		default:
+			return 0, "cannot read " + physical + " as text"
 		}
-	case parquet.Int32:
-		switch lt.(type) {
-		case *format.DateType:
-			return kindTSDate, 0, ""
-		case nil, *format.IntType:
-			if ct != nil && *ct == deprecated.Date {
-				return kindTSDate, 0, ""
-			}
-			if epochUnit == 0 {
-				return 0, 0, "integer timestamps need an epoch unit (s, ms, us or ns)"
-			}
-			return kindTSEpoch32, epochUnit, ""
+		switch {
+		case t.Kind() == parquet.Int32 && unsigned:
+			return kindUint32, ""
+		case t.Kind() == parquet.Int32:
+			return kindInt32, ""
+		case unsigned:
+			return kindUint64, ""
+		default:
+			return kindInt64, ""
 		}
+	case parquet.Boolean:
+		return kindBool, ""
 	}
-	return 0, 0, "cannot read " + physical + " as a timestamp"
+	return 0, "cannot read " + physical + " as text"
 }
 
 func (r *parquetReader) read(b *batchBuilder, limit int, a *accounting) (n int, err error) {
@@ -364,7 +307,7 @@ func (r *parquetReader) read(b *batchBuilder, limit int, a *accounting) (n int, 
 				return n, fmt.Errorf("%s: row group %d: column %q: %w: %w", r.file, r.rg, c.name, ErrCorrupt, err)
 			}
 			if i == colTS {
-				row.ts, row.tsErr, row.cells[i] = c.timestamp(v)
+				row.ts, row.tsErr, row.cells[i] = c.ts.decode(v)
 				continue
 			}
 			row.cells[i] = c.text(v)
@@ -566,61 +509,4 @@ func (c *pqColumn) text(v parquet.Value) cell {
 		c.scratch = strconv.AppendBool(c.scratch[:0], v.Boolean())
 	}
 	return cell{s: unsafe.String(unsafe.SliceData(c.scratch), len(c.scratch))}
-}
-
-// timestamp converts a value of the ts column. The cell holds the raw value
-// as text for error messages, and is only filled when there is an error.
-func (c *pqColumn) timestamp(v parquet.Value) (int64, error, cell) {
-	if v.IsNull() {
-		return 0, ErrNullTimestamp, cell{null: true}
-	}
-	switch c.kind {
-	case kindTSText:
-		b := v.ByteArray()
-		ns, err := c.p.parseTSText(unsafe.String(unsafe.SliceData(b), len(b)))
-		if err != nil {
-			return 0, err, cell{s: string(b)}
-		}
-		return ns, nil, cell{}
-	case kindTSEpoch64, kindTSEpoch32:
-		x := v.Int64()
-		if c.kind == kindTSEpoch32 {
-			x = int64(v.Int32())
-		}
-		ns, ok := fromEpoch(x, c.unit)
-		if !ok {
-			return 0, ErrTimestampRange, epochText(x, c.unit)
-		}
-		return ns, nil, cell{}
-	case kindTSDate:
-		d := v.Int32()
-		ns, ok := fromDate(d)
-		if !ok {
-			return 0, ErrTimestampRange, cell{s: formatSecNsec(int64(d)*secPerDay, 0)}
-		}
-		return ns, nil, cell{}
-	case kindTSInt96:
-		sec, nsec := int96SecNsec(v.Int96())
-		ns, ok := fromSecNsec(sec, nsec)
-		if !ok {
-			return 0, ErrTimestampRange, cell{s: formatSecNsec(sec, nsec)}
-		}
-		return ns, nil, cell{}
-	}
-	return 0, ErrBadTimestamp, cell{}
-}
-
-// epochText is how an integer timestamp out of range shows in an error:
-// the count and its unit, "4611686018427387904 ms".
-func epochText(v, unitNanos int64) cell {
-	return cell{s: strconv.FormatInt(v, 10) + " " + unitName(unitNanos)}
-}
-
-func unitName(nanos int64) string {
-	for _, u := range []string{"s", "ms", "us", "ns"} {
-		if epochUnitNanos(u) == nanos {
-			return u
-		}
-	}
-	return "?"
 }

@@ -151,14 +151,19 @@ func readColumn(t *testing.T, path, name string, isTS bool) []tsValue {
 	if !ok {
 		t.Fatalf("no column %q", name)
 	}
-	kind, unit, detail := columnKind(leaf.Node.Type(), isTS, 0)
+	c := &pqColumn{name: name, buf: make([]parquet.Value, 4)}
+	var detail string
+	if isTS {
+		c.ts, detail = newTSDecoder(leaf.Node.Type(), 0)
+	} else {
+		c.kind, detail = textKind(leaf.Node.Type())
+	}
 	if detail != "" {
 		t.Fatal(detail)
 	}
 	var out []tsValue
 	for _, rg := range pf.RowGroups() {
-		c := &pqColumn{name: name, kind: kind, unit: unit, buf: make([]parquet.Value, 4),
-			pages: rg.ColumnChunks()[leaf.ColumnIndex].Pages()}
+		c.pages = rg.ColumnChunks()[leaf.ColumnIndex].Pages()
 		for {
 			v, err := c.next()
 			if err == errColumnShort {
@@ -172,7 +177,7 @@ func readColumn(t *testing.T, path, name string, isTS bool) []tsValue {
 				out = append(out, tsValue{raw: strings.Clone(cl.s), null: cl.null})
 				continue
 			}
-			ns, err, raw := c.timestamp(v)
+			ns, err, raw := c.ts.decode(v)
 			out = append(out, tsValue{ns: ns, err: err, raw: raw.s})
 		}
 		c.closePages()

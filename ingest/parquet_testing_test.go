@@ -64,8 +64,8 @@ type columnRead struct {
 // isTimestampColumn reports whether armtally reads a column only as a ts
 // (TIMESTAMP, DATE, INT96) and not as text.
 func isTimestampColumn(typ parquet.Type) bool {
-	_, _, textErr := columnKind(typ, false, 0)
-	_, _, tsErr := columnKind(typ, true, 0)
+	_, textErr := textKind(typ)
+	_, tsErr := newTSDecoder(typ, 0)
 	return textErr != "" && tsErr == ""
 }
 

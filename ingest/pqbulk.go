@@ -4,7 +4,6 @@ import (
 	"errors"
 	"fmt"
 	"io"
-	"math"
 	"sync"
 	"unsafe"
 
@@ -39,7 +38,7 @@ func (r *parquetReader) bulkable() bool {
 			continue
 		}
 		if i == colTS {
-			if c.kind != kindTSEpoch64 {
+			if c.ts.kind != kindTSEpoch64 {
 				return false
 			}
 		} else if c.kind != kindBytes {
@@ -209,7 +208,7 @@ func (r *parquetReader) newWorker(budget bool, stop <-chan struct{}) *rgWorker {
 		}
 		bc := &bulkColumn{pqColumn: c}
 		if i == colTS {
-			bc.ts = make([]tsCell, bulkWindow)
+			bc.times = make([]tsCell, bulkWindow)
 		} else {
 			bc.cells = make([]cell, bulkWindow)
 		}
@@ -304,7 +303,7 @@ func (w *rgWorker) run(rg int) (res rgResult) {
 				// A row of an unwanted event: valid when its user,
 				// ts and event are (it is no exposure), and then
 				// only counted; otherwise the full rules below.
-				u, ev, ts := &uc.cells[k], &ec.cells[k], &tc.ts[k]
+				u, ev, ts := &uc.cells[k], &ec.cells[k], &tc.times[k]
 				if !u.null && u.s != "" && ts.state == tsOK && !ev.null && ev.s != "" && ev.s != r.p.exposure {
 					if res.filtered == 0 || ts.ns > res.fMaxTS {
 						res.fMaxTS = ts.ns
@@ -320,7 +319,7 @@ func (w *rgWorker) run(rg int) (res rgResult) {
 					continue
 				}
 				if i == colTS {
-					row.ts, row.tsErr, row.cells[i] = c.ts[k].get(c.unit)
+					row.ts, row.tsErr, row.cells[i] = c.times[k].get(&c.ts)
 					continue
 				}
 				row.cells[i] = c.cells[k]
@@ -390,48 +389,11 @@ func chunkError(file string, rg int, col string, rgRows int64, err error) error 
 	return fmt.Errorf("%s: row group %d: column %q: %w: %w", file, rg, col, ErrCorrupt, err)
 }
 
-// tsCell is one decoded ts value: v in the column's unit, ns in
-// nanoseconds when state is tsOK.
-type tsCell struct {
-	v, ns int64
-	state uint8
-}
-
-const (
-	tsOK = iota
-	tsNull
-	tsRange
-)
-
-// makeTS converts v units of unit nanoseconds as fromEpoch does; lim is
-// math.MaxInt64/unit, within which the product cannot overflow.
-func makeTS(v, unit, lim int64) tsCell {
-	if v <= lim && v >= -lim {
-		return tsCell{v: v, ns: v * unit}
-	}
-	ns, ok := fromEpoch(v, unit)
-	if !ok {
-		return tsCell{v: v, state: tsRange}
-	}
-	return tsCell{v: v, ns: ns}
-}
-
-// get returns the value as pqColumn.timestamp does.
-func (t tsCell) get(unit int64) (int64, error, cell) {
-	switch t.state {
-	case tsNull:
-		return 0, ErrNullTimestamp, cell{null: true}
-	case tsRange:
-		return 0, ErrTimestampRange, epochText(t.v, unit)
-	}
-	return t.ns, nil, cell{}
-}
-
 // bulkColumn reads one column chunk in windows of rows, page by page.
 type bulkColumn struct {
 	*pqColumn
 	cells  []cell   // text: the window's values; they point into pages
-	ts     []tsCell // ts: the window's values
+	times  []tsCell // ts: the window's values
 	events *nameSet
 	keep   []bool // event column with a filter: the window's verdicts
 
@@ -459,7 +421,7 @@ func (c *bulkColumn) open(pages parquet.Pages) {
 	c.pages = pages
 }
 
-// fill decodes the next n rows into c.cells or c.ts (and c.keep).
+// fill decodes the next n rows into c.cells or c.times (and c.keep).
 func (c *bulkColumn) fill(n int) error {
 	for k := 0; k < n; {
 		if c.pos >= c.nrows {
@@ -469,8 +431,8 @@ func (c *bulkColumn) fill(n int) error {
 			continue
 		}
 		m := min(n-k, c.nrows-c.pos)
-		if c.ts != nil {
-			if err := c.fillTS(c.ts[k : k+m]); err != nil {
+		if c.times != nil {
+			if err := c.fillTS(c.times[k : k+m]); err != nil {
 				return err
 			}
 		} else if err := c.fillText(k, m); err != nil {
@@ -525,7 +487,6 @@ func (c *bulkColumn) fillText(k, m int) error {
 }
 
 func (c *bulkColumn) fillTS(dst []tsCell) error {
-	lim := int64(math.MaxInt64) / c.unit
 	for j := range dst {
 		if !c.defined(c.pos) {
 			c.pos++
@@ -540,10 +501,10 @@ func (c *bulkColumn) fillTS(dst []tsCell) error {
 			if x < 0 || x >= len(c.dictI64) {
 				return fmt.Errorf("dictionary index %d of a dictionary of %d values", x, len(c.dictI64))
 			}
-			dst[j] = makeTS(c.dictI64[x], c.unit, lim)
+			dst[j] = c.ts.epoch(c.dictI64[x])
 			continue
 		}
-		dst[j] = makeTS(c.i64[v], c.unit, lim)
+		dst[j] = c.ts.epoch(c.i64[v])
 	}
 	return nil
 }
@@ -582,10 +543,10 @@ func (c *bulkColumn) nextPage() error {
 		}
 	} else {
 		switch {
-		case c.ts == nil && data.Kind() == encoding.ByteArray:
+		case c.times == nil && data.Kind() == encoding.ByteArray:
 			c.data, c.offs = data.ByteArray()
 			c.nvals = max(len(c.offs)-1, 0)
-		case c.ts != nil && data.Kind() == encoding.Int64:
+		case c.times != nil && data.Kind() == encoding.Int64:
 			c.i64 = data.Int64()
 			c.nvals = len(c.i64)
 		default:
@@ -612,7 +573,7 @@ func (c *bulkColumn) nextPage() error {
 func (c *bulkColumn) readDictionary(d parquet.Dictionary) error {
 	data := d.Page().Data()
 	c.lastDict = d
-	if c.ts != nil {
+	if c.times != nil {
 		if data.Kind() != encoding.Int64 {
 			return fmt.Errorf("dictionary of %v values", data.Kind())
 		}

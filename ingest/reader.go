@@ -5,7 +5,6 @@ import (
 	"fmt"
 	"io"
 	"runtime"
-	"strconv"
 	"strings"
 	"sync/atomic"
 	"unicode/utf8"
@@ -698,41 +697,9 @@ func (p *plan) badRow(file string, pos int64, rowGroup int, r *row, col int, rea
 	return badRow{file: file, row: pos, rowGroup: rowGroup, column: p.physical[col], value: r.cells[col].s, reason: reason}
 }
 
-// parseTSText parses a timestamp written as text: a CSV cell, a Parquet
-// string or a partition value. With an epoch unit, a plain integer is a
-// count of that unit since the epoch; anything else goes to ParseTimestamp.
-func (p *plan) parseTSText(s string) (int64, error) {
-	if s == "" {
-		return 0, ErrNullTimestamp
-	}
-	if p.epochUnit != 0 && isInteger(s) { // checked first: a failed ParseInt allocates its error
-		if v, err := strconv.ParseInt(s, 10, 64); err == nil {
-			ns, ok := fromEpoch(v, p.epochUnit)
-			if !ok {
-				return 0, ErrTimestampRange
-			}
-			return ns, nil
-		}
-	}
-	return parseTimestamp(s)
-}
-
-// isInteger reports whether s is an optional sign and one or more ASCII
-// digits, the form strconv.ParseInt accepts in base 10.
-func isInteger(s string) bool {
-	if s != "" && (s[0] == '-' || s[0] == '+') {
-		s = s[1:]
-	}
-	if s == "" {
-		return false
-	}
-	for i := 0; i < len(s); i++ {
-		if s[i] < '0' || s[i] > '9' {
-			return false
-		}
-	}
-	return true
-}
+// parseTSText parses a timestamp written as text with the epoch unit of
+// the mapping (see parseTSText).
+func (p *plan) parseTSText(s string) (int64, error) { return parseTSText(s, p.epochUnit) }
 
 // partitionCols holds the logical columns that a source supplies from its
 // partitions rather than from the file (see Mapping).

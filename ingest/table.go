@@ -217,17 +217,7 @@ func (p *tablePlan) textCell(kind colKind, s string) tval {
 	}
 	switch kind {
 	case colTime:
-		if p.epochUnit != 0 {
-			if x, err := strconv.ParseInt(s, 10, 64); err == nil {
-				ns, ok := fromEpoch(x, p.epochUnit)
-				if !ok {
-					v.err = ErrTimestampRange
-				}
-				v.n = ns
-				return v
-			}
-		}
-		v.n, v.err = ParseTimestamp([]byte(s))
+		v.n, v.err = parseTSText(s, p.epochUnit)
 	case colFlag:
 		var ok bool
 		if v.b, ok = parseFlag(s); !ok {
@@ -585,8 +575,7 @@ const (
 type pqTableCol struct {
 	index int // leaf column index
 	kind  pqKind
-	tk    valueKind // for pqTime: the event log's timestamp kind
-	unit  int64     // for pqTime epoch kinds
+	ts    tsDecoder // for pqTime
 	scale int32     // for pqDecimal
 }
 
@@ -657,13 +646,10 @@ func newParquetTable(file string, o *openedSource, p *tablePlan) (pt *parquetTab
 // pqColumnKind decides how to read a leaf of type t as a column of kind.
 func pqColumnKind(t parquet.Type, kind colKind, epochUnit int64) (pqTableCol, string) {
 	if kind == colTime {
-		tk, unit, detail := columnKind(t, true, epochUnit)
-		return pqTableCol{kind: pqTime, tk: tk, unit: unit}, detail
+		ts, detail := newTSDecoder(t, epochUnit)
+		return pqTableCol{kind: pqTime, ts: ts}, detail
 	}
-	var lt format.LogicalTypeValue
-	if l := t.LogicalType(); l != nil {
-		lt = l.Value
-	}
+	lt, _, _ := typeNames(t)
 	if d, ok := lt.(*format.DecimalType); ok {
 		if kind == colCount && (t.Kind() == parquet.Int32 || t.Kind() == parquet.Int64) {
 			return pqTableCol{kind: pqDecimal, scale: d.Scale}, ""
@@ -677,7 +663,7 @@ func pqColumnKind(t parquet.Type, kind colKind, epochUnit int64) (pqTableCol, st
 		}
 		return pqTableCol{}, "cannot read " + t.String() + " here"
 	}
-	tk, _, detail := columnKind(t, false, 0)
+	tk, detail := textKind(t)
 	if detail != "" {
 		return pqTableCol{}, detail
 	}
@@ -769,34 +755,8 @@ func (t *parquetTable) cell(i int, v parquet.Value) tval {
 
 // timeCell decodes an exposure time in any of the event log's forms.
 func (t *parquetTable) timeCell(c pqTableCol, v parquet.Value) tval {
-	switch c.tk {
-	case kindTSText:
-		return t.p.textCell(colTime, string(v.ByteArray()))
-	case kindTSEpoch64, kindTSEpoch32:
-		x := v.Int64()
-		if c.tk == kindTSEpoch32 {
-			x = int64(v.Int32())
-		}
-		ns, ok := fromEpoch(x, c.unit)
-		if !ok {
-			return tval{s: strconv.FormatInt(x, 10), err: ErrTimestampRange}
-		}
-		return tval{n: ns}
-	case kindTSDate:
-		ns, ok := fromDate(v.Int32())
-		if !ok {
-			return tval{s: strconv.Itoa(int(v.Int32())) + " days", err: ErrTimestampRange}
-		}
-		return tval{n: ns}
-	case kindTSInt96:
-		sec, nsec := int96SecNsec(v.Int96())
-		ns, ok := fromSecNsec(sec, nsec)
-		if !ok {
-			return tval{s: formatSecNsec(sec, nsec), err: ErrTimestampRange}
-		}
-		return tval{n: ns}
-	}
-	return tval{err: ErrBadTimestamp}
+	ns, err, raw := c.ts.decode(v)
+	return tval{n: ns, err: err, s: raw.s, null: raw.null}
 }
 
 func (t *parquetTable) read(b *array.RecordBuilder, limit int) (n int, read int64, err error) {

@@ -2,6 +2,7 @@ package ingest
 
 import (
 	"bytes"
+	"errors"
 	"testing"
 
 	"github.com/parquet-go/parquet-go"
@@ -31,6 +32,36 @@ func oneColumn(t *testing.T, node parquet.Node, vals []*parquet.Value) []byte {
 }
 
 func val(v parquet.Value) *parquet.Value { return &v }
+
+// tableTS reads v, a value of a column of type node, as the exposure time
+// of a one-row unit table through the TableReader, and returns it as RFC
+// 3339 text or the reader's error.
+func tableTS(t *testing.T, node parquet.Node, unit string, v parquet.Value) (string, error) {
+	t.Helper()
+	schema := parquet.NewSchema("t", parquet.Group{"u": parquet.String(), "a": parquet.String(), "m": parquet.Int(32), "c": parquet.Optional(node)})
+	var buf bytes.Buffer
+	w := parquet.NewWriter(&buf, schema)
+	row := parquet.Row{parquet.ByteArrayValue([]byte("a")).Level(0, 0, 0), v.Level(0, 1, 1),
+		parquet.Int32Value(1).Level(0, 0, 2), parquet.ByteArrayValue([]byte("unit-1")).Level(0, 0, 3)}
+	if _, err := w.WriteRows([]parquet.Row{row}); err != nil {
+		t.Fatal(err)
+	}
+	if err := w.Close(); err != nil {
+		t.Fatal(err)
+	}
+	r, err := NewUnitTableReader([]Source{BytesSource("ts.parquet", buf.Bytes())},
+		UnitTableOptions{Unit: "u", Arm: "a", TS: "c", EpochUnit: unit, Metrics: []ColumnMap{{"m", "m"}}})
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer r.Close()
+	var got string
+	for r.Next() {
+		rec := r.RecordBatch()
+		got = cellText(rec.Column(int(rec.Schema().FieldIndices("ts")[0])), 0)
+	}
+	return got, r.Err()
+}
 
 // Every timestamp form of a Parquet column, read as the ts column. The
 // instant is 2024-01-01T12:34:56.123456789Z: GNU date 9.1,
@@ -89,6 +120,15 @@ func TestParquetTimestampTypes(t *testing.T) {
 			if len(st.BadRows) != 1 || st.BadRows[0].Reason != "null_timestamp" || st.BadRowExamples[0].Row != 2 {
 				t.Errorf("bad rows %v, want one null_timestamp at row 2", st.BadRows)
 			}
+			// The same through the row-by-row path and the table reader.
+			rows, _, err = readAll(t, []Source{src}, Options{Mapping: m, MaxBadRows: NoLimit, rowByRow: true})
+			if err != nil {
+				t.Fatal(err)
+			}
+			equalRows(t, rows, []string{"unit-1 | " + tc.want + " | view"})
+			if got, err := tableTS(t, tc.node, tc.unit, tc.v); err != nil || got != tc.want {
+				t.Errorf("table reader: %s, %v; want %s", got, err, tc.want)
+			}
 		})
 	}
 }
@@ -123,9 +163,17 @@ func TestParquetTimestampRange(t *testing.T) {
 		t.Run(tc.name, func(t *testing.T) {
 			src := BytesSource("ts.parquet", oneColumn(t, tc.node, []*parquet.Value{val(tc.v)}))
 			src.Partitions = []Partition{{Key: "u", Value: "unit-1"}, {Key: "e", Value: "view"}}
-			_, _, err := readAll(t, []Source{src}, Options{Mapping: Mapping{User: "u", TS: "c", Event: "e", EpochUnit: tc.unit}})
-			if err == nil || Reason(err) != Reason(tc.err) || err.Error() != tc.msg {
-				t.Errorf("error\n got %v\nwant %s", err, tc.msg)
+			m := Mapping{User: "u", TS: "c", Event: "e", EpochUnit: tc.unit}
+			for _, rowByRow := range []bool{false, true} {
+				_, _, err := readAll(t, []Source{src}, Options{Mapping: m, rowByRow: rowByRow})
+				if err == nil || Reason(err) != Reason(tc.err) || err.Error() != tc.msg {
+					t.Errorf("row by row %v: error\n got %v\nwant %s", rowByRow, err, tc.msg)
+				}
+			}
+			// The table reader gives the same reason and message.
+			_, err := tableTS(t, tc.node, tc.unit, tc.v)
+			if !errors.Is(err, tc.err) || err.Error() != tc.msg {
+				t.Errorf("table reader: error\n got %v\nwant %s", err, tc.msg)
 			}
 		})
 	}
