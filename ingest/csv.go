@@ -39,18 +39,18 @@ func newCSVReader(src Source, o *openedSource, p *plan) (*csvReader, error) {
 }
 
 func (c *csvReader) read(b *batchBuilder, limit int, a *accounting) (int, error) {
-	n := 0
+	n0 := b.n
 	r := &c.row
-	for n < limit {
+	for b.n-n0 < limit {
 		rec, err := c.f.Read()
 		if err != nil {
-			return n, err
+			return b.n - n0, err
 		}
 		a.rowsRead++
 		if len(rec) != c.nhead {
 			if err := a.bad(badRow{file: c.file, row: int64(c.f.Line(0)), rowGroup: -1, reason: ErrFieldCount,
 				value: strconv.Itoa(len(rec)), wantFields: c.nhead}); err != nil {
-				return n, err
+				return b.n - n0, err
 			}
 			continue
 		}
@@ -63,24 +63,16 @@ func (c *csvReader) read(b *batchBuilder, limit int, a *accounting) (int, error)
 		if j := c.field[colTS]; j >= 0 {
 			r.ts, r.tsErr = c.p.parseTSText(rec[j])
 		}
-		if col, reason := c.p.check(r); reason != nil {
-			line := c.f.Line(max(c.field[col], 0))
-			if err := a.bad(c.p.badRow(c.file, int64(line), -1, r, col, reason)); err != nil {
-				return n, err
-			}
-			continue
-		}
-		if !c.p.keep(r) {
-			a.filter(r.ts)
-			continue
-		}
-		b.append(r)
-		n++
-		if b.full() {
-			break
+		if err := c.p.take(r, b, a, c); err != nil || b.full() {
+			return b.n - n0, err
 		}
 	}
-	return n, nil
+	return b.n - n0, nil
+}
+
+// badAt describes a bad row: its line is where the field at fault starts.
+func (c *csvReader) badAt(r *row, col int, reason error) badRow {
+	return c.p.badRow(c.file, int64(c.f.Line(max(c.field[col], 0))), -1, r, col, reason)
 }
 
 func (c *csvReader) close() error { return c.f.Close() }

@@ -220,59 +220,9 @@ func (t *chunkRewriter) chunk(cc *format.ColumnChunk) error {
 		}
 		bodyStart := pos + hlen
 		pos = bodyStart + comp
-		// levels: the bytes at the start of the body that are not
-		// compressed; compressed: whether the rest is.
-		levels, compressed := int64(0), true
-		switch h.Type {
-		case format.DataPage, format.DictionaryPage:
-		case format.DataPageV2:
-			v2, ok := h.DataPageHeaderV2.Get()
-			if !ok {
-				return fmt.Errorf("%w: page %d: a data page v2 without a valid header", ErrCorrupt, page)
-			}
-			levels = int64(v2.DefinitionLevelsByteLength) + int64(v2.RepetitionLevelsByteLength)
-			if v2.DefinitionLevelsByteLength < 0 || v2.RepetitionLevelsByteLength < 0 || levels > comp || levels > uncomp {
-				return fmt.Errorf("%w: page %d: %d bytes of levels in a page of %d", ErrCorrupt, page, levels, comp)
-			}
-			if c, ok := v2.IsCompressed.Get(); ok && !c {
-				compressed = false
-			} else if t.rw.codec == format.Uncompressed {
-				v2.IsCompressed = thrift.New(false)
-				h.DataPageHeaderV2 = thrift.New(v2)
-			}
-		default:
-			compressed = false // index pages and others: kept as they are
-		}
-		if int64(cap(t.body)) < comp {
-			t.body = make([]byte, comp)
-		}
-		body := t.body[:comp]
-		if _, err := t.r.ReadAt(body, bodyStart); err != nil {
-			return fmt.Errorf("reading page %d: %w", page, err)
-		}
-		if h.CRC != 0 && uint32(h.CRC) != crc32.ChecksumIEEE(body) {
-			return fmt.Errorf("%w: page %d: the page's checksum does not match its bytes", ErrCorrupt, page)
-		}
-		newBody := body
-		if compressed {
-			src, want := body[levels:], uncomp-levels
-			if t.rw.ratio > 0 && want > t.rw.ratio*int64(len(src))+64 {
-				return fmt.Errorf("%w: page %d: %d compressed bytes cannot hold the %d the header claims",
-					ErrCorrupt, page, len(src), want)
-			}
-			if t.total+want > t.rw.limit {
-				return fmt.Errorf("%w: page %d: the file's LZ4 pages decompress to more than %d bytes, the most armtally rewrites in memory (rewrite the file with SNAPPY, ZSTD, GZIP or LZ4_RAW)",
-					ErrCodec, page, t.rw.limit)
-			}
-			values, err := t.rw.page(src, int(want))
-			if err != nil {
-				return fmt.Errorf("%w: page %d: %w", ErrCorrupt, page, err)
-			}
-			if levels == 0 {
-				newBody = values
-			} else {
-				newBody = append(append(make([]byte, 0, levels+int64(len(values))), body[:levels]...), values...)
-			}
+		newBody, err := t.pageBody(&h, page, bodyStart, comp, uncomp)
+		if err != nil {
+			return err
 		}
 		if int64(len(newBody)) > math.MaxInt32 {
 			return fmt.Errorf("%w: page %d: %d bytes, more than a page can have", ErrCorrupt, page, len(newBody))
@@ -292,6 +242,14 @@ func (t *chunkRewriter) chunk(cc *format.ColumnChunk) error {
 		t.tail = append(append(t.tail, hb...), newBody...)
 		uncompTotal += int64(len(hb)) + uncomp
 	}
+	return t.relocate(cc, start, newStart, moved, uncompTotal)
+}
+
+// relocate points the metadata of a rewritten column chunk, which started
+// at start, at its new bytes from newStart; moved maps its pages' old
+// offsets to the new ones and uncompTotal is its new uncompressed size.
+func (t *chunkRewriter) relocate(cc *format.ColumnChunk, start, newStart int64, moved map[int64]int64, uncompTotal int64) error {
+	md := &cc.MetaData
 	newOffset := func(what string, old int64) (int64, error) {
 		n, ok := moved[old]
 		if !ok && len(moved) == 0 && old == start {
@@ -321,6 +279,69 @@ func (t *chunkRewriter) chunk(cc *format.ColumnChunk) error {
 	cc.OffsetIndexOffset, cc.OffsetIndexLength = 0, 0
 	cc.ColumnIndexOffset, cc.ColumnIndexLength = 0, 0
 	return nil
+}
+
+// pageBody reads the body of one page (comp bytes at bodyStart, uncomp
+// once decompressed) and returns it as the rewritten chunk holds it: a data
+// or dictionary page decompressed (a v2 page's levels, which are not
+// compressed, kept in front; h marked uncompressed when the new codec is),
+// any other page as it is.
+func (t *chunkRewriter) pageBody(h *format.PageHeader, page int, bodyStart, comp, uncomp int64) ([]byte, error) {
+	// levels: the bytes at the start of the body that are not
+	// compressed; compressed: whether the rest is.
+	levels, compressed := int64(0), true
+	switch h.Type {
+	case format.DataPage, format.DictionaryPage:
+	case format.DataPageV2:
+		v2, ok := h.DataPageHeaderV2.Get()
+		if !ok {
+			return nil, fmt.Errorf("%w: page %d: a data page v2 without a valid header", ErrCorrupt, page)
+		}
+		levels = int64(v2.DefinitionLevelsByteLength) + int64(v2.RepetitionLevelsByteLength)
+		if v2.DefinitionLevelsByteLength < 0 || v2.RepetitionLevelsByteLength < 0 || levels > comp || levels > uncomp {
+			return nil, fmt.Errorf("%w: page %d: %d bytes of levels in a page of %d", ErrCorrupt, page, levels, comp)
+		}
+		if c, ok := v2.IsCompressed.Get(); ok && !c {
+			compressed = false
+		} else if t.rw.codec == format.Uncompressed {
+			v2.IsCompressed = thrift.New(false)
+			h.DataPageHeaderV2 = thrift.New(v2)
+		}
+	default:
+		compressed = false // index pages and others: kept as they are
+	}
+	if int64(cap(t.body)) < comp {
+		t.body = make([]byte, comp)
+	}
+	body := t.body[:comp]
+	if _, err := t.r.ReadAt(body, bodyStart); err != nil {
+		return nil, fmt.Errorf("reading page %d: %w", page, err)
+	}
+	if h.CRC != 0 && uint32(h.CRC) != crc32.ChecksumIEEE(body) {
+		return nil, fmt.Errorf("%w: page %d: the page's checksum does not match its bytes", ErrCorrupt, page)
+	}
+	newBody := body
+	if compressed {
+		src, want := body[levels:], uncomp-levels
+		if t.rw.ratio > 0 && want > t.rw.ratio*int64(len(src))+64 {
+			return nil, fmt.Errorf("%w: page %d: %d compressed bytes cannot hold the %d the header claims",
+				ErrCorrupt, page, len(src), want)
+		}
+		if t.total+want > t.rw.limit {
+			return nil, fmt.Errorf("%w: page %d: the file's LZ4 pages decompress to more than %d bytes, the most armtally rewrites in memory (rewrite the file with SNAPPY, ZSTD, GZIP or LZ4_RAW)",
+				ErrCodec, page, t.rw.limit)
+		}
+		values, err := t.rw.page(src, int(want))
+		if err != nil {
+			return nil, fmt.Errorf("%w: page %d: %w", ErrCorrupt, page, err)
+		}
+		if levels == 0 {
+			newBody = values
+		} else {
+			newBody = append(append(make([]byte, 0, levels+int64(len(values))), body[:levels]...), values...)
+		}
+	}
+	return newBody, nil
 }
 
 // decodeLZ4 decompresses the compressed part of a page written with the

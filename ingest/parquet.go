@@ -283,11 +283,12 @@ func (r *parquetReader) read(b *batchBuilder, limit int, a *accounting) (n int, 
 			err = fmt.Errorf("%s: row group %d: corrupt parquet data: %w: %v", r.file, r.rg, errPanicked, v)
 		}
 	}()
+	n0 := b.n
 	row := &r.row
-	for n < limit {
+	for b.n-n0 < limit {
 		if r.rg < 0 || r.rgDone == r.rgRows {
 			if err := r.nextRowGroup(); err != nil {
-				return n, err
+				return b.n - n0, err
 			}
 			continue
 		}
@@ -298,13 +299,7 @@ func (r *parquetReader) read(b *batchBuilder, limit int, a *accounting) (n int, 
 			}
 			v, err := c.next()
 			if err != nil {
-				if err == errColumnShort {
-					return n, fmt.Errorf("%s: row group %d: column %q: %w: %w (%d rows)", r.file, r.rg, c.name, ErrCorrupt, err, r.rgRows)
-				}
-				// parquet-go's error, kept for errors.Is (ErrCorrupted,
-				// io.ErrUnexpectedEOF, ...): a page of a file whose
-				// metadata checked out that cannot be decoded.
-				return n, fmt.Errorf("%s: row group %d: column %q: %w: %w", r.file, r.rg, c.name, ErrCorrupt, err)
+				return b.n - n0, chunkError(r.file, r.rg, c.name, r.rgRows, err)
 			}
 			if i == colTS {
 				row.ts, row.tsErr, row.cells[i] = c.ts.decode(v)
@@ -314,23 +309,16 @@ func (r *parquetReader) read(b *batchBuilder, limit int, a *accounting) (n int, 
 		}
 		r.rgDone++
 		a.rowsRead++
-		if col, reason := r.p.check(row); reason != nil {
-			if err := a.bad(r.p.badRow(r.file, r.rowBase+r.rgDone, r.rg, row, col, reason)); err != nil {
-				return n, err
-			}
-			continue
-		}
-		if !r.p.keep(row) {
-			a.filter(row.ts)
-			continue
-		}
-		b.append(row)
-		n++
-		if b.full() {
-			break
+		if err := r.p.take(row, b, a, r); err != nil || b.full() {
+			return b.n - n0, err
 		}
 	}
-	return n, nil
+	return b.n - n0, nil
+}
+
+// badAt describes a bad row: the current row of the file.
+func (r *parquetReader) badAt(row *row, col int, reason error) badRow {
+	return r.p.badRow(r.file, r.rowBase+r.rgDone, r.rg, row, col, reason)
 }
 
 // nextRowGroup finishes the current row group and opens the pages of the

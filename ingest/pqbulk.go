@@ -56,8 +56,7 @@ type rgResult struct {
 	// up to the bad row that stops the reader (without a budget) or up to
 	// an error.
 	rows     int64
-	filtered int64
-	fMaxTS   int64
+	filtered filterCount
 	err      error // after the bad rows
 	rg       int   // the row group
 }
@@ -173,7 +172,7 @@ func (r *parquetReader) nextBatch(workers int, a *accounting) (rec arrow.RecordB
 			}
 		}
 		a.rowsRead = pl.base + r.rgStart[res.rg] + res.rows
-		a.addFiltered(res.filtered, res.fMaxTS)
+		a.filtered.merge(res.filtered)
 		if res.err != nil {
 			return nil, res.err
 		}
@@ -193,6 +192,7 @@ type rgWorker struct {
 	stop   <-chan struct{}
 	cols   []*bulkColumn // per logical column; nil for a partition column
 	bld    *batchBuilder
+	batch  int // rows in the batch being built
 	row    row
 }
 
@@ -250,36 +250,12 @@ func (w *rgWorker) run(rg int) (res rgResult) {
 			w.bld.discard()
 		}
 	}()
-	if w.openEr != nil {
-		res.err = fmt.Errorf("%s: %w", r.file, w.openEr)
+	rgRows, err := w.openChunks(rg)
+	if err != nil {
+		res.err = err
 		return res
 	}
-	g := w.pf.RowGroups()[rg]
-	rgRows := g.NumRows()
-	if rgRows < 0 {
-		res.err = fmt.Errorf("%s: row group %d: %w: %d rows", r.file, rg, ErrCorrupt, rgRows)
-		return res
-	}
-	chunks := g.ColumnChunks()
-	for _, c := range w.cols {
-		if c == nil {
-			continue
-		}
-		if c.index < 0 || c.index >= len(chunks) {
-			res.err = fmt.Errorf("%s: row group %d: column %q: %w: no column chunk", r.file, rg, c.name, ErrCorrupt)
-			return res
-		}
-		if err := r.checkChunk(c.pqColumn, rg, rgRows); err != nil {
-			res.err = fmt.Errorf("%s: row group %d: column %q: %w", r.file, rg, c.name, err)
-			return res
-		}
-		c.open(chunks[c.index].Pages())
-	}
-	base := r.rgStart[rg]
-	batch := 0
-	// fast: user, ts and event come from the file and there is a filter.
-	uc, tc, ec := w.cols[colUser], w.cols[colTS], w.cols[colEvent]
-	fast := uc != nil && tc != nil && ec != nil && ec.keep != nil
+	w.batch = 0
 	for done := int64(0); done < rgRows; {
 		select {
 		case <-w.stop:
@@ -298,55 +274,8 @@ func (w *rgWorker) run(rg int) (res rgResult) {
 				return res
 			}
 		}
-		for k := 0; k < n; k++ {
-			if fast && !ec.keep[k] {
-				// A row of an unwanted event: valid when its user,
-				// ts and event are (it is no exposure), and then
-				// only counted; otherwise the full rules below.
-				u, ev, ts := &uc.cells[k], &ec.cells[k], &tc.times[k]
-				if !u.null && u.s != "" && ts.state == tsOK && !ev.null && ev.s != "" && ev.s != r.p.exposure {
-					if res.filtered == 0 || ts.ns > res.fMaxTS {
-						res.fMaxTS = ts.ns
-					}
-					res.filtered++
-					continue
-				}
-			}
-			row := &w.row
-			r.part.fill(row)
-			for i, c := range w.cols {
-				if c == nil {
-					continue
-				}
-				if i == colTS {
-					row.ts, row.tsErr, row.cells[i] = c.times[k].get(&c.ts)
-					continue
-				}
-				row.cells[i] = c.cells[k]
-			}
-			if col, reason := r.p.check(row); reason != nil {
-				b := r.p.badRow(r.file, base+done+int64(k)+1, rg, row, col, reason)
-				b.value = string([]byte(b.value)) // the page buffers are reused
-				res.bad = append(res.bad, b)
-				if !w.budget {
-					res.rows = done + int64(k) + 1
-					return w.flush(res, batch)
-				}
-				continue
-			}
-			if !r.p.keep(row) {
-				if res.filtered == 0 || row.ts > res.fMaxTS {
-					res.fMaxTS = row.ts
-				}
-				res.filtered++
-				continue
-			}
-			w.bld.append(row)
-			batch++
-			if batch == r.batchSize || w.bld.full() {
-				res.recs = append(res.recs, w.bld.newRecord())
-				batch = 0
-			}
+		if !w.window(&res, rg, done, n) {
+			return w.flush(res)
 		}
 		done += int64(n)
 		for _, c := range w.cols {
@@ -366,13 +295,99 @@ func (w *rgWorker) run(rg int) (res rgResult) {
 			return res
 		}
 	}
-	return w.flush(res, batch)
+	return w.flush(res)
+}
+
+// openChunks checks row group rg and the metadata of its mapped column
+// chunks and opens their pages. It returns the row group's rows.
+func (w *rgWorker) openChunks(rg int) (int64, error) {
+	r := w.r
+	if w.openEr != nil {
+		return 0, fmt.Errorf("%s: %w", r.file, w.openEr)
+	}
+	g := w.pf.RowGroups()[rg]
+	rgRows := g.NumRows()
+	if rgRows < 0 {
+		return 0, fmt.Errorf("%s: row group %d: %w: %d rows", r.file, rg, ErrCorrupt, rgRows)
+	}
+	chunks := g.ColumnChunks()
+	for _, c := range w.cols {
+		if c == nil {
+			continue
+		}
+		if c.index < 0 || c.index >= len(chunks) {
+			return 0, fmt.Errorf("%s: row group %d: column %q: %w: no column chunk", r.file, rg, c.name, ErrCorrupt)
+		}
+		if err := r.checkChunk(c.pqColumn, rg, rgRows); err != nil {
+			return 0, fmt.Errorf("%s: row group %d: column %q: %w", r.file, rg, c.name, err)
+		}
+		c.open(chunks[c.index].Pages())
+	}
+	return rgRows, nil
+}
+
+// window applies the row rules to the n decoded rows of the window that
+// starts done rows into row group rg, as parquetReader.read does, and
+// puts the kept ones into batches. It returns false when a bad row stops
+// the reader (there is no budget); res.rows then counts the rows up to it.
+func (w *rgWorker) window(res *rgResult, rg int, done int64, n int) bool {
+	r := w.r
+	base := r.rgStart[rg] + done
+	// fast: user, ts and event come from the file and there is a filter.
+	uc, tc, ec := w.cols[colUser], w.cols[colTS], w.cols[colEvent]
+	fast := uc != nil && tc != nil && ec != nil && ec.keep != nil
+	for k := 0; k < n; k++ {
+		if fast && !ec.keep[k] {
+			// A row of an unwanted event: valid when its user,
+			// ts and event are (it is no exposure), and then
+			// only counted; otherwise the full rules below.
+			u, ev, ts := &uc.cells[k], &ec.cells[k], &tc.times[k]
+			if !u.null && u.s != "" && ts.state == tsOK && !ev.null && ev.s != "" && ev.s != r.p.exposure {
+				res.filtered.add(ts.ns)
+				continue
+			}
+		}
+		row := &w.row
+		r.part.fill(row)
+		for i, c := range w.cols {
+			if c == nil {
+				continue
+			}
+			if i == colTS {
+				row.ts, row.tsErr, row.cells[i] = c.times[k].get(&c.ts)
+				continue
+			}
+			row.cells[i] = c.cells[k]
+		}
+		if col, reason := r.p.check(row); reason != nil {
+			b := r.p.badRow(r.file, base+int64(k)+1, rg, row, col, reason)
+			b.value = string([]byte(b.value)) // the page buffers are reused
+			res.bad = append(res.bad, b)
+			if !w.budget {
+				res.rows = done + int64(k) + 1
+				return false
+			}
+			continue
+		}
+		if !r.p.keep(row) {
+			res.filtered.add(row.ts)
+			continue
+		}
+		w.bld.append(row)
+		w.batch++
+		if w.batch == r.batchSize || w.bld.full() {
+			res.recs = append(res.recs, w.bld.newRecord())
+			w.batch = 0
+		}
+	}
+	return true
 }
 
 // flush ends the row group's last batch.
-func (w *rgWorker) flush(res rgResult, batch int) rgResult {
-	if batch > 0 {
+func (w *rgWorker) flush(res rgResult) rgResult {
+	if w.batch > 0 {
 		res.recs = append(res.recs, w.bld.newRecord())
+		w.batch = 0
 	}
 	return res
 }
@@ -380,8 +395,10 @@ func (w *rgWorker) flush(res rgResult, batch int) rgResult {
 // errStopped ends a worker's row group when the reader is closed.
 var errStopped = errors.New("reader closed")
 
-// chunkError wraps an error reading the pages of a column chunk as the
-// row-by-row reader does.
+// chunkError wraps an error reading the pages of a column chunk, on both
+// paths: errColumnShort, or parquet-go's error, kept for errors.Is
+// (ErrCorrupted, io.ErrUnexpectedEOF, ...), for a page of a file whose
+// metadata checked out that cannot be decoded.
 func chunkError(file string, rg int, col string, rgRows int64, err error) error {
 	if err == errColumnShort {
 		return fmt.Errorf("%s: row group %d: column %q: %w: %w (%d rows)", file, rg, col, ErrCorrupt, err, rgRows)
@@ -443,8 +460,25 @@ func (c *bulkColumn) fill(n int) error {
 	return nil
 }
 
-func (c *bulkColumn) defined(i int) bool {
-	return c.levels == nil || c.levels[i] == c.maxDef
+// value moves past the page's next row and returns the position of its
+// value among the page's values (an index into c.idx when the page is
+// dictionary-encoded), or -1 for a null.
+func (c *bulkColumn) value() int {
+	i := c.pos
+	c.pos++
+	if c.levels != nil && c.levels[i] != c.maxDef {
+		return -1
+	}
+	c.vpos++
+	return c.vpos - 1
+}
+
+// dictIndex checks a dictionary index against a dictionary of n values.
+func dictIndex(x int32, n int) (int, error) {
+	if x < 0 || int(x) >= n {
+		return 0, fmt.Errorf("dictionary index %d of a dictionary of %d values", x, n)
+	}
+	return int(x), nil
 }
 
 func (c *bulkColumn) fillText(k, m int) error {
@@ -454,33 +488,26 @@ func (c *bulkColumn) fillText(k, m int) error {
 		keep = c.keep[k : k+m]
 	}
 	for j := range cells {
-		if !c.defined(c.pos) {
-			c.pos++
+		v := c.value()
+		var ok bool
+		switch {
+		case v < 0:
 			cells[j] = cell{null: true}
-			if keep != nil {
-				keep[j] = false
-			}
-			continue
-		}
-		c.pos++
-		v := c.vpos
-		c.vpos++
-		if c.idx != nil {
-			x := int(c.idx[v])
-			if x < 0 || x >= len(c.dictStr) {
-				return fmt.Errorf("dictionary index %d of a dictionary of %d values", x, len(c.dictStr))
+		case c.idx != nil:
+			x, err := dictIndex(c.idx[v], len(c.dictStr))
+			if err != nil {
+				return err
 			}
 			cells[j] = cell{s: c.dictStr[x]}
-			if keep != nil {
-				keep[j] = c.dictKeep[x]
-			}
-			continue
+			ok = keep != nil && c.dictKeep[x]
+		default:
+			b := c.data[c.offs[v]:c.offs[v+1]]
+			s := unsafe.String(unsafe.SliceData(b), len(b))
+			cells[j] = cell{s: s}
+			ok = keep != nil && c.events.has(s)
 		}
-		b := c.data[c.offs[v]:c.offs[v+1]]
-		s := unsafe.String(unsafe.SliceData(b), len(b))
-		cells[j] = cell{s: s}
 		if keep != nil {
-			keep[j] = c.events.has(s)
+			keep[j] = ok
 		}
 	}
 	return nil
@@ -488,23 +515,20 @@ func (c *bulkColumn) fillText(k, m int) error {
 
 func (c *bulkColumn) fillTS(dst []tsCell) error {
 	for j := range dst {
-		if !c.defined(c.pos) {
-			c.pos++
+		v := c.value()
+		if v < 0 {
 			dst[j] = tsCell{state: tsNull}
 			continue
 		}
-		c.pos++
-		v := c.vpos
-		c.vpos++
+		vals := c.i64
 		if c.idx != nil {
-			x := int(c.idx[v])
-			if x < 0 || x >= len(c.dictI64) {
-				return fmt.Errorf("dictionary index %d of a dictionary of %d values", x, len(c.dictI64))
+			x, err := dictIndex(c.idx[v], len(c.dictI64))
+			if err != nil {
+				return err
 			}
-			dst[j] = c.ts.epoch(c.dictI64[x])
-			continue
+			vals, v = c.dictI64, x
 		}
-		dst[j] = c.ts.epoch(c.i64[v])
+		dst[j] = c.ts.epoch(vals[v])
 	}
 	return nil
 }

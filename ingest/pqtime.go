@@ -138,8 +138,9 @@ func (d *tsDecoder) decode(v parquet.Value) (int64, error, cell) {
 	return 0, ErrBadTimestamp, cell{}
 }
 
-// tsCell is one decoded epoch count: v in the column's unit, ns in
-// nanoseconds when state is tsOK. The bulk path keeps a window of them.
+// tsCell is one decoded epoch count: ns in nanoseconds when state is tsOK,
+// the count v in the column's unit when it is tsRange. The bulk path keeps
+// a window of them.
 type tsCell struct {
 	v, ns int64
 	state uint8
@@ -155,8 +156,13 @@ const (
 // plain multiplication when it cannot overflow.
 func (d *tsDecoder) epoch(x int64) tsCell {
 	if x <= d.lim && x >= -d.lim {
-		return tsCell{v: x, ns: x * d.unit}
+		return tsCell{ns: x * d.unit} // v is only read when state is tsRange
 	}
+	return d.epochFar(x)
+}
+
+// epochFar is epoch for a count that a multiplication might overflow.
+func (d *tsDecoder) epochFar(x int64) tsCell {
 	ns, ok := fromEpoch(x, d.unit)
 	if !ok {
 		return tsCell{v: x, state: tsRange}

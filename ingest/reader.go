@@ -150,21 +150,18 @@ type Stats struct {
 //
 // A Reader is not safe for concurrent use.
 type Reader struct {
-	refCount
+	batchState
 	sources   []Source
 	plan      *plan
 	mem       memory.Allocator
 	batchSize int
 	workers   int
 
-	next   int        // index of the next source to open
-	cur    fileReader // the source being read, or nil
-	bld    *batchBuilder
-	rec    arrow.RecordBatch
-	err    error
-	acct   accounting
-	ended  bool // the end-of-input budget check is done
-	closed bool
+	next  int        // index of the next source to open
+	cur   fileReader // the source being read, or nil
+	bld   *batchBuilder
+	acct  accounting
+	ended bool // the end-of-input budget check is done
 
 	progress atomic.Int64 // rows read, as of the last batch (see Progress)
 
@@ -224,6 +221,8 @@ func NewReader(sources []Source, opts Options) (*Reader, error) {
 		return nil, fmt.Errorf("workers %d: must not be negative", opts.Workers)
 	}
 	r := &Reader{sources: sources, plan: p, mem: mem, batchSize: bs, workers: opts.Workers}
+	r.close = r.Close
+	r.bld = newBatchBuilder(mem, p)
 	if r.workers == 0 {
 		r.workers = runtime.GOMAXPROCS(0)
 	}
@@ -239,15 +238,8 @@ func (r *Reader) Schema() *arrow.Schema { return r.plan.schema }
 // Next advances to the next record batch and reports whether there is one.
 // It returns false at the end of the input and on the first error.
 func (r *Reader) Next() bool {
-	if r.rec != nil {
-		r.rec.Release()
-		r.rec = nil
-	}
-	if r.err != nil || r.closed {
+	if !r.advance() {
 		return false
-	}
-	if r.bld == nil {
-		r.bld = newBatchBuilder(r.mem, r.plan)
 	}
 	for {
 		if r.cur == nil {
@@ -315,24 +307,6 @@ func (r *Reader) Next() bool {
 	}
 }
 
-// RecordBatch returns the current record batch. It is valid until the next
-// call to Next or Close; the Reader releases it. Call the batch's Retain to
-// keep it longer.
-func (r *Reader) RecordBatch() arrow.RecordBatch { return r.rec }
-
-// Record returns the current record batch.
-//
-// Deprecated: Use RecordBatch; Record is there for array.RecordReader.
-func (r *Reader) Record() arrow.RecordBatch { return r.rec }
-
-// Release drops a reference to the reader (see Retain); the last closes
-// it.
-func (r *Reader) Release() {
-	if r.drop() {
-		r.Close()
-	}
-}
-
 // Err returns the error that stopped the reader, or nil at a clean end. A
 // bad row gives a *RowError (without a budget), a budget exceeded a
 // *BudgetError, a missing or unusable column a *ColumnError; Parquet
@@ -351,18 +325,10 @@ func (r *Reader) Progress() int64 { return r.progress.Load() }
 // Close releases the current batch and closes the open source. It does not
 // report earlier read errors; use Err.
 func (r *Reader) Close() error {
-	if r.closed {
+	if !r.shut() {
 		return nil
 	}
-	r.closed = true
-	if r.rec != nil {
-		r.rec.Release()
-		r.rec = nil
-	}
-	if r.bld != nil {
-		r.bld.release()
-		r.bld = nil
-	}
+	r.bld.release()
 	var errs []error
 	for _, a := range r.ahead {
 		if a.fr != nil {
@@ -409,24 +375,33 @@ func (r *Reader) open(src Source) (fileReader, error) {
 }
 
 func openFile(src Source, p *plan) (fileReader, error) {
+	return openAs(src,
+		func(o *openedSource) (fileReader, error) { return newCSVReader(src, o, p) },
+		func(o *openedSource) (fileReader, error) { return newParquetReader(src, o, p) })
+}
+
+// openAs opens src and makes a reader of it with csv or pq, by its format;
+// when that fails, it closes the source.
+func openAs[R any](src Source, csv, pq func(*openedSource) (R, error)) (R, error) {
+	var r R
 	o, err := src.open()
 	if err != nil {
-		return nil, err
+		return r, err
 	}
-	var fr fileReader
 	switch src.kind {
 	case formatCSV:
-		fr, err = newCSVReader(src, o, p)
+		r, err = csv(o)
 	case formatParquet:
-		fr, err = newParquetReader(src, o, p)
+		r, err = pq(o)
 	default:
 		err = fmt.Errorf("%s: unknown file type", src.Name)
 	}
 	if err != nil {
 		o.Close()
-		return nil, err
+		var none R // not r: a nil pointer in an interface is not nil
+		return none, err
 	}
-	return fr, nil
+	return r, nil
 }
 
 // accounting counts rows and bad rows and holds the error budget.
@@ -434,8 +409,7 @@ type accounting struct {
 	files    int
 	rowsRead int64
 	rows     int64
-	filtered int64
-	fMaxTS   int64 // largest ts of the filtered rows, when filtered > 0
+	filtered filterCount
 
 	badBy    [numReasons]int64
 	badTotal int64
@@ -496,24 +470,26 @@ func (a *accounting) lastError() *RowError {
 	return e
 }
 
-// filter counts a valid row left out by Options.Events.
-func (a *accounting) filter(ts int64) {
-	if a.filtered == 0 || ts > a.fMaxTS {
-		a.fMaxTS = ts
-	}
-	a.filtered++
+// filterCount counts the valid rows left out by Options.Events.
+type filterCount struct {
+	n     int64
+	maxTS int64 // the largest ts among them, when n > 0
 }
 
-// addFiltered counts n valid rows left out by Options.Events, the largest
-// of whose ts is maxTS.
-func (a *accounting) addFiltered(n, maxTS int64) {
-	if n == 0 {
-		return
+// add counts a row whose ts is ts.
+func (f *filterCount) add(ts int64) {
+	if f.n == 0 || ts > f.maxTS {
+		f.maxTS = ts
 	}
-	if a.filtered == 0 || maxTS > a.fMaxTS {
-		a.fMaxTS = maxTS
+	f.n++
+}
+
+// merge adds the rows counted in g.
+func (f *filterCount) merge(g filterCount) {
+	if g.n > 0 && (f.n == 0 || g.maxTS > f.maxTS) {
+		f.maxTS = g.maxTS
 	}
-	a.filtered += n
+	f.n += g.n
 }
 
 // endCheck applies the share limit once all rows are read.
@@ -525,7 +501,7 @@ func (a *accounting) endCheck() error {
 }
 
 func (a *accounting) stats() Stats {
-	st := Stats{Files: a.files, RowsRead: a.rowsRead, Rows: a.rows, Filtered: a.filtered, FilteredMaxTS: a.fMaxTS}
+	st := Stats{Files: a.files, RowsRead: a.rowsRead, Rows: a.rows, Filtered: a.filtered.n, FilteredMaxTS: a.filtered.maxTS}
 	for i, n := range a.badBy {
 		if n == 0 {
 			continue
@@ -689,6 +665,29 @@ func (p *plan) check(r *row) (col int, reason error) {
 		}
 	}
 	return -1, nil
+}
+
+// badSite is a format reader, which knows where its current row is.
+type badSite interface {
+	// badAt describes the current row, which plan.check rejected for
+	// reason in logical column col.
+	badAt(r *row, col int, reason error) badRow
+}
+
+// take applies the row rules to a decoded row: a bad row (plan.check) goes
+// to a.bad, described by site; a valid row of an unwanted event
+// (plan.keep) is counted; any other is appended to b. It returns the error
+// that stops the reader.
+func (p *plan) take(r *row, b *batchBuilder, a *accounting, site badSite) error {
+	if col, reason := p.check(r); reason != nil {
+		return a.bad(site.badAt(r, col, reason))
+	}
+	if !p.keep(r) {
+		a.filtered.add(r.ts)
+		return nil
+	}
+	b.append(r)
+	return nil
 }
 
 // badRow describes a row that plan.check rejected; the value may point into

@@ -160,6 +160,7 @@ func (s *Spill) Reader(p int, mem memory.Allocator, batchSize int) (*SpillReader
 	r := &SpillReader{schema: s.schema, path: part.path, f: f, in: bufio.NewReaderSize(f, 64<<10), left: part.rows,
 		bld: newBatchBuilder(mem, &plan{logical: logical, schema: s.schema}), batchSize: batchSize}
 	r.row.cells = make([]cell, len(logical))
+	r.close = r.Close
 	return r, nil
 }
 
@@ -181,7 +182,7 @@ func (s *Spill) Close() error {
 // has the methods of Reader that a tally loop uses and is an
 // array.RecordReader.
 type SpillReader struct {
-	refCount
+	batchState
 	schema    *arrow.Schema
 	path      string
 	f         *os.File
@@ -191,17 +192,11 @@ type SpillReader struct {
 	batchSize int
 	row       row
 	text      [][]byte
-	rec       arrow.RecordBatch
-	err       error
 }
 
 // Next reads the next batch; it returns false at the end or on an error.
 func (r *SpillReader) Next() bool {
-	if r.rec != nil {
-		r.rec.Release()
-		r.rec = nil
-	}
-	if r.err != nil || r.left == 0 || r.f == nil {
+	if !r.advance() || r.left == 0 {
 		return false
 	}
 	if r.text == nil {
@@ -258,38 +253,12 @@ func (r *SpillReader) readRow() error {
 // Schema returns the schema of the record batches, the Spill's.
 func (r *SpillReader) Schema() *arrow.Schema { return r.schema }
 
-// RecordBatch returns the current batch, valid until the next call to Next
-// or Close.
-func (r *SpillReader) RecordBatch() arrow.RecordBatch { return r.rec }
-
-// Record returns the current batch.
-//
-// Deprecated: Use RecordBatch; Record is there for array.RecordReader.
-func (r *SpillReader) Record() arrow.RecordBatch { return r.rec }
-
-// Release drops a reference to the reader (see Retain); the last closes
-// it.
-func (r *SpillReader) Release() {
-	if r.drop() {
-		r.Close()
-	}
-}
-
-// Err returns the error that stopped the reader, or nil.
-func (r *SpillReader) Err() error { return r.err }
-
 // Close releases the current batch and closes the partition file. Calls
 // after the first do nothing.
 func (r *SpillReader) Close() error {
-	if r.f == nil {
+	if !r.shut() {
 		return nil
 	}
-	if r.rec != nil {
-		r.rec.Release()
-		r.rec = nil
-	}
 	r.bld.release()
-	err := r.f.Close()
-	r.f = nil
-	return err
+	return r.f.Close()
 }

@@ -337,7 +337,7 @@ type tableSource interface {
 // metric is bad (ErrDuplicateCell), naming the first. A CSV file may be
 // gzip-compressed (.csv.gz). A TableReader is not safe for concurrent use.
 type TableReader struct {
-	refCount
+	batchState
 	sources   []Source
 	plan      *tablePlan
 	mem       memory.Allocator
@@ -345,10 +345,7 @@ type TableReader struct {
 	next      int
 	cur       tableSource
 	bld       *array.RecordBuilder
-	rec       arrow.RecordBatch
-	err       error
 	stats     Stats
-	closed    bool
 }
 
 // NewUnitTableReader returns a reader of unit tables. It checks the
@@ -386,7 +383,9 @@ func newTableReader(sources []Source, p *tablePlan, batchSize int, mem memory.Al
 	if batchSize < 0 {
 		return nil, fmt.Errorf("batch size %d: must be positive", batchSize)
 	}
-	return &TableReader{sources: sources, plan: p, mem: mem, batchSize: batchSize}, nil
+	r := &TableReader{sources: sources, plan: p, mem: mem, batchSize: batchSize}
+	r.close = r.Close
+	return r, nil
 }
 
 // Schema returns the schema of the record batches.
@@ -395,11 +394,7 @@ func (r *TableReader) Schema() *arrow.Schema { return r.plan.schema }
 // Next advances to the next record batch and reports whether there is one.
 // A batch holds rows of one source, in file order.
 func (r *TableReader) Next() bool {
-	if r.rec != nil {
-		r.rec.Release()
-		r.rec = nil
-	}
-	if r.err != nil || r.closed {
+	if !r.advance() {
 		return false
 	}
 	if r.bld == nil {
@@ -439,39 +434,14 @@ func (r *TableReader) Next() bool {
 	}
 }
 
-// RecordBatch returns the current record batch, valid until the next call
-// to Next or Close.
-func (r *TableReader) RecordBatch() arrow.RecordBatch { return r.rec }
-
-// Record returns the current record batch.
-//
-// Deprecated: Use RecordBatch; Record is there for array.RecordReader.
-func (r *TableReader) Record() arrow.RecordBatch { return r.rec }
-
-// Release drops a reference to the reader (see Retain); the last closes
-// it.
-func (r *TableReader) Release() {
-	if r.drop() {
-		r.Close()
-	}
-}
-
-// Err returns the error that stopped the reader, or nil at a clean end.
-func (r *TableReader) Err() error { return r.err }
-
 // Stats returns the counts so far: files opened, rows read, rows
 // delivered (BadRows stays empty: the first bad row stops the reader).
 func (r *TableReader) Stats() Stats { return r.stats }
 
 // Close releases the current batch and closes the open source.
 func (r *TableReader) Close() error {
-	if r.closed {
+	if !r.shut() {
 		return nil
-	}
-	r.closed = true
-	if r.rec != nil {
-		r.rec.Release()
-		r.rec = nil
 	}
 	if r.bld != nil {
 		r.bld.Release()
@@ -486,21 +456,9 @@ func (r *TableReader) Close() error {
 }
 
 func openTableSource(src Source, p *tablePlan) (tableSource, error) {
-	o, err := src.open()
-	if err != nil {
-		return nil, err
-	}
-	var ts tableSource
-	if src.kind == formatCSV {
-		ts, err = newCSVTable(src, o, p)
-	} else {
-		ts, err = newParquetTable(src.Name, o, p)
-	}
-	if err != nil {
-		o.Close()
-		return nil, err
-	}
-	return ts, nil
+	return openAs(src,
+		func(o *openedSource) (tableSource, error) { return newCSVTable(src, o, p) },
+		func(o *openedSource) (tableSource, error) { return newParquetTable(src.Name, o, p) })
 }
 
 // csvTable reads one CSV source of a table, opened by openCSV.
