@@ -175,7 +175,7 @@ func TestSourceOpen(t *testing.T) {
 			t.Errorf("%s: close: %v", s.Name, err)
 		}
 	}
-	_, _, _, err := Source{Name: filepath.Join(dir, "missing.csv"), kind: formatCSV}.Open()
+	_, _, _, err := Source{Name: filepath.Join(dir, "missing.csv"), kind: FormatCSV}.Open()
 	if !errors.Is(err, fs.ErrNotExist) || !strings.Contains(err.Error(), "missing.csv") {
 		t.Errorf("missing file: error %v", err)
 	}

@@ -351,7 +351,7 @@ func (r *Reader) Close() error {
 // It stops at the first source that is not Parquet or cannot be opened;
 // that error is kept until the reader reaches it.
 func (r *Reader) readAhead() {
-	for len(r.ahead) < r.workers && r.next < len(r.sources) && r.sources[r.next].kind == formatParquet {
+	for len(r.ahead) < r.workers && r.next < len(r.sources) && r.sources[r.next].kind == FormatParquet {
 		if n := len(r.ahead); n > 0 && r.ahead[n-1].err != nil {
 			return
 		}
@@ -389,9 +389,9 @@ func openAs[R any](src Source, csv, pq func(*openedSource) (R, error)) (R, error
 		return r, err
 	}
 	switch src.kind {
-	case formatCSV:
+	case FormatCSV:
 		r, err = csv(o)
-	case formatParquet:
+	case FormatParquet:
 		r, err = pq(o)
 	default:
 		err = fmt.Errorf("%s: unknown file type", src.Name)

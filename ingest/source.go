@@ -14,12 +14,14 @@ import (
 	"strings"
 )
 
-// fileFormat is the file format of a source, decided by its name's extension.
-type fileFormat int
+// Format is the file format of a source, decided by its name's extension;
+// 0 for an unknown extension.
+type Format int
 
+// The formats.
 const (
-	formatCSV fileFormat = iota + 1
-	formatParquet
+	FormatCSV     Format = iota + 1 // .csv or .csv.gz
+	FormatParquet                   // .parquet or .parq
 )
 
 // knownTypes lists the extensions in error messages.
@@ -27,13 +29,13 @@ const knownTypes = ".csv, .csv.gz, .parquet or .parq"
 
 // formatOf returns the format of a file name. Whether a CSV file is
 // gzip-compressed is decided by its contents when it is opened.
-func formatOf(name string) (fileFormat, bool) {
+func formatOf(name string) (Format, bool) {
 	lower := strings.ToLower(name)
 	switch {
 	case strings.HasSuffix(lower, ".csv.gz"), strings.HasSuffix(lower, ".csv"):
-		return formatCSV, true
+		return FormatCSV, true
 	case strings.HasSuffix(lower, ".parquet"), strings.HasSuffix(lower, ".parq"):
-		return formatParquet, true
+		return FormatParquet, true
 	}
 	return 0, false
 }
@@ -70,7 +72,7 @@ type Source struct {
 	data  []byte // in-memory contents; nil for a file
 	inMem bool
 	fsys  fs.FS // the file system of a source from FSSources
-	kind  fileFormat
+	kind  Format
 }
 
 // BytesSource returns a source that reads data, named name. The format comes
@@ -353,6 +355,10 @@ func (t tree) partitionsOf(root, path string) ([]Partition, error) {
 	}
 	return parts, nil
 }
+
+// Format returns the source's format, by the end of its name; 0 when that
+// is none of the known extensions.
+func (s Source) Format() Format { return s.kind }
 
 // partition returns the value of the partition key, if the source has it.
 func (s Source) partition(key string) (string, bool) {

@@ -370,7 +370,7 @@ func NewCountsReader(sources []Source, opts CountsOptions) (*TableReader, error)
 
 func newTableReader(sources []Source, p *tablePlan, batchSize int, mem memory.Allocator) (*TableReader, error) {
 	for _, s := range sources {
-		if s.kind != formatCSV && s.kind != formatParquet {
+		if s.kind != FormatCSV && s.kind != FormatParquet {
 			return nil, fmt.Errorf("%s: unknown file type (want .csv, .csv.gz, .parquet or .parq)", s.Name)
 		}
 	}

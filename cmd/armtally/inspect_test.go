@@ -12,6 +12,7 @@ import (
 
 	"github.com/parquet-go/parquet-go"
 
+	"github.com/armtally/armtally/ingest/profile"
 	"github.com/armtally/armtally/sampledata"
 )
 
@@ -90,12 +91,12 @@ events (4 names) by rows:
 	if err != nil {
 		t.Fatal(err)
 	}
-	var rep inspectReport
+	var rep profile.Report
 	if err := json.Unmarshal(raw, &rep); err != nil {
 		t.Fatal(err)
 	}
 	if rep.RowsRead != 14 || rep.ValidRows != 11 || len(rep.Events) != 4 || rep.EventsShown != 3 ||
-		rep.Events[3] != (eventCount{"saddle_ordered", 1}) || len(rep.Exposures) != 3 ||
+		rep.Events[3] != (profile.EventCount{Event: "saddle_ordered", Rows: 1}) || len(rep.Exposures) != 3 ||
 		!rep.First.Equal(time.Date(2027, 4, 1, 9, 0, 0, 0, time.UTC)) {
 		t.Errorf("JSON report = %s", raw)
 	}
@@ -146,7 +147,7 @@ func TestInspectDemo(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	var rep inspectReport
+	var rep profile.Report
 	if err := json.Unmarshal(raw, &rep); err != nil {
 		t.Fatal(err)
 	}

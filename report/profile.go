@@ -1,0 +1,121 @@
+package report
+
+import (
+	"bytes"
+	"fmt"
+	"io"
+	"strings"
+	"text/tabwriter"
+	"time"
+
+	"github.com/armtally/armtally/ingest/profile"
+)
+
+// WriteProfile writes the profile of an event log (profile.Build) as text:
+// per file its format, row count, partitions, columns and mapping; then
+// the rows read, valid and bad (by reason, with the first bad row of
+// each), the time range, the exposure rows by experiment and arm and the
+// event names by rows, the first p.EventsShown of them.
+func WriteProfile(w io.Writer, p *profile.Report) error {
+	var b bytes.Buffer
+	for _, f := range p.Files {
+		writeProfileFile(&b, f)
+	}
+	fmt.Fprintf(&b, "rows read: %s in %s; %s valid, %s bad\n", FormatCount(p.RowsRead), Plural(int64(len(p.Files)), "file", "files"),
+		FormatCount(p.ValidRows), FormatCount(p.RowsRead-p.ValidRows))
+	for _, r := range p.BadRows {
+		fmt.Fprintf(&b, "  %s: %s\n", r.Reason, FormatCount(r.Count))
+	}
+	for i, e := range p.BadRowExamples {
+		if i == 0 {
+			b.WriteString("  first bad row of each reason:\n")
+		}
+		fmt.Fprintf(&b, "    %s\n", e)
+	}
+	if p.First != nil {
+		fmt.Fprintf(&b, "time range: %s to %s\n", p.First.Format(time.RFC3339Nano), p.Last.Format(time.RFC3339Nano))
+	} else {
+		b.WriteString("time range: no valid rows\n")
+	}
+	writeProfileCounts(&b, p)
+	_, err := w.Write(b.Bytes())
+	return err
+}
+
+// profileTable returns a tabwriter for an aligned block of the profile.
+func profileTable(b *bytes.Buffer) *tabwriter.Writer { return tabwriter.NewWriter(b, 0, 0, 2, ' ', 0) }
+
+// writeProfileFile writes the block of one file.
+func writeProfileFile(b *bytes.Buffer, f profile.File) {
+	fmt.Fprintf(b, "%s\n", f.Name)
+	rows := "rows counted"
+	if f.RowsFrom == "metadata" {
+		rows = "rows (from the file's metadata)"
+	}
+	fmt.Fprintf(b, "  format: %s, %d columns, %s %s\n", f.Format, len(f.Columns), FormatCount(f.Rows), rows)
+	if len(f.Partitions) > 0 {
+		var ps []string
+		for _, p := range f.Partitions {
+			ps = append(ps, p.Key+"="+p.Value)
+		}
+		fmt.Fprintf(b, "  partitions: %s\n", strings.Join(ps, ", "))
+	}
+	b.WriteString("  columns:\n")
+	t := profileTable(b)
+	for _, c := range f.Columns {
+		fmt.Fprintf(t, "    %s\t%s\n", c.Name, c.Type)
+	}
+	t.Flush()
+	b.WriteString("  mapping:\n")
+	t = profileTable(b)
+	for _, m := range f.Mapping {
+		switch m.Status {
+		case profile.StatusColumn:
+			fmt.Fprintf(t, "    %s\t<- %s\n", m.Logical, m.Physical)
+		case profile.StatusPartition:
+			fmt.Fprintf(t, "    %s\t<- %s (partition folder)\n", m.Logical, m.Physical)
+		case profile.StatusNotMapped:
+			fmt.Fprintf(t, "    %s\tnot mapped\n", m.Logical)
+		default:
+			fmt.Fprintf(t, "    %s\tMISSING: no column %q\n", m.Logical, m.Physical)
+		}
+	}
+	t.Flush()
+	if f.Error != "" {
+		fmt.Fprintf(b, "  rows not read: %s\n", f.Error)
+	}
+	b.WriteString("\n")
+}
+
+// writeProfileCounts writes the exposure rows and the event names.
+func writeProfileCounts(b *bytes.Buffer, p *profile.Report) {
+	fmt.Fprintf(b, "\nexposure rows (event %q) by experiment and arm:\n", p.ExposureEvent)
+	if len(p.Exposures) == 0 {
+		b.WriteString("  none\n")
+	}
+	t := profileTable(b)
+	var total int64
+	for _, e := range p.Exposures {
+		fmt.Fprintf(t, "  %s\t%s\t%s\n", e.Experiment, e.Arm, FormatCount(e.Rows))
+		total += e.Rows
+	}
+	t.Flush()
+	if len(p.Exposures) > 0 {
+		fmt.Fprintf(b, "  total %s\n", FormatCount(total))
+	}
+	fmt.Fprintf(b, "\nevents (%s names) by rows:\n", FormatCount(int64(len(p.Events))))
+	t = profileTable(b)
+	shown := max(0, min(p.EventsShown, len(p.Events)))
+	for _, e := range p.Events[:shown] {
+		fmt.Fprintf(t, "  %s\t%s\n", e.Event, FormatCount(e.Rows))
+	}
+	t.Flush()
+	if more := p.Events[shown:]; len(more) > 0 {
+		var rows int64
+		for _, e := range more {
+			rows += e.Rows
+		}
+		n := int64(len(more))
+		fmt.Fprintf(b, "  %s more %s (%s)\n", FormatCount(n), PluralWord(n, "name", "names"), Plural(rows, "row", "rows"))
+	}
+}
