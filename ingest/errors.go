@@ -61,32 +61,32 @@ const numReasons = 8
 
 // reasonOf pairs each row sentinel with its reason, in the order of
 // Stats.BadRows; reasonIndex numbers them by position here.
-func reasonOf(i int) (error, BadRowReason) {
+func reasonOf(i int) (BadRowReason, error) {
 	switch i {
 	case 0:
-		return ErrNullUser, ReasonNullUser
+		return ReasonNullUser, ErrNullUser
 	case 1:
-		return ErrNullTimestamp, ReasonNullTimestamp
+		return ReasonNullTimestamp, ErrNullTimestamp
 	case 2:
-		return ErrBadTimestamp, ReasonBadTimestamp
+		return ReasonBadTimestamp, ErrBadTimestamp
 	case 3:
-		return ErrTimestampRange, ReasonTimestampRange
+		return ReasonTimestampRange, ErrTimestampRange
 	case 4:
-		return ErrNullEvent, ReasonNullEvent
+		return ReasonNullEvent, ErrNullEvent
 	case 5:
-		return ErrNoArm, ReasonExposureWithoutArm
+		return ReasonExposureWithoutArm, ErrNoArm
 	case 6:
-		return ErrFieldCount, ReasonWrongFieldCount
+		return ReasonWrongFieldCount, ErrFieldCount
 	case 7:
-		return ErrUnknownArm, ReasonUnknownArm
+		return ReasonUnknownArm, ErrUnknownArm
 	}
-	return nil, ""
+	return "", nil
 }
 
 // reasonIndex returns the position of a row sentinel, or -1.
 func reasonIndex(err error) int {
 	for i := 0; i < numReasons; i++ {
-		if s, _ := reasonOf(i); s == err {
+		if _, s := reasonOf(i); s == err {
 			return i
 		}
 	}
@@ -98,7 +98,7 @@ func reasonIndex(err error) int {
 // such as a *RowError. For any other error it returns "".
 func Reason(err error) BadRowReason {
 	for i := 0; i < numReasons; i++ {
-		if s, r := reasonOf(i); errors.Is(err, s) {
+		if r, s := reasonOf(i); errors.Is(err, s) {
 			return r
 		}
 	}
@@ -192,7 +192,7 @@ func (e *RowError) Unwrap() error { return e.Err }
 // Reason returns the reason, such as ReasonNullUser; "" for a reason of a
 // unit table or a counts table.
 func (e *RowError) Reason() BadRowReason {
-	_, r := reasonOf(reasonIndex(e.Err))
+	r, _ := reasonOf(reasonIndex(e.Err))
 	return r
 }
 

@@ -302,7 +302,7 @@ func (r *parquetReader) read(b *batchBuilder, limit int, a *accounting) (n int, 
 				return b.n - n0, chunkError(r.file, r.rg, c.name, r.rgRows, err)
 			}
 			if i == colTS {
-				row.ts, row.tsErr, row.cells[i] = c.ts.decode(v)
+				row.ts, row.cells[i], row.tsErr = c.ts.decode(v)
 				continue
 			}
 			row.cells[i] = c.text(v)

@@ -177,7 +177,7 @@ func readColumn(t *testing.T, path, name string, isTS bool) []tsValue {
 				out = append(out, tsValue{raw: strings.Clone(cl.s), null: cl.null})
 				continue
 			}
-			ns, err, raw := c.ts.decode(v)
+			ns, raw, err := c.ts.decode(v)
 			out = append(out, tsValue{ns: ns, err: err, raw: raw.s})
 		}
 		c.closePages()

@@ -354,7 +354,7 @@ func (w *rgWorker) window(res *rgResult, rg int, done int64, n int) bool {
 				continue
 			}
 			if i == colTS {
-				row.ts, row.tsErr, row.cells[i] = c.times[k].get(&c.ts)
+				row.ts, row.cells[i], row.tsErr = c.times[k].get(&c.ts)
 				continue
 			}
 			row.cells[i] = c.cells[k]

@@ -169,8 +169,10 @@ func TestBulkPathCloseEarly(t *testing.T) {
 		if err != nil {
 			t.Fatal(err)
 		}
-		if !r.Next() || !r.Next() {
-			t.Fatalf("workers %d: no batches: %v", workers, r.Err())
+		for range 2 {
+			if !r.Next() {
+				t.Fatalf("workers %d: no batches: %v", workers, r.Err())
+			}
 		}
 		if err := r.Close(); err != nil {
 			t.Fatal(err)

@@ -102,18 +102,18 @@ func typeNames(t parquet.Type) (format.LogicalTypeValue, *deprecated.ConvertedTy
 // timestamp (ErrNullTimestamp, ErrBadTimestamp, ErrTimestampRange) with
 // the raw value as text for the error, a copy. The cell is only filled
 // when there is an error.
-func (d *tsDecoder) decode(v parquet.Value) (int64, error, cell) {
+func (d *tsDecoder) decode(v parquet.Value) (int64, cell, error) {
 	if v.IsNull() {
-		return 0, ErrNullTimestamp, cell{null: true}
+		return 0, cell{null: true}, ErrNullTimestamp
 	}
 	switch d.kind {
 	case kindTSText:
 		b := v.ByteArray()
 		ns, err := parseTSText(unsafe.String(unsafe.SliceData(b), len(b)), d.epochUnit)
 		if err != nil {
-			return 0, err, cell{s: string(b)}
+			return 0, cell{s: string(b)}, err
 		}
-		return ns, nil, cell{}
+		return ns, cell{}, nil
 	case kindTSEpoch64, kindTSEpoch32:
 		x := v.Int64()
 		if d.kind == kindTSEpoch32 {
@@ -124,18 +124,18 @@ func (d *tsDecoder) decode(v parquet.Value) (int64, error, cell) {
 		days := v.Int32()
 		ns, ok := fromDate(days)
 		if !ok {
-			return 0, ErrTimestampRange, cell{s: formatSecNsec(int64(days)*secPerDay, 0)}
+			return 0, cell{s: formatSecNsec(int64(days)*secPerDay, 0)}, ErrTimestampRange
 		}
-		return ns, nil, cell{}
+		return ns, cell{}, nil
 	case kindTSInt96:
 		sec, nsec := int96SecNsec(v.Int96())
 		ns, ok := fromSecNsec(sec, nsec)
 		if !ok {
-			return 0, ErrTimestampRange, cell{s: formatSecNsec(sec, nsec)}
+			return 0, cell{s: formatSecNsec(sec, nsec)}, ErrTimestampRange
 		}
-		return ns, nil, cell{}
+		return ns, cell{}, nil
 	}
-	return 0, ErrBadTimestamp, cell{}
+	return 0, cell{}, ErrBadTimestamp
 }
 
 // tsCell is one decoded epoch count: ns in nanoseconds when state is tsOK,
@@ -172,14 +172,14 @@ func (d *tsDecoder) epochFar(x int64) tsCell {
 
 // get returns the count as decode does. An out-of-range count shows in the
 // error as the count and its unit, "4611686018427387904 ms".
-func (t tsCell) get(d *tsDecoder) (int64, error, cell) {
+func (t tsCell) get(d *tsDecoder) (int64, cell, error) {
 	switch t.state {
 	case tsNull:
-		return 0, ErrNullTimestamp, cell{null: true}
+		return 0, cell{null: true}, ErrNullTimestamp
 	case tsRange:
-		return 0, ErrTimestampRange, cell{s: strconv.FormatInt(t.v, 10) + " " + unitName(d.unit)}
+		return 0, cell{s: strconv.FormatInt(t.v, 10) + " " + unitName(d.unit)}, ErrTimestampRange
 	}
-	return t.ns, nil, cell{}
+	return t.ns, cell{}, nil
 }
 
 func unitName(nanos int64) string {

@@ -506,7 +506,7 @@ func (a *accounting) stats() Stats {
 		if n == 0 {
 			continue
 		}
-		_, reason := reasonOf(i)
+		reason, _ := reasonOf(i)
 		st.BadRows = append(st.BadRows, BadRowCount{Reason: reason, Count: n})
 		e := *a.first[i]
 		st.BadRowExamples = append(st.BadRowExamples, &e)

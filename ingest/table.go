@@ -713,7 +713,7 @@ func (t *parquetTable) cell(i int, v parquet.Value) tval {
 
 // timeCell decodes an exposure time in any of the event log's forms.
 func (t *parquetTable) timeCell(c pqTableCol, v parquet.Value) tval {
-	ns, err, raw := c.ts.decode(v)
+	ns, raw, err := c.ts.decode(v)
 	return tval{n: ns, err: err, s: raw.s, null: raw.null}
 }
 
