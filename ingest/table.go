@@ -334,8 +334,9 @@ type tableSource interface {
 // *RowError naming the file, the line (CSV) or row and row group
 // (Parquet), the physical column and the value. Counts tables are also
 // checked across rows: a second row with the same arm, segment values and
-// metric is bad (ErrDuplicateCell), naming the first. A CSV file may be
-// gzip-compressed (.csv.gz). A TableReader is not safe for concurrent use.
+// metric is bad (ErrDuplicateCell), naming the first. CSV files are opened
+// by OpenCSV (gzip-compressed ones are told by their first bytes). A
+// TableReader is not safe for concurrent use; it is an array.RecordReader.
 type TableReader struct {
 	batchState
 	sources   []Source
@@ -371,7 +372,7 @@ func NewCountsReader(sources []Source, opts CountsOptions) (*TableReader, error)
 func newTableReader(sources []Source, p *tablePlan, batchSize int, mem memory.Allocator) (*TableReader, error) {
 	for _, s := range sources {
 		if s.kind != FormatCSV && s.kind != FormatParquet {
-			return nil, fmt.Errorf("%s: unknown file type (want .csv, .csv.gz, .parquet or .parq)", s.Name)
+			return nil, fmt.Errorf("%s: unknown file type (want %s)", s.Name, knownTypes)
 		}
 	}
 	if mem == nil {
