@@ -1,19 +1,23 @@
 package main
 
 import (
+	"context"
+	"errors"
 	"fmt"
 	"io"
-	"iter"
+	"os"
+	"os/signal"
 	"path/filepath"
 	"runtime/debug"
 	"slices"
 	"strings"
+	"syscall"
 	"time"
 
-	"github.com/apache/arrow-go/v18/arrow"
 	"github.com/spf13/pflag"
 
 	"github.com/armtally/armtally/experiment"
+	"github.com/armtally/armtally/experiment/pipeline"
 	"github.com/armtally/armtally/ingest"
 	"github.com/armtally/armtally/report"
 	"github.com/armtally/armtally/sampledata"
@@ -588,10 +592,13 @@ func runAnalyze(args []string, stdout, stderr io.Writer) error {
 	if err != nil {
 		return err
 	}
-	readouts, talliers, err := analyze(run)
+	ctx, stop := signal.NotifyContext(context.Background(), os.Interrupt, syscall.SIGTERM)
+	defer stop()
+	res, err := analyze(ctx, run)
 	if err != nil {
 		return err
 	}
+	readouts := res.Readouts
 	if run.jsonOut != "" {
 		if err := report.WriteFileAtomic(run.jsonOut, func(w io.Writer) error { return report.WriteJSON(w, readouts) }); err != nil {
 			return fmt.Errorf("writing the JSON readout: %w", err)
@@ -607,7 +614,7 @@ func runAnalyze(args []string, stdout, stderr io.Writer) error {
 		return fmt.Errorf("writing the Markdown readout: %w", err)
 	}
 	if run.audit != "" {
-		if err := writeAudits(run, talliers); err != nil {
+		if err := writeAudits(run, res); err != nil {
 			return err
 		}
 	}
@@ -630,257 +637,75 @@ func runAnalyze(args []string, stdout, stderr io.Writer) error {
 	return nil
 }
 
-// recordReader is what the event-log reader and the table reader have in
-// common.
-type recordReader interface {
-	Schema() *arrow.Schema
-	Next() bool
-	Record() arrow.RecordBatch
-	Err() error
-	Stats() ingest.Stats
-	Close() error
-}
-
-// spillPartitions is the number of hash partitions of --memory-limit.
-const spillPartitions = 64
-
-// spillBytesPerRow is the memory a tally takes per row it reads, as
-// --memory-limit estimates it: analysing the 10M-unit benchmark log in
-// memory peaked at 1.4 GB for 17M rows past the event filter, about 80
-// bytes a row, rounded up for the collector's headroom.
-const spillBytesPerRow = 100
-
-// tallySpilled tallies the rows of an event log that analyze spilled to
-// disk (--memory-limit): the partitions are taken in groups of about
-// run.memoryLimit / spillBytesPerRow rows, each group tallied by fresh
-// talliers that share the whole input's freshness, and the tallies of the
-// groups merged, which is exact since a unit's rows are all in one
-// partition (experiment.MergeTallies). st holds the reader's counts.
-func tallySpilled(run *analyzeRun, spill *ingest.Spill, st ingest.Stats) ([]experiment.Tally, error) {
-	fresh, hasFresh := spill.MaxTS()
-	if st.Filtered > 0 && (!hasFresh || st.FilteredMaxTS > fresh) {
-		fresh, hasFresh = st.FilteredMaxTS, true
-	}
-	maxRows := max(1, run.memoryLimit/spillBytesPerRow)
-	parts := make([][]experiment.Tally, len(run.experiments))
-	for p := 0; p < spill.Partitions(); {
-		q, rows := p, int64(0)
-		for q < spill.Partitions() && (q == p || rows+spill.Rows(q) <= maxRows) {
-			rows += spill.Rows(q)
-			q++
-		}
-		talliers := make([]*experiment.Tallier, len(run.experiments))
-		for i, e := range run.experiments {
-			tl, err := experiment.NewTallier(e.spec)
-			if err != nil {
-				return nil, usagef("analyze: %v", err)
-			}
-			talliers[i] = tl
-		}
-		for k := p; k < q; k++ {
-			if err := addSpilled(spill, k, talliers); err != nil {
-				return nil, err
-			}
-		}
-		for i, tl := range talliers {
-			if p == 0 {
-				tl.AddFiltered(st.Filtered, st.FilteredMaxTS)
-			}
-			if hasFresh {
-				tl.SeeTime(fresh)
-			}
-			t, err := tl.Tally()
-			if err != nil {
-				return nil, &dataError{err}
-			}
-			parts[i] = append(parts[i], t)
-		}
-		p = q
-	}
-	out := make([]experiment.Tally, len(run.experiments))
-	for i, e := range run.experiments {
-		t, err := experiment.MergeTallies(e.spec, parts[i]...)
-		if err != nil {
-			return nil, &dataError{err}
-		}
-		out[i] = t
-	}
-	return out, nil
-}
-
-// addSpilled feeds partition k of spill to the talliers.
-func addSpilled(spill *ingest.Spill, k int, talliers []*experiment.Tallier) error {
-	sr, err := spill.Reader(k, nil, 0)
-	if err != nil {
-		return fmt.Errorf("analyze: --memory-limit: %w", err)
-	}
-	defer sr.Close()
-	for sr.Next() {
-		for _, tl := range talliers {
-			if err := tl.Add(sr.Record()); err != nil {
-				return &dataError{err}
-			}
-		}
-	}
-	if err := sr.Err(); err != nil {
-		return fmt.Errorf("analyze: --memory-limit: %w", err)
-	}
-	return nil
-}
-
-// newRecordReader returns the reader of the run's input shape. For an
-// event log, events lists the events the talliers use: the reader leaves
-// out the rows of other events and counts them (see ingest.Options.Events).
-func newRecordReader(run *analyzeRun, events []string) (recordReader, error) {
-	m := run.mapping
+// pipelineInput returns the run's input and experiments as the pipeline
+// takes them.
+func pipelineInput(run *analyzeRun) (pipeline.Input, []pipeline.Experiment) {
+	in := pipeline.Input{Sources: run.sources, Mapping: run.mapping, Counts: run.counts, Delimiter: run.delimiter,
+		MaxBadRows: run.maxBadRows, MaxBadShare: run.maxBadShare}
 	switch run.shape {
-	case shapeUnits, shapeCounts:
-		e := run.experiments[0] // a table holds one experiment
-		var segs []ingest.ColumnMap
-		for _, s := range e.spec.Segments {
-			segs = append(segs, ingest.ColumnMap{Logical: s, Physical: s})
+	case shapeUnits:
+		in.Shape = experiment.InputUnitTable
+		if run.tsMapped {
+			in.UnitTS = run.mapping.TS
 		}
-		if run.shape == shapeUnits {
-			ts := ""
-			if run.tsMapped {
-				ts = m.TS
-			}
-			return ingest.NewUnitTableReader(run.sources, ingest.UnitTableOptions{Unit: m.User, Arm: m.Arm, TS: ts,
-				EpochUnit: m.EpochUnit, Metrics: e.metricColumns, Segments: segs})
-		}
-		o := run.counts
-		o.Arm, o.Segments = m.Arm, segs
-		for _, mt := range e.spec.Metrics {
-			o.Metrics = append(o.Metrics, mt.Name)
-		}
-		return ingest.NewCountsReader(run.sources, o)
+	case shapeCounts:
+		in.Shape = experiment.InputCounts
 	}
-	exposure := ""
+	exps := make([]pipeline.Experiment, len(run.experiments))
 	for i, e := range run.experiments {
-		if i > 0 && e.spec.ExposureEvent != exposure {
-			return nil, fmt.Errorf("not supported yet: experiments with different exposure events in one run (%q and %q); run them separately", exposure, e.spec.ExposureEvent)
-		}
-		exposure = e.spec.ExposureEvent
+		exps[i] = pipeline.Experiment{Spec: e.spec, Options: e.opts, MetricColumns: e.metricColumns}
 	}
-	// Planned arms are checked row by row, so that an exposure in an arm
-	// that is not planned is a bad row (unknown_arm) named by file, row and
-	// column, skipped and counted under an error budget.
-	planned := map[string][]string{}
-	for _, e := range run.experiments {
-		if len(e.spec.Arms) > 0 {
-			planned[e.spec.Key] = e.spec.Arms
-		}
-	}
-	// An experiment without a key takes every exposure row: its arms are
-	// listed under "", which ingest applies to any key.
-	return ingest.NewReader(run.sources, ingest.Options{Mapping: m, ExposureEvent: exposure, PlannedArms: planned,
-		Delimiter: run.delimiter, MaxBadRows: run.maxBadRows, MaxBadShare: run.maxBadShare, Events: events})
+	return in, exps
 }
 
-// analyze reads the sources once, feeds every record batch to one tallier
-// per experiment and analyses each tally. The readouts follow the order of
-// run.experiments.
-func analyze(run *analyzeRun) ([]experiment.Readout, []tallier, error) {
-	talliers := make([]tallier, len(run.experiments))
-	// The events the experiments use (nil for a unit or counts table):
-	// the reader leaves out the rows of every other event.
-	var events []string
-	for i, e := range run.experiments {
-		var err error
-		if talliers[i], err = newTallier(run.shape, e.spec); err != nil {
-			return nil, nil, usagef("analyze: %v", err)
-		}
-		if tl, ok := talliers[i].(*experiment.Tallier); ok {
-			for _, ev := range tl.Events() {
-				if !slices.Contains(events, ev) {
-					events = append(events, ev)
-				}
-			}
+// analyze runs the pipeline over the run's input and experiments.
+func analyze(ctx context.Context, run *analyzeRun) (*pipeline.Result, error) {
+	in, exps := pipelineInput(run)
+	opts := pipeline.Options{MemoryLimit: run.memoryLimit, SpillDir: run.spillDir, KeepUnits: run.audit != ""}
+	if run.progress && run.stderr != nil {
+		opts.Progress = func(rows func() int64) func() {
+			return startProgress(run.stderr, rows, progressInterval, time.Now)
 		}
 	}
-	r, err := newRecordReader(run, events)
-	if err != nil {
-		return nil, nil, usagef("analyze: %v", err)
-	}
-	defer r.Close()
-	var spill *ingest.Spill
 	if run.memoryLimit > 0 {
 		// The collector's soft limit, so that it works harder as the
 		// heap nears the limit rather than letting garbage pile up.
 		debug.SetMemoryLimit(run.memoryLimit)
-		if spill, err = ingest.NewSpill(run.spillDir, spillPartitions, r.Schema()); err != nil {
-			return nil, nil, fmt.Errorf("analyze: --memory-limit: %w", err)
-		}
-		defer spill.Close()
 	}
-	stopProgress := withProgress(run, r)
-	defer stopProgress()
-	for r.Next() {
-		rec := r.Record()
-		if spill != nil {
-			if err := spill.Add(rec); err != nil {
-				return nil, nil, fmt.Errorf("analyze: --memory-limit: %w", err)
-			}
-			continue
-		}
-		for _, tl := range talliers {
-			if err := tl.Add(rec); err != nil {
-				return nil, nil, &dataError{err}
-			}
-		}
+	res, err := pipeline.Run(ctx, in, exps, opts)
+	var (
+		ce *pipeline.ConfigError
+		de *pipeline.DataError
+		se *pipeline.SpillError
+	)
+	switch {
+	case errors.As(err, &ce):
+		return nil, usagef("analyze: %v", ce.Err)
+	case errors.As(err, &de):
+		return nil, &dataError{de.Err}
+	case errors.As(err, &se):
+		return nil, fmt.Errorf("analyze: --memory-limit: %w", se.Err)
+	case err != nil:
+		return nil, fmt.Errorf("analyze: %w", err)
 	}
-	stopProgress()
-	if err := r.Err(); err != nil {
-		return nil, nil, &dataError{err}
-	}
-	st := r.Stats()
-	tallies := make([]experiment.Tally, len(run.experiments))
-	if spill != nil {
-		if tallies, err = tallySpilled(run, spill, st); err != nil {
-			return nil, nil, err
-		}
-	} else {
-		for i, tl := range talliers {
-			if tl, ok := tl.(*experiment.Tallier); ok && st.Filtered > 0 {
-				tl.AddFiltered(st.Filtered, st.FilteredMaxTS)
-			}
-			if tallies[i], err = tl.Tally(); err != nil {
-				return nil, nil, &dataError{err}
-			}
-		}
-	}
-	readouts := make([]experiment.Readout, len(run.experiments))
-	for i, e := range run.experiments {
-		t := tallies[i]
-		opts := e.opts
-		opts.RowsRead = r.Stats().RowsRead
-		opts.BadRows = r.Stats().BadRows
-		if readouts[i], err = experiment.Analyze(e.spec, t, opts); err != nil {
-			return nil, nil, &dataError{err}
-		}
-	}
-	return readouts, talliers, nil
+	return res, nil
 }
 
 // writeAudits writes each experiment's per-unit audit table to run.audit,
 // or, with several experiments, to run.audit with "-KEY" before the
 // extension.
-func writeAudits(run *analyzeRun, talliers []tallier) error {
+func writeAudits(run *analyzeRun, res *pipeline.Result) error {
 	for i, e := range run.experiments {
-		var units iter.Seq[experiment.UnitRecord]
-		switch tl := talliers[i].(type) {
-		case *experiment.Tallier:
-			var err error
-			if units, err = tl.Units(); err != nil {
-				return &dataError{err}
+		units, err := res.Units(i)
+		if err != nil {
+			var de *pipeline.DataError
+			if errors.As(err, &de) {
+				return &dataError{de.Err}
 			}
-		case *experiment.UnitTableTallier:
-			units = tl.Units()
-		default:
-			return fmt.Errorf("experiment %q: its input has no units to audit", e.spec.Key)
+			return fmt.Errorf("experiment %q: %w", e.spec.Key, err)
 		}
 		path := auditPath(run.audit, e.spec.Key, len(run.experiments))
-		err := report.WriteFileAtomic(path, func(w io.Writer) error { return report.WriteAudit(w, e.spec, units) })
+		err = report.WriteFileAtomic(path, func(w io.Writer) error { return report.WriteAudit(w, e.spec, units) })
 		if err != nil {
 			return fmt.Errorf("writing the audit table of experiment %q: %w", e.spec.Key, err)
 		}
