@@ -28,35 +28,31 @@ const planCaution = "The plan holds only if the experiment is read once, at the 
 // planWidth is the width the notes of a text plan are wrapped at.
 const planWidth = 76
 
-// planDoc is the JSON layout of a plan.
+// planDoc is the JSON layout of a plan; the fields are those of
+// plan.Result under their JSON names, with the test, the method and the
+// notes added.
 type planDoc struct {
-	SolveFor      string  `json:"solve_for"`
-	Test          string  `json:"test"`
-	Alternative   string  `json:"alternative"`
-	BaselineRate  float64 `json:"baseline_rate"`
-	TreatmentRate float64 `json:"treatment_rate"`
-	// EffectAbsolute is TreatmentRate - BaselineRate; EffectRelative is
-	// TreatmentRate / BaselineRate - 1.
-	EffectAbsolute     float64 `json:"effect_absolute"`
-	EffectRelative     float64 `json:"effect_relative"`
-	Alpha              float64 `json:"alpha"`
-	Adjustment         string  `json:"adjustment"`
-	Comparisons        int     `json:"comparisons"`
-	AlphaPerComparison float64 `json:"alpha_per_comparison"`
-	// Power is the target power, or the computed one when SolveFor is
-	// "power".
-	Power float64 `json:"power"`
-	Arms  int     `json:"arms"`
-	// Metrics is the number of metrics each treatment is compared on.
-	Metrics     int   `json:"metrics"`
-	UnitsPerArm int64 `json:"units_per_arm"`
-	// UnitsPerArmExact is the unrounded solution, when solving for units.
-	UnitsPerArmExact *float64 `json:"units_per_arm_exact"`
-	TotalUnits       int64    `json:"total_units"`
-	DailyUnits       *float64 `json:"daily_units"`
-	Days             *int64   `json:"days"`
-	Method           string   `json:"method"`
-	Notes            []string `json:"notes"`
+	SolveFor           string   `json:"solve_for"`
+	Test               string   `json:"test"`
+	Alternative        string   `json:"alternative"`
+	BaselineRate       float64  `json:"baseline_rate"`
+	TreatmentRate      float64  `json:"treatment_rate"`
+	EffectAbsolute     float64  `json:"effect_absolute"`
+	EffectRelative     float64  `json:"effect_relative"`
+	Alpha              float64  `json:"alpha"`
+	Adjustment         string   `json:"adjustment"`
+	Comparisons        int      `json:"comparisons"`
+	AlphaPerComparison float64  `json:"alpha_per_comparison"`
+	Power              float64  `json:"power"`
+	Arms               int      `json:"arms"`
+	Metrics            int      `json:"metrics"`
+	UnitsPerArm        int64    `json:"units_per_arm"`
+	UnitsPerArmExact   *float64 `json:"units_per_arm_exact"`
+	TotalUnits         int64    `json:"total_units"`
+	DailyUnits         *float64 `json:"daily_units"`
+	Days               *int64   `json:"days"`
+	Method             string   `json:"method"`
+	Notes              []string `json:"notes"`
 }
 
 // WritePlanJSON writes r to w as one indented JSON object followed by a

@@ -49,15 +49,10 @@ func ParseMDE(s string) (MDE, error) {
 		neg, m.Signed = t[0] == '-', true
 		t = t[1:]
 	}
-	switch {
-	case strings.HasSuffix(t, "pp"):
-		t = strings.TrimSuffix(t, "pp")
-	case strings.HasSuffix(t, "%"):
-		t, m.Relative = strings.TrimSuffix(t, "%"), true
-	default:
+	var ok bool
+	if t, m.Relative, ok = cutUnit(t); !ok {
 		return m, &MDEError{s, "give a unit, pp for percentage points (absolute) or % for a change relative to the baseline, as in 2pp or 15%"}
 	}
-	t = strings.TrimSpace(t)
 	v, err := strconv.ParseFloat(t, 64)
 	if err != nil || strings.HasPrefix(t, "+") || strings.HasPrefix(t, "-") || math.IsInf(v, 0) || math.IsNaN(v) {
 		return m, &MDEError{s, strconv.Quote(t) + " is not a number"}
@@ -70,6 +65,17 @@ func ParseMDE(s string) (MDE, error) {
 		m.Value = -m.Value
 	}
 	return m, nil
+}
+
+// cutUnit cuts the unit off an effect: pp (absolute) or % (relative). It
+// returns the number before it, space trimmed, and false when there is no
+// unit.
+func cutUnit(t string) (num string, relative, ok bool) {
+	if num, ok = strings.CutSuffix(t, "pp"); !ok {
+		num, relative = strings.CutSuffix(t, "%")
+		ok = relative
+	}
+	return strings.TrimSpace(num), relative, ok
 }
 
 // TreatmentRate returns the treatment rate the effect aims at: the baseline
