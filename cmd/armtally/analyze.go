@@ -18,6 +18,7 @@ import (
 
 	"github.com/armtally/armtally/experiment"
 	"github.com/armtally/armtally/experiment/pipeline"
+	"github.com/armtally/armtally/experiment/specfile"
 	"github.com/armtally/armtally/ingest"
 	"github.com/armtally/armtally/report"
 	"github.com/armtally/armtally/sampledata"
@@ -151,7 +152,7 @@ func newAnalyzeFlagSet(f *analyzeFlags, stderr io.Writer) *pflag.FlagSet {
 type analyzeRun struct {
 	sources []ingest.Source
 	// shape is input.shape: events, units or counts.
-	shape   string
+	shape   experiment.InputShape
 	mapping ingest.Mapping
 	// tsMapped says whether the ts column was named (by the spec file or
 	// --ts-col): a unit table's exposure time column is optional.
@@ -188,62 +189,107 @@ type builtExperiment struct {
 // parseAnalyze parses the analyze command line, and the spec file it
 // names, into a run. Flags the user set override the spec file's values.
 func parseAnalyze(args []string, stdout, stderr io.Writer) (*analyzeRun, error) {
+	run, err := parseAnalyzeRun(args, stdout, stderr)
+	var fe *specfile.FlagError
+	if errors.As(err, &fe) {
+		return nil, usagef("analyze: %s", fe.Msg)
+	}
+	return run, err
+}
+
+// parseAnalyzeRun is parseAnalyze, with the problems of flag values
+// returned as the specfile package words them.
+func parseAnalyzeRun(args []string, stdout, stderr io.Writer) (*analyzeRun, error) {
 	var f analyzeFlags
 	fs := newAnalyzeFlagSet(&f, stderr)
 	if err := parseFlags(fs, args, analyzeUsage, stdout); err != nil {
 		return nil, err
 	}
-	var sf *specFile
-	if f.spec != "" {
-		var err error
-		if sf, err = readSpecFile(f.spec); err != nil {
-			return nil, err
-		}
-		if err := sf.unsupported(); err != nil {
-			return nil, err
-		}
+	sf, err := readSpec(f.spec)
+	if err != nil {
+		return nil, err
 	}
-	run := &analyzeRun{shape: shapeEvents}
+	run := &analyzeRun{shape: experiment.InputEventLog, stderr: stderr, progress: !f.noProgress && isTerminal(stderr)}
 	if sf != nil {
-		run.shape, run.counts = sf.shape, sf.counts
+		run.shape, run.counts = sf.Shape, sf.Counts
 	}
-
-	// Experiments: the spec file's (those --experiment picks), or one
-	// made from the flags alone.
-	var exps []*expSettings
-	if sf == nil || len(sf.experiments) == 0 {
-		if f.demo {
-			demoDefaults(fs, &f)
+	exps, err := analyzeExperiments(fs, &f, sf)
+	if err != nil {
+		return nil, err
+	}
+	for _, e := range exps {
+		spec, opts, err := e.Build()
+		if err != nil {
+			return nil, err
 		}
-		e := newExpSettings()
-		if err := applyExperimentFlags(fs, &f, e, true); err != nil {
+		run.experiments = append(run.experiments, builtExperiment{spec: spec, opts: opts, metricColumns: e.MetricColumns()})
+	}
+	// Flags the user set override the file's values; without a file,
+	// every flag applies.
+	override := func(name string) bool { return sf == nil || fs.Changed(name) }
+	if err := applyMapping(fs, &f, sf, override, run); err != nil {
+		return nil, err
+	}
+	if err := applyReading(&f, sf, override, run); err != nil {
+		return nil, err
+	}
+	if err := applyOutputs(&f, sf, override, run); err != nil {
+		return nil, err
+	}
+	if err := applyMemoryLimit(&f, run); err != nil {
+		return nil, err
+	}
+	if run.sources, err = analyzeSources(fs, &f, sf); err != nil {
+		return nil, err
+	}
+	if sf != nil {
+		if err := sf.CheckPartitions(run.sources); err != nil {
+			return nil, &dataError{err}
+		}
+	}
+	return run, nil
+}
+
+// readSpec reads the spec file of --spec, if any, and refuses the keys
+// whose feature armtally does not have yet.
+func readSpec(path string) (*specfile.File, error) {
+	if path == "" {
+		return nil, nil
+	}
+	sf, err := specfile.Read(path)
+	if pe := (*os.PathError)(nil); errors.As(err, &pe) {
+		return nil, usagef("analyze: --spec: %v", err)
+	}
+	if err != nil {
+		return nil, err
+	}
+	if err := sf.Unsupported(); err != nil {
+		return nil, err
+	}
+	return sf, nil
+}
+
+// analyzeExperiments returns the experiments of the run: the spec file's
+// (those --experiment picks) with the flags the user set applied, or one
+// made from the flags alone.
+func analyzeExperiments(fs *pflag.FlagSet, f *analyzeFlags, sf *specfile.File) ([]*specfile.Settings, error) {
+	var exps []*specfile.Settings
+	if sf == nil || len(sf.Experiments) == 0 {
+		if f.demo {
+			demoDefaults(fs, f)
+		}
+		e := specfile.NewSettings()
+		if err := applyExperimentFlags(fs, f, e, true); err != nil {
 			return nil, err
 		}
 		exps = append(exps, e)
 	} else {
-		exps = sf.experiments
-		if fs.Changed("experiment") {
-			exps = nil
-			var keys []string
-			for _, e := range sf.experiments {
-				keys = append(keys, e.key)
-				if e.key == f.experiment {
-					exps = append(exps, e)
-				}
-			}
-			if len(exps) == 0 {
-				return nil, usagef("analyze: --experiment %q: %s has no such experiment (it has %s)", f.experiment, sf.name, strings.Join(keys, ", "))
-			}
-		}
-		if len(exps) > 1 {
-			for _, name := range []string{"arms", "split"} {
-				if fs.Changed(name) {
-					return nil, usagef("analyze: --%s applies to one experiment, and %s has %d: choose one with --experiment", name, sf.name, len(exps))
-				}
-			}
+		var err error
+		if exps, err = pickExperiments(fs, f, sf); err != nil {
+			return nil, err
 		}
 		for _, e := range exps {
-			if err := applyExperimentFlags(fs, &f, e, false); err != nil {
+			if err := applyExperimentFlags(fs, f, e, false); err != nil {
 				return nil, err
 			}
 		}
@@ -256,31 +302,45 @@ func parseAnalyze(args []string, stdout, stderr io.Writer) (*analyzeRun, error) 
 			return nil, usagef("analyze: --segment: empty column name")
 		}
 		for _, e := range exps {
-			if !slices.Contains(e.segments, name) {
-				e.segments = append(e.segments, name)
-			}
+			e.AddSegment(name)
 		}
 	}
-	for _, e := range exps {
-		spec, opts, err := e.build()
-		if err != nil {
-			return nil, err
-		}
-		be := builtExperiment{spec: spec, opts: opts}
-		for _, ms := range e.metrics {
-			col := ms.column
-			if col == "" {
-				col = ms.metric.Name
-			}
-			be.metricColumns = append(be.metricColumns, ingest.ColumnMap{Logical: ms.metric.Name, Physical: col})
-		}
-		run.experiments = append(run.experiments, be)
-	}
+	return exps, nil
+}
 
-	// Column mapping: the spec file's, then the flags.
+// pickExperiments returns the spec file's experiment that --experiment
+// names, or all of them; --arms and --split need one.
+func pickExperiments(fs *pflag.FlagSet, f *analyzeFlags, sf *specfile.File) ([]*specfile.Settings, error) {
+	exps := sf.Experiments
+	if fs.Changed("experiment") {
+		exps = nil
+		var keys []string
+		for _, e := range sf.Experiments {
+			keys = append(keys, e.Key())
+			if e.Key() == f.experiment {
+				exps = append(exps, e)
+			}
+		}
+		if len(exps) == 0 {
+			return nil, usagef("analyze: --experiment %q: %s has no such experiment (it has %s)", f.experiment, sf.Name, strings.Join(keys, ", "))
+		}
+	}
+	if len(exps) > 1 {
+		for _, name := range []string{"arms", "split"} {
+			if fs.Changed(name) {
+				return nil, usagef("analyze: --%s applies to one experiment, and %s has %d: choose one with --experiment", name, sf.Name, len(exps))
+			}
+		}
+	}
+	return exps, nil
+}
+
+// applyMapping sets the run's column mapping: the spec file's, then the
+// flags.
+func applyMapping(fs *pflag.FlagSet, f *analyzeFlags, sf *specfile.File, override func(string) bool, run *analyzeRun) error {
 	run.mapping = ingest.DefaultMapping()
 	if sf != nil {
-		run.mapping = sf.mapping
+		run.mapping = sf.Mapping
 	}
 	for _, c := range []struct {
 		flag string
@@ -294,7 +354,7 @@ func parseAnalyze(args []string, stdout, stderr io.Writer) (*analyzeRun, error) 
 		{"arm-col", f.armCol, &run.mapping.Arm},
 		{"epoch-unit", f.epochUnit, &run.mapping.EpochUnit},
 	} {
-		if sf == nil || fs.Changed(c.flag) {
+		if override(c.flag) {
 			*c.dst = c.v
 		}
 	}
@@ -303,146 +363,177 @@ func parseAnalyze(args []string, stdout, stderr io.Writer) (*analyzeRun, error) 
 			run.mapping.Segments = append(run.mapping.Segments, name)
 		}
 	}
-	run.tsMapped = fs.Changed("ts-col")
-	if sf != nil {
-		_, inFile := sf.mappingFrom["ts"]
-		run.tsMapped = run.tsMapped || inFile
-	}
+	run.tsMapped = fs.Changed("ts-col") || sf != nil && sf.TSMapped
 	switch run.mapping.EpochUnit {
 	case "", "s", "ms", "us", "ns":
 	default:
-		return nil, usagef("analyze: --epoch-unit %q: want s, ms, us or ns", run.mapping.EpochUnit)
+		return usagef("analyze: --epoch-unit %q: want s, ms, us or ns", run.mapping.EpochUnit)
 	}
+	return nil
+}
 
-	// Reading: the spec file's delimiter and bad-row budget, then the flags.
+// applyReading sets the delimiter and the bad-row budget: the spec file's,
+// then the flags.
+func applyReading(f *analyzeFlags, sf *specfile.File, override func(string) bool, run *analyzeRun) error {
 	if sf != nil {
-		run.delimiter, run.maxBadRows, run.maxBadShare = sf.delimiter, sf.maxBadRows, sf.maxBad
+		run.delimiter, run.maxBadRows, run.maxBadShare = sf.Delimiter, sf.MaxBadRows, sf.MaxBadShare
 	}
-	if sf == nil || fs.Changed("delimiter") {
-		d, err := parseDelimiter(f.delimiter)
+	if override("delimiter") {
+		d, err := specfile.ParseDelimiter(f.delimiter)
 		if err != nil {
-			return nil, usagef("analyze: --delimiter: %v", err)
+			return usagef("analyze: --delimiter: %v", err)
 		}
 		run.delimiter = d
 	}
-	if sf == nil || fs.Changed("max-bad-rows") {
+	if override("max-bad-rows") {
 		if f.maxBadRows < ingest.NoLimit {
-			return nil, usagef("analyze: --max-bad-rows %d: want 0 or more, or -1 for no limit", f.maxBadRows)
+			return usagef("analyze: --max-bad-rows %d: want 0 or more, or -1 for no limit", f.maxBadRows)
 		}
 		run.maxBadRows = f.maxBadRows
 	}
-	if sf == nil || fs.Changed("max-bad-share") {
+	if override("max-bad-share") {
 		if !(f.maxBadShare >= 0 && f.maxBadShare <= 1) {
-			return nil, usagef("analyze: --max-bad-share %v: want a share from 0 to 1", f.maxBadShare)
+			return usagef("analyze: --max-bad-share %v: want a share from 0 to 1", f.maxBadShare)
 		}
 		run.maxBadShare = f.maxBadShare
 	}
+	return nil
+}
 
-	// Outputs: the spec file's, then the flags.
+// applyOutputs sets the outputs: the spec file's, then the flags.
+func applyOutputs(f *analyzeFlags, sf *specfile.File, override func(string) bool, run *analyzeRun) error {
 	if sf != nil {
-		run.out, run.jsonOut = sf.markdown, sf.json
-		if sf.failOnSampleRatio != nil {
-			run.failOnSampleRatio = *sf.failOnSampleRatio
+		run.out, run.jsonOut, run.audit = sf.Markdown, sf.JSON, sf.Audit
+		if sf.FailOnSampleRatio != nil {
+			run.failOnSampleRatio = *sf.FailOnSampleRatio
 		}
 	}
-	if sf == nil || fs.Changed("out") {
-		run.out = f.out
+	for _, o := range []struct {
+		flag string
+		v    string
+		dst  *string
+	}{{"out", f.out, &run.out}, {"json", f.jsonOut, &run.jsonOut}, {"audit", f.audit, &run.audit}} {
+		if override(o.flag) {
+			*o.dst = o.v
+		}
 	}
-	if sf == nil || fs.Changed("json") {
-		run.jsonOut = f.jsonOut
+	if run.audit != "" && run.shape == experiment.InputCounts {
+		return usagef("analyze: an audit table lists units, and a counts table has none (output.audit or --audit)")
 	}
-	if sf != nil {
-		run.audit = sf.audit
-	}
-	if sf == nil || fs.Changed("audit") {
-		run.audit = f.audit
-	}
-	if run.audit != "" && run.shape == shapeCounts {
-		return nil, usagef("analyze: an audit table lists units, and a counts table has none (output.audit or --audit)")
-	}
-	if sf == nil || fs.Changed("fail-on-sample-ratio") {
+	if override("fail-on-sample-ratio") {
 		run.failOnSampleRatio = f.failOnSampleRatio
 	}
-	run.stderr = stderr
-	run.progress = !f.noProgress && isTerminal(stderr)
-	if f.memoryLimit != "" {
-		n, err := parseBytes(f.memoryLimit)
-		if err != nil {
-			return nil, usagef("analyze: --memory-limit: %v", err)
-		}
-		if run.shape != shapeEvents {
-			return nil, usagef("analyze: --memory-limit applies to event logs; a unit or counts table is tallied row by row already")
-		}
-		if run.audit != "" {
-			return nil, usagef("analyze: --memory-limit and --audit together: the audit table lists every unit in key order, which needs them all in memory")
-		}
-		run.memoryLimit = n
-	}
-	run.spillDir = f.spillDir
+	return nil
+}
 
-	// Sources: --demo, the arguments, or the spec file's input.paths.
-	switch {
-	case f.demo:
+// applyMemoryLimit sets --memory-limit and --spill-dir.
+func applyMemoryLimit(f *analyzeFlags, run *analyzeRun) error {
+	run.spillDir = f.spillDir
+	if f.memoryLimit == "" {
+		return nil
+	}
+	n, err := parseBytes(f.memoryLimit)
+	if err != nil {
+		return usagef("analyze: --memory-limit: %v", err)
+	}
+	if run.shape != experiment.InputEventLog {
+		return usagef("analyze: --memory-limit applies to event logs; a unit or counts table is tallied row by row already")
+	}
+	if run.audit != "" {
+		return usagef("analyze: --memory-limit and --audit together: the audit table lists every unit in key order, which needs them all in memory")
+	}
+	run.memoryLimit = n
+	return nil
+}
+
+// analyzeSources returns the run's sources: --demo, the arguments, or the
+// spec file's input.paths.
+func analyzeSources(fs *pflag.FlagSet, f *analyzeFlags, sf *specfile.File) ([]ingest.Source, error) {
+	if f.demo {
 		if fs.NArg() > 0 {
 			return nil, usagef("analyze: --demo takes no input files (got %s)", strings.Join(fs.Args(), " "))
 		}
 		name, data := sampledata.Demo()
-		run.sources = []ingest.Source{ingest.BytesSource(name, data)}
-	default:
-		paths := fs.Args()
-		if len(paths) == 0 && sf != nil {
-			paths = sf.paths
-		}
-		if len(paths) == 0 {
-			if sf != nil {
-				return nil, usagef("analyze: name at least one input file or folder, in %s (input.paths) or on the command line", sf.name)
-			}
-			return nil, usagef("analyze: name at least one input file or folder, or use --demo")
-		}
-		var err error
-		run.sources, err = ingest.FileSources(paths)
-		if err != nil {
-			return nil, &dataError{err}
-		}
-		if len(run.sources) == 0 {
-			return nil, &dataError{fmt.Errorf("no .csv, .csv.gz, .parquet or .parq files in %s", strings.Join(paths, ", "))}
-		}
+		return []ingest.Source{ingest.BytesSource(name, data)}, nil
 	}
-	if sf != nil {
-		if err := sf.checkPartitions(run.sources); err != nil {
-			return nil, err
-		}
+	paths := fs.Args()
+	if len(paths) == 0 && sf != nil {
+		paths = sf.Paths
 	}
-	return run, nil
+	if len(paths) == 0 {
+		if sf != nil {
+			return nil, usagef("analyze: name at least one input file or folder, in %s (input.paths) or on the command line", sf.Name)
+		}
+		return nil, usagef("analyze: name at least one input file or folder, or use --demo")
+	}
+	sources, err := ingest.FileSources(paths)
+	if err != nil {
+		return nil, &dataError{err}
+	}
+	if len(sources) == 0 {
+		return nil, &dataError{fmt.Errorf("no .csv, .csv.gz, .parquet or .parq files in %s", strings.Join(paths, ", "))}
+	}
+	return sources, nil
 }
 
 // applyExperimentFlags applies the experiment flags to e: every flag when
 // all is set (no spec file, or one without experiments), otherwise only the
 // flags the user set, which override the file. --experiment sets the key
 // only when all is set; with a spec file it picks experiments instead.
-func applyExperimentFlags(fs *pflag.FlagSet, f *analyzeFlags, e *expSettings, all bool) error {
+func applyExperimentFlags(fs *pflag.FlagSet, f *analyzeFlags, e *specfile.Settings, all bool) error {
 	set := func(name string) bool { return all || fs.Changed(name) }
-	flag := func(name string) origin { return origin{flag: "--" + name} }
 	if all {
-		e.key = f.experiment
-		e.from["key"] = flag("experiment")
+		e.SetKey(f.experiment, flagOrigin("experiment"))
 	}
+	if err := applyArmFlags(set, f, e); err != nil {
+		return err
+	}
+	if err := applyWindowFlags(set, f, e); err != nil {
+		return err
+	}
+	if set("metric") || set("guardrail") {
+		var ms []specfile.Metric
+		for _, s := range f.metrics {
+			m, err := specfile.ParseMetric(s)
+			if err != nil {
+				return usagef("analyze: --metric: %v", err)
+			}
+			ms = append(ms, specfile.Metric{Metric: m, Role: specfile.Primary, From: flagOrigin("metric")})
+		}
+		for _, s := range f.guardrails {
+			m, err := specfile.ParseGuardrail(s)
+			if err != nil {
+				return usagef("analyze: --guardrail: %v", err)
+			}
+			ms = append(ms, specfile.Metric{Metric: m, Role: specfile.Guardrail, From: flagOrigin("guardrail")})
+		}
+		e.SetMetrics(ms, flagOrigin("metric"))
+	}
+	return applyAnalysisFlags(set, f, e)
+}
+
+// flagOrigin is the origin of a setting from the flag --name.
+func flagOrigin(name string) specfile.Origin { return specfile.Origin{Flag: "--" + name} }
+
+// applyArmFlags applies --exposure-event, --control, --arms and --split.
+func applyArmFlags(set func(string) bool, f *analyzeFlags, e *specfile.Settings) error {
 	for _, s := range []struct {
-		flag, key string
-		v         string
-		dst       *string
-	}{{"exposure-event", "exposure_event", f.exposureEvent, &e.exposureEvent}, {"control", "control", f.control, &e.control}} {
+		flag string
+		v    string
+		fn   func(string, specfile.Origin) error
+	}{{"exposure-event", f.exposureEvent, e.SetExposureEvent}, {"control", f.control, e.SetControl}} {
 		if !set(s.flag) {
 			continue
 		}
 		if s.v == "" {
 			return usagef("analyze: --exposure-event and --control must not be empty")
 		}
-		*s.dst = s.v
-		e.from[s.key] = flag(s.flag)
+		if err := s.fn(s.v, flagOrigin(s.flag)); err != nil {
+			return err
+		}
 	}
 	if set("arms") {
-		e.arms, e.armsAddControl = nil, true
+		var arms []string
 		seen := map[string]bool{}
 		for _, a := range f.arms {
 			a = strings.TrimSpace(a)
@@ -450,91 +541,86 @@ func applyExperimentFlags(fs *pflag.FlagSet, f *analyzeFlags, e *expSettings, al
 				return usagef("analyze: --arms %q: empty or repeated arm name", strings.Join(f.arms, ","))
 			}
 			seen[a] = true
-			e.arms = append(e.arms, a)
+			arms = append(arms, a)
 		}
-		e.from["arms"] = flag("arms")
+		e.SetArms(arms, true, flagOrigin("arms"))
 	}
 	if set("split") {
-		e.split = nil
+		var shares []float64
 		if f.split != "" {
-			shares, err := parseShares(f.split)
-			if err != nil {
-				return usagef("analyze: %v", err)
+			var err error
+			if shares, err = specfile.ParseShares(f.split); err != nil {
+				return usagef("analyze: --split %v", err)
 			}
-			e.split = shares
 		}
-		e.from["split"] = flag("split")
+		e.SetSplit(shares, flagOrigin("split"))
 	}
-	var err error
-	if set("start") {
-		if e.start, err = parseTime("start", f.start); err != nil {
-			return err
+	return nil
+}
+
+// applyWindowFlags applies --start, --end, --multi-arm and --maturity.
+func applyWindowFlags(set func(string) bool, f *analyzeFlags, e *specfile.Settings) error {
+	for _, b := range []struct {
+		flag, v string
+		fn      func(*time.Time, specfile.Origin)
+	}{{"start", f.start, e.SetStart}, {"end", f.end, e.SetEnd}} {
+		if !set(b.flag) {
+			continue
 		}
-		e.from["start"] = flag("start")
-	}
-	if set("end") {
-		if e.end, err = parseTime("end", f.end); err != nil {
-			return err
+		t, err := specfile.ParseTime(b.v)
+		if err != nil {
+			return usagef("--%s %v", b.flag, err)
 		}
-		e.from["end"] = flag("end")
+		b.fn(t, flagOrigin(b.flag))
 	}
 	if set("multi-arm") {
-		if e.multiArm, err = experiment.ParseMultiArmPolicy(f.multiArm); err != nil {
+		p, err := experiment.ParseMultiArmPolicy(f.multiArm)
+		if err != nil {
 			return usagef("analyze: --multi-arm: %v", err)
 		}
+		e.SetMultiArm(p, flagOrigin("multi-arm"))
 	}
 	if set("maturity") {
-		if e.maturity, err = experiment.ParseMaturityPolicy(f.maturity); err != nil {
+		p, err := experiment.ParseMaturityPolicy(f.maturity)
+		if err != nil {
 			return usagef("analyze: --maturity: %v", err)
 		}
+		e.SetMaturity(p, flagOrigin("maturity"))
 	}
-	if set("metric") || set("guardrail") {
-		e.metrics = nil
-		for _, s := range f.metrics {
-			m, err := parseMetric(s)
-			if err != nil {
-				return usagef("analyze: --metric: %v", err)
-			}
-			e.metrics = append(e.metrics, metricSetting{metric: m, role: rolePrimary, from: flag("metric")})
-		}
-		for _, s := range f.guardrails {
-			m, err := parseGuardrail(s)
-			if err != nil {
-				return usagef("analyze: --guardrail: %v", err)
-			}
-			e.metrics = append(e.metrics, metricSetting{metric: m, role: roleGuardrail, from: flag("guardrail")})
-		}
-		e.from["metrics"] = flag("metric")
-	}
+	return nil
+}
+
+// applyAnalysisFlags applies the flags of the statistical options.
+func applyAnalysisFlags(set func(string) bool, f *analyzeFlags, e *specfile.Settings) error {
 	if set("alpha") {
-		if err := e.setAlpha(f.alpha, flag("alpha")); err != nil {
+		if err := e.SetAlpha(f.alpha, flagOrigin("alpha")); err != nil {
 			return err
 		}
 	}
 	for _, s := range []struct {
 		flag string
 		v    string
-		fn   func(string, origin) error
+		fn   func(string, specfile.Origin) error
 	}{
-		{"alternative", f.alternative, e.setAlternative},
-		{"adjust", f.adjust, e.setAdjust},
-		{"interval", f.interval, e.setInterval},
-		{"difference-interval", f.diffInterval, e.setDifferenceInterval},
-		{"non-inferiority-method", f.niMethod, e.setNonInferiority},
+		{"alternative", f.alternative, e.SetAlternative},
+		{"adjust", f.adjust, e.SetAdjust},
+		{"interval", f.interval, e.SetInterval},
+		{"difference-interval", f.diffInterval, e.SetDifferenceInterval},
+		{"non-inferiority-method", f.niMethod, e.SetNonInferiorityMethod},
 	} {
 		if set(s.flag) {
-			if err := s.fn(s.v, flag(s.flag)); err != nil {
+			if err := s.fn(s.v, flagOrigin(s.flag)); err != nil {
 				return err
 			}
 		}
 	}
 	if set("min-count") {
-		if err := e.setMinCount(f.minCount, flag("min-count")); err != nil {
+		if err := e.SetMinCount(f.minCount, flagOrigin("min-count")); err != nil {
 			return err
 		}
 	}
 	if set("sample-ratio-threshold") {
-		if err := e.setSampleRatioThreshold(f.srThreshold, flag("sample-ratio-threshold")); err != nil {
+		if err := e.SetSampleRatioThreshold(f.srThreshold, flagOrigin("sample-ratio-threshold")); err != nil {
 			return err
 		}
 	}
@@ -543,15 +629,11 @@ func applyExperimentFlags(fs *pflag.FlagSet, f *analyzeFlags, e *expSettings, al
 
 // applyLowerIsBetter marks the metrics named by --lower-is-better in every
 // experiment that has them; a name no experiment has is an error.
-func applyLowerIsBetter(names []string, exps []*expSettings) error {
+func applyLowerIsBetter(names []string, exps []*specfile.Settings) error {
 	for _, name := range names {
 		found := false
 		for _, e := range exps {
-			for i := range e.metrics {
-				if e.metrics[i].metric.Name == name {
-					e.metrics[i].metric.LowerIsBetter, found = true, true
-				}
-			}
+			found = e.MarkLowerIsBetter(name) || found
 		}
 		if !found {
 			return usagef("analyze: --lower-is-better %q: no metric of that name", name)
@@ -642,14 +724,9 @@ func runAnalyze(args []string, stdout, stderr io.Writer) error {
 func pipelineInput(run *analyzeRun) (pipeline.Input, []pipeline.Experiment) {
 	in := pipeline.Input{Sources: run.sources, Mapping: run.mapping, Counts: run.counts, Delimiter: run.delimiter,
 		MaxBadRows: run.maxBadRows, MaxBadShare: run.maxBadShare}
-	switch run.shape {
-	case shapeUnits:
-		in.Shape = experiment.InputUnitTable
-		if run.tsMapped {
-			in.UnitTS = run.mapping.TS
-		}
-	case shapeCounts:
-		in.Shape = experiment.InputCounts
+	in.Shape = run.shape
+	if run.shape == experiment.InputUnitTable && run.tsMapped {
+		in.UnitTS = run.mapping.TS
 	}
 	exps := make([]pipeline.Experiment, len(run.experiments))
 	for i, e := range run.experiments {
