@@ -32,7 +32,7 @@ func near(t *testing.T, what string, got, want, rel float64) {
 }
 
 // TestAnalyzeComparison checks the comparison of two arms against the
-// reference values of REFERENCE-VALUES.md.
+// reference values of experiment/REFERENCE-VALUES.md.
 func TestAnalyzeComparison(t *testing.T) {
 	spec := spec2()
 	spec.Metrics = []Metric{
@@ -50,7 +50,8 @@ func TestAnalyzeComparison(t *testing.T) {
 	if buy.Treatment != "treat" || buy.Control != "control" {
 		t.Fatalf("comparison %s vs %s", buy.Treatment, buy.Control)
 	}
-	// P2-01 z: R 4.2.2 prop.test(correct=FALSE), via REFERENCE-VALUES.md.
+	// P2-01 z: R 4.2.2 prop.test(correct=FALSE), via
+	// experiment/REFERENCE-VALUES.md.
 	near(t, "P2-01 z", buy.Z.Statistic, 2.650171951258533, 1e-12)
 	// P2-01 p two-sided: R 4.2.2 prop.test(correct=FALSE)$p.value.
 	near(t, "P2-01 p", buy.Z.PValue, 0.008045081368196564, 1e-10)
@@ -219,7 +220,8 @@ func TestAnalyzeUndefined(t *testing.T) {
 
 // TestAnalyzeOneSidedAgreement checks the interval-test agreement for a
 // one-sided alternative: P2-01 with "greater" has p = 0.0040 (R 4.2.2
-// prop.test, REFERENCE-VALUES.md) and a 90% Newcombe interval above 0.
+// prop.test, experiment/REFERENCE-VALUES.md) and a 90% Newcombe interval
+// above 0.
 func TestAnalyzeOneSidedAgreement(t *testing.T) {
 	spec := spec2()
 	opts := DefaultAnalysisOptions()
@@ -327,8 +329,8 @@ func TestAnalyzeAdjustment(t *testing.T) {
 	}
 }
 
-// TestAnalyzeGuardrail checks the non-inferiority test of a guardrail
-// against NI-01 of REFERENCE-VALUES.md: treatment 1180/10000 vs control
+// TestAnalyzeGuardrail checks the non-inferiority test of a guardrail against
+// NI-01 of experiment/REFERENCE-VALUES.md: treatment 1180/10000 vs control
 // 1200/10000, margin 0.01; Farrington-Manning z = 1.7463701392443087,
 // p = 0.04037332761886865 (R 4.2.2 formula, = mpmath 40 digits).
 func TestAnalyzeGuardrail(t *testing.T) {

@@ -107,7 +107,8 @@ type Margin struct {
 
 // Spec describes one experiment: which rows are its exposures, which arm is
 // the control, the planned split, the analysis window, the policies and the
-// metrics. The zero values of the policies are the defaults of DESIGN.md.
+// metrics. The zero values of the policies are the defaults of
+// experiment/DESIGN.md.
 type Spec struct {
 	// Key is the experiment key matched against the experiment column of
 	// exposure rows. Empty means every exposure row belongs to this

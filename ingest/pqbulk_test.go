@@ -169,8 +169,10 @@ func TestBulkPathCloseEarly(t *testing.T) {
 		if err != nil {
 			t.Fatal(err)
 		}
-		if !r.Next() || !r.Next() {
-			t.Fatalf("workers %d: no batches: %v", workers, r.Err())
+		for batch := 1; batch <= 2; batch++ { // read into the file, then stop
+			if !r.Next() {
+				t.Fatalf("workers %d: no batch %d: %v", workers, batch, r.Err())
+			}
 		}
 		if err := r.Close(); err != nil {
 			t.Fatal(err)

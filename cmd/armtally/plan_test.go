@@ -9,7 +9,7 @@ import (
 	"testing"
 )
 
-// The check values below come from ../shared/REFERENCE-VALUES.md, section
+// The check values below come from experiment/REFERENCE-VALUES.md, section
 // 11 (sample-size planning), each named by its case id: R 4.2.2
 // stats::power.prop.test with tol = 1e-12, the normal approximation with
 // the pooled variance under H0, equal allocation, one tail counted. Totals,
