@@ -118,7 +118,7 @@ window = "3d"
 		t.Fatalf("readouts %d", len(readouts))
 	}
 	// Rows: the whole log is read once, so each readout counts every row.
-	trA, trB := newTruth(a, 0, sumA), newTruth(b, 0, sumB)
+	trA, trB := sampledata.NewTruth(a, 0, sumA), sampledata.NewTruth(b, 0, sumB)
 	trA.Rows, trB.Rows = sumA.Rows+sumB.Rows, sumA.Rows+sumB.Rows
 	checkTruth(t, readouts[0], trA)
 	checkTruth(t, readouts[1], trB)
