@@ -425,7 +425,7 @@ func TestAnalyzeIntervalChoice(t *testing.T) {
 	if r.Settings.ConfidenceLevel != 0.9 || r.Metrics[0].Comparisons[0].DifferenceInterval.Level != 0.9 {
 		t.Errorf("one-sided level %v", r.Settings.ConfidenceLevel)
 	}
-	opts.Interval = "normal"
+	opts.Interval = IntervalMethod(9)
 	if _, err := Analyze(spec, tl, opts); err == nil {
 		t.Error("unknown interval method accepted")
 	}

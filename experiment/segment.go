@@ -83,15 +83,9 @@ func analyzeSegments(spec Spec, mi int, arms []ArmTally, ctl int, so stats.Optio
 			for i, a := range arms {
 				c := segmentCount(a, d, v, mi)
 				counts[i] = c
-				ar := ArmRate{Arm: a.Name, Units: c.Units, Conversions: c.Conversions, Immature: c.Immature}
-				if c.Units > 0 {
-					rate := float64(c.Conversions) / float64(c.Units)
-					ar.Rate = &rate
-					iv, err := meth.rate(c.Conversions, c.Units, so.Level)
-					if err != nil {
-						return nil, fmt.Errorf("segment %s=%s, arm %q: %w", dim, v, a.Name, err)
-					}
-					ar.Interval = interval(iv, iv.Method)
+				ar, err := meth.armRate(a.Name, c, so.Level)
+				if err != nil {
+					return nil, fmt.Errorf("segment %s=%s: %w", dim, v, err)
 				}
 				sr.Arms = append(sr.Arms, ar)
 			}

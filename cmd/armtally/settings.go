@@ -83,34 +83,29 @@ func (e *expSettings) setAdjust(s string, o origin) error {
 }
 
 func (e *expSettings) setInterval(s string, o origin) error {
-	switch s {
-	case experiment.IntervalWilson, experiment.IntervalClopperPearson, experiment.IntervalAgrestiCoull, experiment.IntervalWald:
-		e.opts.Interval = s
-		return nil
+	m, err := experiment.ParseIntervalMethod(s)
+	if err != nil {
+		return o.errorf("%v", err)
 	}
-	return o.errorf("%q: want wilson, clopper-pearson, agresti-coull or wald", s)
+	e.opts.Interval = m
+	return nil
 }
 
 func (e *expSettings) setDifferenceInterval(s string, o origin) error {
-	switch s {
-	case experiment.DifferenceNewcombe, experiment.DifferenceWald:
-		e.opts.Difference = s
-		return nil
+	m, err := experiment.ParseDifferenceMethod(s)
+	if err != nil {
+		return o.errorf("%v", err)
 	}
-	return o.errorf("%q: want newcombe or wald", s)
+	e.opts.Difference = m
+	return nil
 }
 
 func (e *expSettings) setNonInferiority(s string, o origin) error {
-	switch s {
-	case "farrington-manning":
-		e.opts.NonInferiority = stats.FarringtonManning
-	case "miettinen-nurminen":
-		e.opts.NonInferiority = stats.MiettinenNurminen
-	case "wald":
-		e.opts.NonInferiority = stats.WaldNonInferiority
-	default:
-		return o.errorf("%q: want farrington-manning, miettinen-nurminen or wald", s)
+	m, err := stats.ParseNonInferiorityMethod(s)
+	if err != nil {
+		return o.errorf("%v", err)
 	}
+	e.opts.NonInferiority = m
 	return nil
 }
 
