@@ -37,12 +37,11 @@ func WriteMarkdown(w io.Writer, readouts []experiment.Readout, opts MarkdownOpti
 	if level < 1 || level > 4 {
 		return fmt.Errorf("markdown heading level %d out of range (want 1 to 4)", opts.HeadingLevel)
 	}
-	doc := NewDocument(readouts)
-	if err := checkFinite(doc); err != nil {
+	if err := checkFinite(NewDocument(readouts)); err != nil {
 		return err
 	}
 	md := &markdown{level: level, opts: opts}
-	for i, r := range doc.Readouts {
+	for i, r := range readouts {
 		if i > 0 {
 			md.line("---")
 			md.line("")
