@@ -76,7 +76,7 @@ func Analyze(spec Spec, t Tally, opts AnalysisOptions) (Readout, error) {
 		return Readout{}, err
 	}
 	r.Diagnostics = diagnostics(spec, t, arms, opts)
-	r.Warnings = windowWarnings(spec, t.Input)
+	r.Warnings = openWindowWarnings(spec, t.Input)
 	return r, nil
 }
 
@@ -174,23 +174,8 @@ func analyzeMetrics(r *Readout, spec Spec, arms []ArmTally, so stats.Options, ad
 		}
 		r.Metrics[mi].Segments = segs
 	}
-	r.Segmentation.Tests, r.Segmentation.Caution = segmentCaution(r.Metrics, so.Alpha)
+	r.Segmentation.Tests = segmentTests(r.Metrics)
 	return nil
-}
-
-// windowWarnings returns the readout-wide warnings about the analysis
-// window.
-func windowWarnings(spec Spec, input InputShape) []string {
-	if spec.End != nil {
-		return nil
-	}
-	switch input {
-	case InputUnitTable:
-		return []string{"the analysis window has no end: a unit table carries no conversion times, so no unit could be judged immature, and units exposed shortly before the export had little time to convert"}
-	case InputCounts:
-		return []string{"the analysis window has no end: the counts say which units were immature only if the table has an immature column"}
-	}
-	return []string{"the analysis window has no end: maturity is judged against the data freshness, and units exposed shortly before it had little time to convert"}
 }
 
 // readoutArms returns the tally's arms with the control present (added
@@ -308,11 +293,12 @@ func targetTest(c Count, p0 float64, so stats.Options) (*TargetTest, error) {
 	if err != nil {
 		return nil, err
 	}
+	// The one-proportion z test has no undefined case (its variance is
+	// taken at p0), so z.Warnings is empty.
 	tt := &TargetTest{Target: p0, Z: test(z)}
-	tt.Warnings = append(tt.Warnings, z.Warnings...)
-	ok, warn := stats.OneSampleCondition(c.Units, p0, so.MinCount)
+	ok, _ := stats.OneSampleCondition(c.Units, p0, so.MinCount)
 	tt.ConditionMet = ok
-	tt.Warnings = append(tt.Warnings, warn...)
+	tt.Warnings = fewExpectedWarnings(c.Units, p0, so.MinCount)
 	if ok {
 		tt.Significant, tt.DecidedBy = z.RejectByPValue, DecidedByZ
 		return tt, nil
@@ -359,10 +345,16 @@ func compare(treatment string, tc Count, control string, cc Count, so stats.Opti
 		return c, err
 	}
 	c.Z = test(z)
-	c.Warnings = append(c.Warnings, z.Warnings...)
-	ok, warn := stats.TwoSampleConditionNamed(x1, n1, x2, n2, so.MinCount, treatment, control)
-	c.ConditionMet = ok
-	c.Warnings = append(c.Warnings, warn...)
+	if len(z.Warnings) > 0 {
+		// The pooled statistic is 0/0: no conversions, or all.
+		code := WarnZAllConverted
+		if x1+x2 == 0 {
+			code = WarnZNoConversions
+		}
+		c.Warnings = append(c.Warnings, Warning{Code: code})
+	}
+	c.ConditionMet, _ = stats.TwoSampleCondition(x1, n1, x2, n2, so.MinCount)
+	c.Warnings = append(c.Warnings, fewCountWarnings(treatment, x1, n1, control, x2, n2, so.MinCount)...)
 	if c.ConditionMet {
 		c.SignificantUnadjusted, c.DecidedBy = z.RejectByPValue, DecidedByZ
 	} else {
@@ -477,11 +469,4 @@ func utcPtr(t *time.Time) *time.Time {
 	}
 	u := t.UTC()
 	return &u
-}
-
-func plural(n int64, word string) string {
-	if n == 1 {
-		return "1 " + word
-	}
-	return fmt.Sprintf("%d %ss", n, word)
 }

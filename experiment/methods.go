@@ -147,11 +147,11 @@ func rateOf(arms []ArmRate, name string) ArmRate {
 // harmful side is the one-sided bound compared with the margin.
 func nonInferiority(tc, cc Count, g Margin, lowerIsBetter bool, so stats.Options, meth methods) (*NonInferiorityTest, error) {
 	margin := g.Value
-	var warnings []string
+	var warnings []Warning
 	if g.Relative {
 		margin = g.Value * float64(cc.Conversions) / float64(cc.Units)
 		if cc.Conversions == 0 {
-			warnings = append(warnings, "the control has no conversions, so the relative margin is 0")
+			warnings = append(warnings, Warning{Code: WarnRelativeMarginZero})
 		}
 	}
 	x1, n1, x2, n2 := tc.Conversions, tc.Units, cc.Conversions, cc.Units
@@ -162,9 +162,11 @@ func nonInferiority(tc, cc Count, g Margin, lowerIsBetter bool, so stats.Options
 	if err != nil {
 		return nil, err
 	}
-	warnings = append(warnings, z.Warnings...)
+	if len(z.Warnings) > 0 {
+		warnings = append(warnings, Warning{Code: WarnNonInferiorityUndefined})
+	}
 	if ok, _ := stats.TwoSampleCondition(tc.Conversions, tc.Units, cc.Conversions, cc.Units, so.MinCount); !ok {
-		warnings = append(warnings, fmt.Sprintf("normal approximation not justified (fewer than %d conversions or non-conversions in an arm); the non-inferiority test has no exact fallback", so.MinCount))
+		warnings = append(warnings, Warning{Code: WarnNonInferiorityNoFallback, MinCount: so.MinCount})
 	}
 	iv, err := meth.difference(tc.Conversions, tc.Units, cc.Conversions, cc.Units, 1-2*so.Alpha)
 	if err != nil {

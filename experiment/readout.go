@@ -24,9 +24,10 @@ type Readout struct {
 	Segmentation Segmentation
 	Metrics      []MetricReadout
 	Diagnostics  Diagnostics
-	// Warnings are readout-wide cautions (sample ratio, exclusions,
-	// conditions), deduplicated, in first-seen order.
-	Warnings []string
+	// Warnings are the readout-wide cautions of the analysis (a window
+	// with no end); package report adds those the numbers show (sample
+	// ratio, exclusions, conditions) and words them all.
+	Warnings []Warning
 }
 
 // Settings echoes the analysis settings that shaped the numbers.
@@ -110,7 +111,7 @@ type MetricReadout struct {
 	// of Segmentation.Dimensions and value, dimensions in that order and
 	// values sorted (null last). Exploratory: see Segmentation.
 	Segments []SegmentResult
-	Warnings []string
+	Warnings []Warning
 }
 
 // Segmentation describes the segment breakdowns of a readout. Segment
@@ -123,9 +124,6 @@ type Segmentation struct {
 	Dimensions []string
 	// Tests is the number of segment comparisons with a test.
 	Tests int
-	// Caution says what the segment results can and cannot show; "" when
-	// there are none.
-	Caution string
 }
 
 // SegmentResult is one metric for the units with one value of one segment
@@ -207,7 +205,7 @@ type TargetTest struct {
 	// the condition holds, the exact test otherwise.
 	Significant bool
 	DecidedBy   string
-	Warnings    []string
+	Warnings    []Warning
 }
 
 // Comparison is one treatment arm against the control for one metric.
@@ -242,7 +240,7 @@ type Comparison struct {
 	IntervalAgrees bool
 	// NonInferiority is the guardrail test; nil for other metrics.
 	NonInferiority *NonInferiorityTest
-	Warnings       []string
+	Warnings       []Warning
 }
 
 // Adjusted is one comparison's multiple-comparison adjustment.
@@ -275,7 +273,7 @@ type NonInferiorityTest struct {
 	// Interval is the difference interval whose bound on the harmful side
 	// is compared with the margin: two-sided at 1 - 2 alpha.
 	Interval *Interval
-	Warnings []string
+	Warnings []Warning
 }
 
 // Diagnostics accounts for every row read and every unit seen.

@@ -219,7 +219,7 @@ func (md *markdown) guardrails(r experiment.Readout, m experiment.MetricReadout,
 			zt, statRoute, pRoute,
 			against,
 			verdict,
-			n.add(append(extra, ni.Warnings...)...),
+			n.add(append(extra, warningTexts(ni.Warnings)...)...),
 		})
 	}
 	md.table(header, "", transpose(labels, cols))

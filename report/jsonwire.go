@@ -50,8 +50,11 @@ type JSONReadout struct {
 }
 
 func toJSONReadout(r experiment.Readout) JSONReadout {
-	seg := JSONSegmentation(r.Segmentation)
-	seg.Dimensions = convertAll(seg.Dimensions, same)
+	seg := JSONSegmentation{
+		Dimensions: convertAll(r.Segmentation.Dimensions, same),
+		Tests:      r.Segmentation.Tests,
+		Caution:    segmentCaution(r),
+	}
 	return JSONReadout{
 		Experiment:    r.Experiment,
 		ExposureEvent: r.ExposureEvent,
@@ -66,7 +69,7 @@ func toJSONReadout(r experiment.Readout) JSONReadout {
 		Segmentation:  seg,
 		Metrics:       convertAll(r.Metrics, toJSONMetric),
 		Diagnostics:   toJSONDiagnostics(r.Diagnostics),
-		Warnings:      convertAll(r.Warnings, same),
+		Warnings:      warningTexts(r.Warnings),
 	}
 }
 
@@ -113,7 +116,8 @@ type JSONSampleRatio struct {
 	Checked   bool    `json:"checked"`
 }
 
-// JSONSegmentation is the JSON form of experiment.Segmentation.
+// JSONSegmentation is the JSON form of experiment.Segmentation, with the
+// caution that goes with segment results ("" when there are none).
 type JSONSegmentation struct {
 	Dimensions []string `json:"dimensions"`
 	Tests      int      `json:"tests"`
@@ -145,7 +149,7 @@ func toJSONMetric(m experiment.MetricReadout) JSONMetric {
 		Arms:          convertAll(m.Arms, toJSONArmRate),
 		Comparisons:   convertAll(m.Comparisons, toJSONComparison),
 		Segments:      convertAll(m.Segments, toJSONSegment),
-		Warnings:      convertAll(m.Warnings, same),
+		Warnings:      warningTexts(m.Warnings),
 	}
 }
 
@@ -258,7 +262,7 @@ func toJSONTargetTest(t experiment.TargetTest) JSONTargetTest {
 		Exact:        toJSONExactTest(t.Exact),
 		Significant:  t.Significant,
 		DecidedBy:    t.DecidedBy,
-		Warnings:     convertAll(t.Warnings, same),
+		Warnings:     warningTexts(t.Warnings),
 	}
 }
 
@@ -299,7 +303,7 @@ func toJSONComparison(c experiment.Comparison) JSONComparison {
 		Adjusted:              convertPtr(c.Adjusted, toJSONAdjusted),
 		IntervalAgrees:        c.IntervalAgrees,
 		NonInferiority:        convertPtr(c.NonInferiority, toJSONNonInferiority),
-		Warnings:              convertAll(c.Warnings, same),
+		Warnings:              warningTexts(c.Warnings),
 	}
 }
 
@@ -337,7 +341,7 @@ func toJSONNonInferiority(n experiment.NonInferiorityTest) JSONNonInferiorityTes
 		Z:              toJSONTest(n.Z),
 		NonInferior:    n.NonInferior,
 		Interval:       toJSONInterval(n.Interval),
-		Warnings:       convertAll(n.Warnings, same),
+		Warnings:       warningTexts(n.Warnings),
 	}
 }
 

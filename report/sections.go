@@ -176,7 +176,7 @@ func (md *markdown) warnings(r experiment.Readout) {
 		}
 		list = append(list, other...)
 	}
-	list = append(list, r.Warnings...)
+	list = append(list, warningTexts(r.Warnings)...)
 	list = dedupe(list)
 	if len(list) == 0 {
 		return
@@ -322,7 +322,7 @@ func (md *markdown) metric(r experiment.Readout, m experiment.MetricReadout) {
 		rows = append(rows, []string{armLabel(a.Arm, r.Control), FormatCount(a.Units), FormatCount(a.Conversions), rate, interval, method, FormatCount(a.Immature)})
 	}
 	md.table([]string{"Arm", "Units", "Conversions", "Rate", "Interval", "Interval method", "Immature (left out)"}, "lrrrrlr", rows)
-	n.add(m.Warnings...)
+	n.add(warningTexts(m.Warnings)...)
 	n.flush(md)
 
 	if m.Guardrail != nil && len(m.Comparisons) > 0 {
@@ -458,7 +458,7 @@ func (md *markdown) comparisons(m experiment.MetricReadout, n *notes) {
 		}
 		cols = append(cols, append(col,
 			comparisonDecision(m, c),
-			n.add(append(extra, c.Warnings...)...),
+			n.add(append(extra, warningTexts(c.Warnings)...)...),
 		))
 	}
 	md.table(header, "", transpose(labels, cols))
@@ -492,7 +492,7 @@ func (md *markdown) targetTests(m experiment.MetricReadout, n *notes) {
 			conditionText(tt.ConditionMet, "expected under the target", tt.Z, tt.Exact),
 			exactText(tt.Exact, tt.ConditionMet),
 			decisionText(tt.Significant, tt.DecidedBy, tt.Z, tt.Exact),
-			n.add(append(extra, tt.Warnings...)...),
+			n.add(append(extra, warningTexts(tt.Warnings)...)...),
 		})
 	}
 	md.table(header, "", transpose(labels, cols))
@@ -549,8 +549,8 @@ func (md *markdown) cautions(r experiment.Readout) {
 	if s := multiplicityCaution(r); s != "" {
 		md.line("- " + s)
 	}
-	if r.Segmentation.Caution != "" {
-		md.line("- " + r.Segmentation.Caution)
+	if s := segmentCaution(r); s != "" {
+		md.line("- " + s)
 	}
 	md.line("")
 }
