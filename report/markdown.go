@@ -164,6 +164,16 @@ func (n *notes) add(texts ...string) string {
 	return strings.Join(refs, ", ")
 }
 
+// addTest records the notes of a test: that its two routes disagree, if
+// they do, then its warnings; it returns their numbers as add does.
+func (n *notes) addTest(z *experiment.Test, warnings []experiment.Warning) string {
+	var texts []string
+	if z != nil && z.RejectByStatistic != z.RejectByPValue {
+		texts = append(texts, routesDisagree)
+	}
+	return n.add(append(texts, warningTexts(warnings)...)...)
+}
+
 // flush prints the notes not printed yet as an ordered list that starts
 // at the first new number.
 func (n *notes) flush(md *markdown) {
