@@ -88,9 +88,9 @@ func TestAnalyzeComparison(t *testing.T) {
 	}
 	near(t, "P2-04 Newcombe lower", rare.DifferenceInterval.Lower, -0.03813714790353685, 1e-12)
 	near(t, "P2-04 Newcombe upper", rare.DifferenceInterval.Upper, 0.19256001385511157, 1e-12)
-	wantWarn := "normal approximation not justified: control has 0 conversions, needs at least 5"
+	wantWarn := Warning{Code: WarnFewConversions, Arm: "control", Count: 0, MinCount: 5}
 	if len(rare.Warnings) != 1 || rare.Warnings[0] != wantWarn {
-		t.Errorf("P2-04 warnings = %q, want [%q]", rare.Warnings, wantWarn)
+		t.Errorf("P2-04 warnings = %+v, want [%+v]", rare.Warnings, wantWarn)
 	}
 
 	// Per-arm Wilson: CI-01 is 81/263; here check the arm rates are the
@@ -427,7 +427,7 @@ func TestAnalyzeIntervalChoice(t *testing.T) {
 	if r.Settings.ConfidenceLevel != 0.9 || r.Metrics[0].Comparisons[0].DifferenceInterval.Level != 0.9 {
 		t.Errorf("one-sided level %v", r.Settings.ConfidenceLevel)
 	}
-	opts.Interval = "normal"
+	opts.Interval = IntervalMethod(9)
 	if _, err := Analyze(spec, tl, opts); err == nil {
 		t.Error("unknown interval method accepted")
 	}

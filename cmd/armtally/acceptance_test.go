@@ -11,7 +11,7 @@ import (
 	"testing"
 	"time"
 
-	"github.com/armtally/armtally/experiment"
+	"github.com/armtally/armtally/report"
 	"github.com/armtally/armtally/sampledata"
 )
 
@@ -143,10 +143,10 @@ window = "3d"
 }
 
 // decodeReadouts decodes a JSON readout document.
-func decodeReadouts(t *testing.T, raw []byte) []experiment.Readout {
+func decodeReadouts(t *testing.T, raw []byte) []report.JSONReadout {
 	t.Helper()
 	var doc struct {
-		Readouts []experiment.Readout `json:"readouts"`
+		Readouts []report.JSONReadout `json:"readouts"`
 	}
 	if err := json.Unmarshal(raw, &doc); err != nil {
 		t.Fatal(err)

@@ -12,7 +12,6 @@ import (
 
 	"github.com/santhosh-tekuri/jsonschema/v6"
 
-	"github.com/armtally/armtally/experiment"
 	"github.com/armtally/armtally/report"
 	"github.com/armtally/armtally/sampledata"
 )
@@ -28,7 +27,7 @@ func runCmd(t *testing.T, args ...string) (int, string, string) {
 
 // readDoc reads a JSON readout file.
 func readDoc(t *testing.T, path string) (raw []byte, doc struct {
-	Readouts []experiment.Readout `json:"readouts"`
+	Readouts []report.JSONReadout `json:"readouts"`
 }) {
 	t.Helper()
 	raw, err := os.ReadFile(path)
@@ -84,7 +83,7 @@ func itoa(n int64) string { return strconv.FormatInt(n, 10) }
 // checkTruth checks that a readout's per-arm counts equal the generator's
 // ground truth, which the generator counts while it places the events,
 // without armtally's reader or tallier.
-func checkTruth(t *testing.T, r experiment.Readout, tr sampledata.Truth) {
+func checkTruth(t *testing.T, r report.JSONReadout, tr sampledata.Truth) {
 	t.Helper()
 	arms := map[string]sampledata.TruthArm{}
 	for _, a := range tr.Arms {
@@ -406,7 +405,7 @@ func TestUnknownArmBudget(t *testing.T) {
 	}
 	_, doc := readDoc(t, out)
 	d := doc.Readouts[0].Diagnostics
-	want := []experiment.ReasonCount{{Reason: "unknown_arm", Count: 1200}}
+	want := []report.JSONReasonCount{{Reason: "unknown_arm", Count: 1200}}
 	if !reflect.DeepEqual(d.BadRows, want) || d.RowsRead != 2200 || d.UnitsExposed != 1000 {
 		t.Errorf("bad rows %+v, rows read %d, units exposed %d; want %+v, 2200, 1000", d.BadRows, d.RowsRead, d.UnitsExposed, want)
 	}

@@ -203,36 +203,31 @@ func (e *Settings) SetAdjust(s string, o Origin) error {
 
 // SetInterval sets the interval of each arm's rate.
 func (e *Settings) SetInterval(s string, o Origin) error {
-	switch s {
-	case experiment.IntervalWilson, experiment.IntervalClopperPearson, experiment.IntervalAgrestiCoull, experiment.IntervalWald:
-		e.opts.Interval = s
-		return nil
+	m, err := experiment.ParseIntervalMethod(s)
+	if err != nil {
+		return o.errorf("%v", err)
 	}
-	return o.errorf("%q: want wilson, clopper-pearson, agresti-coull or wald", s)
+	e.opts.Interval = m
+	return nil
 }
 
 // SetDifferenceInterval sets the interval of each difference.
 func (e *Settings) SetDifferenceInterval(s string, o Origin) error {
-	switch s {
-	case experiment.DifferenceNewcombe, experiment.DifferenceWald:
-		e.opts.Difference = s
-		return nil
+	m, err := experiment.ParseDifferenceMethod(s)
+	if err != nil {
+		return o.errorf("%v", err)
 	}
-	return o.errorf("%q: want newcombe or wald", s)
+	e.opts.Difference = m
+	return nil
 }
 
 // SetNonInferiorityMethod sets the variance of the guardrail tests.
 func (e *Settings) SetNonInferiorityMethod(s string, o Origin) error {
-	switch s {
-	case "farrington-manning":
-		e.opts.NonInferiority = stats.FarringtonManning
-	case "miettinen-nurminen":
-		e.opts.NonInferiority = stats.MiettinenNurminen
-	case "wald":
-		e.opts.NonInferiority = stats.WaldNonInferiority
-	default:
-		return o.errorf("%q: want farrington-manning, miettinen-nurminen or wald", s)
+	m, err := stats.ParseNonInferiorityMethod(s)
+	if err != nil {
+		return o.errorf("%v", err)
 	}
+	e.opts.NonInferiority = m
 	return nil
 }
 
