@@ -7,6 +7,7 @@ import (
 	"fmt"
 	"math/rand/v2"
 	"reflect"
+	"runtime"
 	"slices"
 	"strconv"
 	"strings"
@@ -166,7 +167,7 @@ type encoder struct {
 
 // textArray encodes text values as typ; an integer type takes the digits
 // after the "u" of the generator's user ids.
-func (e *encoder) textArray(t *testing.T, col string, typ arrow.DataType, vals []*string) arrow.Array {
+func (e *encoder) textArray(t testing.TB, col string, typ arrow.DataType, vals []*string) arrow.Array {
 	t.Helper()
 	if dt, ok := typ.(*arrow.DictionaryType); ok {
 		return e.dictArray(t, col, dt, vals)
@@ -198,7 +199,7 @@ func (e *encoder) textArray(t *testing.T, col string, typ arrow.DataType, vals [
 // every batch shares one dictionary per column: the values of the first
 // batch, then those of later batches appended (each batch's dictionary is
 // a new array holding the entries so far).
-func (e *encoder) dictArray(t *testing.T, col string, dt *arrow.DictionaryType, vals []*string) arrow.Array {
+func (e *encoder) dictArray(t testing.TB, col string, dt *arrow.DictionaryType, vals []*string) arrow.Array {
 	t.Helper()
 	var entries []string
 	if e.dict != nil {
@@ -256,7 +257,7 @@ func (e *encoder) dictArray(t *testing.T, col string, dt *arrow.DictionaryType, 
 
 // tsArray encodes nanosecond timestamps as typ: a timestamp (any unit), an
 // integer count of unitNanos, date32 (days) or text (RFC 3339).
-func (e *encoder) tsArray(t *testing.T, typ arrow.DataType, ns []int64, unitNanos int64) arrow.Array {
+func (e *encoder) tsArray(t testing.TB, typ arrow.DataType, ns []int64, unitNanos int64) arrow.Array {
 	t.Helper()
 	switch typ := typ.(type) {
 	case *arrow.TimestampType:
@@ -308,7 +309,7 @@ func dictOf(index, value arrow.DataType) arrow.DataType {
 // encodeStream writes the rows of the logical batches as input batches of
 // inRows rows in the variant's types, the columns in another order than
 // the logical table's, with an extra column that is not mapped.
-func encodeStream(t *testing.T, mem memory.Allocator, v streamVariant, logical []arrow.RecordBatch, inRows int) (*arrow.Schema, []arrow.RecordBatch) {
+func encodeStream(t testing.TB, mem memory.Allocator, v streamVariant, logical []arrow.RecordBatch, inRows int) (*arrow.Schema, []arrow.RecordBatch) {
 	t.Helper()
 	// Logical order: user, ts, event, experiment, arm, platform.
 	names := []string{"user_id", "ts", "event", "experiment", "arm", "platform"}
@@ -1006,4 +1007,118 @@ func TestArrowReaderHandTally(t *testing.T) {
 		d.NotMetricEvents != 1 || d.UnitsExposed != 3 {
 		t.Errorf("diagnostics %+v", d)
 	}
+}
+
+// BenchmarkArrowReader reads, as Arrow streams, the 200,000-unit log that
+// BenchmarkReaderParquet reads from a file (same generator, seed and
+// options), in batches of 65,536 rows with ts as timestamp[us, UTC]: text
+// columns as plain utf8, or each dictionary-encoded (dictionary<int32,
+// utf8>, one dictionary per batch, as query engines commonly send them).
+// "tally" is, for scale, what the tally costs on the batches the reader
+// delivers (Tallier.Add of every batch, then Tally). Each reports ns/row.
+func BenchmarkArrowReader(b *testing.B) {
+	cfg := sampledata.DemoConfig()
+	cfg.Users, cfg.NeverExposedUsers = 200_000, 200_000/40
+	var file bytes.Buffer
+	if _, err := sampledata.WriteParquet(&file, cfg, rand.NewPCG(1, 0x61726d74616c6c79)); err != nil {
+		b.Fatal(err)
+	}
+	opts := Options{Mapping: DefaultMapping(), ExposureEvent: "exposure"}
+	m := opts.Mapping
+	m.Segments = []string{"platform"}
+	fr, err := NewReader([]Source{BytesSource("events.parquet", file.Bytes())}, Options{Mapping: m})
+	if err != nil {
+		b.Fatal(err)
+	}
+	var logical []arrow.RecordBatch
+	for fr.Next() {
+		rec := fr.Record()
+		rec.Retain()
+		logical = append(logical, rec)
+	}
+	if err := fr.Err(); err != nil {
+		b.Fatal(err)
+	}
+	fr.Close()
+	defer releaseAll(logical)
+	// open returns a reader of the stream of variant v.
+	open := func(b *testing.B, schema *arrow.Schema, in []arrow.RecordBatch) *ArrowReader {
+		rr, err := array.NewRecordReader(schema, in)
+		if err != nil {
+			b.Fatal(err)
+		}
+		defer rr.Release()
+		ar, err := NewArrowReader(rr, "arrow stream", opts)
+		if err != nil {
+			b.Fatal(err)
+		}
+		return ar
+	}
+	read := func(b *testing.B, v streamVariant) {
+		schema, in := encodeStream(b, memory.DefaultAllocator, v, logical, 65536)
+		defer releaseAll(in)
+		var rows int64
+		for _, rec := range in {
+			rows += rec.NumRows()
+		}
+		runtime.GC()
+		b.ReportAllocs()
+		for b.Loop() {
+			ar := open(b, schema, in)
+			var got int64
+			for ar.Next() {
+				got += ar.RecordBatch().NumRows()
+			}
+			if err := ar.Err(); err != nil {
+				b.Fatal(err)
+			}
+			ar.Close()
+			if got != rows {
+				b.Fatalf("read %d rows of %d", got, rows)
+			}
+		}
+		b.ReportMetric(float64(b.Elapsed().Nanoseconds())/float64(rows)/float64(b.N), "ns/row")
+	}
+	s, p := arrow.BinaryTypes.String, arrow.PrimitiveTypes
+	tsUS := &arrow.TimestampType{Unit: arrow.Microsecond, TimeZone: "UTC"}
+	plain := streamVariant{user: s, text: s, ts: tsUS}
+	b.Run("plain", func(b *testing.B) { read(b, plain) })
+	b.Run("dictionary", func(b *testing.B) {
+		d := dictOf(p.Int32, s)
+		read(b, streamVariant{user: d, text: d, ts: tsUS})
+	})
+	b.Run("tally", func(b *testing.B) {
+		schema, in := encodeStream(b, memory.DefaultAllocator, plain, logical, 65536)
+		ar := open(b, schema, in)
+		releaseAll(in)
+		var out []arrow.RecordBatch
+		var rows int64
+		for ar.Next() {
+			rec := ar.RecordBatch()
+			rec.Retain()
+			out = append(out, rec)
+			rows += rec.NumRows()
+		}
+		ar.Close()
+		defer releaseAll(out)
+		spec := demoSpec()
+		spec.Segments = nil
+		runtime.GC()
+		b.ReportAllocs()
+		for b.Loop() {
+			tl, err := experiment.NewTallier(spec)
+			if err != nil {
+				b.Fatal(err)
+			}
+			for _, rec := range out {
+				if err := tl.Add(rec); err != nil {
+					b.Fatal(err)
+				}
+			}
+			if _, err := tl.Tally(); err != nil {
+				b.Fatal(err)
+			}
+		}
+		b.ReportMetric(float64(b.Elapsed().Nanoseconds())/float64(rows)/float64(b.N), "ns/row")
+	})
 }
