@@ -115,10 +115,7 @@ func (r *ArrowReader) Schema() *arrow.Schema { return r.plan.schema }
 // Next advances to the next record batch and reports whether there is one.
 // It returns false at the end of the input and on the first error.
 func (r *ArrowReader) Next() (ok bool) {
-	if r.rec != nil {
-		r.rec.Release()
-		r.rec = nil
-	}
+	releaseBatch(&r.rec)
 	if r.err != nil || r.closed {
 		return false
 	}
@@ -181,10 +178,7 @@ func (r *ArrowReader) window() (bool, error) {
 	r.base += int64(r.win)
 	r.win, r.k = 0, 0
 	for r.cur == nil || int64(r.inPos) == r.cur.NumRows() {
-		if r.cur != nil {
-			r.cur.Release()
-			r.cur = nil
-		}
+		releaseBatch(&r.cur)
 		if r.eof {
 			return false, nil
 		}
@@ -314,12 +308,8 @@ func (r *ArrowReader) Close() error {
 		return nil
 	}
 	r.closed = true
-	for _, b := range []*arrow.RecordBatch{&r.rec, &r.cur} {
-		if *b != nil {
-			(*b).Release()
-			*b = nil
-		}
-	}
+	releaseBatch(&r.rec)
+	releaseBatch(&r.cur)
 	if r.bld != nil {
 		r.bld.release()
 		r.bld = nil
@@ -329,6 +319,14 @@ func (r *ArrowReader) Close() error {
 	}
 	r.in.Release()
 	return nil
+}
+
+// releaseBatch releases the batch *b, if any, and clears *b.
+func releaseBatch(b *arrow.RecordBatch) {
+	if *b != nil {
+		(*b).Release()
+		*b = nil
+	}
 }
 
 // arrowKind says how an input column becomes text or time.
@@ -642,38 +640,40 @@ func (c *arrowColumn) setDict(d arrow.Array) {
 }
 
 // intValues returns values [from, from+n) of an integer, timestamp or date
-// array as int64, reusing dst (a uint64 keeps its bits).
+// array as int64, reusing dst (a uint64 keeps its bits). It reads the
+// values buffer by the type's width; a buffer too short for the array's
+// length panics (Next turns that into an error).
 func intValues(a arrow.Array, from, n int, dst []int64) []int64 {
-	switch a := a.(type) {
-	case *array.Int8:
-		return widen(dst, a.Int8Values()[from:from+n])
-	case *array.Int16:
-		return widen(dst, a.Int16Values()[from:from+n])
-	case *array.Int32:
-		return widen(dst, a.Int32Values()[from:from+n])
-	case *array.Int64:
-		return widen(dst, a.Int64Values()[from:from+n])
-	case *array.Uint8:
-		return widen(dst, a.Uint8Values()[from:from+n])
-	case *array.Uint16:
-		return widen(dst, a.Uint16Values()[from:from+n])
-	case *array.Uint32:
-		return widen(dst, a.Uint32Values()[from:from+n])
-	case *array.Uint64:
-		return widen(dst, a.Uint64Values()[from:from+n])
-	case *array.Timestamp:
-		return widen(dst, a.TimestampValues()[from:from+n])
-	case *array.Date32:
-		return widen(dst, a.Date32Values()[from:from+n])
-	case *array.Date64:
-		return widen(dst, a.Date64Values()[from:from+n])
+	d := a.Data()
+	raw := d.Buffers()[1].Bytes()
+	lo := d.Offset() + from
+	signed := !arrow.IsUnsignedInteger(a.DataType().ID())
+	switch a.DataType().(arrow.FixedWidthDataType).BitWidth() {
+	case 8:
+		return widen[int8, uint8](dst, raw, lo, n, signed)
+	case 16:
+		return widen[int16, uint16](dst, raw, lo, n, signed)
+	case 32:
+		return widen[int32, uint32](dst, raw, lo, n, signed)
 	}
-	panic(fmt.Sprintf("intValues: %T", a)) // arrowColumnKind admits no other type
+	return widen[int64, uint64](dst, raw, lo, n, true)
 }
 
-func widen[T ~int8 | ~int16 | ~int32 | ~int64 | ~uint8 | ~uint16 | ~uint32 | ~uint64](dst []int64, src []T) []int64 {
+// widen returns values [lo, lo+n) of raw, read as S (as U when not
+// signed), as int64 in dst.
+func widen[S int8 | int16 | int32 | int64, U uint8 | uint16 | uint32 | uint64](dst []int64, raw []byte, lo, n int, signed bool) []int64 {
+	if size := int(unsafe.Sizeof(S(0))); lo < 0 || n < 0 || (lo+n)*size > len(raw) {
+		panic(fmt.Sprintf("values [%d, %d) of %d bytes each past a buffer of %d bytes", lo, lo+n, size, len(raw)))
+	}
 	dst = dst[:0]
-	for _, v := range src {
+	p := unsafe.Pointer(unsafe.SliceData(raw))
+	if signed {
+		for _, v := range unsafe.Slice((*S)(p), lo+n)[lo:] {
+			dst = append(dst, int64(v))
+		}
+		return dst
+	}
+	for _, v := range unsafe.Slice((*U)(p), lo+n)[lo:] {
 		dst = append(dst, int64(v))
 	}
 	return dst

@@ -4,7 +4,6 @@ import (
 	"bytes"
 	"encoding/csv"
 	"errors"
-	"fmt"
 	"math/rand/v2"
 	"reflect"
 	"runtime"
@@ -23,21 +22,6 @@ import (
 	"github.com/armtally/armtally/sampledata"
 )
 
-// streamCell is one cell of a logical batch as text: a timestamp as RFC
-// 3339 UTC, a null as ∅.
-func streamCell(col arrow.Array, i int) string {
-	if col.IsNull(i) {
-		return "∅"
-	}
-	switch c := col.(type) {
-	case *array.String:
-		return c.Value(i)
-	case *array.Timestamp:
-		return time.Unix(0, int64(c.Value(i))).UTC().Format(time.RFC3339Nano)
-	}
-	panic(fmt.Sprintf("unexpected column type %v", col.DataType()))
-}
-
 // streamRows returns each batch's rows as text, the cells joined by " | ".
 func streamRows(recs []arrow.RecordBatch) [][]string {
 	var out [][]string
@@ -46,7 +30,7 @@ func streamRows(recs []arrow.RecordBatch) [][]string {
 		for i := 0; i < int(rec.NumRows()); i++ {
 			var cells []string
 			for _, col := range rec.Columns() {
-				cells = append(cells, streamCell(col, i))
+				cells = append(cells, cellText(col, i))
 			}
 			rows = append(rows, strings.Join(cells, " | "))
 		}
@@ -65,7 +49,7 @@ type batchReader interface {
 
 // drain reads every batch, retained (the caller releases them), checking
 // each batch's schema against the reader's.
-func drain(t *testing.T, r batchReader, get func() arrow.RecordBatch) ([]arrow.RecordBatch, Stats, error) {
+func drain(t testing.TB, r batchReader, get func() arrow.RecordBatch) ([]arrow.RecordBatch, Stats, error) {
 	t.Helper()
 	var recs []arrow.RecordBatch
 	for r.Next() {
@@ -426,7 +410,7 @@ func demoSpec() experiment.Spec {
 
 // tallyOf tallies batches as the pipeline does: the batches, then the rows
 // the reader left out by the event filter.
-func tallyOf(t *testing.T, spec experiment.Spec, recs []arrow.RecordBatch, st Stats) experiment.Tally {
+func tallyOf(t testing.TB, spec experiment.Spec, recs []arrow.RecordBatch, st Stats) experiment.Tally {
 	t.Helper()
 	tl, err := experiment.NewTallier(spec)
 	if err != nil {
@@ -1030,17 +1014,12 @@ func BenchmarkArrowReader(b *testing.B) {
 	if err != nil {
 		b.Fatal(err)
 	}
-	var logical []arrow.RecordBatch
-	for fr.Next() {
-		rec := fr.Record()
-		rec.Retain()
-		logical = append(logical, rec)
-	}
-	if err := fr.Err(); err != nil {
-		b.Fatal(err)
-	}
+	logical, _, err := drain(b, fr, fr.Record)
 	fr.Close()
 	defer releaseAll(logical)
+	if err != nil {
+		b.Fatal(err)
+	}
 	// open returns a reader of the stream of variant v.
 	open := func(b *testing.B, schema *arrow.Schema, in []arrow.RecordBatch) *ArrowReader {
 		rr, err := array.NewRecordReader(schema, in)
@@ -1091,34 +1070,20 @@ func BenchmarkArrowReader(b *testing.B) {
 		schema, in := encodeStream(b, memory.DefaultAllocator, plain, logical, 65536)
 		ar := open(b, schema, in)
 		releaseAll(in)
-		var out []arrow.RecordBatch
-		var rows int64
-		for ar.Next() {
-			rec := ar.RecordBatch()
-			rec.Retain()
-			out = append(out, rec)
-			rows += rec.NumRows()
-		}
+		out, st, err := drain(b, ar, ar.RecordBatch)
 		ar.Close()
 		defer releaseAll(out)
+		if err != nil {
+			b.Fatal(err)
+		}
 		spec := demoSpec()
 		spec.Segments = nil
 		runtime.GC()
 		b.ReportAllocs()
 		for b.Loop() {
-			tl, err := experiment.NewTallier(spec)
-			if err != nil {
-				b.Fatal(err)
-			}
-			for _, rec := range out {
-				if err := tl.Add(rec); err != nil {
-					b.Fatal(err)
-				}
-			}
-			if _, err := tl.Tally(); err != nil {
-				b.Fatal(err)
-			}
+			tallyOf(b, spec, out, st)
 		}
+		rows := st.Rows
 		b.ReportMetric(float64(b.Elapsed().Nanoseconds())/float64(rows)/float64(b.N), "ns/row")
 	})
 }
