@@ -27,9 +27,10 @@ import (
 //	    over one of those, or any integer type (written in decimal)
 //	ts  timestamp of any unit, with or without a time zone (the instant
 //	    counts; a timestamp without one is taken as UTC, as Parquet
-//	    timestamps not adjusted to UTC are), date32 and date64 (midnight
-//	    UTC), an integer other than uint64 counting Mapping.EpochUnit, or
-//	    text as above (parsed as CSV cells are)
+//	    timestamps not adjusted to UTC are), date32 (midnight UTC),
+//	    date64 (its milliseconds since the epoch), an integer other than
+//	    uint64 counting Mapping.EpochUnit, or text as above (parsed as
+//	    CSV cells are)
 //
 // A dictionary column is decided once per dictionary entry (its text, its
 // event verdict for Options.Events, its parsed timestamp), not once per row.
@@ -43,7 +44,8 @@ import (
 //	arrow stream:5: column "user_id": null or empty user id
 //
 // Output batches hold up to Options.BatchSize rows and may take rows of
-// several input batches. The ArrowReader retains the input reader and
+// several input batches. Options.Workers and Delimiter do not apply; the
+// stream is read on the caller's goroutine. The ArrowReader retains the input reader and
 // releases it on Close; input batches are released once read. An
 // ArrowReader is not safe for concurrent use (except Progress).
 type ArrowReader struct {
