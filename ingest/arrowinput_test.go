@@ -1087,3 +1087,30 @@ func BenchmarkArrowReader(b *testing.B) {
 		b.ReportMetric(float64(b.Elapsed().Nanoseconds())/float64(rows)/float64(b.N), "ns/row")
 	})
 }
+
+// Options.PlannedArms applies to a stream as to a file: an exposure of a
+// planned experiment in an arm not planned is bad (unknown_arm); another
+// experiment's exposure is not checked.
+func TestArrowReaderPlannedArms(t *testing.T) {
+	mem := memory.NewCheckedAllocator(memory.NewGoAllocator())
+	defer mem.AssertSize(t, 0)
+	s := arrow.BinaryTypes.String
+	schema := fields("user_id", s, "ts", &arrow.TimestampType{Unit: arrow.Second}, "event", s,
+		"experiment", dictOf(arrow.PrimitiveTypes.Int8, s), "arm", s)
+	in := []arrow.RecordBatch{jsonBatch(t, mem, schema, `["u1", "u2", "u3"]`, `[1, 2, 3]`,
+		`["exposure", "exposure", "exposure"]`, `[0, 0, 1]|["e1", "e2"]`, `["a", "z", "z"]`)}
+	opts := Options{Mapping: DefaultMapping(), ExposureEvent: "exposure", PlannedArms: map[string][]string{"e1": {"a"}}, MaxBadRows: NoLimit}
+	recs, st, err := readStream(t, schema, in, opts)
+	releaseAll(in)
+	if err != nil {
+		t.Fatal(err)
+	}
+	// Row 2 is e1 in arm z, not planned; row 3 is e2, not checked.
+	want := []experiment.ReasonCount{{Reason: "unknown_arm", Count: 1}}
+	if st.Rows != 2 || !slices.Equal(st.BadRows, want) || len(recs) != 1 {
+		t.Fatalf("stats %+v, want 2 rows and %v", st, want)
+	}
+	if got, w := st.BadRowExamples[0].Error(), `arrow stream:2: column "arm": exposure row with an arm that is not planned (value "z")`; got != w {
+		t.Errorf("bad row %s, want %s", got, w)
+	}
+}
