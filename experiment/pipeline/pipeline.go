@@ -29,6 +29,8 @@ import (
 	"iter"
 	"slices"
 
+	"github.com/apache/arrow-go/v18/arrow/array"
+
 	"github.com/apache/arrow-go/v18/arrow"
 
 	"github.com/armtally/armtally/experiment"
@@ -36,13 +38,21 @@ import (
 )
 
 // Input is where the rows come from and how to read them. Give exactly
-// one of Paths or Sources.
+// one of Paths, Sources or Records.
 type Input struct {
 	// Paths are files, folders and glob patterns on disk (see
 	// ingest.FileSources).
 	Paths []string
 	// Sources are inputs already resolved, such as ingest.BytesSource.
 	Sources []ingest.Source
+	// Records is an Arrow record stream of the event log, from the
+	// caller's own query engine, read with the column mapping (see
+	// ingest.NewArrowReader for the column types it takes); RecordsName
+	// labels it in errors ("arrow stream" when empty). The run takes
+	// its own reference and releases it; the caller still releases its
+	// own.
+	Records     array.RecordReader
+	RecordsName string
 
 	// Shape is the input shape: event log (the zero value), unit table
 	// or counts table. A table holds one experiment.
@@ -244,17 +254,20 @@ func Run(ctx context.Context, in Input, exps []Experiment, opts Options) (*Resul
 // opened.
 func checkOptions(in Input, exps []Experiment, opts Options) error {
 	n := 0
-	for _, given := range []bool{len(in.Paths) > 0, len(in.Sources) > 0} {
+	for _, given := range []bool{len(in.Paths) > 0, len(in.Sources) > 0, in.Records != nil} {
 		if given {
 			n++
 		}
 	}
 	if n != 1 {
-		return &ConfigError{errors.New("give exactly one input: paths or sources")}
+		return &ConfigError{errors.New("give exactly one input: paths, sources or an Arrow record stream")}
 	}
 	if in.Shape != experiment.InputEventLog {
 		if len(exps) > 1 {
 			return &ConfigError{fmt.Errorf("a %s holds one experiment, not %d", in.Shape, len(exps))}
+		}
+		if in.Records != nil {
+			return &ConfigError{fmt.Errorf("an Arrow record stream is read as an event log, not a %s", in.Shape)}
 		}
 	}
 	if opts.MemoryLimit > 0 {

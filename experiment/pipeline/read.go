@@ -38,6 +38,17 @@ func openReader(in Input, exps []Experiment, events []string, workers int) (reco
 		def.Segments, def.EpochUnit = m.Segments, m.EpochUnit
 		m = def
 	}
+	if in.Records != nil {
+		name := in.RecordsName
+		if name == "" {
+			name = "arrow stream"
+		}
+		r, err := ingest.NewArrowReader(in.Records, name, eventOptions(in, m, exps, events, workers))
+		if err != nil {
+			return nil, &ConfigError{err}
+		}
+		return r, nil
+	}
 	srcs, err := sources(in)
 	if err != nil {
 		return nil, err
