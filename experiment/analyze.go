@@ -3,76 +3,12 @@ package experiment
 import (
 	"errors"
 	"fmt"
+	"slices"
 	"strings"
 	"time"
 
 	"github.com/armtally/armtally/experiment/stats"
 )
-
-// DefaultSampleRatioThreshold is the p-value below which the sample ratio
-// check flags a mismatch (common practice: 0.001).
-const DefaultSampleRatioThreshold = 0.001
-
-// AnalysisOptions are the settings of the statistics. Build them from
-// DefaultAnalysisOptions and change what differs.
-type AnalysisOptions struct {
-	// Stats holds alpha, the confidence level, the alternative and the
-	// minimum count of the normal-approximation rule. A Level of 0 means
-	// 1 - alpha for a two-sided alternative and 1 - 2 alpha for a
-	// one-sided one, so that every interval matches its test.
-	Stats stats.Options
-	// Interval is the interval of each arm's rate: IntervalWilson (the
-	// default when empty), IntervalClopperPearson, IntervalAgrestiCoull or
-	// IntervalWald.
-	Interval string
-	// Difference is the interval of each difference: DifferenceNewcombe
-	// (the default when empty) or DifferenceWald.
-	Difference string
-	// Adjust is the multiple-comparison adjustment over the family of
-	// comparisons (each treatment against the control on each metric that
-	// is not a guardrail).
-	Adjust stats.AdjustMethod
-	// NonInferiority is the variance of guardrail tests.
-	NonInferiority stats.NonInferiorityMethod
-	// SampleRatioThreshold is the p-value below which the sample ratio
-	// check flags a mismatch.
-	SampleRatioThreshold float64
-	// BadRows are the producer's bad-row counts by reason, copied into the
-	// diagnostics as they are.
-	BadRows []ReasonCount
-	// RowsRead, when positive, is the number of rows the producer read
-	// (valid or not); otherwise the tally's own count of valid rows is
-	// reported.
-	RowsRead int64
-}
-
-// Interval methods, as AnalysisOptions.Interval and Difference and the
-// command line spell them.
-const (
-	IntervalWilson         = "wilson"
-	IntervalClopperPearson = "clopper-pearson"
-	IntervalAgrestiCoull   = "agresti-coull"
-	IntervalWald           = "wald"
-	DifferenceNewcombe     = "newcombe"
-	DifferenceWald         = "wald"
-)
-
-// DefaultAnalysisOptions returns alpha 0.05 with intervals at the matching
-// level, a two-sided alternative, a minimum count of 5, Wilson and
-// Newcombe intervals, Holm's adjustment, the Farrington-Manning score test
-// for guardrails and a sample ratio threshold of 0.001.
-func DefaultAnalysisOptions() AnalysisOptions {
-	so := stats.DefaultOptions()
-	so.Level = 0
-	return AnalysisOptions{
-		Stats:                so,
-		Interval:             IntervalWilson,
-		Difference:           DifferenceNewcombe,
-		Adjust:               stats.Holm,
-		NonInferiority:       stats.FarringtonManning,
-		SampleRatioThreshold: DefaultSampleRatioThreshold,
-	}
-}
 
 // Ignored-event and bad-row reasons, as the diagnostics spell them.
 const (
@@ -111,48 +47,8 @@ const (
 // seen in the data but not among spec.Arms (when spec.Arms is not empty)
 // is an error: the planned split and the comparisons would be wrong.
 func Analyze(spec Spec, t Tally, opts AnalysisOptions) (Readout, error) {
-	so := opts.Stats
-	if !(so.Alpha > 0 && so.Alpha < 0.5) {
-		return Readout{}, fmt.Errorf("alpha %v is not strictly between 0 and 0.5", so.Alpha)
-	}
-	if so.Level == 0 {
-		so.Level = 1 - so.Alpha
-		if so.Alternative != stats.TwoSided {
-			so.Level = 1 - 2*so.Alpha
-		}
-	}
-	if !(so.Level > 0 && so.Level < 1) {
-		return Readout{}, fmt.Errorf("confidence level %v is not strictly between 0 and 1", so.Level)
-	}
-	if so.MinCount < 1 {
-		so.MinCount = 1
-	}
-	if opts.SampleRatioThreshold == 0 {
-		opts.SampleRatioThreshold = DefaultSampleRatioThreshold
-	}
-	if !(opts.SampleRatioThreshold > 0 && opts.SampleRatioThreshold < 1) {
-		return Readout{}, fmt.Errorf("sample ratio threshold %v is not strictly between 0 and 1", opts.SampleRatioThreshold)
-	}
-	if opts.Interval == "" {
-		opts.Interval = IntervalWilson
-	}
-	if opts.Difference == "" {
-		opts.Difference = DifferenceNewcombe
-	}
-	m := methods{single: opts.Interval, diff: opts.Difference, ni: opts.NonInferiority}
-	// A trial call checks each method name and gives its printed name.
-	rateIv, err := m.rate(1, 2, 0.95)
+	opts, err := opts.resolved()
 	if err != nil {
-		return Readout{}, err
-	}
-	diffIv, err := m.difference(1, 2, 1, 2, 0.95)
-	if err != nil {
-		return Readout{}, err
-	}
-	if _, err := stats.AdjustPValues(nil, opts.Adjust); err != nil {
-		return Readout{}, err
-	}
-	if _, err := stats.NonInferiorityZTest(1, 2, 1, 2, 0.1, 0.05, opts.NonInferiority); err != nil {
 		return Readout{}, err
 	}
 	if spec.Control == "" {
@@ -168,7 +64,30 @@ func Analyze(spec Spec, t Tally, opts AnalysisOptions) (Readout, error) {
 	if err := checkSegments(spec, arms); err != nil {
 		return Readout{}, err
 	}
+	m := methods{single: opts.Interval, diff: opts.Difference, ni: opts.NonInferiority}
+	r, err := newReadout(spec, t, opts, m)
+	if err != nil {
+		return Readout{}, err
+	}
+	if r.Arms, r.SampleRatio, err = sampleRatio(spec, arms, opts.SampleRatioThreshold); err != nil {
+		return Readout{}, err
+	}
+	if err := analyzeMetrics(&r, spec, arms, opts.Stats, opts.Adjust, m); err != nil {
+		return Readout{}, err
+	}
+	r.Diagnostics = diagnostics(spec, t, arms, opts)
+	r.Warnings = openWindowWarnings(spec, t.Input)
+	return r, nil
+}
 
+// newReadout returns the readout's header: the experiment, its window,
+// the data freshness and the settings.
+func newReadout(spec Spec, t Tally, opts AnalysisOptions, m methods) (Readout, error) {
+	rateName, diffName, err := m.names()
+	if err != nil {
+		return Readout{}, err
+	}
+	so := opts.Stats
 	r := Readout{
 		Experiment:    spec.Key,
 		ExposureEvent: spec.ExposureEvent,
@@ -184,87 +103,79 @@ func Analyze(spec Spec, t Tally, opts AnalysisOptions) (Readout, error) {
 			MinCount:                 so.MinCount,
 			SampleRatioThreshold:     opts.SampleRatioThreshold,
 			Adjustment:               opts.Adjust.String(),
-			NonInferiorityMethod:     opts.NonInferiority.String(),
+			NonInferiorityMethod:     opts.NonInferiority.Name(),
 			LiftIntervalMethod:       methodLift,
-			IntervalMethod:           rateIv.Method,
-			DifferenceIntervalMethod: diffIv.Method,
+			IntervalMethod:           rateName,
+			DifferenceIntervalMethod: diffName,
 		},
 	}
 	if t.HasFreshness {
 		f := time.Unix(0, t.Freshness).UTC()
 		r.Freshness = &f
 	}
+	return r, nil
+}
 
+// sampleRatio returns the units of each arm with its planned and observed
+// share, and the check of the units against the planned split.
+func sampleRatio(spec Spec, arms []ArmTally, threshold float64) ([]ArmUnits, SampleRatio, error) {
 	shares := plannedShares(spec, arms)
 	var total int64
 	for _, a := range arms {
 		total += a.Units
 	}
+	units := make([]ArmUnits, len(arms))
 	observed := make([]int64, len(arms))
 	for i, a := range arms {
-		u := ArmUnits{Name: a.Name, Units: a.Units, PlannedShare: shares[i]}
+		units[i] = ArmUnits{Name: a.Name, Units: a.Units, PlannedShare: shares[i]}
 		if total > 0 {
-			u.ObservedShare = float64(a.Units) / float64(total)
+			units[i].ObservedShare = float64(a.Units) / float64(total)
 		}
 		observed[i] = a.Units
-		r.Arms = append(r.Arms, u)
 	}
-	r.SampleRatio = SampleRatio{Method: "Pearson chi-square goodness of fit", PValue: 1, Threshold: opts.SampleRatioThreshold}
-	if len(arms) >= 2 && total > 0 {
-		g, err := stats.ChiSquareGoodnessOfFit(observed, shares)
-		if err != nil {
-			return Readout{}, fmt.Errorf("sample ratio check: %w", err)
-		}
-		r.SampleRatio.Method = g.Method
-		r.SampleRatio.Statistic = g.Statistic
-		r.SampleRatio.DF = g.DF
-		r.SampleRatio.PValue = g.PValue
-		r.SampleRatio.Mismatch = g.PValue < opts.SampleRatioThreshold
-		r.SampleRatio.Checked = true
+	sr := SampleRatio{Method: "Pearson chi-square goodness of fit", PValue: 1, Threshold: threshold}
+	if len(arms) < 2 || total == 0 {
+		return units, sr, nil
 	}
+	g, err := stats.ChiSquareGoodnessOfFit(observed, shares)
+	if err != nil {
+		return nil, sr, fmt.Errorf("sample ratio check: %w", err)
+	}
+	sr.Method, sr.Statistic, sr.DF, sr.PValue = g.Method, g.Statistic, g.DF, g.PValue
+	sr.Mismatch = g.PValue < threshold
+	sr.Checked = true
+	return units, sr, nil
+}
 
-	ctl := -1
-	for i, a := range arms {
-		if a.Name == spec.Control {
-			ctl = i
-		}
-	}
+// analyzeMetrics fills in the readout's metrics, the multiple-comparison
+// adjustment over them and their segment breakdowns.
+func analyzeMetrics(r *Readout, spec Spec, arms []ArmTally, so stats.Options, adj stats.AdjustMethod, m methods) error {
+	ctl := slices.IndexFunc(arms, func(a ArmTally) bool { return a.Name == spec.Control })
 	for mi, mt := range spec.Metrics {
 		mr, err := analyzeMetric(spec, mt, mi, arms, ctl, so, m)
 		if err != nil {
-			return Readout{}, fmt.Errorf("metric %q: %w", mt.Name, err)
+			return fmt.Errorf("metric %q: %w", mt.Name, err)
 		}
 		r.Metrics = append(r.Metrics, mr)
 	}
-	mult, err := adjust(r.Metrics, opts.Adjust, so, m)
+	mult, err := adjust(r.Metrics, adj, so, m)
 	if err != nil {
-		return Readout{}, err
+		return err
 	}
 	r.Multiplicity = mult
 	r.Segmentation.Dimensions = append([]string(nil), spec.Segments...)
-	if len(spec.Segments) > 0 {
-		for mi, mt := range spec.Metrics {
-			segs, err := analyzeSegments(spec, mi, arms, ctl, so, m)
-			if err != nil {
-				return Readout{}, fmt.Errorf("metric %q: %w", mt.Name, err)
-			}
-			r.Metrics[mi].Segments = segs
-		}
-		r.Segmentation.Tests, r.Segmentation.Caution = segmentCaution(r.Metrics, so.Alpha)
+	if len(spec.Segments) == 0 {
+		return nil
 	}
-
-	r.Diagnostics = diagnostics(spec, t, arms, opts)
-	if spec.End == nil {
-		switch t.Input {
-		case InputUnitTable:
-			r.Warnings = append(r.Warnings, "the analysis window has no end: a unit table carries no conversion times, so no unit could be judged immature, and units exposed shortly before the export had little time to convert")
-		case InputCounts:
-			r.Warnings = append(r.Warnings, "the analysis window has no end: the counts say which units were immature only if the table has an immature column")
-		default:
-			r.Warnings = append(r.Warnings, "the analysis window has no end: maturity is judged against the data freshness, and units exposed shortly before it had little time to convert")
+	for mi, mt := range spec.Metrics {
+		segs, err := analyzeSegments(spec, mi, arms, ctl, so, m)
+		if err != nil {
+			return fmt.Errorf("metric %q: %w", mt.Name, err)
 		}
+		r.Metrics[mi].Segments = segs
 	}
-	return r, nil
+	r.Segmentation.Tests = segmentTests(r.Metrics)
+	return nil
 }
 
 // readoutArms returns the tally's arms with the control present (added
@@ -343,21 +254,13 @@ func analyzeMetric(spec Spec, m Metric, mi int, arms []ArmTally, ctl int, so sta
 	}
 	for _, a := range arms {
 		c := a.Metrics[mi]
-		ar := ArmRate{Arm: a.Name, Units: c.Units, Conversions: c.Conversions, Immature: c.Immature}
-		if c.Units > 0 {
-			rate := float64(c.Conversions) / float64(c.Units)
-			ar.Rate = &rate
-			iv, err := meth.rate(c.Conversions, c.Units, so.Level)
-			if err != nil {
+		ar, err := meth.armRate(a.Name, c, so.Level)
+		if err != nil {
+			return mr, err
+		}
+		if m.Target != nil && c.Units > 0 {
+			if ar.TargetTest, err = targetTest(c, *m.Target, so); err != nil {
 				return mr, fmt.Errorf("arm %q: %w", a.Name, err)
-			}
-			ar.Interval = interval(iv, iv.Method)
-			if m.Target != nil {
-				tt, err := targetTest(c, *m.Target, so)
-				if err != nil {
-					return mr, fmt.Errorf("arm %q: %w", a.Name, err)
-				}
-				ar.TargetTest = tt
 			}
 		}
 		mr.Arms = append(mr.Arms, ar)
@@ -390,11 +293,12 @@ func targetTest(c Count, p0 float64, so stats.Options) (*TargetTest, error) {
 	if err != nil {
 		return nil, err
 	}
+	// The one-proportion z test has no undefined case (its variance is
+	// taken at p0), so z.Warnings is empty.
 	tt := &TargetTest{Target: p0, Z: test(z)}
-	tt.Warnings = append(tt.Warnings, z.Warnings...)
-	ok, warn := stats.OneSampleCondition(c.Units, p0, so.MinCount)
+	ok, _ := stats.OneSampleCondition(c.Units, p0, so.MinCount)
 	tt.ConditionMet = ok
-	tt.Warnings = append(tt.Warnings, warn...)
+	tt.Warnings = fewExpectedWarnings(c.Units, p0, so.MinCount)
 	if ok {
 		tt.Significant, tt.DecidedBy = z.RejectByPValue, DecidedByZ
 		return tt, nil
@@ -441,10 +345,16 @@ func compare(treatment string, tc Count, control string, cc Count, so stats.Opti
 		return c, err
 	}
 	c.Z = test(z)
-	c.Warnings = append(c.Warnings, z.Warnings...)
-	ok, warn := stats.TwoSampleConditionNamed(x1, n1, x2, n2, so.MinCount, treatment, control)
-	c.ConditionMet = ok
-	c.Warnings = append(c.Warnings, warn...)
+	if len(z.Warnings) > 0 {
+		// The pooled statistic is 0/0: no conversions, or all.
+		code := WarnZAllConverted
+		if x1+x2 == 0 {
+			code = WarnZNoConversions
+		}
+		c.Warnings = append(c.Warnings, Warning{Code: code})
+	}
+	c.ConditionMet, _ = stats.TwoSampleCondition(x1, n1, x2, n2, so.MinCount)
+	c.Warnings = append(c.Warnings, fewCountWarnings(treatment, x1, n1, control, x2, n2, so.MinCount)...)
 	if c.ConditionMet {
 		c.SignificantUnadjusted, c.DecidedBy = z.RejectByPValue, DecidedByZ
 	} else {
@@ -559,11 +469,4 @@ func utcPtr(t *time.Time) *time.Time {
 	}
 	u := t.UTC()
 	return &u
-}
-
-func plural(n int64, word string) string {
-	if n == 1 {
-		return "1 " + word
-	}
-	return fmt.Sprintf("%d %ss", n, word)
 }

@@ -32,7 +32,7 @@ func near(t *testing.T, what string, got, want, rel float64) {
 }
 
 // TestAnalyzeComparison checks the comparison of two arms against the
-// reference values of REFERENCE-VALUES.md.
+// reference values of experiment/REFERENCE-VALUES.md.
 func TestAnalyzeComparison(t *testing.T) {
 	spec := spec2()
 	spec.Metrics = []Metric{
@@ -50,7 +50,8 @@ func TestAnalyzeComparison(t *testing.T) {
 	if buy.Treatment != "treat" || buy.Control != "control" {
 		t.Fatalf("comparison %s vs %s", buy.Treatment, buy.Control)
 	}
-	// P2-01 z: R 4.2.2 prop.test(correct=FALSE), via REFERENCE-VALUES.md.
+	// P2-01 z: R 4.2.2 prop.test(correct=FALSE), via
+	// experiment/REFERENCE-VALUES.md.
 	near(t, "P2-01 z", buy.Z.Statistic, 2.650171951258533, 1e-12)
 	// P2-01 p two-sided: R 4.2.2 prop.test(correct=FALSE)$p.value.
 	near(t, "P2-01 p", buy.Z.PValue, 0.008045081368196564, 1e-10)
@@ -87,9 +88,9 @@ func TestAnalyzeComparison(t *testing.T) {
 	}
 	near(t, "P2-04 Newcombe lower", rare.DifferenceInterval.Lower, -0.03813714790353685, 1e-12)
 	near(t, "P2-04 Newcombe upper", rare.DifferenceInterval.Upper, 0.19256001385511157, 1e-12)
-	wantWarn := "normal approximation not justified: control has 0 conversions, needs at least 5"
+	wantWarn := Warning{Code: WarnFewConversions, Arm: "control", Count: 0, MinCount: 5}
 	if len(rare.Warnings) != 1 || rare.Warnings[0] != wantWarn {
-		t.Errorf("P2-04 warnings = %q, want [%q]", rare.Warnings, wantWarn)
+		t.Errorf("P2-04 warnings = %+v, want [%+v]", rare.Warnings, wantWarn)
 	}
 
 	// Per-arm Wilson: CI-01 is 81/263; here check the arm rates are the
@@ -219,7 +220,8 @@ func TestAnalyzeUndefined(t *testing.T) {
 
 // TestAnalyzeOneSidedAgreement checks the interval-test agreement for a
 // one-sided alternative: P2-01 with "greater" has p = 0.0040 (R 4.2.2
-// prop.test, REFERENCE-VALUES.md) and a 90% Newcombe interval above 0.
+// prop.test, experiment/REFERENCE-VALUES.md) and a 90% Newcombe interval
+// above 0.
 func TestAnalyzeOneSidedAgreement(t *testing.T) {
 	spec := spec2()
 	opts := DefaultAnalysisOptions()
@@ -327,8 +329,8 @@ func TestAnalyzeAdjustment(t *testing.T) {
 	}
 }
 
-// TestAnalyzeGuardrail checks the non-inferiority test of a guardrail
-// against NI-01 of REFERENCE-VALUES.md: treatment 1180/10000 vs control
+// TestAnalyzeGuardrail checks the non-inferiority test of a guardrail against
+// NI-01 of experiment/REFERENCE-VALUES.md: treatment 1180/10000 vs control
 // 1200/10000, margin 0.01; Farrington-Manning z = 1.7463701392443087,
 // p = 0.04037332761886865 (R 4.2.2 formula, = mpmath 40 digits).
 func TestAnalyzeGuardrail(t *testing.T) {
@@ -425,7 +427,7 @@ func TestAnalyzeIntervalChoice(t *testing.T) {
 	if r.Settings.ConfidenceLevel != 0.9 || r.Metrics[0].Comparisons[0].DifferenceInterval.Level != 0.9 {
 		t.Errorf("one-sided level %v", r.Settings.ConfidenceLevel)
 	}
-	opts.Interval = "normal"
+	opts.Interval = IntervalMethod(9)
 	if _, err := Analyze(spec, tl, opts); err == nil {
 		t.Error("unknown interval method accepted")
 	}

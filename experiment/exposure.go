@@ -71,12 +71,8 @@ func (x *exposures) arm(name string) int32 {
 // unit returns the index of the unit, adding it (unexposed) when new.
 func (x *exposures) unit(key string) int32 {
 	u, ok := x.units.lookup(key)
-	if ok {
-		return u
-	}
-	x.state.add(unitState{armAtT0: -1, firstArm: -1})
-	for range x.dims {
-		x.segs = append(x.segs, segNull)
+	if !ok {
+		x.addUnit()
 	}
 	return u
 }
@@ -85,14 +81,18 @@ func (x *exposures) unit(key string) int32 {
 // computed.
 func (x *exposures) unitHashed(key string, hash uint64) int32 {
 	u, ok := x.units.lookupHashed(key, hash)
-	if ok {
-		return u
+	if !ok {
+		x.addUnit()
 	}
+	return u
+}
+
+// addUnit adds the state of a new, unexposed unit.
+func (x *exposures) addUnit() {
 	x.state.add(unitState{armAtT0: -1, firstArm: -1})
 	for range x.dims {
 		x.segs = append(x.segs, segNull)
 	}
-	return u
 }
 
 // segValue interns the segment value of dimension d in row i of col.
@@ -221,20 +221,27 @@ func (x *exposures) seeArms(acc *Accumulator) {
 	}
 }
 
-// stringColumn returns the named utf8 column, nil when absent.
-func stringColumn(rec arrow.RecordBatch, table, name string, required bool) (*array.String, error) {
+// typedColumn returns the named column as a T (want names the type for
+// the error), nil when absent and not required.
+func typedColumn[T arrow.Array](rec arrow.RecordBatch, table, name string, required bool, want string) (T, error) {
+	var none T
 	idx := rec.Schema().FieldIndices(name)
 	if len(idx) == 0 {
 		if required {
-			return nil, fmt.Errorf("%s has no %q column", table, name)
+			return none, fmt.Errorf("%s has no %q column", table, name)
 		}
-		return nil, nil
+		return none, nil
 	}
-	col, ok := rec.Column(idx[0]).(*array.String)
+	col, ok := rec.Column(idx[0]).(T)
 	if !ok {
-		return nil, fmt.Errorf("%s column %q is %s, want utf8", table, name, rec.Column(idx[0]).DataType())
+		return none, fmt.Errorf("%s column %q is %s, want %s", table, name, rec.Column(idx[0]).DataType(), want)
 	}
 	return col, nil
+}
+
+// stringColumn returns the named utf8 column, nil when absent.
+func stringColumn(rec arrow.RecordBatch, table, name string, required bool) (*array.String, error) {
+	return typedColumn[*array.String](rec, table, name, required, "utf8")
 }
 
 // segmentColumns returns the segment columns of spec, all required.
@@ -253,16 +260,9 @@ func segmentColumns(rec arrow.RecordBatch, table string, spec Spec) ([]*array.St
 // timestampColumn returns the named timestamp[ns] column, nil when absent
 // and not required.
 func timestampColumn(rec arrow.RecordBatch, table, name string, required bool) (*array.Timestamp, error) {
-	idx := rec.Schema().FieldIndices(name)
-	if len(idx) == 0 {
-		if required {
-			return nil, fmt.Errorf("%s has no %q column", table, name)
-		}
-		return nil, nil
-	}
-	col, ok := rec.Column(idx[0]).(*array.Timestamp)
-	if !ok {
-		return nil, fmt.Errorf("%s column %q is %s, want timestamp", table, name, rec.Column(idx[0]).DataType())
+	col, err := typedColumn[*array.Timestamp](rec, table, name, required, "timestamp")
+	if col == nil || err != nil {
+		return col, err
 	}
 	if unit := col.DataType().(*arrow.TimestampType).Unit; unit != arrow.Nanosecond {
 		return nil, fmt.Errorf("%s column %q has unit %s, want ns", table, name, unit)

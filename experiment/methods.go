@@ -8,15 +8,14 @@ import (
 
 // methods holds the interval and test methods an analysis uses.
 type methods struct {
-	single, diff string
-	ni           stats.NonInferiorityMethod
+	single IntervalMethod
+	diff   DifferenceMethod
+	ni     stats.NonInferiorityMethod
 }
 
 // rate returns the interval of one arm's rate.
 func (m methods) rate(x, n int64, level float64) (stats.Interval, error) {
 	switch m.single {
-	case IntervalWilson:
-		return stats.Wilson(x, n, level)
 	case IntervalClopperPearson:
 		return stats.ClopperPearson(x, n, level)
 	case IntervalAgrestiCoull:
@@ -24,19 +23,42 @@ func (m methods) rate(x, n int64, level float64) (stats.Interval, error) {
 	case IntervalWald:
 		return stats.WaldInterval(x, n, level)
 	}
-	return stats.Interval{}, fmt.Errorf("unknown interval method %q (want %s, %s, %s or %s)",
-		m.single, IntervalWilson, IntervalClopperPearson, IntervalAgrestiCoull, IntervalWald)
+	return stats.Wilson(x, n, level)
 }
 
 // difference returns the interval of p1 - p2.
 func (m methods) difference(x1, n1, x2, n2 int64, level float64) (stats.Interval, error) {
-	switch m.diff {
-	case DifferenceNewcombe:
-		return stats.NewcombeDifference(x1, n1, x2, n2, level)
-	case DifferenceWald:
+	if m.diff == DifferenceWald {
 		return stats.WaldDifference(x1, n1, x2, n2, level)
 	}
-	return stats.Interval{}, fmt.Errorf("unknown difference interval method %q (want %s or %s)", m.diff, DifferenceNewcombe, DifferenceWald)
+	return stats.NewcombeDifference(x1, n1, x2, n2, level)
+}
+
+// names returns the printed names of the rate and the difference
+// intervals, as the stats package gives them.
+func (m methods) names() (rate, difference string, err error) {
+	r, err := m.rate(1, 2, 0.95)
+	if err != nil {
+		return "", "", err
+	}
+	d, err := m.difference(1, 2, 1, 2, 0.95)
+	return r.Method, d.Method, err
+}
+
+// armRate returns one arm's rate of one metric with its interval.
+func (m methods) armRate(arm string, c Count, level float64) (ArmRate, error) {
+	ar := ArmRate{Arm: arm, Units: c.Units, Conversions: c.Conversions, Immature: c.Immature}
+	if c.Units == 0 {
+		return ar, nil
+	}
+	rate := float64(c.Conversions) / float64(c.Units)
+	ar.Rate = &rate
+	iv, err := m.rate(c.Conversions, c.Units, level)
+	if err != nil {
+		return ar, fmt.Errorf("arm %q: %w", arm, err)
+	}
+	ar.Interval = interval(iv, iv.Method)
+	return ar, nil
 }
 
 // errorRate says what an adjustment controls at alpha.
@@ -125,11 +147,11 @@ func rateOf(arms []ArmRate, name string) ArmRate {
 // harmful side is the one-sided bound compared with the margin.
 func nonInferiority(tc, cc Count, g Margin, lowerIsBetter bool, so stats.Options, meth methods) (*NonInferiorityTest, error) {
 	margin := g.Value
-	var warnings []string
+	var warnings []Warning
 	if g.Relative {
 		margin = g.Value * float64(cc.Conversions) / float64(cc.Units)
 		if cc.Conversions == 0 {
-			warnings = append(warnings, "the control has no conversions, so the relative margin is 0")
+			warnings = append(warnings, Warning{Code: WarnRelativeMarginZero})
 		}
 	}
 	x1, n1, x2, n2 := tc.Conversions, tc.Units, cc.Conversions, cc.Units
@@ -140,9 +162,11 @@ func nonInferiority(tc, cc Count, g Margin, lowerIsBetter bool, so stats.Options
 	if err != nil {
 		return nil, err
 	}
-	warnings = append(warnings, z.Warnings...)
+	if len(z.Warnings) > 0 {
+		warnings = append(warnings, Warning{Code: WarnNonInferiorityUndefined})
+	}
 	if ok, _ := stats.TwoSampleCondition(tc.Conversions, tc.Units, cc.Conversions, cc.Units, so.MinCount); !ok {
-		warnings = append(warnings, fmt.Sprintf("normal approximation not justified (fewer than %d conversions or non-conversions in an arm); the non-inferiority test has no exact fallback", so.MinCount))
+		warnings = append(warnings, Warning{Code: WarnNonInferiorityNoFallback, MinCount: so.MinCount})
 	}
 	iv, err := meth.difference(tc.Conversions, tc.Units, cc.Conversions, cc.Units, 1-2*so.Alpha)
 	if err != nil {

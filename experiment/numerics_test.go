@@ -49,7 +49,10 @@ func TestAnalyzeFiniteEverywhere(t *testing.T) {
 		{Name: "m", Events: []string{"m"}, Target: &half},
 		{Name: "g", Events: []string{"g"}, Guardrail: &Margin{Value: 0.1, Relative: true}, LowerIsBetter: true},
 	}
-	type pair struct{ rate, diff string }
+	type pair struct {
+		rate IntervalMethod
+		diff DifferenceMethod
+	}
 	methods := []pair{{IntervalWilson, DifferenceNewcombe}, {IntervalClopperPearson, DifferenceWald}, {IntervalAgrestiCoull, DifferenceNewcombe}, {IntervalWald, DifferenceWald}}
 	n := 0
 	for _, c := range counts {

@@ -8,109 +8,110 @@ import "time"
 // rate) are nil pointers, never NaN or Inf. Slices are in readout order: arms
 // in spec order then first seen, metrics in spec order.
 type Readout struct {
-	Experiment    string      `json:"experiment"`
-	ExposureEvent string      `json:"exposure_event"`
-	Control       string      `json:"control"`
-	WindowStart   *time.Time  `json:"window_start"`
-	WindowEnd     *time.Time  `json:"window_end"`
-	Freshness     *time.Time  `json:"data_freshness"`
-	Settings      Settings    `json:"settings"`
-	Arms          []ArmUnits  `json:"arms"`
-	SampleRatio   SampleRatio `json:"sample_ratio"`
+	Experiment    string
+	ExposureEvent string
+	Control       string
+	WindowStart   *time.Time
+	WindowEnd     *time.Time
+	Freshness     *time.Time
+	Settings      Settings
+	Arms          []ArmUnits
+	SampleRatio   SampleRatio
 	// Multiplicity says how the comparisons were adjusted for being many.
-	Multiplicity Multiplicity `json:"multiple_comparisons"`
+	Multiplicity Multiplicity
 	// Segmentation says which segment dimensions the metrics are broken
 	// down by, and how far to trust those breakdowns.
-	Segmentation Segmentation    `json:"segmentation"`
-	Metrics      []MetricReadout `json:"metrics"`
-	Diagnostics  Diagnostics     `json:"diagnostics"`
-	// Warnings are readout-wide cautions (sample ratio, exclusions,
-	// conditions), deduplicated, in first-seen order.
-	Warnings []string `json:"warnings"`
+	Segmentation Segmentation
+	Metrics      []MetricReadout
+	Diagnostics  Diagnostics
+	// Warnings are the readout-wide cautions of the analysis (a window
+	// with no end); package report adds those the numbers show (sample
+	// ratio, exclusions, conditions) and words them all.
+	Warnings []Warning
 }
 
 // Settings echoes the analysis settings that shaped the numbers.
 type Settings struct {
-	Alpha float64 `json:"alpha"`
+	Alpha float64
 	// ConfidenceLevel is the level of every two-sided interval: 1 - alpha
 	// for a two-sided alternative, 1 - 2 alpha for a one-sided one (so that
 	// the bound on the tested side is the one-sided 1 - alpha bound).
-	ConfidenceLevel      float64 `json:"confidence_level"`
-	Alternative          string  `json:"alternative"`
-	MultiArmPolicy       string  `json:"multi_arm_policy"`
-	MaturityPolicy       string  `json:"maturity_policy"`
-	MinCount             int64   `json:"min_count"`
-	SampleRatioThreshold float64 `json:"sample_ratio_threshold"`
+	ConfidenceLevel      float64
+	Alternative          string
+	MultiArmPolicy       string
+	MaturityPolicy       string
+	MinCount             int64
+	SampleRatioThreshold float64
 	// IntervalMethod, DifferenceIntervalMethod and LiftIntervalMethod name
 	// the interval methods of the rates, the differences and the lifts.
-	IntervalMethod           string `json:"interval_method"`
-	DifferenceIntervalMethod string `json:"difference_interval_method"`
-	LiftIntervalMethod       string `json:"lift_interval_method"`
+	IntervalMethod           string
+	DifferenceIntervalMethod string
+	LiftIntervalMethod       string
 	// Adjustment is the multiple-comparison adjustment: none, bonferroni,
 	// holm, hochberg, bh or by.
-	Adjustment string `json:"adjustment"`
+	Adjustment string
 	// NonInferiorityMethod names the variance of guardrail tests.
-	NonInferiorityMethod string `json:"non_inferiority_method"`
+	NonInferiorityMethod string
 }
 
 // Multiplicity describes the family of comparisons adjusted together.
 type Multiplicity struct {
 	// Method is the adjustment (as Settings.Adjustment).
-	Method string `json:"method"`
+	Method string
 	// ErrorRate is what the method controls at alpha: "family-wise error
 	// rate", "false discovery rate" or "per comparison" (none).
-	ErrorRate string `json:"error_rate"`
+	ErrorRate string
 	// Family says which comparisons form the family.
-	Family string `json:"family"`
+	Family string
 	// Size is the number of comparisons in the family.
-	Size int `json:"family_size"`
+	Size int
 }
 
 // ArmUnits is one arm of the analysis population (after multi-arm and tie
 // exclusions, before per-metric maturity exclusions).
 type ArmUnits struct {
-	Name          string  `json:"name"`
-	Units         int64   `json:"units"`
-	PlannedShare  float64 `json:"planned_share"`
-	ObservedShare float64 `json:"observed_share"`
+	Name          string
+	Units         int64
+	PlannedShare  float64
+	ObservedShare float64
 }
 
 // SampleRatio is the Pearson chi-square goodness-of-fit check of units per
 // arm against the planned split.
 type SampleRatio struct {
-	Method    string  `json:"method"`
-	Statistic float64 `json:"statistic"`
-	DF        int     `json:"df"`
-	PValue    float64 `json:"p_value"`
-	Threshold float64 `json:"threshold"`
+	Method    string
+	Statistic float64
+	DF        int
+	PValue    float64
+	Threshold float64
 	// Mismatch is true when PValue < Threshold.
-	Mismatch bool `json:"mismatch"`
+	Mismatch bool
 	// Checked is false when fewer than two arms have units.
-	Checked bool `json:"checked"`
+	Checked bool
 }
 
 // MetricReadout holds one metric's per-arm rates and comparisons.
 type MetricReadout struct {
-	Name   string   `json:"name"`
-	Events []string `json:"events"`
+	Name   string
+	Events []string
 	// WindowSeconds is the attribution window in seconds; nil is unlimited.
-	WindowSeconds *int64   `json:"window_seconds"`
-	Target        *float64 `json:"target_rate"`
+	WindowSeconds *int64
+	Target        *float64
 	// LowerIsBetter marks a metric where a lower rate is the good outcome
 	// (unsubscribes, refunds); it sets the direction of guardrail tests
 	// and of the readout's wording.
-	LowerIsBetter bool `json:"lower_is_better"`
+	LowerIsBetter bool
 	// Guardrail is set for a guardrail metric: each treatment is tested
 	// for non-inferiority against the control with this margin. Guardrail
 	// comparisons are outside the multiple-comparison family.
-	Guardrail   *Guardrail   `json:"guardrail"`
-	Arms        []ArmRate    `json:"arms"`
-	Comparisons []Comparison `json:"comparisons"`
+	Guardrail   *Guardrail
+	Arms        []ArmRate
+	Comparisons []Comparison
 	// Segments breaks the metric down by segment: one entry per dimension
 	// of Segmentation.Dimensions and value, dimensions in that order and
 	// values sorted (null last). Exploratory: see Segmentation.
-	Segments []SegmentResult `json:"segments"`
-	Warnings []string        `json:"warnings"`
+	Segments []SegmentResult
+	Warnings []Warning
 }
 
 // Segmentation describes the segment breakdowns of a readout. Segment
@@ -120,12 +121,9 @@ type MetricReadout struct {
 type Segmentation struct {
 	// Dimensions are the segment dimensions, in spec order; empty when the
 	// readout has no segment breakdown.
-	Dimensions []string `json:"dimensions"`
+	Dimensions []string
 	// Tests is the number of segment comparisons with a test.
-	Tests int `json:"tests"`
-	// Caution says what the segment results can and cannot show; "" when
-	// there are none.
-	Caution string `json:"caution"`
+	Tests int
 }
 
 // SegmentResult is one metric for the units with one value of one segment
@@ -133,130 +131,130 @@ type Segmentation struct {
 // at alpha without adjustment (Adjusted is nil and Significant equals
 // SignificantUnadjusted) and without guardrail or target tests.
 type SegmentResult struct {
-	Dimension string `json:"dimension"`
+	Dimension string
 	// Value is the segment value; nil for the null value.
-	Value *string `json:"value"`
+	Value *string
 	// Exploratory is always true: a segment result is a lead, not a
 	// finding.
-	Exploratory bool         `json:"exploratory"`
-	Arms        []ArmRate    `json:"arms"`
-	Comparisons []Comparison `json:"comparisons"`
+	Exploratory bool
+	Arms        []ArmRate
+	Comparisons []Comparison
 }
 
 // Guardrail is the non-inferiority margin of a guardrail metric.
 type Guardrail struct {
 	// Margin is the margin as given: a difference of rates (0.005 is half a
 	// percentage point) or, when Relative, a share of the control's rate.
-	Margin   float64 `json:"margin"`
-	Relative bool    `json:"relative"`
+	Margin   float64
+	Relative bool
 }
 
 // ArmRate is one arm's conversion rate for one metric.
 type ArmRate struct {
-	Arm         string `json:"arm"`
-	Units       int64  `json:"units"`
-	Conversions int64  `json:"conversions"`
+	Arm         string
+	Units       int64
+	Conversions int64
 	// Immature counts units whose attribution window had not closed: left
 	// out of Units under the exclude policy, counted in Units under include.
-	Immature int64     `json:"immature_units"`
-	Rate     *float64  `json:"rate"`
-	Interval *Interval `json:"interval"`
+	Immature int64
+	Rate     *float64
+	Interval *Interval
 	// TargetTest is set when the metric has a target rate.
-	TargetTest *TargetTest `json:"target_test,omitempty"`
+	TargetTest *TargetTest
 }
 
 // Interval is a two-sided confidence interval.
 type Interval struct {
-	Lower  float64 `json:"lower"`
-	Upper  float64 `json:"upper"`
-	Level  float64 `json:"level"`
-	Method string  `json:"method"`
+	Lower  float64
+	Upper  float64
+	Level  float64
+	Method string
 }
 
 // Test is a z test decided by both routes: the statistic against the
 // critical value, and the p-value against alpha.
 type Test struct {
-	Method            string  `json:"method"`
-	Statistic         float64 `json:"statistic"`
-	CriticalValue     float64 `json:"critical_value"`
-	PValue            float64 `json:"p_value"`
-	Alpha             float64 `json:"alpha"`
-	Alternative       string  `json:"alternative"`
-	RejectByStatistic bool    `json:"reject_by_statistic"`
-	RejectByPValue    bool    `json:"reject_by_p_value"`
+	Method            string
+	Statistic         float64
+	CriticalValue     float64
+	PValue            float64
+	Alpha             float64
+	Alternative       string
+	RejectByStatistic bool
+	RejectByPValue    bool
 }
 
 // ExactTest is an exact test (Fisher's exact test for two arms, the exact
 // binomial test against a target).
 type ExactTest struct {
-	Method      string  `json:"method"`
-	PValue      float64 `json:"p_value"`
-	Alpha       float64 `json:"alpha"`
-	Alternative string  `json:"alternative"`
-	Reject      bool    `json:"reject"`
+	Method      string
+	PValue      float64
+	Alpha       float64
+	Alternative string
+	Reject      bool
 }
 
 // TargetTest is one arm tested against a fixed target rate p0.
 type TargetTest struct {
-	Target float64 `json:"target_rate"`
-	Z      *Test   `json:"z_test"`
+	Target float64
+	Z      *Test
 	// ConditionMet is n p0 >= MinCount and n (1 - p0) >= MinCount.
-	ConditionMet bool       `json:"condition_met"`
-	Exact        *ExactTest `json:"exact_test"`
+	ConditionMet bool
+	Exact        *ExactTest
 	// Significant is the decision of the test relied on: the z test when
 	// the condition holds, the exact test otherwise.
-	Significant bool     `json:"significant"`
-	DecidedBy   string   `json:"decided_by"`
-	Warnings    []string `json:"warnings"`
+	Significant bool
+	DecidedBy   string
+	Warnings    []Warning
 }
 
 // Comparison is one treatment arm against the control for one metric.
 type Comparison struct {
-	Treatment string `json:"treatment"`
-	Control   string `json:"control"`
+	Treatment string
+	Control   string
 	// Difference is p_treatment - p_control.
-	Difference         *float64  `json:"difference"`
-	DifferenceInterval *Interval `json:"difference_interval"`
+	Difference         *float64
+	DifferenceInterval *Interval
 	// RelativeLift is p_treatment / p_control - 1.
-	RelativeLift *float64  `json:"relative_lift"`
-	LiftInterval *Interval `json:"relative_lift_interval"`
-	Z            *Test     `json:"z_test"`
+	RelativeLift *float64
+	LiftInterval *Interval
+	Z            *Test
 	// ConditionMet is at least MinCount conversions and MinCount
 	// non-conversions in both arms.
-	ConditionMet bool       `json:"condition_met"`
-	Exact        *ExactTest `json:"exact_test"`
+	ConditionMet bool
+	Exact        *ExactTest
 	// SignificantUnadjusted is the decision of the test relied on (the z
 	// test, or the exact test when the condition fails) at alpha, before
 	// any multiple-comparison adjustment.
-	SignificantUnadjusted bool `json:"significant_unadjusted"`
+	SignificantUnadjusted bool
 	// Significant is the decision the readout reports: the adjusted one
 	// when the comparison is in the family (Adjusted is set), otherwise
 	// SignificantUnadjusted.
-	Significant bool   `json:"significant"`
-	DecidedBy   string `json:"decided_by"`
+	Significant bool
+	DecidedBy   string
 	// Adjusted is the multiple-comparison adjustment of this comparison;
 	// nil when it is outside the family (a guardrail, or no test run).
-	Adjusted *Adjusted `json:"adjusted"`
+	Adjusted *Adjusted
 	// IntervalAgrees is false when the (unadjusted) difference interval's
 	// exclusion of zero disagrees with the unadjusted decision.
-	IntervalAgrees bool `json:"interval_agrees"`
+	IntervalAgrees bool
 	// NonInferiority is the guardrail test; nil for other metrics.
-	NonInferiority *NonInferiorityTest `json:"non_inferiority"`
-	Warnings       []string            `json:"warnings"`
+	NonInferiority *NonInferiorityTest
+	Warnings       []Warning
 }
 
 // Adjusted is one comparison's multiple-comparison adjustment.
 type Adjusted struct {
-	Method     string  `json:"method"`
-	FamilySize int     `json:"family_size"`
-	PValue     float64 `json:"p_value"`
+	Method     string
+	FamilySize int
+	PValue     float64
 	// Significant is PValue <= alpha.
-	Significant bool `json:"significant"`
+	Significant bool
 	// DifferenceInterval is the simultaneous (Bonferroni) interval of the
 	// difference at level 1 - (1 - level)/m: 1 - alpha/m for a two-sided
 	// alternative, 1 - 2 alpha/m for a one-sided one. Set for the
 	// Bonferroni method only.
-	DifferenceInterval *Interval `json:"difference_interval"`
+	DifferenceInterval *Interval
 }
 
 // NonInferiorityTest is a guardrail's non-inferiority z test:
@@ -264,18 +262,18 @@ type Adjusted struct {
 type NonInferiorityTest struct {
 	// AbsoluteMargin is the margin as a difference of rates; for a
 	// relative margin, the margin times the control's observed rate.
-	AbsoluteMargin float64 `json:"absolute_margin"`
+	AbsoluteMargin float64
 	// Z is the one-sided z test of H1: d > -margin, z = (d + margin)/se,
 	// alternative "greater"; for a lower-is-better metric H1: d < margin,
 	// z = (d - margin)/se, alternative "less" (d = p_t - p_c).
-	Z *Test `json:"z_test"`
+	Z *Test
 	// NonInferior is true when H0 is rejected at alpha: the treatment is
 	// shown not worse than the margin.
-	NonInferior bool `json:"non_inferior"`
+	NonInferior bool
 	// Interval is the difference interval whose bound on the harmful side
 	// is compared with the margin: two-sided at 1 - 2 alpha.
-	Interval *Interval `json:"interval"`
-	Warnings []string  `json:"warnings"`
+	Interval *Interval
+	Warnings []Warning
 }
 
 // Diagnostics accounts for every row read and every unit seen.
@@ -285,37 +283,37 @@ type Diagnostics struct {
 	// outside the window; counts have neither events nor units, so
 	// exposure rows, multi-arm and tied units are 0 and units exposed is
 	// the sum of the arms' units.
-	Input    string        `json:"input"`
-	RowsRead int64         `json:"rows_read"`
-	BadRows  []ReasonCount `json:"bad_rows"`
+	Input    string
+	RowsRead int64
+	BadRows  []ReasonCount
 	// ExposureRows counts this experiment's exposure rows, inside the
 	// analysis window or not.
-	ExposureRows int64 `json:"exposure_rows"`
+	ExposureRows int64
 	// UnitsExposed counts units with at least one in-window exposure.
-	UnitsExposed  int64 `json:"units_exposed"`
-	MultiArmUnits int64 `json:"multi_arm_units"`
+	UnitsExposed  int64
+	MultiArmUnits int64
 	// TiedUnits counts units whose earliest exposure rows carry two arms
 	// at the same instant (policy first only).
-	TiedUnits     int64         `json:"tied_units"`
-	UnitsPerArm   []ArmCount    `json:"units_per_arm"`
-	Immature      []MetricCount `json:"immature_units"`
-	IgnoredEvents []ReasonCount `json:"ignored_events"`
+	TiedUnits     int64
+	UnitsPerArm   []ArmCount
+	Immature      []MetricCount
+	IgnoredEvents []ReasonCount
 }
 
 // ReasonCount is a count by reason; reasons are snake_case words.
 type ReasonCount struct {
-	Reason string `json:"reason"`
-	Count  int64  `json:"count"`
+	Reason string
+	Count  int64
 }
 
 // ArmCount is a count of units by arm.
 type ArmCount struct {
-	Arm   string `json:"arm"`
-	Units int64  `json:"units"`
+	Arm   string
+	Units int64
 }
 
 // MetricCount is a count of units by metric.
 type MetricCount struct {
-	Metric string `json:"metric"`
-	Units  int64  `json:"units"`
+	Metric string
+	Units  int64
 }

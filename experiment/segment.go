@@ -3,7 +3,6 @@ package experiment
 import (
 	"fmt"
 	"slices"
-	"strconv"
 
 	"github.com/armtally/armtally/experiment/stats"
 )
@@ -83,15 +82,9 @@ func analyzeSegments(spec Spec, mi int, arms []ArmTally, ctl int, so stats.Optio
 			for i, a := range arms {
 				c := segmentCount(a, d, v, mi)
 				counts[i] = c
-				ar := ArmRate{Arm: a.Name, Units: c.Units, Conversions: c.Conversions, Immature: c.Immature}
-				if c.Units > 0 {
-					rate := float64(c.Conversions) / float64(c.Units)
-					ar.Rate = &rate
-					iv, err := meth.rate(c.Conversions, c.Units, so.Level)
-					if err != nil {
-						return nil, fmt.Errorf("segment %s=%s, arm %q: %w", dim, v, a.Name, err)
-					}
-					ar.Interval = interval(iv, iv.Method)
+				ar, err := meth.armRate(a.Name, c, so.Level)
+				if err != nil {
+					return nil, fmt.Errorf("segment %s=%s: %w", dim, v, err)
 				}
 				sr.Arms = append(sr.Arms, ar)
 			}
@@ -111,9 +104,8 @@ func analyzeSegments(spec Spec, mi int, arms []ArmTally, ctl int, so stats.Optio
 	return out, nil
 }
 
-// segmentCaution counts the segment comparisons with a test and words the
-// caution that goes with them.
-func segmentCaution(metrics []MetricReadout, alpha float64) (int, string) {
+// segmentTests counts the segment comparisons with a test.
+func segmentTests(metrics []MetricReadout) int {
 	tests := 0
 	for _, m := range metrics {
 		for _, s := range m.Segments {
@@ -124,17 +116,5 @@ func segmentCaution(metrics []MetricReadout, alpha float64) (int, string) {
 			}
 		}
 	}
-	a := strconv.FormatFloat(alpha, 'f', -1, 64)
-	expected := strconv.FormatFloat(alpha*float64(tests), 'f', 1, 64)
-	return tests, fmt.Sprintf("Segment results are exploratory: %s %s tested at alpha %s each, outside the multiple-comparison family and without adjustment. "+
-		"Even if no treatment had any effect, about %s of them would be expected to come out significant by chance, and the more segments, the more such false positives; "+
-		"treat a segment difference as a lead to test in a new experiment, not as a finding.",
-		plural(int64(tests), "segment comparison"), wasWere(tests), a, expected)
-}
-
-func wasWere(n int) string {
-	if n == 1 {
-		return "was"
-	}
-	return "were"
+	return tests
 }

@@ -55,10 +55,8 @@ func TestAnalyzeSegments(t *testing.T) {
 	if r.Multiplicity.Size != 1 || r.Metrics[0].Comparisons[0].Adjusted == nil {
 		t.Errorf("multiplicity %+v", r.Multiplicity)
 	}
-	// Two tests (desktop, null); 0.05 x 2 = 0.1 by chance.
-	sg := r.Segmentation
-	if sg.Tests != 2 || len(sg.Dimensions) != 1 || !strings.Contains(sg.Caution, "2 segment comparisons were tested at alpha 0.05 each") ||
-		!strings.Contains(sg.Caution, "about 0.1 of them") {
+	// Two tests (desktop, null); the tablet has no units in one arm.
+	if sg := r.Segmentation; sg.Tests != 2 || len(sg.Dimensions) != 1 {
 		t.Errorf("segmentation %+v", sg)
 	}
 

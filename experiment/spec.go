@@ -30,6 +30,9 @@ func (p MultiArmPolicy) String() string {
 	return fmt.Sprintf("MultiArmPolicy(%d)", int(p))
 }
 
+// Valid reports whether p is MultiArmExclude or MultiArmFirst.
+func (p MultiArmPolicy) Valid() bool { return p == MultiArmExclude || p == MultiArmFirst }
+
 // ParseMultiArmPolicy parses "exclude" or "first".
 func ParseMultiArmPolicy(s string) (MultiArmPolicy, error) {
 	switch s {
@@ -64,6 +67,9 @@ func (p MaturityPolicy) String() string {
 	}
 	return fmt.Sprintf("MaturityPolicy(%d)", int(p))
 }
+
+// Valid reports whether p is MaturityExclude or MaturityInclude.
+func (p MaturityPolicy) Valid() bool { return p == MaturityExclude || p == MaturityInclude }
 
 // ParseMaturityPolicy parses "exclude" or "include".
 func ParseMaturityPolicy(s string) (MaturityPolicy, error) {
@@ -107,7 +113,8 @@ type Margin struct {
 
 // Spec describes one experiment: which rows are its exposures, which arm is
 // the control, the planned split, the analysis window, the policies and the
-// metrics. The zero values of the policies are the defaults of DESIGN.md.
+// metrics. The zero values of the policies are the defaults of
+// experiment/DESIGN.md.
 type Spec struct {
 	// Key is the experiment key matched against the experiment column of
 	// exposure rows. Empty means every exposure row belongs to this
@@ -141,14 +148,17 @@ type Spec struct {
 	Segments []string
 }
 
-// validate checks what every input shape needs of a spec: a window that
-// runs forward, a split that matches the arms, arms listed once, named and
+// validate checks what every input shape needs of a spec: known policies,
+// a window that runs forward, a split that matches the arms, arms listed once, named and
 // distinct metrics with sane windows and targets, and named, distinct
 // segment dimensions. reserved lists names a segment dimension may not take
 // (the logical columns of the input).
 func (spec Spec) validate(reserved ...string) error {
 	if len(spec.Metrics) == 0 {
 		return fmt.Errorf("experiment %q: no metrics", spec.Key)
+	}
+	if !spec.MultiArm.Valid() || !spec.Maturity.Valid() {
+		return fmt.Errorf("experiment %q: unknown policy (multi-arm %v, maturity %v)", spec.Key, spec.MultiArm, spec.Maturity)
 	}
 	if spec.Start != nil && spec.End != nil && !spec.Start.Before(*spec.End) {
 		return fmt.Errorf("experiment %q: window start %s is not before end %s",

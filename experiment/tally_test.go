@@ -57,9 +57,10 @@ func ev(user string, at time.Duration, event string) row {
 	return row{user: user, at: at, event: event}
 }
 
-// TestEventSemantics checks the event semantics of DESIGN.md on small logs
-// whose answers are worked out by hand in the comments. Each log is run in
-// one batch and one row per batch: batching must not change anything.
+// TestEventSemantics checks the event semantics of experiment/DESIGN.md on
+// small logs whose answers are worked out by hand in the comments. Each log
+// is run in one batch and one row per batch: batching must not change
+// anything.
 func TestEventSemantics(t *testing.T) {
 	cases := []struct {
 		name  string

@@ -12,14 +12,16 @@ import (
 )
 
 // parquetTesting returns the folder of Parquet files written by other
-// engines: ../shared/parquet-testing beside the repository (from this
-// package, ../../shared). It skips the test when the folder is missing, as
-// in a clone without the shared folder beside it.
+// engines: testdata/parquet-testing/upstream, a copy of part of the Apache
+// parquet-testing repository (see NOTICE.md there). The folder is part of
+// the repository, so a missing one fails the test instead of skipping it.
 func parquetTesting(t *testing.T) string {
 	t.Helper()
-	dir := filepath.Join("..", "..", "shared", "parquet-testing")
-	if _, err := os.Stat(dir); err != nil {
-		t.Skipf("parquet-testing files not found at %s (a clone without shared/ beside it): %v", dir, err)
+	dir := filepath.Join("testdata", "parquet-testing", "upstream")
+	for _, sub := range []string{"data", "bad_data"} {
+		if _, err := os.Stat(filepath.Join(dir, sub)); err != nil {
+			t.Fatalf("parquet-testing files missing from the repository: %v", err)
+		}
 	}
 	return dir
 }

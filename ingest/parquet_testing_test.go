@@ -19,12 +19,14 @@ import (
 	"github.com/parquet-go/parquet-go"
 )
 
-// The tests in this file read the files of ../shared/parquet-testing, which
-// other programs wrote (Spark, Impala, parquet-mr, Arrow C++, arrow-rs,
-// Polars). The expected values come from outside armtally: the upstream
-// descriptions beside the files (delta_*_expect.csv, int96_from_spark.md)
-// and, for the other files, testdata/parquet-testing/expect.json, the
-// values as DuckDB reads them (written by testdata/parquet-testing/expect.mjs).
+// The tests in this file read the files of testdata/parquet-testing/upstream
+// (copied from the Apache parquet-testing repository, see NOTICE.md there),
+// which other programs wrote (Spark, Impala, parquet-mr, Arrow C++,
+// arrow-rs, Polars). The expected values come from outside armtally: the
+// upstream descriptions beside the files (delta_*_expect.csv,
+// int96_from_spark.md) and, for the other files,
+// testdata/parquet-testing/expect.json, the values as DuckDB reads them
+// (written by testdata/parquet-testing/expect.mjs).
 
 // readTimeout bounds every read of a file from elsewhere: a hang is a bug.
 const readTimeout = 20 * time.Second

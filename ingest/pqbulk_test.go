@@ -169,9 +169,9 @@ func TestBulkPathCloseEarly(t *testing.T) {
 		if err != nil {
 			t.Fatal(err)
 		}
-		for range 2 {
+		for batch := 1; batch <= 2; batch++ { // read into the file, then stop
 			if !r.Next() {
-				t.Fatalf("workers %d: no batches: %v", workers, r.Err())
+				t.Fatalf("workers %d: no batch %d: %v", workers, batch, r.Err())
 			}
 		}
 		if err := r.Close(); err != nil {

@@ -35,7 +35,8 @@ func newTSDecoder(t parquet.Type, epochUnit int64) (tsDecoder, string) {
 		if unit == 0 {
 			return tsDecoder{}, "integer timestamps need an epoch unit (s, ms, us or ns)"
 		}
-		d.kind, d.unit, d.lim = kind, unit, math.MaxInt64/unit
+		d = epochDecoder(unit)
+		d.kind, d.epochUnit = kind, epochUnit
 		return d, ""
 	}
 	switch t.Kind() {
@@ -82,6 +83,12 @@ func newTSDecoder(t parquet.Type, epochUnit int64) (tsDecoder, string) {
 		}
 	}
 	return tsDecoder{}, "cannot read " + physical + " as a timestamp"
+}
+
+// epochDecoder returns a decoder of counts of unit nanoseconds since the
+// epoch (tsDecoder.epoch), for any reader of integer timestamps.
+func epochDecoder(unit int64) tsDecoder {
+	return tsDecoder{kind: kindTSEpoch64, unit: unit, lim: math.MaxInt64 / unit}
 }
 
 // typeNames returns a column type's logical type (nil for none), its

@@ -10,10 +10,10 @@ import (
 	"github.com/parquet-go/parquet-go"
 )
 
-// drain reads a record reader to its end, keeping the first batch past
+// drainRetaining reads a record reader to its end, keeping the first batch past
 // the reader's next call (Retain on the batch, as Arrow's convention has
 // it), and returns the rows and that batch.
-func drain(t *testing.T, rr array.RecordReader) (int64, arrow.RecordBatch) {
+func drainRetaining(t *testing.T, rr array.RecordReader) (int64, arrow.RecordBatch) {
 	t.Helper()
 	var rows int64
 	var kept arrow.RecordBatch
@@ -119,7 +119,7 @@ func TestRecordReaders(t *testing.T) {
 			m := mk.make(mem)
 			rr := m.rr
 			rr.Retain() // two references
-			rows, kept := drain(t, rr)
+			rows, kept := drainRetaining(t, rr)
 			if rows != m.rows {
 				t.Errorf("%d rows, want %d", rows, m.rows)
 			}

@@ -36,6 +36,12 @@ const (
 
 func ptr[T any](v T) *T { return &v }
 
+// fewConversions is the warning that an arm has n conversions, fewer than
+// the 5 the normal approximation needs.
+func fewConversions(arm string, n int64) experiment.Warning {
+	return experiment.Warning{Code: experiment.WarnFewConversions, Arm: arm, Count: n, MinCount: 5}
+}
+
 func at(s string) *time.Time {
 	t, err := time.Parse(time.RFC3339Nano, s)
 	if err != nil {
@@ -131,9 +137,6 @@ func twoArmReadout() experiment.Readout {
 		Segmentation: experiment.Segmentation{
 			Dimensions: []string{"device"},
 			Tests:      6,
-			Caution: "Segment results are exploratory: 6 segment comparisons were tested at alpha 0.05 each, outside the multiple-comparison family and without adjustment. " +
-				"Even if no treatment had any effect, about 0.3 of them would be expected to come out significant by chance, and the more segments, the more such false positives; " +
-				"treat a segment difference as a lead to test in a new experiment, not as a finding.",
 		},
 		Metrics: []experiment.MetricReadout{
 			{
@@ -291,10 +294,7 @@ func purchaseByDevice() []experiment.SegmentResult {
 			Z:                  zTest(pooledZ, 0, critical2, 1, "two-sided"),
 			Exact:              exact(fisher, 1),
 			DecidedBy:          "exact_test",
-			Warnings: []string{
-				"normal approximation not justified: green-button has 2 conversions, needs at least 5",
-				"normal approximation not justified: control has 3 conversions, needs at least 5",
-			},
+			Warnings:           []experiment.Warning{fewConversions("green-button", 2), fewConversions("control", 3)},
 		})),
 	}
 }
@@ -355,9 +355,9 @@ func signupByDevice() []experiment.SegmentResult {
 			Z:                  zTest(pooledZ, 0.36698792170878675, critical2, 0.71362802747291321, "two-sided"),
 			Exact:              exact(fisher, 1),
 			DecidedBy:          "exact_test",
-			Warnings: []string{
-				"normal approximation not justified: green-button has 4 conversions, needs at least 5",
-				"normal approximation not justified: green-button has 4 non-conversions, needs at least 5",
+			Warnings: []experiment.Warning{
+				fewConversions("green-button", 4),
+				{Code: experiment.WarnFewNonConversions, Arm: "green-button", Count: 4, MinCount: 5},
 			},
 		})),
 	}
@@ -374,7 +374,7 @@ func threeArmReadout() experiment.Readout {
 	s.MultiArmPolicy = "first"
 	s.MaturityPolicy = "include"
 	third := 1.0 / 3
-	zeroConversions := "normal approximation not justified: control has 0 conversions, needs at least 5"
+	zeroConversions := fewConversions("control", 0)
 	return experiment.Readout{
 		Experiment:    "onboarding-tour",
 		ExposureEvent: "tour_offered",
@@ -452,17 +452,17 @@ func threeArmReadout() experiment.Readout {
 						Interval: ci(0, 0.0036451961426844266, wilson),
 						TargetTest: &experiment.TargetTest{Target: 0.002, Z: zTest(oneZ, -1.4505889896292703, critical2, 0.14689434302959373, "two-sided"),
 							Exact: exact(binomial, 0.28338591260688911), DecidedBy: "exact_test",
-							Warnings: []string{"normal approximation not justified: n p0 = 2.1, needs at least 5"}}},
+							Warnings: []experiment.Warning{{Code: experiment.WarnFewExpectedConversions, Expected: 1050 * 0.002, MinCount: 5}}}},
 					{Arm: "short-tour", Units: 1020, Conversions: 6, Rate: ptr(0.0058823529411764705),
 						Interval: ci(0.0026986409938450371, 0.012773929182147849, wilson),
 						TargetTest: &experiment.TargetTest{Target: 0.002, Z: zTest(oneZ, 2.7753312867172224, critical2, 0.0055145502820098521, "two-sided"),
 							Exact: exact(binomial, 0.017937569731452073), Significant: true, DecidedBy: "exact_test",
-							Warnings: []string{"normal approximation not justified: n p0 = 2.04, needs at least 5"}}},
+							Warnings: []experiment.Warning{{Code: experiment.WarnFewExpectedConversions, Expected: 1020 * 0.002, MinCount: 5}}}},
 					{Arm: "long-tour", Units: 890, Conversions: 4, Rate: ptr(0.0044943820224719105),
 						Interval: ci(0.0017491237598550877, 0.011498705263781123, wilson),
 						TargetTest: &experiment.TargetTest{Target: 0.002, Z: zTest(oneZ, 1.6656268100281018, critical2, 0.095787767812913455, "two-sided"),
 							Exact: exact(binomial, 0.10532280307381363), DecidedBy: "exact_test",
-							Warnings: []string{"normal approximation not justified: n p0 = 1.78, needs at least 5"}}},
+							Warnings: []experiment.Warning{{Code: experiment.WarnFewExpectedConversions, Expected: 890 * 0.002, MinCount: 5}}}},
 				},
 				Comparisons: []experiment.Comparison{
 					{
@@ -475,7 +475,7 @@ func threeArmReadout() experiment.Readout {
 						SignificantUnadjusted: true, DecidedBy: "exact_test", IntervalAgrees: true,
 						// R: p.adjust(c(...same four...), "holm")[3]
 						Adjusted: adjusted("holm", 4, 0.056831694848041431),
-						Warnings: []string{zeroConversions},
+						Warnings: []experiment.Warning{zeroConversions},
 					},
 					{
 						// fixtures.R: compare("long upgrade", 4, 890, 0, 1050).
@@ -490,7 +490,7 @@ func threeArmReadout() experiment.Readout {
 						SignificantUnadjusted: true, DecidedBy: "exact_test",
 						// R: p.adjust(c(...same four...), "holm")[4]
 						Adjusted: adjusted("holm", 4, 0.088266400501710279),
-						Warnings: []string{zeroConversions, "long-tour has 4 conversions, needs at least 5"},
+						Warnings: []experiment.Warning{zeroConversions, fewConversions("long-tour", 4)},
 					},
 				},
 			},
@@ -517,9 +517,7 @@ func threeArmReadout() experiment.Readout {
 				{Reason: "outside_attribution_window", Count: 77},
 			},
 		},
-		Warnings: []string{
-			"the analysis window has no end: units exposed shortly before the data freshness had little time to convert",
-		},
+		Warnings: []experiment.Warning{{Code: experiment.WarnOpenWindowEventLog}},
 	}
 }
 

@@ -166,12 +166,8 @@ func (md *markdown) guardrails(r experiment.Readout, m experiment.MetricReadout,
 	labels := []string{"Rates", "Difference", "Margin", "Hypotheses", "Non-inferiority z test", "Statistic route", "p-value route", "Interval against the margin", "Verdict", "Notes"}
 	var cols [][]string
 	for _, c := range m.Comparisons {
-		header = append(header, code(c.Treatment)+" vs "+code(c.Control))
-		t, ctl := rateOf(m, c.Treatment), rateOf(m, c.Control)
-		diff := "undefined (" + noUnits(t, ctl, c) + ")"
-		if c.Difference != nil {
-			diff = formatPoints(*c.Difference) + " pp"
-		}
+		header = append(header, pairName(c))
+		t, ctl, diff := pairRates(m, c)
 		ni := c.NonInferiority
 		if ni == nil {
 			cols = append(cols, []string{rateText(t) + " vs " + rateText(ctl), diff, "n/a", "n/a", "not computed", "n/a", "n/a", "n/a", "not tested", n.add()})
@@ -207,10 +203,6 @@ func (md *markdown) guardrails(r experiment.Readout, m experiment.MetricReadout,
 		if ni.Z == nil {
 			verdict = "not tested (" + noUnits(t, ctl, c) + ")"
 		}
-		var extra []string
-		if ni.Z != nil && ni.Z.RejectByStatistic != ni.Z.RejectByPValue {
-			extra = append(extra, routesDisagree)
-		}
 		cols = append(cols, []string{
 			rateText(t) + " vs " + rateText(ctl),
 			diff,
@@ -219,7 +211,7 @@ func (md *markdown) guardrails(r experiment.Readout, m experiment.MetricReadout,
 			zt, statRoute, pRoute,
 			against,
 			verdict,
-			n.add(append(extra, ni.Warnings...)...),
+			n.addTest(ni.Z, ni.Warnings),
 		})
 	}
 	md.table(header, "", transpose(labels, cols))
@@ -235,7 +227,7 @@ func guardrailWarnings(m experiment.MetricReadout) []string {
 	var list []string
 	change, _ := worseWord(m)
 	for _, c := range m.Comparisons {
-		pair := code(c.Treatment) + " vs " + code(c.Control)
+		pair := pairName(c)
 		ni := c.NonInferiority
 		switch {
 		case ni == nil || ni.Z == nil:

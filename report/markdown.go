@@ -37,12 +37,11 @@ func WriteMarkdown(w io.Writer, readouts []experiment.Readout, opts MarkdownOpti
 	if level < 1 || level > 4 {
 		return fmt.Errorf("markdown heading level %d out of range (want 1 to 4)", opts.HeadingLevel)
 	}
-	doc := NewDocument(readouts)
-	if err := checkFinite(doc); err != nil {
+	if err := checkFinite(NewDocument(readouts)); err != nil {
 		return err
 	}
 	md := &markdown{level: level, opts: opts}
-	for i, r := range doc.Readouts {
+	for i, r := range readouts {
 		if i > 0 {
 			md.line("---")
 			md.line("")
@@ -163,6 +162,16 @@ func (n *notes) add(texts ...string) string {
 		return "none"
 	}
 	return strings.Join(refs, ", ")
+}
+
+// addTest records the notes of a test: that its two routes disagree, if
+// they do, then its warnings; it returns their numbers as add does.
+func (n *notes) addTest(z *experiment.Test, warnings []experiment.Warning) string {
+	var texts []string
+	if z != nil && z.RejectByStatistic != z.RejectByPValue {
+		texts = append(texts, routesDisagree)
+	}
+	return n.add(append(texts, warningTexts(warnings)...)...)
 }
 
 // flush prints the notes not printed yet as an ordered list that starts

@@ -83,10 +83,11 @@ func TestMarkdownWarningBlock(t *testing.T) {
 			name: "readout warning repeated",
 			readout: func() experiment.Readout {
 				r := twoArmReadout()
-				r.Warnings = []string{"check the exposure logging", "check the exposure\nlogging", "check the exposure logging"}
+				open := experiment.Warning{Code: experiment.WarnOpenWindowCounts}
+				r.Warnings = []experiment.Warning{open, open, open}
 				return r
 			},
-			want: []string{"> 1. `purchase`", "> 2. check the exposure logging\n"},
+			want: []string{"> 1. `purchase`", "> 2. the analysis window has no end: the counts say which units were immature only if the table has an immature column\n"},
 			// and no third item: the block ends after the second
 		},
 		{

@@ -147,7 +147,7 @@ func (md *markdown) warnings(r experiment.Readout) {
 		var notMet groups
 		var other []string
 		for _, c := range m.Comparisons {
-			pair := code(c.Treatment) + " vs " + code(c.Control)
+			pair := pairName(c)
 			if !c.ConditionMet && testRun(c.Z, c.Exact) {
 				notMet.add(exactFallback(c.Exact), pair)
 			}
@@ -176,7 +176,7 @@ func (md *markdown) warnings(r experiment.Readout) {
 		}
 		list = append(list, other...)
 	}
-	list = append(list, r.Warnings...)
+	list = append(list, warningTexts(r.Warnings)...)
 	list = dedupe(list)
 	if len(list) == 0 {
 		return
@@ -322,7 +322,7 @@ func (md *markdown) metric(r experiment.Readout, m experiment.MetricReadout) {
 		rows = append(rows, []string{armLabel(a.Arm, r.Control), FormatCount(a.Units), FormatCount(a.Conversions), rate, interval, method, FormatCount(a.Immature)})
 	}
 	md.table([]string{"Arm", "Units", "Conversions", "Rate", "Interval", "Interval method", "Immature (left out)"}, "lrrrrlr", rows)
-	n.add(m.Warnings...)
+	n.add(warningTexts(m.Warnings)...)
 	n.flush(md)
 
 	if m.Guardrail != nil && len(m.Comparisons) > 0 {
@@ -401,6 +401,21 @@ func rateOf(m experiment.MetricReadout, arm string) *experiment.ArmRate {
 	return nil
 }
 
+// pairName names a comparison's column: "`b` vs `a`".
+func pairName(c experiment.Comparison) string {
+	return code(c.Treatment) + " vs " + code(c.Control)
+}
+
+// pairRates returns the rates of a comparison's treatment and control,
+// and its difference in points, or why it is undefined.
+func pairRates(m experiment.MetricReadout, c experiment.Comparison) (t, ctl *experiment.ArmRate, diff string) {
+	t, ctl = rateOf(m, c.Treatment), rateOf(m, c.Control)
+	if c.Difference == nil {
+		return t, ctl, "undefined (" + noUnits(t, ctl, c) + ")"
+	}
+	return t, ctl, formatPoints(*c.Difference) + " pp"
+}
+
 func rateText(a *experiment.ArmRate) string {
 	if a == nil || a.Rate == nil {
 		return "n/a"
@@ -418,11 +433,9 @@ func (md *markdown) comparisons(m experiment.MetricReadout, n *notes) {
 	labels = append(labels, "Decision", "Notes")
 	cols := make([][]string, 0, len(m.Comparisons))
 	for _, c := range m.Comparisons {
-		header = append(header, code(c.Treatment)+" vs "+code(c.Control))
-		t, ctl := rateOf(m, c.Treatment), rateOf(m, c.Control)
-		diff := "undefined (" + noUnits(t, ctl, c) + ")"
+		header = append(header, pairName(c))
+		t, ctl, diff := pairRates(m, c)
 		if c.Difference != nil {
-			diff = formatPoints(*c.Difference) + " pp"
 			if iv := c.DifferenceInterval; iv != nil {
 				diff += fmt.Sprintf(", %s CI %s to %s pp (%s)", formatLevel(iv.Level), formatPoints(iv.Lower), formatPoints(iv.Upper), iv.Method)
 			}
@@ -439,10 +452,6 @@ func (md *markdown) comparisons(m experiment.MetricReadout, n *notes) {
 		if !c.IntervalAgrees {
 			agree = "disagree: " + disagreement(c)
 		}
-		var extra []string
-		if c.Z != nil && c.Z.RejectByStatistic != c.Z.RejectByPValue {
-			extra = append(extra, routesDisagree)
-		}
 		col := []string{
 			rateText(t) + " vs " + rateText(ctl),
 			diff,
@@ -458,7 +467,7 @@ func (md *markdown) comparisons(m experiment.MetricReadout, n *notes) {
 		}
 		cols = append(cols, append(col,
 			comparisonDecision(m, c),
-			n.add(append(extra, c.Warnings...)...),
+			n.addTest(c.Z, c.Warnings),
 		))
 	}
 	md.table(header, "", transpose(labels, cols))
@@ -481,10 +490,6 @@ func (md *markdown) targetTests(m experiment.MetricReadout, n *notes) {
 			diff = formatPoints(*a.Rate-tt.Target) + " pp"
 		}
 		zt, statRoute, pRoute := zRows(tt.Z)
-		var extra []string
-		if tt.Z != nil && tt.Z.RejectByStatistic != tt.Z.RejectByPValue {
-			extra = append(extra, routesDisagree)
-		}
 		cols = append(cols, []string{
 			rateText(a) + " vs " + formatPercent(tt.Target),
 			diff,
@@ -492,7 +497,7 @@ func (md *markdown) targetTests(m experiment.MetricReadout, n *notes) {
 			conditionText(tt.ConditionMet, "expected under the target", tt.Z, tt.Exact),
 			exactText(tt.Exact, tt.ConditionMet),
 			decisionText(tt.Significant, tt.DecidedBy, tt.Z, tt.Exact),
-			n.add(append(extra, tt.Warnings...)...),
+			n.addTest(tt.Z, tt.Warnings),
 		})
 	}
 	md.table(header, "", transpose(labels, cols))
@@ -549,8 +554,8 @@ func (md *markdown) cautions(r experiment.Readout) {
 	if s := multiplicityCaution(r); s != "" {
 		md.line("- " + s)
 	}
-	if r.Segmentation.Caution != "" {
-		md.line("- " + r.Segmentation.Caution)
+	if s := segmentCaution(r); s != "" {
+		md.line("- " + s)
 	}
 	md.line("")
 }

@@ -11,7 +11,7 @@ import (
 	"testing"
 	"time"
 
-	"github.com/armtally/armtally/experiment"
+	"github.com/armtally/armtally/report"
 	"github.com/armtally/armtally/sampledata"
 )
 
@@ -118,7 +118,7 @@ window = "3d"
 		t.Fatalf("readouts %d", len(readouts))
 	}
 	// Rows: the whole log is read once, so each readout counts every row.
-	trA, trB := newTruth(a, 0, sumA), newTruth(b, 0, sumB)
+	trA, trB := sampledata.NewTruth(a, 0, sumA), sampledata.NewTruth(b, 0, sumB)
 	trA.Rows, trB.Rows = sumA.Rows+sumB.Rows, sumA.Rows+sumB.Rows
 	checkTruth(t, readouts[0], trA)
 	checkTruth(t, readouts[1], trB)
@@ -143,10 +143,10 @@ window = "3d"
 }
 
 // decodeReadouts decodes a JSON readout document.
-func decodeReadouts(t *testing.T, raw []byte) []experiment.Readout {
+func decodeReadouts(t *testing.T, raw []byte) []report.JSONReadout {
 	t.Helper()
 	var doc struct {
-		Readouts []experiment.Readout `json:"readouts"`
+		Readouts []report.JSONReadout `json:"readouts"`
 	}
 	if err := json.Unmarshal(raw, &doc); err != nil {
 		t.Fatal(err)

@@ -1,19 +1,24 @@
 package main
 
 import (
+	"context"
+	"errors"
 	"fmt"
 	"io"
-	"iter"
+	"os"
+	"os/signal"
 	"path/filepath"
 	"runtime/debug"
 	"slices"
 	"strings"
+	"syscall"
 	"time"
 
-	"github.com/apache/arrow-go/v18/arrow"
 	"github.com/spf13/pflag"
 
 	"github.com/armtally/armtally/experiment"
+	"github.com/armtally/armtally/experiment/pipeline"
+	"github.com/armtally/armtally/experiment/specfile"
 	"github.com/armtally/armtally/ingest"
 	"github.com/armtally/armtally/report"
 	"github.com/armtally/armtally/sampledata"
@@ -117,8 +122,8 @@ func newAnalyzeFlagSet(f *analyzeFlags, stderr io.Writer) *pflag.FlagSet {
 	fs.Float64Var(&f.alpha, "alpha", 0.05, "significance level of every test; intervals are at 1 - alpha")
 	fs.StringVar(&f.alternative, "alternative", "two-sided", "alternative hypothesis: two-sided, greater (treatment higher) or less; intervals are at 1 - 2 alpha for one-sided tests")
 	fs.StringVar(&f.adjust, "adjust", "holm", "multiple-comparison adjustment over treatments x metrics: holm, bonferroni, hochberg, bh, by or none")
-	fs.StringVar(&f.interval, "interval", experiment.IntervalWilson, "interval of each arm's rate: wilson, clopper-pearson, agresti-coull or wald")
-	fs.StringVar(&f.diffInterval, "difference-interval", experiment.DifferenceNewcombe, "interval of each difference: newcombe or wald")
+	fs.StringVar(&f.interval, "interval", experiment.IntervalWilson.String(), "interval of each arm's rate: wilson, clopper-pearson, agresti-coull or wald")
+	fs.StringVar(&f.diffInterval, "difference-interval", experiment.DifferenceNewcombe.String(), "interval of each difference: newcombe or wald")
 	fs.StringVar(&f.niMethod, "non-inferiority-method", "farrington-manning", "variance of guardrail tests: farrington-manning, miettinen-nurminen or wald")
 	fs.Int64Var(&f.minCount, "min-count", 5, "conversions and non-conversions per arm needed to trust the normal approximation")
 	fs.Float64Var(&f.srThreshold, "sample-ratio-threshold", experiment.DefaultSampleRatioThreshold, "p-value below which the sample ratio check fails")
@@ -147,7 +152,7 @@ func newAnalyzeFlagSet(f *analyzeFlags, stderr io.Writer) *pflag.FlagSet {
 type analyzeRun struct {
 	sources []ingest.Source
 	// shape is input.shape: events, units or counts.
-	shape   string
+	shape   experiment.InputShape
 	mapping ingest.Mapping
 	// tsMapped says whether the ts column was named (by the spec file or
 	// --ts-col): a unit table's exposure time column is optional.
@@ -184,62 +189,107 @@ type builtExperiment struct {
 // parseAnalyze parses the analyze command line, and the spec file it
 // names, into a run. Flags the user set override the spec file's values.
 func parseAnalyze(args []string, stdout, stderr io.Writer) (*analyzeRun, error) {
+	run, err := parseAnalyzeRun(args, stdout, stderr)
+	var fe *specfile.FlagError
+	if errors.As(err, &fe) {
+		return nil, usagef("analyze: %s", fe.Msg)
+	}
+	return run, err
+}
+
+// parseAnalyzeRun is parseAnalyze, with the problems of flag values
+// returned as the specfile package words them.
+func parseAnalyzeRun(args []string, stdout, stderr io.Writer) (*analyzeRun, error) {
 	var f analyzeFlags
 	fs := newAnalyzeFlagSet(&f, stderr)
 	if err := parseFlags(fs, args, analyzeUsage, stdout); err != nil {
 		return nil, err
 	}
-	var sf *specFile
-	if f.spec != "" {
-		var err error
-		if sf, err = readSpecFile(f.spec); err != nil {
-			return nil, err
-		}
-		if err := sf.unsupported(); err != nil {
-			return nil, err
-		}
+	sf, err := readSpec(f.spec)
+	if err != nil {
+		return nil, err
 	}
-	run := &analyzeRun{shape: shapeEvents}
+	run := &analyzeRun{shape: experiment.InputEventLog, stderr: stderr, progress: !f.noProgress && isTerminal(stderr)}
 	if sf != nil {
-		run.shape, run.counts = sf.shape, sf.counts
+		run.shape, run.counts = sf.Shape, sf.Counts
 	}
-
-	// Experiments: the spec file's (those --experiment picks), or one
-	// made from the flags alone.
-	var exps []*expSettings
-	if sf == nil || len(sf.experiments) == 0 {
-		if f.demo {
-			demoDefaults(fs, &f)
+	exps, err := analyzeExperiments(fs, &f, sf)
+	if err != nil {
+		return nil, err
+	}
+	for _, e := range exps {
+		spec, opts, err := e.Build()
+		if err != nil {
+			return nil, err
 		}
-		e := newExpSettings()
-		if err := applyExperimentFlags(fs, &f, e, true); err != nil {
+		run.experiments = append(run.experiments, builtExperiment{spec: spec, opts: opts, metricColumns: e.MetricColumns()})
+	}
+	// Flags the user set override the file's values; without a file,
+	// every flag applies.
+	override := func(name string) bool { return sf == nil || fs.Changed(name) }
+	if err := applyMapping(fs, &f, sf, override, run); err != nil {
+		return nil, err
+	}
+	if err := applyReading(&f, sf, override, run); err != nil {
+		return nil, err
+	}
+	if err := applyOutputs(&f, sf, override, run); err != nil {
+		return nil, err
+	}
+	if err := applyMemoryLimit(&f, run); err != nil {
+		return nil, err
+	}
+	if run.sources, err = analyzeSources(fs, &f, sf); err != nil {
+		return nil, err
+	}
+	if sf != nil {
+		if err := sf.CheckPartitions(run.sources); err != nil {
+			return nil, &dataError{err}
+		}
+	}
+	return run, nil
+}
+
+// readSpec reads the spec file of --spec, if any, and refuses the keys
+// whose feature armtally does not have yet.
+func readSpec(path string) (*specfile.File, error) {
+	if path == "" {
+		return nil, nil
+	}
+	sf, err := specfile.Read(path)
+	if pe := (*os.PathError)(nil); errors.As(err, &pe) {
+		return nil, usagef("analyze: --spec: %v", err)
+	}
+	if err != nil {
+		return nil, err
+	}
+	if err := sf.Unsupported(); err != nil {
+		return nil, err
+	}
+	return sf, nil
+}
+
+// analyzeExperiments returns the experiments of the run: the spec file's
+// (those --experiment picks) with the flags the user set applied, or one
+// made from the flags alone.
+func analyzeExperiments(fs *pflag.FlagSet, f *analyzeFlags, sf *specfile.File) ([]*specfile.Settings, error) {
+	var exps []*specfile.Settings
+	if sf == nil || len(sf.Experiments) == 0 {
+		if f.demo {
+			demoDefaults(fs, f)
+		}
+		e := specfile.NewSettings()
+		if err := applyExperimentFlags(fs, f, e, true); err != nil {
 			return nil, err
 		}
 		exps = append(exps, e)
 	} else {
-		exps = sf.experiments
-		if fs.Changed("experiment") {
-			exps = nil
-			var keys []string
-			for _, e := range sf.experiments {
-				keys = append(keys, e.key)
-				if e.key == f.experiment {
-					exps = append(exps, e)
-				}
-			}
-			if len(exps) == 0 {
-				return nil, usagef("analyze: --experiment %q: %s has no such experiment (it has %s)", f.experiment, sf.name, strings.Join(keys, ", "))
-			}
-		}
-		if len(exps) > 1 {
-			for _, name := range []string{"arms", "split"} {
-				if fs.Changed(name) {
-					return nil, usagef("analyze: --%s applies to one experiment, and %s has %d: choose one with --experiment", name, sf.name, len(exps))
-				}
-			}
+		var err error
+		if exps, err = pickExperiments(fs, f, sf); err != nil {
+			return nil, err
 		}
 		for _, e := range exps {
-			if err := applyExperimentFlags(fs, &f, e, false); err != nil {
+			if err := applyExperimentFlags(fs, f, e, false); err != nil {
 				return nil, err
 			}
 		}
@@ -252,31 +302,45 @@ func parseAnalyze(args []string, stdout, stderr io.Writer) (*analyzeRun, error) 
 			return nil, usagef("analyze: --segment: empty column name")
 		}
 		for _, e := range exps {
-			if !slices.Contains(e.segments, name) {
-				e.segments = append(e.segments, name)
-			}
+			e.AddSegment(name)
 		}
 	}
-	for _, e := range exps {
-		spec, opts, err := e.build()
-		if err != nil {
-			return nil, err
-		}
-		be := builtExperiment{spec: spec, opts: opts}
-		for _, ms := range e.metrics {
-			col := ms.column
-			if col == "" {
-				col = ms.metric.Name
-			}
-			be.metricColumns = append(be.metricColumns, ingest.ColumnMap{Logical: ms.metric.Name, Physical: col})
-		}
-		run.experiments = append(run.experiments, be)
-	}
+	return exps, nil
+}
 
-	// Column mapping: the spec file's, then the flags.
+// pickExperiments returns the spec file's experiment that --experiment
+// names, or all of them; --arms and --split need one.
+func pickExperiments(fs *pflag.FlagSet, f *analyzeFlags, sf *specfile.File) ([]*specfile.Settings, error) {
+	exps := sf.Experiments
+	if fs.Changed("experiment") {
+		exps = nil
+		var keys []string
+		for _, e := range sf.Experiments {
+			keys = append(keys, e.Key())
+			if e.Key() == f.experiment {
+				exps = append(exps, e)
+			}
+		}
+		if len(exps) == 0 {
+			return nil, usagef("analyze: --experiment %q: %s has no such experiment (it has %s)", f.experiment, sf.Name, strings.Join(keys, ", "))
+		}
+	}
+	if len(exps) > 1 {
+		for _, name := range []string{"arms", "split"} {
+			if fs.Changed(name) {
+				return nil, usagef("analyze: --%s applies to one experiment, and %s has %d: choose one with --experiment", name, sf.Name, len(exps))
+			}
+		}
+	}
+	return exps, nil
+}
+
+// applyMapping sets the run's column mapping: the spec file's, then the
+// flags.
+func applyMapping(fs *pflag.FlagSet, f *analyzeFlags, sf *specfile.File, override func(string) bool, run *analyzeRun) error {
 	run.mapping = ingest.DefaultMapping()
 	if sf != nil {
-		run.mapping = sf.mapping
+		run.mapping = sf.Mapping
 	}
 	for _, c := range []struct {
 		flag string
@@ -290,7 +354,7 @@ func parseAnalyze(args []string, stdout, stderr io.Writer) (*analyzeRun, error) 
 		{"arm-col", f.armCol, &run.mapping.Arm},
 		{"epoch-unit", f.epochUnit, &run.mapping.EpochUnit},
 	} {
-		if sf == nil || fs.Changed(c.flag) {
+		if override(c.flag) {
 			*c.dst = c.v
 		}
 	}
@@ -299,146 +363,177 @@ func parseAnalyze(args []string, stdout, stderr io.Writer) (*analyzeRun, error) 
 			run.mapping.Segments = append(run.mapping.Segments, name)
 		}
 	}
-	run.tsMapped = fs.Changed("ts-col")
-	if sf != nil {
-		_, inFile := sf.mappingFrom["ts"]
-		run.tsMapped = run.tsMapped || inFile
-	}
+	run.tsMapped = fs.Changed("ts-col") || sf != nil && sf.TSMapped
 	switch run.mapping.EpochUnit {
 	case "", "s", "ms", "us", "ns":
 	default:
-		return nil, usagef("analyze: --epoch-unit %q: want s, ms, us or ns", run.mapping.EpochUnit)
+		return usagef("analyze: --epoch-unit %q: want s, ms, us or ns", run.mapping.EpochUnit)
 	}
+	return nil
+}
 
-	// Reading: the spec file's delimiter and bad-row budget, then the flags.
+// applyReading sets the delimiter and the bad-row budget: the spec file's,
+// then the flags.
+func applyReading(f *analyzeFlags, sf *specfile.File, override func(string) bool, run *analyzeRun) error {
 	if sf != nil {
-		run.delimiter, run.maxBadRows, run.maxBadShare = sf.delimiter, sf.maxBadRows, sf.maxBad
+		run.delimiter, run.maxBadRows, run.maxBadShare = sf.Delimiter, sf.MaxBadRows, sf.MaxBadShare
 	}
-	if sf == nil || fs.Changed("delimiter") {
-		d, err := parseDelimiter(f.delimiter)
+	if override("delimiter") {
+		d, err := specfile.ParseDelimiter(f.delimiter)
 		if err != nil {
-			return nil, usagef("analyze: --delimiter: %v", err)
+			return usagef("analyze: --delimiter: %v", err)
 		}
 		run.delimiter = d
 	}
-	if sf == nil || fs.Changed("max-bad-rows") {
+	if override("max-bad-rows") {
 		if f.maxBadRows < ingest.NoLimit {
-			return nil, usagef("analyze: --max-bad-rows %d: want 0 or more, or -1 for no limit", f.maxBadRows)
+			return usagef("analyze: --max-bad-rows %d: want 0 or more, or -1 for no limit", f.maxBadRows)
 		}
 		run.maxBadRows = f.maxBadRows
 	}
-	if sf == nil || fs.Changed("max-bad-share") {
+	if override("max-bad-share") {
 		if !(f.maxBadShare >= 0 && f.maxBadShare <= 1) {
-			return nil, usagef("analyze: --max-bad-share %v: want a share from 0 to 1", f.maxBadShare)
+			return usagef("analyze: --max-bad-share %v: want a share from 0 to 1", f.maxBadShare)
 		}
 		run.maxBadShare = f.maxBadShare
 	}
+	return nil
+}
 
-	// Outputs: the spec file's, then the flags.
+// applyOutputs sets the outputs: the spec file's, then the flags.
+func applyOutputs(f *analyzeFlags, sf *specfile.File, override func(string) bool, run *analyzeRun) error {
 	if sf != nil {
-		run.out, run.jsonOut = sf.markdown, sf.json
-		if sf.failOnSampleRatio != nil {
-			run.failOnSampleRatio = *sf.failOnSampleRatio
+		run.out, run.jsonOut, run.audit = sf.Markdown, sf.JSON, sf.Audit
+		if sf.FailOnSampleRatio != nil {
+			run.failOnSampleRatio = *sf.FailOnSampleRatio
 		}
 	}
-	if sf == nil || fs.Changed("out") {
-		run.out = f.out
+	for _, o := range []struct {
+		flag string
+		v    string
+		dst  *string
+	}{{"out", f.out, &run.out}, {"json", f.jsonOut, &run.jsonOut}, {"audit", f.audit, &run.audit}} {
+		if override(o.flag) {
+			*o.dst = o.v
+		}
 	}
-	if sf == nil || fs.Changed("json") {
-		run.jsonOut = f.jsonOut
+	if run.audit != "" && run.shape == experiment.InputCounts {
+		return usagef("analyze: an audit table lists units, and a counts table has none (output.audit or --audit)")
 	}
-	if sf != nil {
-		run.audit = sf.audit
-	}
-	if sf == nil || fs.Changed("audit") {
-		run.audit = f.audit
-	}
-	if run.audit != "" && run.shape == shapeCounts {
-		return nil, usagef("analyze: an audit table lists units, and a counts table has none (output.audit or --audit)")
-	}
-	if sf == nil || fs.Changed("fail-on-sample-ratio") {
+	if override("fail-on-sample-ratio") {
 		run.failOnSampleRatio = f.failOnSampleRatio
 	}
-	run.stderr = stderr
-	run.progress = !f.noProgress && isTerminal(stderr)
-	if f.memoryLimit != "" {
-		n, err := parseBytes(f.memoryLimit)
-		if err != nil {
-			return nil, usagef("analyze: --memory-limit: %v", err)
-		}
-		if run.shape != shapeEvents {
-			return nil, usagef("analyze: --memory-limit applies to event logs; a unit or counts table is tallied row by row already")
-		}
-		if run.audit != "" {
-			return nil, usagef("analyze: --memory-limit and --audit together: the audit table lists every unit in key order, which needs them all in memory")
-		}
-		run.memoryLimit = n
-	}
-	run.spillDir = f.spillDir
+	return nil
+}
 
-	// Sources: --demo, the arguments, or the spec file's input.paths.
-	switch {
-	case f.demo:
+// applyMemoryLimit sets --memory-limit and --spill-dir.
+func applyMemoryLimit(f *analyzeFlags, run *analyzeRun) error {
+	run.spillDir = f.spillDir
+	if f.memoryLimit == "" {
+		return nil
+	}
+	n, err := parseBytes(f.memoryLimit)
+	if err != nil {
+		return usagef("analyze: --memory-limit: %v", err)
+	}
+	if run.shape != experiment.InputEventLog {
+		return usagef("analyze: --memory-limit applies to event logs; a unit or counts table is tallied row by row already")
+	}
+	if run.audit != "" {
+		return usagef("analyze: --memory-limit and --audit together: the audit table lists every unit in key order, which needs them all in memory")
+	}
+	run.memoryLimit = n
+	return nil
+}
+
+// analyzeSources returns the run's sources: --demo, the arguments, or the
+// spec file's input.paths.
+func analyzeSources(fs *pflag.FlagSet, f *analyzeFlags, sf *specfile.File) ([]ingest.Source, error) {
+	if f.demo {
 		if fs.NArg() > 0 {
 			return nil, usagef("analyze: --demo takes no input files (got %s)", strings.Join(fs.Args(), " "))
 		}
 		name, data := sampledata.Demo()
-		run.sources = []ingest.Source{ingest.BytesSource(name, data)}
-	default:
-		paths := fs.Args()
-		if len(paths) == 0 && sf != nil {
-			paths = sf.paths
-		}
-		if len(paths) == 0 {
-			if sf != nil {
-				return nil, usagef("analyze: name at least one input file or folder, in %s (input.paths) or on the command line", sf.name)
-			}
-			return nil, usagef("analyze: name at least one input file or folder, or use --demo")
-		}
-		var err error
-		run.sources, err = ingest.FileSources(paths)
-		if err != nil {
-			return nil, &dataError{err}
-		}
-		if len(run.sources) == 0 {
-			return nil, &dataError{fmt.Errorf("no .csv, .csv.gz, .parquet or .parq files in %s", strings.Join(paths, ", "))}
-		}
+		return []ingest.Source{ingest.BytesSource(name, data)}, nil
 	}
-	if sf != nil {
-		if err := sf.checkPartitions(run.sources); err != nil {
-			return nil, err
-		}
+	paths := fs.Args()
+	if len(paths) == 0 && sf != nil {
+		paths = sf.Paths
 	}
-	return run, nil
+	if len(paths) == 0 {
+		if sf != nil {
+			return nil, usagef("analyze: name at least one input file or folder, in %s (input.paths) or on the command line", sf.Name)
+		}
+		return nil, usagef("analyze: name at least one input file or folder, or use --demo")
+	}
+	sources, err := ingest.FileSources(paths)
+	if err != nil {
+		return nil, &dataError{err}
+	}
+	if len(sources) == 0 {
+		return nil, &dataError{fmt.Errorf("no .csv, .csv.gz, .parquet or .parq files in %s", strings.Join(paths, ", "))}
+	}
+	return sources, nil
 }
 
 // applyExperimentFlags applies the experiment flags to e: every flag when
 // all is set (no spec file, or one without experiments), otherwise only the
 // flags the user set, which override the file. --experiment sets the key
 // only when all is set; with a spec file it picks experiments instead.
-func applyExperimentFlags(fs *pflag.FlagSet, f *analyzeFlags, e *expSettings, all bool) error {
+func applyExperimentFlags(fs *pflag.FlagSet, f *analyzeFlags, e *specfile.Settings, all bool) error {
 	set := func(name string) bool { return all || fs.Changed(name) }
-	flag := func(name string) origin { return origin{flag: "--" + name} }
 	if all {
-		e.key = f.experiment
-		e.from["key"] = flag("experiment")
+		e.SetKey(f.experiment, flagOrigin("experiment"))
 	}
+	if err := applyArmFlags(set, f, e); err != nil {
+		return err
+	}
+	if err := applyWindowFlags(set, f, e); err != nil {
+		return err
+	}
+	if set("metric") || set("guardrail") {
+		var ms []specfile.Metric
+		for _, s := range f.metrics {
+			m, err := specfile.ParseMetric(s)
+			if err != nil {
+				return usagef("analyze: --metric: %v", err)
+			}
+			ms = append(ms, specfile.Metric{Metric: m, Role: specfile.Primary, From: flagOrigin("metric")})
+		}
+		for _, s := range f.guardrails {
+			m, err := specfile.ParseGuardrail(s)
+			if err != nil {
+				return usagef("analyze: --guardrail: %v", err)
+			}
+			ms = append(ms, specfile.Metric{Metric: m, Role: specfile.Guardrail, From: flagOrigin("guardrail")})
+		}
+		e.SetMetrics(ms, flagOrigin("metric"))
+	}
+	return applyAnalysisFlags(set, f, e)
+}
+
+// flagOrigin is the origin of a setting from the flag --name.
+func flagOrigin(name string) specfile.Origin { return specfile.Origin{Flag: "--" + name} }
+
+// applyArmFlags applies --exposure-event, --control, --arms and --split.
+func applyArmFlags(set func(string) bool, f *analyzeFlags, e *specfile.Settings) error {
 	for _, s := range []struct {
-		flag, key string
-		v         string
-		dst       *string
-	}{{"exposure-event", "exposure_event", f.exposureEvent, &e.exposureEvent}, {"control", "control", f.control, &e.control}} {
+		flag string
+		v    string
+		fn   func(string, specfile.Origin) error
+	}{{"exposure-event", f.exposureEvent, e.SetExposureEvent}, {"control", f.control, e.SetControl}} {
 		if !set(s.flag) {
 			continue
 		}
 		if s.v == "" {
 			return usagef("analyze: --exposure-event and --control must not be empty")
 		}
-		*s.dst = s.v
-		e.from[s.key] = flag(s.flag)
+		if err := s.fn(s.v, flagOrigin(s.flag)); err != nil {
+			return err
+		}
 	}
 	if set("arms") {
-		e.arms, e.armsAddControl = nil, true
+		var arms []string
 		seen := map[string]bool{}
 		for _, a := range f.arms {
 			a = strings.TrimSpace(a)
@@ -446,91 +541,86 @@ func applyExperimentFlags(fs *pflag.FlagSet, f *analyzeFlags, e *expSettings, al
 				return usagef("analyze: --arms %q: empty or repeated arm name", strings.Join(f.arms, ","))
 			}
 			seen[a] = true
-			e.arms = append(e.arms, a)
+			arms = append(arms, a)
 		}
-		e.from["arms"] = flag("arms")
+		e.SetArms(arms, true, flagOrigin("arms"))
 	}
 	if set("split") {
-		e.split = nil
+		var shares []float64
 		if f.split != "" {
-			shares, err := parseShares(f.split)
-			if err != nil {
-				return usagef("analyze: %v", err)
+			var err error
+			if shares, err = specfile.ParseShares(f.split); err != nil {
+				return usagef("analyze: --split %v", err)
 			}
-			e.split = shares
 		}
-		e.from["split"] = flag("split")
+		e.SetSplit(shares, flagOrigin("split"))
 	}
-	var err error
-	if set("start") {
-		if e.start, err = parseTime("start", f.start); err != nil {
-			return err
+	return nil
+}
+
+// applyWindowFlags applies --start, --end, --multi-arm and --maturity.
+func applyWindowFlags(set func(string) bool, f *analyzeFlags, e *specfile.Settings) error {
+	for _, b := range []struct {
+		flag, v string
+		fn      func(*time.Time, specfile.Origin)
+	}{{"start", f.start, e.SetStart}, {"end", f.end, e.SetEnd}} {
+		if !set(b.flag) {
+			continue
 		}
-		e.from["start"] = flag("start")
-	}
-	if set("end") {
-		if e.end, err = parseTime("end", f.end); err != nil {
-			return err
+		t, err := specfile.ParseTime(b.v)
+		if err != nil {
+			return usagef("--%s %v", b.flag, err)
 		}
-		e.from["end"] = flag("end")
+		b.fn(t, flagOrigin(b.flag))
 	}
 	if set("multi-arm") {
-		if e.multiArm, err = experiment.ParseMultiArmPolicy(f.multiArm); err != nil {
+		p, err := experiment.ParseMultiArmPolicy(f.multiArm)
+		if err != nil {
 			return usagef("analyze: --multi-arm: %v", err)
 		}
+		e.SetMultiArm(p, flagOrigin("multi-arm"))
 	}
 	if set("maturity") {
-		if e.maturity, err = experiment.ParseMaturityPolicy(f.maturity); err != nil {
+		p, err := experiment.ParseMaturityPolicy(f.maturity)
+		if err != nil {
 			return usagef("analyze: --maturity: %v", err)
 		}
+		e.SetMaturity(p, flagOrigin("maturity"))
 	}
-	if set("metric") || set("guardrail") {
-		e.metrics = nil
-		for _, s := range f.metrics {
-			m, err := parseMetric(s)
-			if err != nil {
-				return usagef("analyze: --metric: %v", err)
-			}
-			e.metrics = append(e.metrics, metricSetting{metric: m, role: rolePrimary, from: flag("metric")})
-		}
-		for _, s := range f.guardrails {
-			m, err := parseGuardrail(s)
-			if err != nil {
-				return usagef("analyze: --guardrail: %v", err)
-			}
-			e.metrics = append(e.metrics, metricSetting{metric: m, role: roleGuardrail, from: flag("guardrail")})
-		}
-		e.from["metrics"] = flag("metric")
-	}
+	return nil
+}
+
+// applyAnalysisFlags applies the flags of the statistical options.
+func applyAnalysisFlags(set func(string) bool, f *analyzeFlags, e *specfile.Settings) error {
 	if set("alpha") {
-		if err := e.setAlpha(f.alpha, flag("alpha")); err != nil {
+		if err := e.SetAlpha(f.alpha, flagOrigin("alpha")); err != nil {
 			return err
 		}
 	}
 	for _, s := range []struct {
 		flag string
 		v    string
-		fn   func(string, origin) error
+		fn   func(string, specfile.Origin) error
 	}{
-		{"alternative", f.alternative, e.setAlternative},
-		{"adjust", f.adjust, e.setAdjust},
-		{"interval", f.interval, e.setInterval},
-		{"difference-interval", f.diffInterval, e.setDifferenceInterval},
-		{"non-inferiority-method", f.niMethod, e.setNonInferiority},
+		{"alternative", f.alternative, e.SetAlternative},
+		{"adjust", f.adjust, e.SetAdjust},
+		{"interval", f.interval, e.SetInterval},
+		{"difference-interval", f.diffInterval, e.SetDifferenceInterval},
+		{"non-inferiority-method", f.niMethod, e.SetNonInferiorityMethod},
 	} {
 		if set(s.flag) {
-			if err := s.fn(s.v, flag(s.flag)); err != nil {
+			if err := s.fn(s.v, flagOrigin(s.flag)); err != nil {
 				return err
 			}
 		}
 	}
 	if set("min-count") {
-		if err := e.setMinCount(f.minCount, flag("min-count")); err != nil {
+		if err := e.SetMinCount(f.minCount, flagOrigin("min-count")); err != nil {
 			return err
 		}
 	}
 	if set("sample-ratio-threshold") {
-		if err := e.setSampleRatioThreshold(f.srThreshold, flag("sample-ratio-threshold")); err != nil {
+		if err := e.SetSampleRatioThreshold(f.srThreshold, flagOrigin("sample-ratio-threshold")); err != nil {
 			return err
 		}
 	}
@@ -539,15 +629,11 @@ func applyExperimentFlags(fs *pflag.FlagSet, f *analyzeFlags, e *expSettings, al
 
 // applyLowerIsBetter marks the metrics named by --lower-is-better in every
 // experiment that has them; a name no experiment has is an error.
-func applyLowerIsBetter(names []string, exps []*expSettings) error {
+func applyLowerIsBetter(names []string, exps []*specfile.Settings) error {
 	for _, name := range names {
 		found := false
 		for _, e := range exps {
-			for i := range e.metrics {
-				if e.metrics[i].metric.Name == name {
-					e.metrics[i].metric.LowerIsBetter, found = true, true
-				}
-			}
+			found = e.MarkLowerIsBetter(name) || found
 		}
 		if !found {
 			return usagef("analyze: --lower-is-better %q: no metric of that name", name)
@@ -588,10 +674,13 @@ func runAnalyze(args []string, stdout, stderr io.Writer) error {
 	if err != nil {
 		return err
 	}
-	readouts, talliers, err := analyze(run)
+	ctx, stop := signal.NotifyContext(context.Background(), os.Interrupt, syscall.SIGTERM)
+	defer stop()
+	res, err := analyze(ctx, run)
 	if err != nil {
 		return err
 	}
+	readouts := res.Readouts
 	if run.jsonOut != "" {
 		if err := report.WriteFileAtomic(run.jsonOut, func(w io.Writer) error { return report.WriteJSON(w, readouts) }); err != nil {
 			return fmt.Errorf("writing the JSON readout: %w", err)
@@ -607,7 +696,7 @@ func runAnalyze(args []string, stdout, stderr io.Writer) error {
 		return fmt.Errorf("writing the Markdown readout: %w", err)
 	}
 	if run.audit != "" {
-		if err := writeAudits(run, talliers); err != nil {
+		if err := writeAudits(run, res); err != nil {
 			return err
 		}
 	}
@@ -630,266 +719,70 @@ func runAnalyze(args []string, stdout, stderr io.Writer) error {
 	return nil
 }
 
-// recordReader is what the event-log reader and the table reader have in
-// common.
-type recordReader interface {
-	Schema() *arrow.Schema
-	Next() bool
-	RecordBatch() arrow.RecordBatch
-	Err() error
-	Stats() ingest.Stats
-	Close() error
-}
-
-// reasonCounts converts the reader's bad-row counts for the readout.
-func reasonCounts(bad []ingest.BadRowCount) []experiment.ReasonCount {
-	var out []experiment.ReasonCount
-	for _, b := range bad {
-		out = append(out, experiment.ReasonCount{Reason: b.Reason.String(), Count: b.Count})
+// pipelineInput returns the run's input and experiments as the pipeline
+// takes them.
+func pipelineInput(run *analyzeRun) (pipeline.Input, []pipeline.Experiment) {
+	in := pipeline.Input{Sources: run.sources, Mapping: run.mapping, Counts: run.counts, Delimiter: run.delimiter,
+		MaxBadRows: run.maxBadRows, MaxBadShare: run.maxBadShare}
+	in.Shape = run.shape
+	if run.shape == experiment.InputUnitTable && run.tsMapped {
+		in.UnitTS = run.mapping.TS
 	}
-	return out
-}
-
-// spillPartitions is the number of hash partitions of --memory-limit.
-const spillPartitions = 64
-
-// spillBytesPerRow is the memory a tally takes per row it reads, as
-// --memory-limit estimates it: analysing the 10M-unit benchmark log in
-// memory peaked at 1.4 GB for 17M rows past the event filter, about 80
-// bytes a row, rounded up for the collector's headroom.
-const spillBytesPerRow = 100
-
-// tallySpilled tallies the rows of an event log that analyze spilled to
-// disk (--memory-limit): the partitions are taken in groups of about
-// run.memoryLimit / spillBytesPerRow rows, each group tallied by fresh
-// talliers that share the whole input's freshness, and the tallies of the
-// groups merged, which is exact since a unit's rows are all in one
-// partition (experiment.MergeTallies). st holds the reader's counts.
-func tallySpilled(run *analyzeRun, spill *ingest.Spill, st ingest.Stats) ([]experiment.Tally, error) {
-	fresh, hasFresh := spill.MaxTS()
-	if st.Filtered > 0 && (!hasFresh || st.FilteredMaxTS > fresh) {
-		fresh, hasFresh = st.FilteredMaxTS, true
-	}
-	maxRows := max(1, run.memoryLimit/spillBytesPerRow)
-	parts := make([][]experiment.Tally, len(run.experiments))
-	for p := 0; p < spill.Partitions(); {
-		q, rows := p, int64(0)
-		for q < spill.Partitions() && (q == p || rows+spill.Rows(q) <= maxRows) {
-			rows += spill.Rows(q)
-			q++
-		}
-		talliers := make([]*experiment.Tallier, len(run.experiments))
-		for i, e := range run.experiments {
-			tl, err := experiment.NewTallier(e.spec)
-			if err != nil {
-				return nil, usagef("analyze: %v", err)
-			}
-			talliers[i] = tl
-		}
-		for k := p; k < q; k++ {
-			if err := addSpilled(spill, k, talliers); err != nil {
-				return nil, err
-			}
-		}
-		for i, tl := range talliers {
-			if p == 0 {
-				tl.AddFiltered(st.Filtered, st.FilteredMaxTS)
-			}
-			if hasFresh {
-				tl.SeeTime(fresh)
-			}
-			t, err := tl.Tally()
-			if err != nil {
-				return nil, &dataError{err}
-			}
-			parts[i] = append(parts[i], t)
-		}
-		p = q
-	}
-	out := make([]experiment.Tally, len(run.experiments))
+	exps := make([]pipeline.Experiment, len(run.experiments))
 	for i, e := range run.experiments {
-		t, err := experiment.MergeTallies(e.spec, parts[i]...)
-		if err != nil {
-			return nil, &dataError{err}
-		}
-		out[i] = t
+		exps[i] = pipeline.Experiment{Spec: e.spec, Options: e.opts, MetricColumns: e.metricColumns}
 	}
-	return out, nil
+	return in, exps
 }
 
-// addSpilled feeds partition k of spill to the talliers.
-func addSpilled(spill *ingest.Spill, k int, talliers []*experiment.Tallier) error {
-	sr, err := spill.Reader(k, nil, 0)
-	if err != nil {
-		return fmt.Errorf("analyze: --memory-limit: %w", err)
-	}
-	defer sr.Close()
-	for sr.Next() {
-		for _, tl := range talliers {
-			if err := tl.Add(sr.RecordBatch()); err != nil {
-				return &dataError{err}
-			}
+// analyze runs the pipeline over the run's input and experiments.
+func analyze(ctx context.Context, run *analyzeRun) (*pipeline.Result, error) {
+	in, exps := pipelineInput(run)
+	opts := pipeline.Options{MemoryLimit: run.memoryLimit, SpillDir: run.spillDir, KeepUnits: run.audit != ""}
+	if run.progress && run.stderr != nil {
+		opts.Progress = func(rows func() int64) func() {
+			return startProgress(run.stderr, rows, progressInterval, time.Now)
 		}
 	}
-	if err := sr.Err(); err != nil {
-		return fmt.Errorf("analyze: --memory-limit: %w", err)
-	}
-	return nil
-}
-
-// newRecordReader returns the reader of the run's input shape. For an
-// event log, events lists the events the talliers use: the reader leaves
-// out the rows of other events and counts them (see ingest.Options.Events).
-func newRecordReader(run *analyzeRun, events []string) (recordReader, error) {
-	m := run.mapping
-	switch run.shape {
-	case shapeUnits, shapeCounts:
-		e := run.experiments[0] // a table holds one experiment
-		var segs []ingest.ColumnMap
-		for _, s := range e.spec.Segments {
-			segs = append(segs, ingest.ColumnMap{Logical: s, Physical: s})
-		}
-		if run.shape == shapeUnits {
-			ts := ""
-			if run.tsMapped {
-				ts = m.TS
-			}
-			return ingest.NewUnitTableReader(run.sources, ingest.UnitTableOptions{Unit: m.User, Arm: m.Arm, TS: ts,
-				EpochUnit: m.EpochUnit, Metrics: e.metricColumns, Segments: segs})
-		}
-		o := run.counts
-		o.Arm, o.Segments = m.Arm, segs
-		for _, mt := range e.spec.Metrics {
-			o.Metrics = append(o.Metrics, mt.Name)
-		}
-		return ingest.NewCountsReader(run.sources, o)
-	}
-	exposure := ""
-	for i, e := range run.experiments {
-		if i > 0 && e.spec.ExposureEvent != exposure {
-			return nil, fmt.Errorf("not supported yet: experiments with different exposure events in one run (%q and %q); run them separately", exposure, e.spec.ExposureEvent)
-		}
-		exposure = e.spec.ExposureEvent
-	}
-	// Planned arms are checked row by row, so that an exposure in an arm
-	// that is not planned is a bad row (unknown_arm) named by file, row and
-	// column, skipped and counted under an error budget.
-	planned := map[string][]string{}
-	for _, e := range run.experiments {
-		if len(e.spec.Arms) > 0 {
-			planned[e.spec.Key] = e.spec.Arms
-		}
-	}
-	// An experiment without a key takes every exposure row: its arms are
-	// listed under "", which ingest applies to any key.
-	return ingest.NewReader(run.sources, ingest.Options{Mapping: m, ExposureEvent: exposure, PlannedArms: planned,
-		Delimiter: run.delimiter, MaxBadRows: run.maxBadRows, MaxBadShare: run.maxBadShare, Events: events})
-}
-
-// analyze reads the sources once, feeds every record batch to one tallier
-// per experiment and analyses each tally. The readouts follow the order of
-// run.experiments.
-func analyze(run *analyzeRun) ([]experiment.Readout, []tallier, error) {
-	talliers := make([]tallier, len(run.experiments))
-	// The events the experiments use (nil for a unit or counts table):
-	// the reader leaves out the rows of every other event.
-	var events []string
-	for i, e := range run.experiments {
-		var err error
-		if talliers[i], err = newTallier(run.shape, e.spec); err != nil {
-			return nil, nil, usagef("analyze: %v", err)
-		}
-		if tl, ok := talliers[i].(*experiment.Tallier); ok {
-			for _, ev := range tl.Events() {
-				if !slices.Contains(events, ev) {
-					events = append(events, ev)
-				}
-			}
-		}
-	}
-	r, err := newRecordReader(run, events)
-	if err != nil {
-		return nil, nil, usagef("analyze: %v", err)
-	}
-	defer r.Close()
-	var spill *ingest.Spill
 	if run.memoryLimit > 0 {
 		// The collector's soft limit, so that it works harder as the
 		// heap nears the limit rather than letting garbage pile up.
 		debug.SetMemoryLimit(run.memoryLimit)
-		if spill, err = ingest.NewSpill(run.spillDir, spillPartitions, r.Schema()); err != nil {
-			return nil, nil, fmt.Errorf("analyze: --memory-limit: %w", err)
-		}
-		defer spill.Close()
 	}
-	stopProgress := withProgress(run, r)
-	defer stopProgress()
-	for r.Next() {
-		rec := r.RecordBatch()
-		if spill != nil {
-			if err := spill.Add(rec); err != nil {
-				return nil, nil, fmt.Errorf("analyze: --memory-limit: %w", err)
-			}
-			continue
-		}
-		for _, tl := range talliers {
-			if err := tl.Add(rec); err != nil {
-				return nil, nil, &dataError{err}
-			}
-		}
+	res, err := pipeline.Run(ctx, in, exps, opts)
+	var (
+		ce *pipeline.ConfigError
+		de *pipeline.DataError
+		se *pipeline.SpillError
+	)
+	switch {
+	case errors.As(err, &ce):
+		return nil, usagef("analyze: %v", ce.Err)
+	case errors.As(err, &de):
+		return nil, &dataError{de.Err}
+	case errors.As(err, &se):
+		return nil, fmt.Errorf("analyze: --memory-limit: %w", se.Err)
+	case err != nil:
+		return nil, fmt.Errorf("analyze: %w", err)
 	}
-	stopProgress()
-	if err := r.Err(); err != nil {
-		return nil, nil, &dataError{err}
-	}
-	st := r.Stats()
-	tallies := make([]experiment.Tally, len(run.experiments))
-	if spill != nil {
-		if tallies, err = tallySpilled(run, spill, st); err != nil {
-			return nil, nil, err
-		}
-	} else {
-		for i, tl := range talliers {
-			if tl, ok := tl.(*experiment.Tallier); ok && st.Filtered > 0 {
-				tl.AddFiltered(st.Filtered, st.FilteredMaxTS)
-			}
-			if tallies[i], err = tl.Tally(); err != nil {
-				return nil, nil, &dataError{err}
-			}
-		}
-	}
-	readouts := make([]experiment.Readout, len(run.experiments))
-	for i, e := range run.experiments {
-		t := tallies[i]
-		opts := e.opts
-		opts.RowsRead = r.Stats().RowsRead
-		opts.BadRows = reasonCounts(r.Stats().BadRows)
-		if readouts[i], err = experiment.Analyze(e.spec, t, opts); err != nil {
-			return nil, nil, &dataError{err}
-		}
-	}
-	return readouts, talliers, nil
+	return res, nil
 }
 
 // writeAudits writes each experiment's per-unit audit table to run.audit,
 // or, with several experiments, to run.audit with "-KEY" before the
 // extension.
-func writeAudits(run *analyzeRun, talliers []tallier) error {
+func writeAudits(run *analyzeRun, res *pipeline.Result) error {
 	for i, e := range run.experiments {
-		var units iter.Seq[experiment.UnitRecord]
-		switch tl := talliers[i].(type) {
-		case *experiment.Tallier:
-			var err error
-			if units, err = tl.Units(); err != nil {
-				return &dataError{err}
+		units, err := res.Units(i)
+		if err != nil {
+			var de *pipeline.DataError
+			if errors.As(err, &de) {
+				return &dataError{de.Err}
 			}
-		case *experiment.UnitTableTallier:
-			units = tl.Units()
-		default:
-			return fmt.Errorf("experiment %q: its input has no units to audit", e.spec.Key)
+			return fmt.Errorf("experiment %q: %w", e.spec.Key, err)
 		}
 		path := auditPath(run.audit, e.spec.Key, len(run.experiments))
-		err := report.WriteFileAtomic(path, func(w io.Writer) error { return report.WriteAudit(w, e.spec, units) })
+		err = report.WriteFileAtomic(path, func(w io.Writer) error { return report.WriteAudit(w, e.spec, units) })
 		if err != nil {
 			return fmt.Errorf("writing the audit table of experiment %q: %w", e.spec.Key, err)
 		}

@@ -5,7 +5,6 @@ import (
 	"fmt"
 	"io"
 	"math/rand/v2"
-	"strconv"
 	"strings"
 	"time"
 
@@ -96,7 +95,7 @@ func runGen(args []string, stdout, stderr io.Writer) error {
 	if len(f.arms) > 0 {
 		cfg.Arms = nil
 		for _, s := range f.arms {
-			a, err := parseGenArm(s, len(cfg.Metrics))
+			a, err := sampledata.ParseArm(s, len(cfg.Metrics))
 			if err != nil {
 				return usagef("gen: --arm: %v", err)
 			}
@@ -135,7 +134,7 @@ func runGen(args []string, stdout, stderr io.Writer) error {
 			return fmt.Errorf("gen: %w", err)
 		}
 	}
-	t := newTruth(cfg, f.seed, sum)
+	t := sampledata.NewTruth(cfg, f.seed, sum)
 	if f.truth != "" {
 		err := report.WriteFileAtomic(f.truth, func(w io.Writer) error {
 			enc := json.NewEncoder(w)
@@ -150,84 +149,8 @@ func runGen(args []string, stdout, stderr io.Writer) error {
 	return nil
 }
 
-// parseGenArm parses NAME=SHARE:RATE[,RATE...] with one rate per metric.
-func parseGenArm(s string, metrics int) (sampledata.ArmConfig, error) {
-	var a sampledata.ArmConfig
-	name, rest, ok := strings.Cut(s, "=")
-	share, rates, ok2 := strings.Cut(rest, ":")
-	if !ok || !ok2 || name == "" {
-		return a, fmt.Errorf("%q: want NAME=SHARE:RATE[,RATE], for example control=1:0.10,0.04", s)
-	}
-	a.Name = name
-	v, err := strconv.ParseFloat(share, 64)
-	if err != nil {
-		return a, fmt.Errorf("%q: share %q is not a number", s, share)
-	}
-	a.Share = v
-	for _, r := range strings.Split(rates, ",") {
-		p, err := strconv.ParseFloat(strings.TrimSpace(r), 64)
-		if err != nil {
-			return a, fmt.Errorf("%q: rate %q is not a number", s, r)
-		}
-		a.Rates = append(a.Rates, p)
-	}
-	if len(a.Rates) != metrics {
-		return a, fmt.Errorf("%q: %d rates for %d metrics", s, len(a.Rates), metrics)
-	}
-	return a, nil
-}
-
-// truth is the generator's ground truth as gen prints and writes it.
-type truth struct {
-	Experiment    string        `json:"experiment"`
-	ExposureEvent string        `json:"exposure_event"`
-	Seed          uint64        `json:"seed"`
-	WindowStart   time.Time     `json:"window_start"`
-	WindowEnd     time.Time     `json:"window_end"`
-	Rows          int64         `json:"rows"`
-	ExposureRows  int64         `json:"exposure_rows"`
-	Units         int64         `json:"units"`
-	NeverExposed  int64         `json:"never_exposed_units"`
-	MultiArmUnits int64         `json:"multi_arm_units"`
-	Metrics       []truthMetric `json:"metrics"`
-	Arms          []truthArm    `json:"arms"`
-}
-
-type truthMetric struct {
-	Name          string `json:"name"`
-	WindowSeconds int64  `json:"window_seconds"`
-}
-
-type truthArm struct {
-	Name string `json:"name"`
-	// Units counts units whose first exposure was in this arm, multi-arm
-	// units included; SingleArmUnits leaves them out.
-	Units          int64     `json:"units"`
-	SingleArmUnits int64     `json:"single_arm_units"`
-	TrueRates      []float64 `json:"true_rates"`
-	Converted      []int64   `json:"converted"`
-}
-
-func newTruth(cfg sampledata.Config, seed uint64, s sampledata.Summary) truth {
-	t := truth{
-		Experiment: cfg.Experiment, ExposureEvent: cfg.ExposureEvent, Seed: seed,
-		WindowStart: cfg.Start.UTC(), WindowEnd: cfg.AnalysisEnd().UTC(),
-		Rows: s.Rows, ExposureRows: s.ExposureRows, Units: s.Units,
-		NeverExposed: s.NeverExposedUnits, MultiArmUnits: s.MultiArmUnits,
-	}
-	for _, m := range cfg.Metrics {
-		t.Metrics = append(t.Metrics, truthMetric{Name: m.Event, WindowSeconds: int64(m.Window / time.Second)})
-	}
-	for i, a := range cfg.Arms {
-		t.Arms = append(t.Arms, truthArm{
-			Name: a.Name, Units: s.UnitsPerArm[i], SingleArmUnits: s.SingleArmUnits[i],
-			TrueRates: a.Rates, Converted: s.Converted[i],
-		})
-	}
-	return t
-}
-
-func printTruth(w io.Writer, t truth, f genFlags) {
+// printTruth prints what gen wrote and the ground truth t.
+func printTruth(w io.Writer, t sampledata.Truth, f genFlags) {
 	var outs []string
 	for _, p := range []string{f.parquetOut, f.csvOut} {
 		if p != "" {

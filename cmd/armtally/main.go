@@ -32,6 +32,8 @@ import (
 	"os"
 
 	"github.com/spf13/pflag"
+
+	"github.com/armtally/armtally/experiment/specfile"
 )
 
 // Exit codes; see the package documentation.
@@ -110,7 +112,7 @@ func run(args []string, stdout, stderr io.Writer) int {
 	case "help", "-h", "--help":
 		if len(args) > 1 && cmd == "help" {
 			if args[1] == "spec" {
-				fmt.Fprint(stdout, specHelp())
+				fmt.Fprint(stdout, specfile.Help())
 				return exitOK
 			}
 			return run([]string{args[1], "--help"}, stdout, stderr)
@@ -146,8 +148,8 @@ func parseFlags(fs *pflag.FlagSet, args []string, usage string, stdout io.Writer
 func exitCode(err error, stderr io.Writer) int {
 	var ue *usageError
 	var de *dataError
-	var se *specError
-	var ses specErrors
+	var se *specfile.Error
+	var ses specfile.Errors
 	switch {
 	case err == nil:
 		return exitOK

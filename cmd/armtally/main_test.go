@@ -12,7 +12,6 @@ import (
 
 	"github.com/santhosh-tekuri/jsonschema/v6"
 
-	"github.com/armtally/armtally/experiment"
 	"github.com/armtally/armtally/report"
 	"github.com/armtally/armtally/sampledata"
 )
@@ -28,7 +27,7 @@ func runCmd(t *testing.T, args ...string) (int, string, string) {
 
 // readDoc reads a JSON readout file.
 func readDoc(t *testing.T, path string) (raw []byte, doc struct {
-	Readouts []experiment.Readout `json:"readouts"`
+	Readouts []report.JSONReadout `json:"readouts"`
 }) {
 	t.Helper()
 	raw, err := os.ReadFile(path)
@@ -46,7 +45,7 @@ func readDoc(t *testing.T, path string) (raw []byte, doc struct {
 
 // gen writes a generated log and its truth into dir and returns the
 // truth.
-func gen(t *testing.T, dir string, args ...string) truth {
+func gen(t *testing.T, dir string, args ...string) sampledata.Truth {
 	t.Helper()
 	truthPath := filepath.Join(dir, "truth.json")
 	code, _, stderr := runCmd(t, append([]string{"gen", "--truth", truthPath}, args...)...)
@@ -57,7 +56,7 @@ func gen(t *testing.T, dir string, args ...string) truth {
 	if err != nil {
 		t.Fatal(err)
 	}
-	var tr truth
+	var tr sampledata.Truth
 	if err := json.Unmarshal(b, &tr); err != nil {
 		t.Fatal(err)
 	}
@@ -66,7 +65,7 @@ func gen(t *testing.T, dir string, args ...string) truth {
 
 // analyzeArgs returns the analyze flags that match a generated log: the
 // window in which every unit is mature and the generator's metrics.
-func analyzeArgs(tr truth) []string {
+func analyzeArgs(tr sampledata.Truth) []string {
 	args := []string{
 		"--experiment", tr.Experiment, "--exposure-event", tr.ExposureEvent,
 		"--control", tr.Arms[0].Name,
@@ -84,9 +83,9 @@ func itoa(n int64) string { return strconv.FormatInt(n, 10) }
 // checkTruth checks that a readout's per-arm counts equal the generator's
 // ground truth, which the generator counts while it places the events,
 // without armtally's reader or tallier.
-func checkTruth(t *testing.T, r experiment.Readout, tr truth) {
+func checkTruth(t *testing.T, r report.JSONReadout, tr sampledata.Truth) {
 	t.Helper()
-	arms := map[string]truthArm{}
+	arms := map[string]sampledata.TruthArm{}
 	for _, a := range tr.Arms {
 		arms[a.Name] = a
 	}
@@ -131,7 +130,7 @@ func TestDemo(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	checkTruth(t, doc.Readouts[0], newTruth(sampledata.DemoConfig(), 0, sum))
+	checkTruth(t, doc.Readouts[0], sampledata.NewTruth(sampledata.DemoConfig(), 0, sum))
 	validate(t, raw)
 
 	// Same input, byte-identical output.
@@ -406,7 +405,7 @@ func TestUnknownArmBudget(t *testing.T) {
 	}
 	_, doc := readDoc(t, out)
 	d := doc.Readouts[0].Diagnostics
-	want := []experiment.ReasonCount{{Reason: "unknown_arm", Count: 1200}}
+	want := []report.JSONReasonCount{{Reason: "unknown_arm", Count: 1200}}
 	if !reflect.DeepEqual(d.BadRows, want) || d.RowsRead != 2200 || d.UnitsExposed != 1000 {
 		t.Errorf("bad rows %+v, rows read %d, units exposed %d; want %+v, 2200, 1000", d.BadRows, d.RowsRead, d.UnitsExposed, want)
 	}

@@ -15,13 +15,6 @@ import (
 // progressInterval is how often the progress line is redrawn.
 const progressInterval = time.Second
 
-// progressReporter is a reader that can say how many rows it has read so
-// far, safely from another goroutine (ingest.Reader can; the table
-// readers cannot).
-type progressReporter interface {
-	Progress() int64
-}
-
 // isTerminal reports whether w is a file open on a character device (a
 // terminal), the only place a progress line rewritten with '\r' belongs.
 // Buffers, pipes and regular files are not.
@@ -32,22 +25,6 @@ func isTerminal(w io.Writer) bool {
 	}
 	fi, err := f.Stat()
 	return err == nil && fi.Mode()&os.ModeCharDevice != 0
-}
-
-// withProgress starts the progress line of run on run.stderr while r is
-// read and returns the function that stops it and erases the line. It
-// shows nothing, and stop does nothing, when run.progress is off or r
-// cannot report its progress (the table readers). stop may be called more
-// than once.
-func withProgress(run *analyzeRun, r recordReader) (stop func()) {
-	if !run.progress || run.stderr == nil {
-		return func() {}
-	}
-	p, ok := r.(progressReporter)
-	if !ok {
-		return func() {}
-	}
-	return startProgress(run.stderr, p.Progress, progressInterval, time.Now)
 }
 
 // progress draws one status line, rewritten in place with '\r'. Only the

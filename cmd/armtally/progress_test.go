@@ -10,10 +10,6 @@ import (
 	"sync/atomic"
 	"testing"
 	"time"
-
-	"github.com/apache/arrow-go/v18/arrow"
-
-	"github.com/armtally/armtally/ingest"
 )
 
 // The expected strings below are worked out by hand from the inputs. The
@@ -181,55 +177,6 @@ func TestStartProgressStopBeforeFirstLine(t *testing.T) {
 	stop()
 	if got := w.String(); got != "" {
 		t.Errorf("stop before the first interval wrote %q, want nothing", got)
-	}
-}
-
-// fakeReader is a recordReader with no rows, like a table reader without
-// Progress.
-type fakeReader struct{}
-
-func (fakeReader) Schema() *arrow.Schema          { return nil }
-func (fakeReader) Next() bool                     { return false }
-func (fakeReader) RecordBatch() arrow.RecordBatch { return nil }
-func (fakeReader) Err() error                     { return nil }
-func (fakeReader) Stats() ingest.Stats            { return ingest.Stats{} }
-func (fakeReader) Close() error                   { return nil }
-
-// fakeProgressReader also reports its progress, like ingest.Reader.
-type fakeProgressReader struct {
-	fakeReader
-	rows atomic.Int64
-}
-
-func (r *fakeProgressReader) Progress() int64 { return r.rows.Load() }
-
-func TestWithProgress(t *testing.T) {
-	for _, tc := range []struct {
-		name     string
-		progress bool
-		r        recordReader
-		wantLine bool
-	}{
-		{"off", false, &fakeProgressReader{}, false},
-		{"reader without progress (a table)", true, fakeReader{}, false},
-		{"on", true, &fakeProgressReader{}, true},
-	} {
-		t.Run(tc.name, func(t *testing.T) {
-			t.Parallel()
-			w := newSyncBuffer()
-			stop := withProgress(&analyzeRun{progress: tc.progress, stderr: w}, tc.r)
-			if tc.wantLine {
-				// The real interval is one second; wait for the first line.
-				waitFor(t, w, "reading: 0 rows")
-			} else {
-				time.Sleep(progressInterval + 200*time.Millisecond)
-			}
-			stop()
-			got := w.String()
-			if drew := strings.Contains(got, "reading: 0 rows"); drew != tc.wantLine {
-				t.Errorf("output %q; want a progress line: %v", got, tc.wantLine)
-			}
-		})
 	}
 }
 

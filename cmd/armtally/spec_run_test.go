@@ -12,17 +12,18 @@ import (
 	"github.com/parquet-go/parquet-go"
 
 	"github.com/armtally/armtally/experiment"
+	"github.com/armtally/armtally/report"
 )
 
 // readReadouts reads a JSON readout document with any number of readouts.
-func readReadouts(t *testing.T, path string) ([]byte, []experiment.Readout) {
+func readReadouts(t *testing.T, path string) ([]byte, []report.JSONReadout) {
 	t.Helper()
 	raw, err := os.ReadFile(path)
 	if err != nil {
 		t.Fatal(err)
 	}
 	var doc struct {
-		Readouts []experiment.Readout `json:"readouts"`
+		Readouts []report.JSONReadout `json:"readouts"`
 	}
 	if err := json.Unmarshal(raw, &doc); err != nil {
 		t.Fatalf("%s: %v", path, err)
@@ -31,7 +32,7 @@ func readReadouts(t *testing.T, path string) ([]byte, []experiment.Readout) {
 }
 
 // reasonCount returns the count of reason in rs.
-func reasonCount(rs []experiment.ReasonCount, reason string) int64 {
+func reasonCount(rs []report.JSONReasonCount, reason string) int64 {
 	for _, r := range rs {
 		if r.Reason == reason {
 			return r.Count
@@ -181,7 +182,7 @@ func strconvQuote(s string) string {
 
 // twoCounts checks the readouts of the two-experiment log against the
 // counts worked out by hand in TestSpecTwoExperiments.
-func twoCounts(t *testing.T, rs []experiment.Readout) {
+func twoCounts(t *testing.T, rs []report.JSONReadout) {
 	t.Helper()
 	want := map[string]map[string][2]int64{
 		"booking-form": {"classic": {2, 1}, "one-step": {3, 2}},

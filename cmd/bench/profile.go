@@ -1,6 +1,7 @@
 package main
 
 import (
+	"context"
 	"fmt"
 	"io"
 	"os"
@@ -10,7 +11,7 @@ import (
 	"github.com/spf13/pflag"
 
 	"github.com/armtally/armtally/experiment"
-	"github.com/armtally/armtally/ingest"
+	"github.com/armtally/armtally/experiment/pipeline"
 )
 
 // spec returns the experiment.Spec that `armtally analyze` builds from
@@ -31,47 +32,15 @@ func (a analysis) spec() experiment.Spec {
 }
 
 // analyzeInProcess runs armtally's analysis of a over files in this
-// process, through the same calls as `armtally analyze`: an ingest.Reader
-// over the files that leaves out the events the Tallier does not use, the
-// Tallier fed each record batch and told of the rows left out, Tally, then
-// Analyze. It
+// process through pipeline.Run, the call `armtally analyze` makes, and
 // returns the readout.
 func analyzeInProcess(a analysis, files []string) (experiment.Readout, error) {
-	spec := a.spec()
-	sources, err := ingest.FileSources(files)
+	exps := []pipeline.Experiment{{Spec: a.spec(), Options: experiment.DefaultAnalysisOptions()}}
+	res, err := pipeline.Run(context.Background(), pipeline.Input{Paths: files}, exps, pipeline.Options{})
 	if err != nil {
 		return experiment.Readout{}, fmt.Errorf("analyze: %w", err)
 	}
-	tl, err := experiment.NewTallier(spec)
-	if err != nil {
-		return experiment.Readout{}, fmt.Errorf("analyze: %w", err)
-	}
-	r, err := ingest.NewReader(sources, ingest.Options{Mapping: ingest.DefaultMapping(), ExposureEvent: spec.ExposureEvent,
-		PlannedArms: map[string][]string{spec.Key: spec.Arms}, Events: tl.Events()})
-	if err != nil {
-		return experiment.Readout{}, fmt.Errorf("analyze: %w", err)
-	}
-	defer r.Close()
-	for r.Next() {
-		if err := tl.Add(r.Record()); err != nil {
-			return experiment.Readout{}, fmt.Errorf("analyze: %w", err)
-		}
-	}
-	if err := r.Err(); err != nil {
-		return experiment.Readout{}, fmt.Errorf("analyze: %w", err)
-	}
-	tl.AddFiltered(r.Stats().Filtered, r.Stats().FilteredMaxTS)
-	t, err := tl.Tally()
-	if err != nil {
-		return experiment.Readout{}, fmt.Errorf("analyze: %w", err)
-	}
-	opts := experiment.DefaultAnalysisOptions()
-	opts.RowsRead = r.Stats().RowsRead
-	readout, err := experiment.Analyze(spec, t, opts)
-	if err != nil {
-		return experiment.Readout{}, fmt.Errorf("analyze: %w", err)
-	}
-	return readout, nil
+	return res.Readouts[0], nil
 }
 
 // runProfile is the profile mode: it runs analyzeInProcess over --file

@@ -186,7 +186,7 @@ func renderReport(rep *benchReport) string {
 
 	if rep.ProfileTop != "" {
 		p("\n### Profile of armtally's analysis of the main log\n\n")
-		p("`bench profile --file FILE --cpuprofile analyze.cpu.prof` runs the calls of `armtally analyze` in-process (ingest.Reader, experiment.Tallier, Tally, Analyze) under `runtime/pprof`; %s. Then `go tool pprof -top -nodecount=30` and the same with `-cum`:\n\n", rep.ProfileNote)
+		p("`bench profile --file FILE --cpuprofile analyze.cpu.prof` runs `pipeline.Run`, the call `armtally analyze` makes, in-process under `runtime/pprof`; %s. Then `go tool pprof -top -nodecount=30` and the same with `-cum`:\n\n", rep.ProfileNote)
 		p("```\n%s\n```\n\n```\n%s\n```\n", trimPprof(rep.ProfileTop), trimPprof(rep.ProfileCum))
 	}
 

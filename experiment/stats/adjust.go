@@ -47,6 +47,9 @@ func (m AdjustMethod) String() string {
 	return fmt.Sprintf("AdjustMethod(%d)", int(m))
 }
 
+// Valid reports whether m is one of the methods above.
+func (m AdjustMethod) Valid() bool { return m >= None && m <= BenjaminiYekutieli }
+
 // ParseAdjustMethod parses the names String returns (case and surrounding
 // space ignored).
 func ParseAdjustMethod(s string) (AdjustMethod, error) {

@@ -6,14 +6,14 @@ import (
 	"testing"
 )
 
-// Adjusted p-values, REFERENCE-VALUES.md section 9: R 4.2.2
+// Adjusted p-values, experiment/REFERENCE-VALUES.md section 9: R 4.2.2
 // stats::p.adjust(p, method=...) [= statsmodels multipletests]; rel 1e-12.
 func TestAdjustPValues(t *testing.T) {
 	tests := []struct {
 		id                    string
 		p                     []float64
 		bonf, holm, bh, by    []float64
-		hochberg              []float64 // R 4.2.2 stats::p.adjust(method="hochberg"), run here (not in REFERENCE-VALUES.md)
+		hochberg              []float64 // R 4.2.2 stats::p.adjust(method="hochberg"), run here (not in experiment/REFERENCE-VALUES.md)
 		rejectBH, rejectBonf  int       // section 13 published counts at alpha 0.05 (MC-04 only)
 		checkPublishedRejects bool
 	}{
@@ -41,7 +41,7 @@ func TestAdjustPValues(t *testing.T) {
 			bh:                    []float64{0.0015, 0.003, 0.0095, 0.035625, 0.0603, 0.06385714285714286, 0.06385714285714286, 0.0645, 0.07650000000000001, 0.486, 0.5811818181818181, 0.7148749999999999, 0.7532307692307693, 0.8132142857142857, 1},
 			by:                    []float64{0.00497734348984349, 0.00995468697968698, 0.031523175435675434, 0.11821190788378289, 0.2000892082917083, 0.21189262285333715, 0.21189262285333715, 0.21402577006327006, 0.253844517982018, 1, 1, 1, 1, 1, 1},
 			hochberg:              []float64{0.0015, 0.0056, 0.0247, 0.11399999999999999, 0.2211, 0.2682, 0.2682, 0.2752, 0.32130000000000003, 1, 1, 1, 1, 1, 1},
-			rejectBH:              4, // Benjamini & Hochberg 1995 (JRSS B 57:289-300), section 4 example; from memory (REFERENCE-VALUES.md section 13)
+			rejectBH:              4, // Benjamini & Hochberg 1995 (JRSS B 57:289-300), section 4 example; from memory (experiment/REFERENCE-VALUES.md section 13)
 			rejectBonf:            3, // same example, Bonferroni
 			checkPublishedRejects: true},
 		{id: "MC-05 unsorted", p: []float64{0.04, 0.001, 0.03, 0.2, 0.01},

@@ -64,7 +64,8 @@ func ParseAlternative(s string) (Alternative, error) {
 	return TwoSided, fmt.Errorf("%w: alternative %q (want two-sided, greater or less)", ErrBadParameter, s)
 }
 
-func (a Alternative) valid() bool { return a == TwoSided || a == Greater || a == Less }
+// Valid reports whether a is one of TwoSided, Greater and Less.
+func (a Alternative) Valid() bool { return a == TwoSided || a == Greater || a == Less }
 
 // Options are the analysis settings the statistics depend on.
 type Options struct {
@@ -118,7 +119,7 @@ func checkOpen(name string, v float64) error {
 }
 
 func checkAlt(a Alternative) error {
-	if !a.valid() {
+	if !a.Valid() {
 		return fmt.Errorf("%w: alternative %d", ErrBadParameter, int(a))
 	}
 	return nil

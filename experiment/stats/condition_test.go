@@ -5,8 +5,8 @@ import (
 	"testing"
 )
 
-// The rule of thumb (DESIGN.md "Conditions"; common practice): at least
-// minCount conversions and non-conversions per arm.
+// The rule of thumb (experiment/DESIGN.md, "Conditions"; common practice): at
+// least minCount conversions and non-conversions per arm.
 func TestTwoSampleCondition(t *testing.T) {
 	tests := []struct {
 		name           string

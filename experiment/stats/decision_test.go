@@ -19,8 +19,9 @@ func agree(t *testing.T, zt ZTest) bool {
 
 // TestDecisionRoutesAgree checks, over a grid of counts, alphas and
 // alternatives, that |z| >= critical value exactly when p <= alpha
-// (REFERENCE-VALUES.md: "Two decision routes must agree"), and that no
-// result is NaN or infinite.
+// (experiment/REFERENCE-VALUES.md, "How to read these tables": the two
+// decision routes must give the same answer), and that no result is NaN or
+// infinite.
 func TestDecisionRoutesAgree(t *testing.T) {
 	alphas := []float64{0.001, 0.01, 0.05, 0.1, 0.2}
 	alts := []Alternative{TwoSided, Greater, Less}

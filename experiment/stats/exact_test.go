@@ -9,7 +9,7 @@ import (
 	"gonum.org/v1/gonum/mathext"
 )
 
-// One-proportion z test, REFERENCE-VALUES.md section 4: R 4.2.2
+// One-proportion z test, experiment/REFERENCE-VALUES.md section 4: R 4.2.2
 // stats::prop.test(x, n, p = p0, correct=FALSE), z = sign(p_hat - p0) *
 // sqrt(X-squared).
 func TestOneProportionZTest(t *testing.T) {
@@ -52,7 +52,7 @@ func TestOneProportionZTest(t *testing.T) {
 	}
 }
 
-// Exact binomial test, REFERENCE-VALUES.md section 5: R 4.2.2
+// Exact binomial test, experiment/REFERENCE-VALUES.md section 5: R 4.2.2
 // stats::binom.test(x, n, p0, alternative=...)$p.value [= SciPy binomtest,
 // mpmath 50-digit sum]; rel 1e-9.
 func TestBinomialExact(t *testing.T) {
@@ -116,7 +116,7 @@ func TestBinomialExactSpecial(t *testing.T) {
 	}
 }
 
-// Fisher's exact test, REFERENCE-VALUES.md section 8: R 4.2.2
+// Fisher's exact test, experiment/REFERENCE-VALUES.md section 8: R 4.2.2
 // stats::fisher.test(matrix, alternative=...)$p.value [= SciPy fisher_exact,
 // mpmath 50-digit sum]; rel 1e-9. Rows are arms, treatment first.
 func TestFisherExact(t *testing.T) {
@@ -173,8 +173,8 @@ func TestFisherExactSpecial(t *testing.T) {
 }
 
 // TestFisherExactLarge runs a table of two million units. The reference is
-// the pooled z test's p-value (REFERENCE-VALUES.md P2-13 uses the same
-// counts): for 230/1e6 vs 180/1e6 Fisher's p must be near the z test's
+// the pooled z test's p-value (experiment/REFERENCE-VALUES.md P2-13 uses the
+// same counts): for 230/1e6 vs 180/1e6 Fisher's p must be near the z test's
 // 0.0135 (R 4.2.2 prop.test) but a little larger, exact tests being
 // conservative; and the call must be fast.
 func TestFisherExactLarge(t *testing.T) {

@@ -9,7 +9,7 @@ import (
 
 // The per-arm rate of a checkout metric: 81 of 263 units converted. The
 // interval matches R 4.2.2 prop.test(81, 263, correct = FALSE)$conf.int,
-// [0.2552885, 0.3662096] (REFERENCE-VALUES.md CI-01).
+// [0.2552885, 0.3662096] (experiment/REFERENCE-VALUES.md CI-01).
 func ExampleWilson() {
 	ci, err := stats.Wilson(81, 263, 0.95)
 	if err != nil {
@@ -22,8 +22,8 @@ func ExampleWilson() {
 
 // Treatment 1300/25000 against control 1200/25000, decided by both routes.
 // R 4.2.2 prop.test(c(1300, 1200), c(25000, 25000), correct = FALSE) gives
-// X-squared = 4.2105 (z = 2.0520) and p = 0.04017 (REFERENCE-VALUES.md
-// P2-09).
+// X-squared = 4.2105 (z = 2.0520) and p = 0.04017
+// (experiment/REFERENCE-VALUES.md P2-09).
 func ExampleTwoProportionZTest() {
 	opt := stats.DefaultOptions()
 	zt, err := stats.TwoProportionZTest(1300, 25000, 1200, 25000, opt.Alpha, opt.Alternative)
@@ -68,7 +68,7 @@ func ExampleNewcombeDifference() {
 
 // When an arm has too few conversions, the rule of thumb says so and the
 // readout relies on Fisher's exact test. R 4.2.2 fisher.test(matrix(c(9, 3,
-// 1, 7), 2))$p.value = 0.01977 (REFERENCE-VALUES.md FE-02).
+// 1, 7), 2))$p.value = 0.01977 (experiment/REFERENCE-VALUES.md FE-02).
 func ExampleFisherExact() {
 	ok, warnings := stats.TwoSampleCondition(9, 10, 3, 10, 5)
 	fmt.Println(ok)
@@ -86,7 +86,7 @@ func ExampleFisherExact() {
 
 // Units per arm to detect 10% against 12% with 80% power at alpha 0.05,
 // two-sided: R 4.2.2 power.prop.test gives n = 3840.85, so 3841
-// (REFERENCE-VALUES.md SS-01).
+// (experiment/REFERENCE-VALUES.md SS-01).
 func ExampleSampleSizePerArm() {
 	n, _ := stats.SampleSizePerArm(0.10, 0.12, 0.05, 0.8, stats.TwoSided)
 	fmt.Println(n)

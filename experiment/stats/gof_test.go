@@ -5,7 +5,7 @@ import (
 	"testing"
 )
 
-// Sample ratio check, REFERENCE-VALUES.md section 10: R 4.2.2
+// Sample ratio check, experiment/REFERENCE-VALUES.md section 10: R 4.2.2
 // stats::chisq.test(x, p = ...) [= SciPy chisquare]; statistic rel 1e-12,
 // df exact, p rel 1e-9.
 func TestChiSquareGoodnessOfFit(t *testing.T) {

@@ -6,9 +6,9 @@ import (
 )
 
 // near fails the test unless |got - want| <= rel |want| or
-// |got - want| <= abs, the tolerances of REFERENCE-VALUES.md. (gonum's
-// scalar.EqualWithinRel compares differences below the smallest normal
-// float absolutely, which rejects any two distinct values near 1e-300.)
+// |got - want| <= abs, the tolerances of experiment/REFERENCE-VALUES.md. (gonum's
+// scalar.EqualWithinRel compares differences below the smallest normal float
+// absolutely, which rejects any two distinct values near 1e-300.)
 func near(t *testing.T, what string, got, want, rel, abs float64) {
 	t.Helper()
 	if math.IsNaN(got) || math.IsInf(got, 0) {

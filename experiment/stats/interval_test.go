@@ -5,11 +5,12 @@ import (
 	"testing"
 )
 
-// Single-proportion intervals, REFERENCE-VALUES.md section 6. Wilson: R
-// 4.2.2 stats::prop.test(x, n, correct=FALSE)$conf.int; Clopper-Pearson: R
-// 4.2.2 stats::binom.test(x, n)$conf.int; Wald and Agresti-Coull (clipped):
-// statsmodels 0.13.5 proportion_confint(method='normal' / 'agresti_coull').
-// Tolerances as suggested there: rel 1e-12 abs 1e-15, Clopper-Pearson rel 1e-9.
+// Single-proportion intervals, experiment/REFERENCE-VALUES.md section 6.
+// Wilson: R 4.2.2 stats::prop.test(x, n, correct=FALSE)$conf.int;
+// Clopper-Pearson: R 4.2.2 stats::binom.test(x, n)$conf.int; Wald and
+// Agresti-Coull (clipped): statsmodels 0.13.5
+// proportion_confint(method='normal' / 'agresti_coull'). Tolerances as
+// suggested there: rel 1e-12 abs 1e-15, Clopper-Pearson rel 1e-9.
 func TestSingleProportionIntervals(t *testing.T) {
 	tests := []struct {
 		id         string
@@ -120,9 +121,9 @@ func TestSingleProportionIntervals(t *testing.T) {
 	}
 }
 
-// TestIntervalBoundaries checks the exact ends REFERENCE-VALUES.md section 6
-// and section 14 ("Wilson at the boundary") require: exactly 0 at x = 0 and
-// exactly 1 at x = n, as R returns.
+// TestIntervalBoundaries checks the exact ends experiment/REFERENCE-VALUES.md
+// section 6 and section 14 ("Wilson at the ends") require: exactly 0 at x = 0
+// and exactly 1 at x = n, as R returns.
 func TestIntervalBoundaries(t *testing.T) {
 	for _, n := range []int64{1, 2, 7, 20, 1000, 2000000} {
 		for _, f := range []struct {
@@ -148,7 +149,7 @@ func TestIntervalBoundaries(t *testing.T) {
 }
 
 // TestPublishedSingleProportion checks the published 4-decimal values of
-// REFERENCE-VALUES.md section 13 with abs 5e-5.
+// experiment/REFERENCE-VALUES.md section 13 with abs 5e-5.
 func TestPublishedSingleProportion(t *testing.T) {
 	w, _ := Wilson(81, 263, 0.95)
 	nearInterval(t, "CI-01 Wilson", w, [2]float64{0.2553, 0.3662}, 0, 5e-5) // Newcombe 1998 (Stat Med 17:857-872), Table I, 81/263, method 3; from memory

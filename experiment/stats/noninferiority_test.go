@@ -6,10 +6,10 @@ import (
 	"testing"
 )
 
-// Non-inferiority, REFERENCE-VALUES.md section 12: Wald from statsmodels
-// 0.13.5 test_proportions_2indep(method='wald') [= R formula]; score values
-// from the Farrington-Manning cubic evaluated in R 4.2.2 [= mpmath 40-digit
-// maximisation of the likelihood].
+// Non-inferiority, experiment/REFERENCE-VALUES.md section 12: Wald from
+// statsmodels 0.13.5 test_proportions_2indep(method='wald') [= R formula];
+// score values from the Farrington-Manning cubic evaluated in R 4.2.2
+// [= mpmath 40-digit maximisation of the likelihood].
 func TestNonInferiority(t *testing.T) {
 	tests := []struct {
 		id                 string
@@ -65,7 +65,7 @@ func TestNonInferiorityEdges(t *testing.T) {
 		t.Errorf("0/100 vs 0/100 Wald: %+v %v", zt, err)
 	}
 	// Margin 0 reduces the score test to the pooled z test, one-sided
-	// (REFERENCE-VALUES.md P2-01: z = 2.650171951258533, p greater
+	// (experiment/REFERENCE-VALUES.md P2-01: z = 2.650171951258533, p greater
 	// 0.0040225406840982865, R 4.2.2 prop.test).
 	zt, err = NonInferiorityZTest(56, 70, 48, 80, 0, 0.05, FarringtonManning)
 	if err != nil {

@@ -10,11 +10,11 @@ func TestNormalUpperTail(t *testing.T) {
 		id           string
 		z, q, twoSid float64
 	}{
-		{"NT-01", 5, 2.866515718791939e-07, 5.733031437583878e-07},     // REFERENCE-VALUES.md NT-01 (R 4.2.2 pnorm(z, lower.tail=FALSE); 2*pnorm(-|z|))
-		{"NT-02", 8, 6.220960574271785e-16, 1.244192114854357e-15},     // REFERENCE-VALUES.md NT-02 (R 4.2.2 pnorm)
-		{"NT-03", 10, 7.619853024160527e-24, 1.5239706048321054e-23},   // REFERENCE-VALUES.md NT-03 (R 4.2.2 pnorm)
-		{"NT-04", 20, 2.7536241186062337e-89, 5.5072482372124675e-89},  // REFERENCE-VALUES.md NT-04 (R 4.2.2 pnorm)
-		{"NT-05", 37, 5.725571222524577e-300, 1.1451142445049154e-299}, // REFERENCE-VALUES.md NT-05 (R 4.2.2 pnorm)
+		{"NT-01", 5, 2.866515718791939e-07, 5.733031437583878e-07},     // experiment/REFERENCE-VALUES.md NT-01 (R 4.2.2 pnorm(z, lower.tail=FALSE); 2*pnorm(-|z|))
+		{"NT-02", 8, 6.220960574271785e-16, 1.244192114854357e-15},     // experiment/REFERENCE-VALUES.md NT-02 (R 4.2.2 pnorm)
+		{"NT-03", 10, 7.619853024160527e-24, 1.5239706048321054e-23},   // experiment/REFERENCE-VALUES.md NT-03 (R 4.2.2 pnorm)
+		{"NT-04", 20, 2.7536241186062337e-89, 5.5072482372124675e-89},  // experiment/REFERENCE-VALUES.md NT-04 (R 4.2.2 pnorm)
+		{"NT-05", 37, 5.725571222524577e-300, 1.1451142445049154e-299}, // experiment/REFERENCE-VALUES.md NT-05 (R 4.2.2 pnorm)
 	}
 	for _, tc := range tests {
 		t.Run(tc.id, func(t *testing.T) {
@@ -52,10 +52,10 @@ func TestNormalQuantile(t *testing.T) {
 		id      string
 		p, want float64
 	}{
-		{"NQ-01", 0.975, 1.9599639845400536},  // REFERENCE-VALUES.md NQ-01 (R 4.2.2 qnorm)
-		{"NQ-02", 0.995, 2.5758293035489},     // REFERENCE-VALUES.md NQ-02 (R 4.2.2 qnorm)
-		{"NQ-03", 0.9995, 3.2905267314919255}, // REFERENCE-VALUES.md NQ-03 (R 4.2.2 qnorm)
-		{"NQ-04", 1e-10, -6.361340902404056},  // REFERENCE-VALUES.md NQ-04 (R 4.2.2 qnorm)
+		{"NQ-01", 0.975, 1.9599639845400536},  // experiment/REFERENCE-VALUES.md NQ-01 (R 4.2.2 qnorm)
+		{"NQ-02", 0.995, 2.5758293035489},     // experiment/REFERENCE-VALUES.md NQ-02 (R 4.2.2 qnorm)
+		{"NQ-03", 0.9995, 3.2905267314919255}, // experiment/REFERENCE-VALUES.md NQ-03 (R 4.2.2 qnorm)
+		{"NQ-04", 1e-10, -6.361340902404056},  // experiment/REFERENCE-VALUES.md NQ-04 (R 4.2.2 qnorm)
 	}
 	for _, tc := range tests {
 		t.Run(tc.id, func(t *testing.T) {
@@ -80,12 +80,12 @@ func TestCriticalValue(t *testing.T) {
 		alt   Alternative
 		want  float64
 	}{
-		{"CV-01", 0.1, Greater, 1.2815515655446008},   // REFERENCE-VALUES.md CV-01 (R 4.2.2 qnorm(alpha, lower.tail=FALSE))
-		{"CV-02", 0.05, Greater, 1.6448536269514726},  // REFERENCE-VALUES.md CV-02
-		{"CV-03", 0.01, Less, 2.3263478740408408},     // REFERENCE-VALUES.md CV-03 (one-sided; less uses the same positive value)
-		{"CV-04", 0.1, TwoSided, 1.6448536269514726},  // REFERENCE-VALUES.md CV-04
-		{"CV-05", 0.05, TwoSided, 1.9599639845400538}, // REFERENCE-VALUES.md CV-05
-		{"CV-06", 0.01, TwoSided, 2.5758293035489},    // REFERENCE-VALUES.md CV-06
+		{"CV-01", 0.1, Greater, 1.2815515655446008},   // experiment/REFERENCE-VALUES.md CV-01 (R 4.2.2 qnorm(alpha, lower.tail=FALSE))
+		{"CV-02", 0.05, Greater, 1.6448536269514726},  // experiment/REFERENCE-VALUES.md CV-02
+		{"CV-03", 0.01, Less, 2.3263478740408408},     // experiment/REFERENCE-VALUES.md CV-03 (one-sided; less uses the same positive value)
+		{"CV-04", 0.1, TwoSided, 1.6448536269514726},  // experiment/REFERENCE-VALUES.md CV-04
+		{"CV-05", 0.05, TwoSided, 1.9599639845400538}, // experiment/REFERENCE-VALUES.md CV-05
+		{"CV-06", 0.01, TwoSided, 2.5758293035489},    // experiment/REFERENCE-VALUES.md CV-06
 	}
 	for _, tc := range tests {
 		t.Run(tc.id, func(t *testing.T) {
@@ -116,7 +116,7 @@ func TestAlternativeNames(t *testing.T) {
 			t.Errorf("ParseAlternative(%q) = %v, %v", a.String(), got, err)
 		}
 	}
-	want := map[Alternative]string{TwoSided: "two-sided", Greater: "greater", Less: "less"} // names fixed by DESIGN.md
+	want := map[Alternative]string{TwoSided: "two-sided", Greater: "greater", Less: "less"} // names fixed by experiment/DESIGN.md
 	for a, s := range want {
 		if a.String() != s {
 			t.Errorf("%d.String() = %q, want %q", int(a), a.String(), s)

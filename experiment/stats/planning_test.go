@@ -6,11 +6,12 @@ import (
 	"testing"
 )
 
-// Sample-size planning, REFERENCE-VALUES.md section 11. Normal n: R 4.2.2
-// stats::power.prop.test(p1, p2, power, sig.level, tol=1e-12) (strict=TRUE
-// for both tails); continuity correction: the closed form of Fleiss, Tytun
-// & Ury (1980) evaluated in R; Cohen's h and arcsine n: pwr 1.3.0 ES.h and
-// the pwr.2p.test power function solved with uniroot(tol=1e-12).
+// Sample-size planning, experiment/REFERENCE-VALUES.md section 11. Normal n:
+// R 4.2.2 stats::power.prop.test(p1, p2, power, sig.level, tol=1e-12)
+// (strict=TRUE for both tails); continuity correction: the closed form of
+// Fleiss, Tytun & Ury (1980) evaluated in R; Cohen's h and arcsine n: pwr
+// 1.3.0 ES.h and the pwr.2p.test power function solved with
+// uniroot(tol=1e-12).
 func TestSampleSize(t *testing.T) {
 	tests := []struct {
 		id                      string
@@ -68,9 +69,9 @@ func TestSampleSize(t *testing.T) {
 	}
 }
 
-// Power and detectable effects, REFERENCE-VALUES.md SS-07..SS-09: R 4.2.2
-// power.prop.test (strict=TRUE for both tails; tol=1e-12 when solving) and
-// pwr 1.3.0 pwr.2p.test (uniroot tol=1e-14 for h).
+// Power and detectable effects, experiment/REFERENCE-VALUES.md SS-07..SS-09:
+// R 4.2.2 power.prop.test (strict=TRUE for both tails; tol=1e-12 when
+// solving) and pwr 1.3.0 pwr.2p.test (uniroot tol=1e-14 for h).
 func TestPower(t *testing.T) {
 	tests := []struct {
 		id                    string

@@ -6,11 +6,11 @@ import (
 	"testing"
 )
 
-// Two proportions, REFERENCE-VALUES.md section 7. z and p-values: R 4.2.2
-// stats::prop.test(c(x1,x2), c(n1,n2), correct=FALSE) (z = sign(p1-p2) *
-// sqrt(X-squared)); Wald CI: its $conf.int; Newcombe: method 10 from R's
-// Wilson limits [= statsmodels confint_proportions_2indep]; Katz: epitools
-// 0.5-10.1 riskratio.wald; Woolf: epitools oddsratio.wald.
+// Two proportions, experiment/REFERENCE-VALUES.md section 7. z and p-values:
+// R 4.2.2 stats::prop.test(c(x1,x2), c(n1,n2), correct=FALSE)
+// (z = sign(p1-p2) * sqrt(X-squared)); Wald CI: its $conf.int; Newcombe:
+// method 10 from R's Wilson limits [= statsmodels confint_proportions_2indep]; Katz:
+// epitools 0.5-10.1 riskratio.wald; Woolf: epitools oddsratio.wald.
 type twoSampleCase struct {
 	id                    string
 	x1, n1, x2, n2        int64
@@ -121,7 +121,7 @@ func TestTwoSample(t *testing.T) {
 			kz, err := KatzRatio(tc.x1, tc.n1, tc.x2, tc.n2, tc.level)
 			if tc.katzUndef {
 				if !errors.Is(err, ErrUndefined) {
-					t.Errorf("Katz: err = %v, want ErrUndefined (REFERENCE-VALUES.md: undefined)", err)
+					t.Errorf("Katz: err = %v, want ErrUndefined (experiment/REFERENCE-VALUES.md: undefined)", err)
 				}
 			} else {
 				if err != nil {
@@ -148,8 +148,8 @@ func TestTwoSample(t *testing.T) {
 	}
 }
 
-// TestPooledUndefined covers P2-05 and P2-06 (no conversions in either
-// arm), where R and statsmodels return NaN for z (REFERENCE-VALUES.md
+// TestPooledUndefined covers P2-05 and P2-06 (no conversions in either arm),
+// where R and statsmodels return NaN for z (experiment/REFERENCE-VALUES.md
 // section 14, "Undefined cases"), and the mirror case with every unit
 // converting. armtally reports z = 0, p = 1 and a warning instead.
 func TestPooledUndefined(t *testing.T) {
@@ -160,8 +160,8 @@ func TestPooledUndefined(t *testing.T) {
 		hasNewcombe    bool
 		why            string
 	}{
-		{"P2-05", 0, 10, 0, 20, [2]float64{-0.1611251580528193, 0.27753279986288915}, true, "no unit converted"},  // Newcombe: REFERENCE-VALUES.md P2-05 (R Wilson limits)
-		{"P2-06", 0, 10, 0, 10, [2]float64{-0.27753279986288915, 0.27753279986288915}, true, "no unit converted"}, // Newcombe: REFERENCE-VALUES.md P2-06
+		{"P2-05", 0, 10, 0, 20, [2]float64{-0.1611251580528193, 0.27753279986288915}, true, "no unit converted"},  // Newcombe: experiment/REFERENCE-VALUES.md P2-05 (R Wilson limits)
+		{"P2-06", 0, 10, 0, 10, [2]float64{-0.27753279986288915, 0.27753279986288915}, true, "no unit converted"}, // Newcombe: experiment/REFERENCE-VALUES.md P2-06
 		{"all converted", 10, 10, 20, 20, [2]float64{}, false, "every unit converted"},
 		{"n=1 both", 1, 1, 1, 1, [2]float64{}, false, "every unit converted"},
 	}
@@ -183,7 +183,7 @@ func TestPooledUndefined(t *testing.T) {
 			if err != nil {
 				t.Fatal(err)
 			}
-			if wd.Lower != 0 || wd.Upper != 0 { // REFERENCE-VALUES.md P2-05/06 Wald CI [0, 0] (R prop.test)
+			if wd.Lower != 0 || wd.Upper != 0 { // experiment/REFERENCE-VALUES.md P2-05/06 Wald CI [0, 0] (R prop.test)
 				t.Errorf("Wald difference %+v, want [0, 0]", wd)
 			}
 			if tc.hasNewcombe {
@@ -202,7 +202,7 @@ func TestPooledUndefined(t *testing.T) {
 
 // TestPublishedNewcombe checks Newcombe (1998), Stat Med 17:873-890, Table
 // II, examples (a)-(h), method 10, at the published 4 decimals (abs 5e-5),
-// REFERENCE-VALUES.md section 13 (from memory; agree with R there).
+// experiment/REFERENCE-VALUES.md section 13 (from memory; agree with R there).
 func TestPublishedNewcombe(t *testing.T) {
 	cases := []struct {
 		id             string

@@ -169,8 +169,23 @@ const (
 	WaldNonInferiority
 )
 
-// String returns the method's name as the readout prints it.
+// String returns "farrington-manning", "miettinen-nurminen" or "wald",
+// the names ParseNonInferiorityMethod reads.
 func (m NonInferiorityMethod) String() string {
+	switch m {
+	case FarringtonManning:
+		return "farrington-manning"
+	case MiettinenNurminen:
+		return "miettinen-nurminen"
+	case WaldNonInferiority:
+		return "wald"
+	}
+	return fmt.Sprintf("NonInferiorityMethod(%d)", int(m))
+}
+
+// Name returns the method's name as the readout prints it:
+// "Farrington-Manning score", "Miettinen-Nurminen score" or "Wald".
+func (m NonInferiorityMethod) Name() string {
 	switch m {
 	case FarringtonManning:
 		return "Farrington-Manning score"
@@ -179,7 +194,20 @@ func (m NonInferiorityMethod) String() string {
 	case WaldNonInferiority:
 		return "Wald"
 	}
-	return fmt.Sprintf("NonInferiorityMethod(%d)", int(m))
+	return m.String()
+}
+
+// Valid reports whether m is one of the methods above.
+func (m NonInferiorityMethod) Valid() bool { return m >= FarringtonManning && m <= WaldNonInferiority }
+
+// ParseNonInferiorityMethod parses the names String returns, exactly.
+func ParseNonInferiorityMethod(s string) (NonInferiorityMethod, error) {
+	for _, m := range []NonInferiorityMethod{FarringtonManning, MiettinenNurminen, WaldNonInferiority} {
+		if s == m.String() {
+			return m, nil
+		}
+	}
+	return FarringtonManning, fmt.Errorf("%q: want farrington-manning, miettinen-nurminen or wald", s)
 }
 
 // restrictedMLE returns the maximum likelihood estimates (p1~, p2~) of two
@@ -246,7 +274,7 @@ func restrictedMLE(x1, n1, x2, n2 int64, delta float64) (float64, float64) {
 //  2. Miettinen O, Nurminen M (1985). Comparative analysis of two rates.
 //     Statistics in Medicine 4(2):213-226.
 func NonInferiorityZTest(x1, n1, x2, n2 int64, margin, alpha float64, method NonInferiorityMethod) (ZTest, error) {
-	name := "non-inferiority z test (" + method.String() + ")"
+	name := "non-inferiority z test (" + method.Name() + ")"
 	if err := checkTwo(x1, n1, x2, n2); err != nil {
 		return ZTest{}, fmt.Errorf("%s: %w", name, err)
 	}

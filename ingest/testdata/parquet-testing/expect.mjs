@@ -1,12 +1,13 @@
 #!/usr/bin/env node
-// Writes, for each Parquet file of parquet-testing/data, the values of its
-// columns as DuckDB reads them: an independent Parquet reader (C++), used by
-// ingest's TestParquetTestingData as the expected values of the files that
+// Writes, for each Parquet file of upstream/data (our copy of part of the
+// Apache parquet-testing repository), the values of its columns as DuckDB
+// reads them: an independent Parquet reader (C++), used by ingest's
+// TestParquetTestingData as the expected values of the files that
 // have no upstream description (*_expect.csv, *.md).
 //
 // Usage, from this folder:
 //   npm ci
-//   node expect.mjs ../../../../shared/parquet-testing/data > expect.json
+//   node expect.mjs upstream/data > expect.json
 //
 // For each file: its row count and, per leaf column that is not inside a
 // repeated group, its path (dotted), DuckDB's type and its values as text:
@@ -28,7 +29,7 @@ const SKIP = new Set([
   'int96_from_spark.parquet',
 ]);
 
-const dir = resolve(process.argv[2] ?? '../../../../shared/parquet-testing/data');
+const dir = resolve(process.argv[2] ?? 'upstream/data');
 const db = await DuckDBInstance.create(':memory:');
 const con = await db.connect();
 

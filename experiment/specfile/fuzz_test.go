@@ -1,7 +1,8 @@
-package main
+package specfile
 
 import (
 	"path/filepath"
+	"slices"
 	"strings"
 	"testing"
 
@@ -13,17 +14,17 @@ import (
 // every value it sets: the values decoded here by go-toml into plain maps,
 // without armtally's types, must be the values armtally's settings hold.
 // The seed corpus is testdata/fuzz/FuzzSpecFile (the example, the
-// two-experiment spec and every file of testdata/spec/bad).
+// two-experiment spec of cmd/armtally and every file of testdata/bad).
 func FuzzSpecFile(f *testing.F) {
 	f.Fuzz(func(t *testing.T, data []byte) {
-		sf, err := parseSpecFile("fuzz.toml", data)
+		sf, err := Parse("fuzz.toml", data)
 		if err != nil {
 			if !strings.HasPrefix(err.Error(), "fuzz.toml") {
 				t.Errorf("error does not start with the file name: %v", err)
 			}
 			return
 		}
-		_ = sf.unsupported()
+		_ = sf.Unsupported()
 		var raw map[string]any
 		if err := toml.Unmarshal(data, &raw); err != nil {
 			t.Fatalf("armtally accepted a file go-toml rejects: %v", err)
@@ -34,7 +35,7 @@ func FuzzSpecFile(f *testing.F) {
 
 // checkRoundTrip compares the parsed spec file with the raw decoded
 // document.
-func checkRoundTrip(t *testing.T, sf *specFile, raw map[string]any) {
+func checkRoundTrip(t *testing.T, sf *File, raw map[string]any) {
 	t.Helper()
 	table := func(m map[string]any, key string) map[string]any {
 		v, _ := m[key].(map[string]any)
@@ -67,24 +68,24 @@ func checkRoundTrip(t *testing.T, sf *specFile, raw map[string]any) {
 
 	in := table(raw, "input")
 	paths := strs(in, "paths")
-	if len(paths) != len(sf.paths) {
-		t.Fatalf("input.paths: %d in the file, %d parsed", len(paths), len(sf.paths))
+	if len(paths) != len(sf.Paths) {
+		t.Fatalf("input.paths: %d in the file, %d parsed", len(paths), len(sf.Paths))
 	}
 	for i, p := range paths {
 		want := p
 		if !filepath.IsAbs(p) {
 			want = filepath.Join(".", p)
 		}
-		if sf.paths[i] != want {
-			t.Errorf("input.paths[%d] = %q, parsed %q", i, p, sf.paths[i])
+		if sf.Paths[i] != want {
+			t.Errorf("input.paths[%d] = %q, parsed %q", i, p, sf.Paths[i])
 		}
 	}
-	if got := str(in, "shape", shapeEvents); got != sf.shape {
-		t.Errorf("input.shape = %q, parsed %q", got, sf.shape)
+	if got := str(in, "shape", "events"); got != shapeName(sf.Shape) {
+		t.Errorf("input.shape = %q, parsed %q", got, shapeName(sf.Shape))
 	}
 
 	cols := table(raw, "columns")
-	m := sf.mapping
+	m := sf.Mapping
 	for _, c := range []struct{ key, def, got string }{
 		{"user", "user_id", m.User}, {"ts", "ts", m.TS}, {"event", "event", m.Event},
 		{"experiment", "experiment", m.Experiment}, {"arm", "arm", m.Arm}, {"epoch_unit", "", m.EpochUnit},
@@ -93,17 +94,17 @@ func checkRoundTrip(t *testing.T, sf *specFile, raw map[string]any) {
 			t.Errorf("columns.%s = %q, parsed %q", c.key, want, c.got)
 		}
 	}
-	if want := strs(cols, "segments"); !equalStrings(want, m.Segments) {
+	if want := strs(cols, "segments"); !slices.Equal(want, m.Segments) {
 		t.Errorf("columns.segments = %q, parsed %q", want, m.Segments)
 	}
 
 	exps, _ := raw["experiment"].([]any)
-	if len(exps) != len(sf.experiments) {
-		t.Fatalf("%d experiments in the file, %d parsed", len(exps), len(sf.experiments))
+	if len(exps) != len(sf.Experiments) {
+		t.Fatalf("%d experiments in the file, %d parsed", len(exps), len(sf.Experiments))
 	}
 	for i, x := range exps {
 		re, _ := x.(map[string]any)
-		e := sf.experiments[i]
+		e := sf.Experiments[i]
 		for _, c := range []struct{ key, def, got string }{
 			{"key", "", e.key}, {"exposure_event", "exposure", e.exposureEvent}, {"control", "control", e.control},
 		} {
@@ -111,7 +112,7 @@ func checkRoundTrip(t *testing.T, sf *specFile, raw map[string]any) {
 				t.Errorf("experiment[%d].%s = %q, parsed %q", i, c.key, want, c.got)
 			}
 		}
-		if want := strs(re, "arms"); !equalStrings(want, e.arms) {
+		if want := strs(re, "arms"); !slices.Equal(want, e.arms) {
 			t.Errorf("experiment[%d].arms = %q, parsed %q", i, want, e.arms)
 		}
 		split, _ := re["split"].([]any)
@@ -139,36 +140,36 @@ func checkRoundTrip(t *testing.T, sf *specFile, raw map[string]any) {
 		for j, y := range metrics {
 			rm, _ := y.(map[string]any)
 			ms := e.metrics[j]
-			if str(rm, "name", "") != ms.metric.Name || !equalStrings(strs(rm, "events"), ms.metric.Events) ||
-				str(rm, "role", rolePrimary) != ms.role || (str(rm, "better", "higher") == "lower") != ms.metric.LowerIsBetter {
-				t.Errorf("experiment[%d].metric[%d] = %v, parsed %+v (role %s)", i, j, rm, ms.metric, ms.role)
+			if str(rm, "name", "") != ms.Metric.Name || !slices.Equal(strs(rm, "events"), ms.Metric.Events) ||
+				str(rm, "role", "primary") != ms.Role.String() || (str(rm, "better", "higher") == "lower") != ms.Metric.LowerIsBetter {
+				t.Errorf("experiment[%d].metric[%d] = %v, parsed %+v (role %s)", i, j, rm, ms.Metric, ms.Role)
 			}
 			if w, ok := rm["window"].(string); ok {
-				if d, err := parseWindow(w); err != nil || d != ms.metric.Window {
-					t.Errorf("experiment[%d].metric[%d].window = %q, parsed %v", i, j, w, ms.metric.Window)
+				if d, err := ParseWindow(w); err != nil || d != ms.Metric.Window {
+					t.Errorf("experiment[%d].metric[%d].window = %q, parsed %v", i, j, w, ms.Metric.Window)
 				}
-			} else if ms.metric.Window != 0 {
-				t.Errorf("experiment[%d].metric[%d]: no window, parsed %v", i, j, ms.metric.Window)
+			} else if ms.Metric.Window != 0 {
+				t.Errorf("experiment[%d].metric[%d]: no window, parsed %v", i, j, ms.Metric.Window)
 			}
 			if g, ok := rm["margin"].(string); ok {
-				if mg, err := parseMargin(g); err != nil || ms.metric.Guardrail == nil || *ms.metric.Guardrail != mg {
-					t.Errorf("experiment[%d].metric[%d].margin = %q, parsed %+v", i, j, g, ms.metric.Guardrail)
+				if mg, err := ParseMargin(g); err != nil || ms.Metric.Guardrail == nil || *ms.Metric.Guardrail != mg {
+					t.Errorf("experiment[%d].metric[%d].margin = %q, parsed %+v", i, j, g, ms.Metric.Guardrail)
 				}
-			} else if ms.metric.Guardrail != nil {
-				t.Errorf("experiment[%d].metric[%d]: no margin, parsed %+v", i, j, ms.metric.Guardrail)
+			} else if ms.Metric.Guardrail != nil {
+				t.Errorf("experiment[%d].metric[%d]: no margin, parsed %+v", i, j, ms.Metric.Guardrail)
 			}
 			switch v := rm["target"].(type) {
 			case nil:
-				if ms.metric.Target != nil {
-					t.Errorf("experiment[%d].metric[%d]: no target, parsed %v", i, j, *ms.metric.Target)
+				if ms.Metric.Target != nil {
+					t.Errorf("experiment[%d].metric[%d]: no target, parsed %v", i, j, *ms.Metric.Target)
 				}
 			case float64:
-				if ms.metric.Target == nil || *ms.metric.Target != v {
-					t.Errorf("experiment[%d].metric[%d].target = %v, parsed %v", i, j, v, ms.metric.Target)
+				if ms.Metric.Target == nil || *ms.Metric.Target != v {
+					t.Errorf("experiment[%d].metric[%d].target = %v, parsed %v", i, j, v, ms.Metric.Target)
 				}
 			case string:
-				if p, err := parseRate(v); err != nil || ms.metric.Target == nil || *ms.metric.Target != p {
-					t.Errorf("experiment[%d].metric[%d].target = %q, parsed %v", i, j, v, ms.metric.Target)
+				if p, err := ParseRate(v); err != nil || ms.Metric.Target == nil || *ms.Metric.Target != p {
+					t.Errorf("experiment[%d].metric[%d].target = %q, parsed %v", i, j, v, ms.Metric.Target)
 				}
 			default:
 				t.Errorf("experiment[%d].metric[%d].target = %v (%T) accepted", i, j, v, v)

@@ -1,17 +1,17 @@
-package main
+package specfile
 
 import (
 	_ "embed" // for the example spec file
 )
 
-// exampleSpec is the annotated example spec file that `armtally help spec`
-// prints; a test checks that it parses and documents every key.
+// example is the annotated example spec file that Help ends with; a test
+// checks that it parses and documents every key.
 //
-//go:embed testdata/spec/example.toml
-var exampleSpec string
+//go:embed testdata/example.toml
+var example string
 
-// specHelpIntro comes before the example in `armtally help spec`.
-const specHelpIntro = `armtally analyze --spec FILE reads an experiment spec: a TOML file that names
+// helpIntro comes before the example in Help.
+const helpIntro = `armtally analyze --spec FILE reads an experiment spec: a TOML file that names
 the input, the column mapping, the outputs and one or more experiments, each
 with its metrics. One run reads the log once and writes one readout per
 experiment, all in one Markdown document and one JSON document.
@@ -52,5 +52,6 @@ An example that shows every key:
 
 `
 
-// specHelp is the text of 'armtally help spec'.
-func specHelp() string { return specHelpIntro + exampleSpec }
+// Help returns the documentation of the spec file: the rules, then an
+// annotated example that shows every key.
+func Help() string { return helpIntro + example }

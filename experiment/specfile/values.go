@@ -1,0 +1,185 @@
+package specfile
+
+import (
+	"errors"
+	"fmt"
+	"strconv"
+	"strings"
+	"time"
+
+	"github.com/armtally/armtally/experiment"
+	"github.com/armtally/armtally/ingest"
+)
+
+// ParseMetric parses a metric as the --metric flag gives it:
+//
+//	NAME=EVENT[,EVENT...][:WINDOW][@TARGET]
+//	EVENT[:WINDOW][@TARGET]            (the metric is named after its event)
+//
+// WINDOW is a number with a unit s, m, h, d or w (7d, 36h, 90m); no window
+// means unlimited. TARGET is a rate in (0, 1) or a percentage (0.12 or 12%).
+func ParseMetric(s string) (experiment.Metric, error) {
+	var m experiment.Metric
+	rest := s
+	if at := strings.LastIndexByte(rest, '@'); at >= 0 {
+		p, err := ParseRate(rest[at+1:])
+		if err != nil {
+			return m, fmt.Errorf("metric %q: target: %w", s, err)
+		}
+		m.Target = &p
+		rest = rest[:at]
+	}
+	if colon := strings.LastIndexByte(rest, ':'); colon >= 0 {
+		w, err := ParseWindow(rest[colon+1:])
+		if err != nil {
+			return m, fmt.Errorf("metric %q: window: %w", s, err)
+		}
+		m.Window = w
+		rest = rest[:colon]
+	}
+	name, events, named := strings.Cut(rest, "=")
+	if !named {
+		events = name
+	}
+	m.Name = strings.TrimSpace(name)
+	for _, e := range strings.Split(events, ",") {
+		if e = strings.TrimSpace(e); e != "" {
+			m.Events = append(m.Events, e)
+		}
+	}
+	if m.Name == "" || len(m.Events) == 0 {
+		return m, fmt.Errorf("metric %q: want NAME=EVENT[,EVENT...][:WINDOW][@TARGET], for example purchase=purchase:7d", s)
+	}
+	return m, nil
+}
+
+// ParseGuardrail parses a guardrail metric as the --guardrail flag gives
+// it: a metric as ParseMetric reads it followed by ~MARGIN, where MARGIN is
+// absolute in percentage points (0.5pp) or relative to the control's rate
+// (5%).
+func ParseGuardrail(s string) (experiment.Metric, error) {
+	spec, margin, ok := strings.Cut(s, "~")
+	if !ok {
+		return experiment.Metric{}, fmt.Errorf("guardrail %q: want NAME=EVENT[,EVENT...][:WINDOW]~MARGIN, for example unsubscribe=newsletter_unsubscribe:7d~0.2pp", s)
+	}
+	m, err := ParseMetric(spec)
+	if err != nil {
+		return m, err
+	}
+	g, err := ParseMargin(margin)
+	if err != nil {
+		return m, fmt.Errorf("guardrail %q: margin: %w", s, err)
+	}
+	m.Guardrail = &g
+	return m, nil
+}
+
+// ParseMargin parses a non-inferiority margin: 0.5pp (absolute, in
+// percentage points) or 5% (relative to the control's rate).
+func ParseMargin(s string) (experiment.Margin, error) {
+	s = strings.TrimSpace(s)
+	var g experiment.Margin
+	var num string
+	switch {
+	case strings.HasSuffix(s, "pp"):
+		num = strings.TrimSuffix(s, "pp")
+	case strings.HasSuffix(s, "%"):
+		num, g.Relative = strings.TrimSuffix(s, "%"), true
+	default:
+		return g, fmt.Errorf("%q: want percentage points (0.5pp) or a share of the control's rate (5%%)", s)
+	}
+	v, err := strconv.ParseFloat(strings.TrimSpace(num), 64)
+	if err != nil || !(v > 0 && v < 100) {
+		return g, fmt.Errorf("%q: want a number above 0 and below 100", s)
+	}
+	g.Value = v / 100
+	return g, nil
+}
+
+// ParseWindow parses an attribution window: a positive number followed by
+// s, m, h, d (24 hours) or w (7 days).
+func ParseWindow(s string) (time.Duration, error) {
+	s = strings.TrimSpace(s)
+	if s == "" {
+		return 0, fmt.Errorf("empty window")
+	}
+	units := map[byte]time.Duration{'s': time.Second, 'm': time.Minute, 'h': time.Hour, 'd': 24 * time.Hour, 'w': 7 * 24 * time.Hour}
+	unit, ok := units[s[len(s)-1]]
+	if !ok {
+		return 0, fmt.Errorf("%q has no unit (want s, m, h, d or w, as in 7d)", s)
+	}
+	v, err := strconv.ParseFloat(s[:len(s)-1], 64)
+	if err != nil || !(v > 0) || v*float64(unit) > float64(100*365*24*time.Hour) {
+		return 0, fmt.Errorf("%q is not a positive length of at most 100 years", s)
+	}
+	d := time.Duration(v * float64(unit))
+	if d < time.Second {
+		return 0, fmt.Errorf("%q is shorter than a second", s)
+	}
+	return d, nil
+}
+
+// ParseRate parses a rate in (0, 1), written as 0.12 or 12%.
+func ParseRate(s string) (float64, error) {
+	s = strings.TrimSpace(s)
+	scale := 1.0
+	if strings.HasSuffix(s, "%") {
+		s, scale = strings.TrimSuffix(s, "%"), 0.01
+	}
+	v, err := strconv.ParseFloat(s, 64)
+	if err != nil {
+		return 0, fmt.Errorf("%q is not a number", s)
+	}
+	v *= scale
+	if !(v > 0 && v < 1) {
+		return 0, fmt.Errorf("%v is not strictly between 0 and 1", v)
+	}
+	return v, nil
+}
+
+// ParseTime parses a window bound: RFC 3339 or YYYY-MM-DD[ HH:MM:SS[.frac]]
+// (UTC unless an offset is given), the forms event logs use. The empty
+// string is no bound (nil).
+func ParseTime(s string) (*time.Time, error) {
+	if s == "" {
+		return nil, nil
+	}
+	ns, err := ingest.ParseTimestamp([]byte(s))
+	if err != nil {
+		return nil, errors.New(timeFormsError(s))
+	}
+	t := time.Unix(0, ns).UTC()
+	return &t, nil
+}
+
+// timeFormsError says which forms a time is written in.
+func timeFormsError(s string) string {
+	return fmt.Sprintf("%q: want RFC 3339 or YYYY-MM-DD[ HH:MM:SS] (UTC unless an offset is given)", s)
+}
+
+// ParseShares parses a list of traffic shares: comma-separated positive
+// numbers (50,25,25).
+func ParseShares(s string) ([]float64, error) {
+	var out []float64
+	for _, f := range strings.Split(s, ",") {
+		v, err := strconv.ParseFloat(strings.TrimSpace(f), 64)
+		if err != nil || !(v > 0) || v > 1e12 {
+			return nil, fmt.Errorf("%q: %q is not a positive number", s, f)
+		}
+		out = append(out, v)
+	}
+	return out, nil
+}
+
+// ParseDelimiter reads a CSV delimiter: one character other than a quote or
+// a line break; `\t` (backslash, t) and "tab" mean a tab.
+func ParseDelimiter(s string) (rune, error) {
+	switch s {
+	case `\t`, "tab":
+		return '\t', nil
+	}
+	if r := []rune(s); len(r) == 1 && r[0] != '"' && r[0] != '\r' && r[0] != '\n' && r[0] != 0xFFFD {
+		return r[0], nil
+	}
+	return 0, fmt.Errorf("%q: want one character other than a quote or a line break, such as \",\", \";\" or \"\\t\"", s)
+}
