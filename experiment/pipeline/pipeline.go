@@ -26,6 +26,7 @@ import (
 	"context"
 	"errors"
 	"fmt"
+	"io/fs"
 	"iter"
 	"slices"
 
@@ -38,11 +39,15 @@ import (
 )
 
 // Input is where the rows come from and how to read them. Give exactly
-// one of Paths, Sources or Records.
+// one of Paths (with or without FS), Sources or Records.
 type Input struct {
-	// Paths are files, folders and glob patterns on disk (see
-	// ingest.FileSources).
+	// Paths are files, folders and glob patterns on disk, or inside FS
+	// when FS is set (see ingest.FileSources and ingest.FSSources).
 	Paths []string
+	// FS, when set, is the file system Paths are read from (all of it
+	// when Paths is empty): an embedded folder, a zip archive, a test's
+	// fstest.MapFS, a remote store with an fs.FS adapter.
+	FS fs.FS
 	// Sources are inputs already resolved, such as ingest.BytesSource.
 	Sources []ingest.Source
 	// Records is an Arrow record stream of the event log, from the
@@ -254,7 +259,7 @@ func Run(ctx context.Context, in Input, exps []Experiment, opts Options) (*Resul
 // opened.
 func checkOptions(in Input, exps []Experiment, opts Options) error {
 	n := 0
-	for _, given := range []bool{len(in.Paths) > 0, len(in.Sources) > 0, in.Records != nil} {
+	for _, given := range []bool{len(in.Paths) > 0 || in.FS != nil, len(in.Sources) > 0, in.Records != nil} {
 		if given {
 			n++
 		}

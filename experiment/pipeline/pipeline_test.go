@@ -10,6 +10,7 @@ import (
 	"reflect"
 	"sync/atomic"
 	"testing"
+	"testing/fstest"
 	"time"
 
 	"github.com/armtally/armtally/experiment"
@@ -162,6 +163,27 @@ func TestRunPaths(t *testing.T) {
 	var de *DataError
 	if !errors.As(err, &de) {
 		t.Errorf("empty folder: error %v, want a DataError", err)
+	}
+}
+
+// An fs.FS holding a partitioned export gives the same readout as the
+// same files on disk.
+func TestRunFS(t *testing.T) {
+	_, data, cfg, sum := genData(t, 2000, false)
+	fsys := fstest.MapFS{
+		"exports/dt=2026-11-02/part-0.parquet": {Data: data},
+		"exports/_SUCCESS":                     {Data: nil},
+	}
+	for _, in := range []Input{
+		{FS: fsys},
+		{FS: fsys, Paths: []string{"exports"}},
+		{FS: fsys, Paths: []string{"exports/dt=*/*.parquet"}},
+	} {
+		res, err := Run(context.Background(), in, oneExperiment(cfg), Options{})
+		if err != nil {
+			t.Fatalf("%v: %v", in.Paths, err)
+		}
+		checkTruth(t, res.Readouts[0], cfg, sum)
 	}
 }
 

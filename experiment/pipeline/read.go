@@ -18,7 +18,11 @@ func sources(in Input) ([]ingest.Source, error) {
 		srcs []ingest.Source
 		err  error
 	)
-	srcs, err = ingest.FileSources(in.Paths)
+	if in.FS != nil {
+		srcs, err = ingest.FSSources(in.FS, in.Paths...)
+	} else {
+		srcs, err = ingest.FileSources(in.Paths)
+	}
 	if err != nil {
 		return nil, &DataError{err}
 	}
