@@ -75,8 +75,7 @@ Flags:
 // analyzeFlags holds the values of the analyze flags.
 type analyzeFlags struct {
 	demo                                     bool
-	userCol, tsCol, eventCol, expCol, armCol string
-	epochUnit                                string
+	mapping                                  *mappingFlags
 	segments                                 []string
 	experiment, exposureEvent, control       string
 	arms                                     []string
@@ -104,7 +103,6 @@ func newAnalyzeFlagSet(f *analyzeFlags, stderr io.Writer) *pflag.FlagSet {
 	fs := pflag.NewFlagSet("analyze", pflag.ContinueOnError)
 	fs.SetOutput(stderr)
 	fs.SortFlags = false
-	m := ingest.DefaultMapping()
 	fs.StringVar(&f.spec, "spec", "", "read the input, column mapping, outputs and experiments from this TOML spec file (see armtally help spec); flags you give override it")
 	fs.BoolVar(&f.demo, "demo", false, "analyse the embedded demo event log (its experiment, metrics and window are the defaults)")
 	fs.StringVar(&f.experiment, "experiment", "", "experiment key on exposure rows (required when the log holds several experiments); with --spec, run only the file's experiment of this key")
@@ -134,12 +132,7 @@ func newAnalyzeFlagSet(f *analyzeFlags, stderr io.Writer) *pflag.FlagSet {
 	fs.StringVar(&f.memoryLimit, "memory-limit", "", "keep the per-unit state of an event log under about this size (such as 800MB or 2GiB): the rows go to disk in hash partitions of the units, tallied a group at a time and merged; no --audit")
 	fs.StringVar(&f.spillDir, "spill-dir", "", "folder for the partition files of --memory-limit (default: the system's temporary folder)")
 	fs.BoolVar(&f.noProgress, "no-progress", false, "do not show the rows read, rate and elapsed time on stderr while reading (shown only when stderr is a terminal, and not for unit or counts tables)")
-	fs.StringVar(&f.userCol, "user-col", m.User, "column holding the unit (user) id")
-	fs.StringVar(&f.tsCol, "ts-col", m.TS, "column holding the event time")
-	fs.StringVar(&f.eventCol, "event-col", m.Event, "column holding the event name")
-	fs.StringVar(&f.expCol, "experiment-col", m.Experiment, "column holding the experiment key (\"\" when the log has none)")
-	fs.StringVar(&f.armCol, "arm-col", m.Arm, "column holding the arm name")
-	fs.StringVar(&f.epochUnit, "epoch-unit", "", "unit of integer timestamps: s, ms, us or ns")
+	f.mapping = defineMappingFlags(fs)
 	fs.StringArrayVar(&f.segments, "segment", nil, "column to break every metric down by (read from each unit's first exposure row); exploratory results (repeatable)")
 	fs.StringVar(&f.delimiter, "delimiter", ",", "field separator of CSV files: one character; tab or \\t for a tab")
 	fs.Int64Var(&f.maxBadRows, "max-bad-rows", 0, "skip and count up to this many bad rows (-1: any number); 0 stops at the first")
@@ -342,21 +335,8 @@ func applyMapping(fs *pflag.FlagSet, f *analyzeFlags, sf *specfile.File, overrid
 	if sf != nil {
 		run.mapping = sf.Mapping
 	}
-	for _, c := range []struct {
-		flag string
-		v    string
-		dst  *string
-	}{
-		{"user-col", f.userCol, &run.mapping.User},
-		{"ts-col", f.tsCol, &run.mapping.TS},
-		{"event-col", f.eventCol, &run.mapping.Event},
-		{"experiment-col", f.expCol, &run.mapping.Experiment},
-		{"arm-col", f.armCol, &run.mapping.Arm},
-		{"epoch-unit", f.epochUnit, &run.mapping.EpochUnit},
-	} {
-		if override(c.flag) {
-			*c.dst = c.v
-		}
+	if err := f.mapping.apply(&run.mapping, sf == nil, "analyze"); err != nil {
+		return err
 	}
 	for _, name := range f.segments {
 		if name = strings.TrimSpace(name); !slices.Contains(run.mapping.Segments, name) {
@@ -364,11 +344,6 @@ func applyMapping(fs *pflag.FlagSet, f *analyzeFlags, sf *specfile.File, overrid
 		}
 	}
 	run.tsMapped = fs.Changed("ts-col") || sf != nil && sf.TSMapped
-	switch run.mapping.EpochUnit {
-	case "", "s", "ms", "us", "ns":
-	default:
-		return usagef("analyze: --epoch-unit %q: want s, ms, us or ns", run.mapping.EpochUnit)
-	}
 	return nil
 }
 

@@ -43,11 +43,10 @@ Flags:
 
 // inspectFlags holds the values of the inspect flags.
 type inspectFlags struct {
-	demo                                     bool
-	userCol, tsCol, eventCol, expCol, armCol string
-	epochUnit, exposureEvent, delimiter      string
-	top                                      int
-	jsonOut                                  string
+	demo                     bool
+	exposureEvent, delimiter string
+	top                      int
+	jsonOut                  string
 }
 
 func runInspect(args []string, stdout, stderr io.Writer) error {
@@ -55,14 +54,8 @@ func runInspect(args []string, stdout, stderr io.Writer) error {
 	fs := pflag.NewFlagSet("inspect", pflag.ContinueOnError)
 	fs.SetOutput(stderr)
 	fs.SortFlags = false
-	m := ingest.DefaultMapping()
 	fs.BoolVar(&f.demo, "demo", false, "inspect the embedded demo event log")
-	fs.StringVar(&f.userCol, "user-col", m.User, "column holding the unit (user) id")
-	fs.StringVar(&f.tsCol, "ts-col", m.TS, "column holding the event time")
-	fs.StringVar(&f.eventCol, "event-col", m.Event, "column holding the event name")
-	fs.StringVar(&f.expCol, "experiment-col", m.Experiment, "column holding the experiment key (\"\" when the log has none)")
-	fs.StringVar(&f.armCol, "arm-col", m.Arm, "column holding the arm name")
-	fs.StringVar(&f.epochUnit, "epoch-unit", "", "unit of integer timestamps: s, ms, us or ns")
+	mf := defineMappingFlags(fs)
 	fs.StringVar(&f.exposureEvent, "exposure-event", "exposure", "event name of exposure rows")
 	fs.StringVar(&f.delimiter, "delimiter", ",", "field separator of CSV files: one character; tab or \\t for a tab")
 	fs.IntVar(&f.top, "top", 20, "event names to show, the most frequent first")
@@ -70,11 +63,9 @@ func runInspect(args []string, stdout, stderr io.Writer) error {
 	if err := parseFlags(fs, args, inspectUsage, stdout); err != nil {
 		return err
 	}
-	mapping := ingest.Mapping{User: f.userCol, TS: f.tsCol, Event: f.eventCol, Experiment: f.expCol, Arm: f.armCol, EpochUnit: f.epochUnit}
-	switch f.epochUnit {
-	case "", "s", "ms", "us", "ns":
-	default:
-		return usagef("inspect: --epoch-unit %q: want s, ms, us or ns", f.epochUnit)
+	var mapping ingest.Mapping
+	if err := mf.apply(&mapping, true, "inspect"); err != nil {
+		return err
 	}
 	delim, err := parseDelimiter(f.delimiter)
 	if err != nil {
