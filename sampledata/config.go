@@ -177,7 +177,16 @@ func (c Config) validate() error {
 	if c.ExposureEvent == "" {
 		return errors.New("exposure event name is empty")
 	}
+	for _, check := range []func() error{c.validateEvents, c.validateArms, c.validatePlatforms, c.validateRest} {
+		if err := check(); err != nil {
+			return err
+		}
+	}
+	return nil
+}
 
+// validateEvents checks the metrics and noise events.
+func (c Config) validateEvents() error {
 	// Event names: exposure, metrics and noise must not collide, or the
 	// generated conversions would not mean what the rates say.
 	events := map[string]string{c.ExposureEvent: "the exposure event"}
@@ -209,22 +218,20 @@ func (c Config) validate() error {
 			return err
 		}
 	}
+	return nil
+}
 
+// validateArms checks the arms: at least two, named once each, a share
+// and a rate per metric.
+func (c Config) validateArms() error {
 	if len(c.Arms) < 2 {
 		return fmt.Errorf("%d arms, want at least 2 (a control and a treatment)", len(c.Arms))
 	}
 	arms := make(map[string]int, len(c.Arms))
 	for i, a := range c.Arms {
 		what := fmt.Sprintf("arms[%d]", i)
-		if a.Name == "" {
-			return fmt.Errorf("%s has an empty name", what)
-		}
-		if j, ok := arms[a.Name]; ok {
-			return fmt.Errorf("%s: name %q is already used by arms[%d]", what, a.Name, j)
-		}
-		arms[a.Name] = i
-		if !(a.Share > 0) || math.IsInf(a.Share, 0) {
-			return fmt.Errorf("%s %q: share %v, want a finite value above 0", what, a.Name, a.Share)
+		if err := checkShare(arms, "arms", i, a.Name, a.Share); err != nil {
+			return err
 		}
 		if len(a.Rates) != len(c.Metrics) {
 			return fmt.Errorf("%s %q: %d rates for %d metrics, want one rate per metric", what, a.Name, len(a.Rates), len(c.Metrics))
@@ -236,23 +243,45 @@ func (c Config) validate() error {
 		}
 	}
 
+	return nil
+}
+
+// validatePlatforms checks the platforms: at least one, named once each,
+// with a share.
+func (c Config) validatePlatforms() error {
 	if len(c.Platforms) == 0 {
 		return errors.New("no platforms, want at least 1")
 	}
 	platforms := make(map[string]int, len(c.Platforms))
 	for i, p := range c.Platforms {
-		what := fmt.Sprintf("platforms[%d]", i)
-		if p.Name == "" {
-			return fmt.Errorf("%s has an empty name", what)
-		}
-		if j, ok := platforms[p.Name]; ok {
-			return fmt.Errorf("%s: name %q is already used by platforms[%d]", what, p.Name, j)
-		}
-		platforms[p.Name] = i
-		if !(p.Share > 0) || math.IsInf(p.Share, 0) {
-			return fmt.Errorf("%s %q: share %v, want a finite value above 0", what, p.Name, p.Share)
+		if err := checkShare(platforms, "platforms", i, p.Name, p.Share); err != nil {
+			return err
 		}
 	}
+	return nil
+}
+
+// checkShare checks entry i of the list called list (arms or platforms):
+// a name not used before (seen holds the earlier ones, and gets this one)
+// and a finite share above 0.
+func checkShare(seen map[string]int, list string, i int, name string, share float64) error {
+	what := fmt.Sprintf("%s[%d]", list, i)
+	if name == "" {
+		return fmt.Errorf("%s has an empty name", what)
+	}
+	if j, ok := seen[name]; ok {
+		return fmt.Errorf("%s: name %q is already used by %s[%d]", what, name, list, j)
+	}
+	seen[name] = i
+	if !(share > 0) || math.IsInf(share, 0) {
+		return fmt.Errorf("%s %q: share %v, want a finite value above 0", what, name, share)
+	}
+	return nil
+}
+
+// validateRest checks the rates of noise, repeats and cross-arm exposures
+// and the block sizes.
+func (c Config) validateRest() error {
 
 	if !(c.NoiseEventsPerUser >= 0 && c.NoiseEventsPerUser <= MaxNoiseEventsPerUser) {
 		return fmt.Errorf("noise events per user = %v, want a value in [0, %d]", c.NoiseEventsPerUser, MaxNoiseEventsPerUser)
