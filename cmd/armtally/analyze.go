@@ -74,29 +74,21 @@ Flags:
 
 // analyzeFlags holds the values of the analyze flags.
 type analyzeFlags struct {
-	demo                                     bool
-	mapping                                  *mappingFlags
-	segments                                 []string
-	experiment, exposureEvent, control       string
-	arms                                     []string
-	split                                    string
-	start, end                               string
-	multiArm, maturity                       string
-	metrics, guardrails, lowerIsBetter       []string
-	interval, diffInterval, adjust, niMethod string
-	alpha                                    float64
-	alternative                              string
-	minCount                                 int64
-	srThreshold                              float64
-	out, jsonOut                             string
-	failOnSampleRatio                        bool
-	spec                                     string
-	delimiter                                string
-	maxBadRows                               int64
-	maxBadShare                              float64
-	audit                                    string
-	noProgress                               bool
-	memoryLimit, spillDir                    string
+	demo     bool
+	mapping  *mappingFlags
+	segments []string
+	// exp holds the flags of one experiment's settings.
+	exp                   specfile.Overrides
+	lowerIsBetter         []string
+	out, jsonOut          string
+	failOnSampleRatio     bool
+	spec                  string
+	delimiter             string
+	maxBadRows            int64
+	maxBadShare           float64
+	audit                 string
+	noProgress            bool
+	memoryLimit, spillDir string
 }
 
 func newAnalyzeFlagSet(f *analyzeFlags, stderr io.Writer) *pflag.FlagSet {
@@ -105,26 +97,26 @@ func newAnalyzeFlagSet(f *analyzeFlags, stderr io.Writer) *pflag.FlagSet {
 	fs.SortFlags = false
 	fs.StringVar(&f.spec, "spec", "", "read the input, column mapping, outputs and experiments from this TOML spec file (see armtally help spec); flags you give override it")
 	fs.BoolVar(&f.demo, "demo", false, "analyse the embedded demo event log (its experiment, metrics and window are the defaults)")
-	fs.StringVar(&f.experiment, "experiment", "", "experiment key on exposure rows (required when the log holds several experiments); with --spec, run only the file's experiment of this key")
-	fs.StringVar(&f.exposureEvent, "exposure-event", "exposure", "event name of exposure rows")
-	fs.StringVar(&f.control, "control", "control", "name of the control arm")
-	fs.StringSliceVar(&f.arms, "arms", nil, "planned arms, comma-separated (the control is added first when missing); any other arm in the data is an error")
-	fs.StringVar(&f.split, "split", "", "planned traffic shares of --arms, comma-separated (50,25,25); default equal")
-	fs.StringArrayVar(&f.metrics, "metric", nil, "conversion metric NAME=EVENT[,EVENT...][:WINDOW][@TARGET] (repeatable)")
-	fs.StringArrayVar(&f.guardrails, "guardrail", nil, "guardrail metric NAME=EVENT[,EVENT...][:WINDOW]~MARGIN, MARGIN 0.5pp (absolute) or 5% (of the control's rate) (repeatable)")
+	fs.StringVar(&f.exp.Experiment, "experiment", "", "experiment key on exposure rows (required when the log holds several experiments); with --spec, run only the file's experiment of this key")
+	fs.StringVar(&f.exp.ExposureEvent, "exposure-event", "exposure", "event name of exposure rows")
+	fs.StringVar(&f.exp.Control, "control", "control", "name of the control arm")
+	fs.StringSliceVar(&f.exp.Arms, "arms", nil, "planned arms, comma-separated (the control is added first when missing); any other arm in the data is an error")
+	fs.StringVar(&f.exp.Split, "split", "", "planned traffic shares of --arms, comma-separated (50,25,25); default equal")
+	fs.StringArrayVar(&f.exp.Metrics, "metric", nil, "conversion metric NAME=EVENT[,EVENT...][:WINDOW][@TARGET] (repeatable)")
+	fs.StringArrayVar(&f.exp.Guardrails, "guardrail", nil, "guardrail metric NAME=EVENT[,EVENT...][:WINDOW]~MARGIN, MARGIN 0.5pp (absolute) or 5% (of the control's rate) (repeatable)")
 	fs.StringArrayVar(&f.lowerIsBetter, "lower-is-better", nil, "metric where a lower rate is the good outcome (repeatable)")
-	fs.StringVar(&f.start, "start", "", "start of the analysis window, inclusive (RFC 3339 or YYYY-MM-DD); default: all data")
-	fs.StringVar(&f.end, "end", "", "end of the analysis window, exclusive; default: no end (maturity is judged against the latest event)")
-	fs.StringVar(&f.multiArm, "multi-arm", "exclude", "units exposed to several arms: exclude, or first (keep the first exposure's arm)")
-	fs.StringVar(&f.maturity, "maturity", "exclude", "units whose attribution window has not closed: exclude or include")
-	fs.Float64Var(&f.alpha, "alpha", 0.05, "significance level of every test; intervals are at 1 - alpha")
-	fs.StringVar(&f.alternative, "alternative", "two-sided", "alternative hypothesis: two-sided, greater (treatment higher) or less; intervals are at 1 - 2 alpha for one-sided tests")
-	fs.StringVar(&f.adjust, "adjust", "holm", "multiple-comparison adjustment over treatments x metrics: holm, bonferroni, hochberg, bh, by or none")
-	fs.StringVar(&f.interval, "interval", experiment.IntervalWilson.String(), "interval of each arm's rate: wilson, clopper-pearson, agresti-coull or wald")
-	fs.StringVar(&f.diffInterval, "difference-interval", experiment.DifferenceNewcombe.String(), "interval of each difference: newcombe or wald")
-	fs.StringVar(&f.niMethod, "non-inferiority-method", "farrington-manning", "variance of guardrail tests: farrington-manning, miettinen-nurminen or wald")
-	fs.Int64Var(&f.minCount, "min-count", 5, "conversions and non-conversions per arm needed to trust the normal approximation")
-	fs.Float64Var(&f.srThreshold, "sample-ratio-threshold", experiment.DefaultSampleRatioThreshold, "p-value below which the sample ratio check fails")
+	fs.StringVar(&f.exp.Start, "start", "", "start of the analysis window, inclusive (RFC 3339 or YYYY-MM-DD); default: all data")
+	fs.StringVar(&f.exp.End, "end", "", "end of the analysis window, exclusive; default: no end (maturity is judged against the latest event)")
+	fs.StringVar(&f.exp.MultiArm, "multi-arm", "exclude", "units exposed to several arms: exclude, or first (keep the first exposure's arm)")
+	fs.StringVar(&f.exp.Maturity, "maturity", "exclude", "units whose attribution window has not closed: exclude or include")
+	fs.Float64Var(&f.exp.Alpha, "alpha", 0.05, "significance level of every test; intervals are at 1 - alpha")
+	fs.StringVar(&f.exp.Alternative, "alternative", "two-sided", "alternative hypothesis: two-sided, greater (treatment higher) or less; intervals are at 1 - 2 alpha for one-sided tests")
+	fs.StringVar(&f.exp.Adjust, "adjust", "holm", "multiple-comparison adjustment over treatments x metrics: holm, bonferroni, hochberg, bh, by or none")
+	fs.StringVar(&f.exp.Interval, "interval", experiment.IntervalWilson.String(), "interval of each arm's rate: wilson, clopper-pearson, agresti-coull or wald")
+	fs.StringVar(&f.exp.DifferenceInterval, "difference-interval", experiment.DifferenceNewcombe.String(), "interval of each difference: newcombe or wald")
+	fs.StringVar(&f.exp.NonInferiorityMethod, "non-inferiority-method", "farrington-manning", "variance of guardrail tests: farrington-manning, miettinen-nurminen or wald")
+	fs.Int64Var(&f.exp.MinCount, "min-count", 5, "conversions and non-conversions per arm needed to trust the normal approximation")
+	fs.Float64Var(&f.exp.SampleRatioThreshold, "sample-ratio-threshold", experiment.DefaultSampleRatioThreshold, "p-value below which the sample ratio check fails")
 	fs.StringVarP(&f.out, "out", "o", "", "write the Markdown readout to this file instead of stdout")
 	fs.StringVar(&f.jsonOut, "json", "", "also write the JSON readout to this file")
 	fs.StringVar(&f.audit, "audit", "", "also write the per-unit audit table (Parquet) to this file; with several experiments, one file each, named FILE-KEY.parquet")
@@ -198,6 +190,7 @@ func parseAnalyzeRun(args []string, stdout, stderr io.Writer) (*analyzeRun, erro
 	if err := parseFlags(fs, args, analyzeUsage, stdout); err != nil {
 		return nil, err
 	}
+	f.exp.Given = fs.Changed
 	sf, err := readSpec(f.spec)
 	if err != nil {
 		return nil, err
@@ -272,7 +265,7 @@ func analyzeExperiments(fs *pflag.FlagSet, f *analyzeFlags, sf *specfile.File) (
 			demoDefaults(fs, f)
 		}
 		e := specfile.NewSettings()
-		if err := applyExperimentFlags(fs, f, e, true); err != nil {
+		if err := f.exp.Apply(e, true); err != nil {
 			return nil, err
 		}
 		exps = append(exps, e)
@@ -282,7 +275,7 @@ func analyzeExperiments(fs *pflag.FlagSet, f *analyzeFlags, sf *specfile.File) (
 			return nil, err
 		}
 		for _, e := range exps {
-			if err := applyExperimentFlags(fs, f, e, false); err != nil {
+			if err := f.exp.Apply(e, false); err != nil {
 				return nil, err
 			}
 		}
@@ -310,12 +303,12 @@ func pickExperiments(fs *pflag.FlagSet, f *analyzeFlags, sf *specfile.File) ([]*
 		var keys []string
 		for _, e := range sf.Experiments {
 			keys = append(keys, e.Key())
-			if e.Key() == f.experiment {
+			if e.Key() == f.exp.Experiment {
 				exps = append(exps, e)
 			}
 		}
 		if len(exps) == 0 {
-			return nil, usagef("analyze: --experiment %q: %s has no such experiment (it has %s)", f.experiment, sf.Name, strings.Join(keys, ", "))
+			return nil, usagef("analyze: --experiment %q: %s has no such experiment (it has %s)", f.exp.Experiment, sf.Name, strings.Join(keys, ", "))
 		}
 	}
 	if len(exps) > 1 {
@@ -451,157 +444,6 @@ func analyzeSources(fs *pflag.FlagSet, f *analyzeFlags, sf *specfile.File) ([]in
 	return sources, nil
 }
 
-// applyExperimentFlags applies the experiment flags to e: every flag when
-// all is set (no spec file, or one without experiments), otherwise only the
-// flags the user set, which override the file. --experiment sets the key
-// only when all is set; with a spec file it picks experiments instead.
-func applyExperimentFlags(fs *pflag.FlagSet, f *analyzeFlags, e *specfile.Settings, all bool) error {
-	set := func(name string) bool { return all || fs.Changed(name) }
-	if all {
-		e.SetKey(f.experiment, flagOrigin("experiment"))
-	}
-	if err := applyArmFlags(set, f, e); err != nil {
-		return err
-	}
-	if err := applyWindowFlags(set, f, e); err != nil {
-		return err
-	}
-	if set("metric") || set("guardrail") {
-		var ms []specfile.Metric
-		for _, s := range f.metrics {
-			m, err := specfile.ParseMetric(s)
-			if err != nil {
-				return usagef("analyze: --metric: %v", err)
-			}
-			ms = append(ms, specfile.Metric{Metric: m, Role: specfile.Primary, From: flagOrigin("metric")})
-		}
-		for _, s := range f.guardrails {
-			m, err := specfile.ParseGuardrail(s)
-			if err != nil {
-				return usagef("analyze: --guardrail: %v", err)
-			}
-			ms = append(ms, specfile.Metric{Metric: m, Role: specfile.Guardrail, From: flagOrigin("guardrail")})
-		}
-		e.SetMetrics(ms, flagOrigin("metric"))
-	}
-	return applyAnalysisFlags(set, f, e)
-}
-
-// flagOrigin is the origin of a setting from the flag --name.
-func flagOrigin(name string) specfile.Origin { return specfile.Origin{Flag: "--" + name} }
-
-// applyArmFlags applies --exposure-event, --control, --arms and --split.
-func applyArmFlags(set func(string) bool, f *analyzeFlags, e *specfile.Settings) error {
-	for _, s := range []struct {
-		flag string
-		v    string
-		fn   func(string, specfile.Origin) error
-	}{{"exposure-event", f.exposureEvent, e.SetExposureEvent}, {"control", f.control, e.SetControl}} {
-		if !set(s.flag) {
-			continue
-		}
-		if s.v == "" {
-			return usagef("analyze: --exposure-event and --control must not be empty")
-		}
-		if err := s.fn(s.v, flagOrigin(s.flag)); err != nil {
-			return err
-		}
-	}
-	if set("arms") {
-		var arms []string
-		seen := map[string]bool{}
-		for _, a := range f.arms {
-			a = strings.TrimSpace(a)
-			if a == "" || seen[a] {
-				return usagef("analyze: --arms %q: empty or repeated arm name", strings.Join(f.arms, ","))
-			}
-			seen[a] = true
-			arms = append(arms, a)
-		}
-		e.SetArms(arms, true, flagOrigin("arms"))
-	}
-	if set("split") {
-		var shares []float64
-		if f.split != "" {
-			var err error
-			if shares, err = specfile.ParseShares(f.split); err != nil {
-				return usagef("analyze: --split %v", err)
-			}
-		}
-		e.SetSplit(shares, flagOrigin("split"))
-	}
-	return nil
-}
-
-// applyWindowFlags applies --start, --end, --multi-arm and --maturity.
-func applyWindowFlags(set func(string) bool, f *analyzeFlags, e *specfile.Settings) error {
-	for _, b := range []struct {
-		flag, v string
-		fn      func(*time.Time, specfile.Origin)
-	}{{"start", f.start, e.SetStart}, {"end", f.end, e.SetEnd}} {
-		if !set(b.flag) {
-			continue
-		}
-		t, err := specfile.ParseTime(b.v)
-		if err != nil {
-			return usagef("--%s %v", b.flag, err)
-		}
-		b.fn(t, flagOrigin(b.flag))
-	}
-	if set("multi-arm") {
-		p, err := experiment.ParseMultiArmPolicy(f.multiArm)
-		if err != nil {
-			return usagef("analyze: --multi-arm: %v", err)
-		}
-		e.SetMultiArm(p, flagOrigin("multi-arm"))
-	}
-	if set("maturity") {
-		p, err := experiment.ParseMaturityPolicy(f.maturity)
-		if err != nil {
-			return usagef("analyze: --maturity: %v", err)
-		}
-		e.SetMaturity(p, flagOrigin("maturity"))
-	}
-	return nil
-}
-
-// applyAnalysisFlags applies the flags of the statistical options.
-func applyAnalysisFlags(set func(string) bool, f *analyzeFlags, e *specfile.Settings) error {
-	if set("alpha") {
-		if err := e.SetAlpha(f.alpha, flagOrigin("alpha")); err != nil {
-			return err
-		}
-	}
-	for _, s := range []struct {
-		flag string
-		v    string
-		fn   func(string, specfile.Origin) error
-	}{
-		{"alternative", f.alternative, e.SetAlternative},
-		{"adjust", f.adjust, e.SetAdjust},
-		{"interval", f.interval, e.SetInterval},
-		{"difference-interval", f.diffInterval, e.SetDifferenceInterval},
-		{"non-inferiority-method", f.niMethod, e.SetNonInferiorityMethod},
-	} {
-		if set(s.flag) {
-			if err := s.fn(s.v, flagOrigin(s.flag)); err != nil {
-				return err
-			}
-		}
-	}
-	if set("min-count") {
-		if err := e.SetMinCount(f.minCount, flagOrigin("min-count")); err != nil {
-			return err
-		}
-	}
-	if set("sample-ratio-threshold") {
-		if err := e.SetSampleRatioThreshold(f.srThreshold, flagOrigin("sample-ratio-threshold")); err != nil {
-			return err
-		}
-	}
-	return nil
-}
-
 // applyLowerIsBetter marks the metrics named by --lower-is-better in every
 // experiment that has them; a name no experiment has is an error.
 func applyLowerIsBetter(names []string, exps []*specfile.Settings) error {
@@ -625,21 +467,21 @@ func demoDefaults(fs *pflag.FlagSet, f *analyzeFlags) {
 			apply()
 		}
 	}
-	set("experiment", func() { f.experiment = d.Experiment })
-	set("exposure-event", func() { f.exposureEvent = d.ExposureEvent })
-	set("control", func() { f.control = d.Control })
+	set("experiment", func() { f.exp.Experiment = d.Experiment })
+	set("exposure-event", func() { f.exp.ExposureEvent = d.ExposureEvent })
+	set("control", func() { f.exp.Control = d.Control })
 	set("arms", func() {
-		f.arms = nil
+		f.exp.Arms = nil
 		for _, a := range d.Arms {
-			f.arms = append(f.arms, a.Name)
+			f.exp.Arms = append(f.exp.Arms, a.Name)
 		}
 	})
-	set("start", func() { f.start = d.Start.Format(time.RFC3339) })
-	set("end", func() { f.end = d.End.Format(time.RFC3339) })
+	set("start", func() { f.exp.Start = d.Start.Format(time.RFC3339) })
+	set("end", func() { f.exp.End = d.End.Format(time.RFC3339) })
 	set("metric", func() {
-		f.metrics = nil
+		f.exp.Metrics = nil
 		for _, m := range d.Metrics {
-			f.metrics = append(f.metrics, fmt.Sprintf("%s=%s:%dh", m.Event, m.Event, int64(m.Window/time.Hour)))
+			f.exp.Metrics = append(f.exp.Metrics, fmt.Sprintf("%s=%s:%dh", m.Event, m.Event, int64(m.Window/time.Hour)))
 		}
 	})
 }

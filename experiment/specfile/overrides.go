@@ -1,0 +1,194 @@
+package specfile
+
+import (
+	"strings"
+	"time"
+
+	"github.com/armtally/armtally/experiment"
+)
+
+// Overrides are one experiment's settings as a command line gives them, in
+// the text the user typed, to apply over a spec file's experiments or, with
+// no file, to make the one experiment. Each field belongs to a flag named
+// in its comment; Given says which flags the user gave.
+type Overrides struct {
+	// Given reports whether the flag of that name (without dashes) was
+	// given; nil means none was.
+	Given func(flag string) bool
+
+	Experiment    string   // --experiment
+	ExposureEvent string   // --exposure-event
+	Control       string   // --control
+	Arms          []string // --arms
+	Split         string   // --split
+	Start, End    string   // --start, --end
+	MultiArm      string   // --multi-arm
+	Maturity      string   // --maturity
+	Metrics       []string // --metric
+	Guardrails    []string // --guardrail
+
+	Alpha                float64 // --alpha
+	Alternative          string  // --alternative
+	Adjust               string  // --adjust
+	Interval             string  // --interval
+	DifferenceInterval   string  // --difference-interval
+	NonInferiorityMethod string  // --non-inferiority-method
+	MinCount             int64   // --min-count
+	SampleRatioThreshold float64 // --sample-ratio-threshold
+}
+
+// flagOrigin is the origin of a setting from the flag --name.
+func flagOrigin(name string) Origin { return Origin{Flag: "--" + name} }
+
+// Apply applies the overrides to e: every one when all is set (no spec
+// file, or one without experiments), otherwise only the flags given,
+// which override the file. The experiment key is set only when all is set
+// (with a spec file, --experiment picks experiments instead). Problems are
+// *FlagError values that name the flag.
+func (o Overrides) Apply(e *Settings, all bool) error {
+	set := func(name string) bool { return all || o.Given != nil && o.Given(name) }
+	if all {
+		e.SetKey(o.Experiment, flagOrigin("experiment"))
+	}
+	for _, apply := range []func(func(string) bool, *Settings) error{o.applyArms, o.applyWindow, o.applyMetrics, o.applyAnalysis} {
+		if err := apply(set, e); err != nil {
+			return err
+		}
+	}
+	return nil
+}
+
+// applyArms applies --exposure-event, --control, --arms and --split.
+func (o Overrides) applyArms(set func(string) bool, e *Settings) error {
+	for _, s := range []struct {
+		flag string
+		v    string
+		fn   func(string, Origin) error
+	}{{"exposure-event", o.ExposureEvent, e.SetExposureEvent}, {"control", o.Control, e.SetControl}} {
+		if !set(s.flag) {
+			continue
+		}
+		if s.v == "" {
+			return flagErrorf("--exposure-event and --control must not be empty")
+		}
+		if err := s.fn(s.v, flagOrigin(s.flag)); err != nil {
+			return err
+		}
+	}
+	if set("arms") {
+		var arms []string
+		seen := map[string]bool{}
+		for _, a := range o.Arms {
+			a = strings.TrimSpace(a)
+			if a == "" || seen[a] {
+				return flagErrorf("--arms %q: empty or repeated arm name", strings.Join(o.Arms, ","))
+			}
+			seen[a] = true
+			arms = append(arms, a)
+		}
+		e.SetArms(arms, true, flagOrigin("arms"))
+	}
+	if set("split") {
+		var shares []float64
+		if o.Split != "" {
+			var err error
+			if shares, err = ParseShares(o.Split); err != nil {
+				return flagErrorf("--split %v", err)
+			}
+		}
+		e.SetSplit(shares, flagOrigin("split"))
+	}
+	return nil
+}
+
+// applyWindow applies --start, --end, --multi-arm and --maturity.
+func (o Overrides) applyWindow(set func(string) bool, e *Settings) error {
+	for _, b := range []struct {
+		flag, v string
+		fn      func(*time.Time, Origin)
+	}{{"start", o.Start, e.SetStart}, {"end", o.End, e.SetEnd}} {
+		if !set(b.flag) {
+			continue
+		}
+		t, err := ParseTime(b.v)
+		if err != nil {
+			return flagErrorf("--%s %v", b.flag, err)
+		}
+		b.fn(t, flagOrigin(b.flag))
+	}
+	if set("multi-arm") {
+		p, err := experiment.ParseMultiArmPolicy(o.MultiArm)
+		if err != nil {
+			return flagErrorf("--multi-arm: %v", err)
+		}
+		e.SetMultiArm(p, flagOrigin("multi-arm"))
+	}
+	if set("maturity") {
+		p, err := experiment.ParseMaturityPolicy(o.Maturity)
+		if err != nil {
+			return flagErrorf("--maturity: %v", err)
+		}
+		e.SetMaturity(p, flagOrigin("maturity"))
+	}
+	return nil
+}
+
+// applyMetrics applies --metric and --guardrail, which together replace
+// the file's metrics.
+func (o Overrides) applyMetrics(set func(string) bool, e *Settings) error {
+	if !set("metric") && !set("guardrail") {
+		return nil
+	}
+	var ms []Metric
+	for _, s := range o.Metrics {
+		m, err := ParseMetric(s)
+		if err != nil {
+			return flagErrorf("--metric: %v", err)
+		}
+		ms = append(ms, Metric{Metric: m, Role: Primary, From: flagOrigin("metric")})
+	}
+	for _, s := range o.Guardrails {
+		m, err := ParseGuardrail(s)
+		if err != nil {
+			return flagErrorf("--guardrail: %v", err)
+		}
+		ms = append(ms, Metric{Metric: m, Role: Guardrail, From: flagOrigin("guardrail")})
+	}
+	e.SetMetrics(ms, flagOrigin("metric"))
+	return nil
+}
+
+// applyAnalysis applies the flags of the statistical options.
+func (o Overrides) applyAnalysis(set func(string) bool, e *Settings) error {
+	var errs []error
+	if set("alpha") {
+		errs = append(errs, e.SetAlpha(o.Alpha, flagOrigin("alpha")))
+	}
+	for _, s := range []struct {
+		flag string
+		v    string
+		fn   func(string, Origin) error
+	}{
+		{"alternative", o.Alternative, e.SetAlternative},
+		{"adjust", o.Adjust, e.SetAdjust},
+		{"interval", o.Interval, e.SetInterval},
+		{"difference-interval", o.DifferenceInterval, e.SetDifferenceInterval},
+		{"non-inferiority-method", o.NonInferiorityMethod, e.SetNonInferiorityMethod},
+	} {
+		if set(s.flag) {
+			errs = append(errs, s.fn(s.v, flagOrigin(s.flag)))
+		}
+	}
+	if set("min-count") {
+		errs = append(errs, e.SetMinCount(o.MinCount, flagOrigin("min-count")))
+	}
+	if set("sample-ratio-threshold") {
+		errs = append(errs, e.SetSampleRatioThreshold(o.SampleRatioThreshold, flagOrigin("sample-ratio-threshold")))
+	}
+	for _, err := range errs {
+		if err != nil {
+			return err
+		}
+	}
+	return nil
+}
