@@ -475,10 +475,18 @@ func (c *bulkColumn) value() int {
 
 // dictIndex checks a dictionary index against a dictionary of n values.
 func dictIndex(x int32, n int) (int, error) {
-	if x < 0 || int(x) >= n {
-		return 0, fmt.Errorf("dictionary index %d of a dictionary of %d values", x, n)
+	if uint(x) >= uint(n) { // also x < 0; small enough to be inlined in the loops
+		return 0, dictIndexError(x, n)
 	}
 	return int(x), nil
+}
+
+// dictIndexError is dictIndex's error, out of line so that dictIndex is
+// inlined in the decode loops.
+//
+//go:noinline
+func dictIndexError(x int32, n int) error {
+	return fmt.Errorf("dictionary index %d of a dictionary of %d values", x, n)
 }
 
 func (c *bulkColumn) fillText(k, m int) error {

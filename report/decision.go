@@ -200,7 +200,7 @@ func comparisonVerdict(c experiment.Comparison, otherwise string) string {
 		return verdict(c.Significant, c.DecidedBy, c.Z, c.Exact, otherwise)
 	}
 	alpha := formatAlpha(decisionAlpha(c.DecidedBy, c.Z, c.Exact))
-	after := adjustmentName(adj.Method) + " adjustment over " + plural(adj.FamilySize, "comparison", "comparisons")
+	after := adjustmentName(adj.Method) + " adjustment over " + Plural(int64(adj.FamilySize), "comparison", "comparisons")
 	var s, first string
 	switch {
 	case c.Significant && c.SignificantUnadjusted:

@@ -59,14 +59,6 @@ func errorRateText(rate string) string {
 	return "the " + rate
 }
 
-// plural writes "1 comparison" or "4 comparisons".
-func plural(n int, one, many string) string {
-	if n == 1 {
-		return "1 " + one
-	}
-	return fmt.Sprintf("%d %s", n, many)
-}
-
 // joinAnd joins "a", "a and b", "a, b and c".
 func joinAnd(list []string) string {
 	switch len(list) {
@@ -135,16 +127,16 @@ func (o outside) total() int { return o.targets + o.guardrails + o.guardrailDiff
 func (o outside) text() string {
 	var parts []string
 	if o.targets > 0 {
-		parts = append(parts, plural(o.targets, "target-rate test", "target-rate tests"))
+		parts = append(parts, Plural(int64(o.targets), "target-rate test", "target-rate tests"))
 	}
 	if o.guardrails > 0 {
-		parts = append(parts, plural(o.guardrails, "guardrail non-inferiority test", "guardrail non-inferiority tests"))
+		parts = append(parts, Plural(int64(o.guardrails), "guardrail non-inferiority test", "guardrail non-inferiority tests"))
 	}
 	if o.guardrailDiffs > 0 {
-		parts = append(parts, plural(o.guardrailDiffs, "difference test on a guardrail metric", "difference tests on guardrail metrics"))
+		parts = append(parts, Plural(int64(o.guardrailDiffs), "difference test on a guardrail metric", "difference tests on guardrail metrics"))
 	}
 	if o.others > 0 {
-		parts = append(parts, plural(o.others, "other comparison", "other comparisons"))
+		parts = append(parts, Plural(int64(o.others), "other comparison", "other comparisons"))
 	}
 	return joinAnd(parts)
 }
@@ -202,9 +194,9 @@ func (md *markdown) multiplicity(r experiment.Readout) {
 		fmt.Fprintf(&b, "%s chosen, but no comparison with the control could be tested, so the family is empty.", capitalize(adjustmentLong(mc.Method)))
 	case !adjusts(mc.Method):
 		fmt.Fprintf(&b, "No adjustment for multiple comparisons: the %s with the control (%s) are each decided at alpha %s on its own, so the more of them, the likelier one is significant by chance.",
-			plural(mc.Size, "comparison", "comparisons"), list, formatAlpha(alpha))
+			Plural(int64(mc.Size), "comparison", "comparisons"), list, formatAlpha(alpha))
 	default:
-		fmt.Fprintf(&b, "%s over a family of %s, keeping %s at alpha %s. ", capitalize(adjustmentLong(mc.Method)), plural(mc.Size, "comparison", "comparisons"), errorRateText(mc.ErrorRate), formatAlpha(alpha))
+		fmt.Fprintf(&b, "%s over a family of %s, keeping %s at alpha %s. ", capitalize(adjustmentLong(mc.Method)), Plural(int64(mc.Size), "comparison", "comparisons"), errorRateText(mc.ErrorRate), formatAlpha(alpha))
 		if mc.Family != "" {
 			fmt.Fprintf(&b, "The family is %s: %s. ", strings.TrimSuffix(mc.Family, "."), list)
 		} else {
@@ -250,7 +242,7 @@ func adjustedRow(m experiment.MetricReadout, c experiment.Comparison) string {
 	p := decisionP(c.DecidedBy, c.Z, c.Exact)
 	alpha := decisionAlpha(c.DecidedBy, c.Z, c.Exact)
 	return fmt.Sprintf("%s over %s, from %s (%s): adjusted %s: %s",
-		adjustmentName(adj.Method), plural(adj.FamilySize, "comparison", "comparisons"), pIs(p), by,
+		adjustmentName(adj.Method), Plural(int64(adj.FamilySize), "comparison", "comparisons"), pIs(p), by,
 		pAgainst(adj.PValue, alpha), rejectText(adj.Significant))
 }
 
@@ -295,7 +287,7 @@ func comparisonDecision(m experiment.MetricReadout, c experiment.Comparison) str
 	case !adjusts(adj.Method):
 		return decisionText(c.Significant, c.DecidedBy, c.Z, c.Exact) + "; no adjustment for multiple comparisons"
 	}
-	after := "after " + adjustmentName(adj.Method) + " adjustment over " + plural(adj.FamilySize, "comparison", "comparisons") + " (final)"
+	after := "after " + adjustmentName(adj.Method) + " adjustment over " + Plural(int64(adj.FamilySize), "comparison", "comparisons") + " (final)"
 	switch {
 	case c.Significant && c.SignificantUnadjusted:
 		return "**significant** at alpha " + alpha + " " + after + ", and before it; by " + by
@@ -348,23 +340,16 @@ func multiplicityCaution(r experiment.Readout) string {
 	metrics, _, _ := familyMembers(r)
 	var b strings.Builder
 	fmt.Fprintf(&b, "Multiple comparisons: the %s with the control on %s were adjusted together by the %s method, which keeps %s at alpha %s; the decisions above are the adjusted ones",
-		plural(mc.Size, "comparison", "comparisons"), joinAnd(metrics), adjustmentName(mc.Method),
+		Plural(int64(mc.Size), "comparison", "comparisons"), joinAnd(metrics), adjustmentName(mc.Method),
 		errorRateText(mc.ErrorRate), formatAlpha(r.Settings.Alpha))
 	if k := changedByAdjustment(r); k > 0 {
-		fmt.Fprintf(&b, " (%d %s significant only before adjustment)", k, wasWere(k))
+		fmt.Fprintf(&b, " (%d %s significant only before adjustment)", k, PluralWord(int64(k), "was", "were"))
 	}
 	b.WriteString(".")
 	if o.total() > 0 {
 		fmt.Fprintf(&b, " Outside the family, %s on its own: %s; the more of them, the likelier one is significant by chance.", each, o.text())
 	}
 	return b.String()
-}
-
-func wasWere(n int) string {
-	if n == 1 {
-		return "was"
-	}
-	return "were"
 }
 
 // decisionAlphas lists the distinct alphas of every decision in the

@@ -26,10 +26,10 @@ func warningText(w experiment.Warning) string {
 		return "pooled z statistic undefined: every unit converted in both arms; reported as z = 0, p = 1"
 	case experiment.WarnFewConversions:
 		return fmt.Sprintf("%s%s has %s, needs at least %d", notJustified, w.Arm,
-			plural(int(w.Count), "conversion", "conversions"), w.MinCount)
+			Plural(w.Count, "conversion", "conversions"), w.MinCount)
 	case experiment.WarnFewNonConversions:
 		return fmt.Sprintf("%s%s has %s, needs at least %d", notJustified, w.Arm,
-			plural(int(w.Count), "non-conversion", "non-conversions"), w.MinCount)
+			Plural(w.Count, "non-conversion", "non-conversions"), w.MinCount)
 	case experiment.WarnFewExpectedConversions:
 		return fmt.Sprintf("%sexpected conversions n p0 = %.4g, needs at least %d", notJustified, w.Expected, w.MinCount)
 	case experiment.WarnFewExpectedNonConversions:
@@ -60,6 +60,6 @@ func segmentCaution(r experiment.Readout) string {
 	return fmt.Sprintf("Segment results are exploratory: %s %s tested at alpha %s each, outside the multiple-comparison family and without adjustment. "+
 		"Even if no treatment had any effect, about %s of them would be expected to come out significant by chance, and the more segments, the more such false positives; "+
 		"treat a segment difference as a lead to test in a new experiment, not as a finding.",
-		plural(sg.Tests, "segment comparison", "segment comparisons"), wasWere(sg.Tests),
+		Plural(int64(sg.Tests), "segment comparison", "segment comparisons"), PluralWord(int64(sg.Tests), "was", "were"),
 		strconv.FormatFloat(alpha, 'f', -1, 64), strconv.FormatFloat(alpha*float64(sg.Tests), 'f', 1, 64))
 }

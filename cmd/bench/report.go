@@ -8,6 +8,8 @@ import (
 	"os"
 	"strings"
 	"time"
+
+	"github.com/armtally/armtally/report"
 )
 
 // Markers around the part of BENCHMARKS.md that the run mode rewrites; the
@@ -62,22 +64,6 @@ func ratio(a, b float64) string {
 	return fmt.Sprintf("%.2f", a/b)
 }
 
-// thousands formats n with commas.
-func thousands(n int64) string {
-	s := fmt.Sprint(n)
-	if n < 0 {
-		return "-" + thousands(-n)
-	}
-	var b strings.Builder
-	for i, c := range s {
-		if i > 0 && (len(s)-i)%3 == 0 {
-			b.WriteByte(',')
-		}
-		b.WriteRune(c)
-	}
-	return b.String()
-}
-
 // renderReport returns the generated part of BENCHMARKS.md, markers
 // included.
 func renderReport(rep *benchReport) string {
@@ -105,23 +91,23 @@ func renderReport(rep *benchReport) string {
 	for _, sc := range rep.Scenarios {
 		in := sc.Info
 		p("| %s (`%s`) | %s | %s | %s | %s | %.2f | %s | %.0f s |\n", sc.Desc, sc.Spec.fileName(), formatName(sc.Spec.Format),
-			thousands(in.Units), thousands(in.NeverExposed), thousands(in.Rows), float64(in.Rows)/float64(in.Units), mbs(in.Bytes), in.GenSeconds)
+			report.FormatCount(in.Units), report.FormatCount(in.NeverExposed), report.FormatCount(in.Rows), float64(in.Rows)/float64(in.Units), mbs(in.Bytes), in.GenSeconds)
 	}
 	p("\nThe logs come from `sampledata.Generate` (the demo scenario, seed %d, %g noise events per unit; 2.5%% extra never-exposed units); ", f.seed, f.noise)
-	p("Parquet is written by `cmd/bench` with parquet-go: the schema of `sampledata.WriteParquet` (dictionary-encoded strings, `ts` TIMESTAMP(MICROS, UTC) delta-encoded) with snappy instead of zstd, %s rows per row group; CSV is `sampledata.WriteCSV`.\n\n", thousands(rowGroupRows))
+	p("Parquet is written by `cmd/bench` with parquet-go: the schema of `sampledata.WriteParquet` (dictionary-encoded strings, `ts` TIMESTAMP(MICROS, UTC) delta-encoded) with snappy instead of zstd, %s rows per row group; CSV is `sampledata.WriteCSV`.\n\n", report.FormatCount(rowGroupRows))
 
 	p("### Check: the same counts\n\n")
 	p("Before any timing, armtally's JSON and DuckDB's result must agree exactly (the run aborts otherwise), and every timed run is checked again.\n\n")
 	p("| Log | Arm | Units (after multi-arm exclusion) | Mature units | Conversions | Immature units |\n|:--|:--|--:|--:|--:|--:|\n")
 	for _, sc := range rep.Scenarios {
 		for _, c := range sc.Counts.Arms {
-			p("| %s | `%s` | %s | %s | %s | %s |\n", sc.Name, c.Arm, thousands(c.Units), thousands(c.MetricUnits), thousands(c.Conversions), thousands(c.Immature))
+			p("| %s | `%s` | %s | %s | %s | %s |\n", sc.Name, c.Arm, report.FormatCount(c.Units), report.FormatCount(c.MetricUnits), report.FormatCount(c.Conversions), report.FormatCount(c.Immature))
 		}
 	}
 	p("\nMulti-arm units left out: ")
 	var parts []string
 	for _, sc := range rep.Scenarios {
-		parts = append(parts, fmt.Sprintf("%s %s of %s exposed", sc.Name, thousands(sc.Counts.MultiArmUnits), thousands(sc.Counts.UnitsExposed)))
+		parts = append(parts, fmt.Sprintf("%s %s of %s exposed", sc.Name, report.FormatCount(sc.Counts.MultiArmUnits), report.FormatCount(sc.Counts.UnitsExposed)))
 	}
 	p("%s.\n\n", strings.Join(parts, "; "))
 
@@ -134,7 +120,7 @@ func renderReport(rep *benchReport) string {
 			scan = secs(sc.DuckDBScan.Wall)
 			scanRatio = ratio(sc.Armtally.Wall.Seconds(), sc.DuckDBScan.Wall.Seconds())
 		}
-		p("| %s | %s | %d | %s | %s | %s | %s | %s | %s | %s | %s |\n", sc.Name, thousands(sc.Info.Rows), sc.Armtally.Runs,
+		p("| %s | %s | %d | %s | %s | %s | %s | %s | %s | %s | %s |\n", sc.Name, report.FormatCount(sc.Info.Rows), sc.Armtally.Runs,
 			secs(sc.Armtally.Wall), secs(sc.DuckDB.Wall), ratio(sc.Armtally.Wall.Seconds(), sc.DuckDB.Wall.Seconds()),
 			scan, scanRatio, mbs(sc.Armtally.MaxRSS), mbs(sc.DuckDB.MaxRSS), ratio(float64(sc.Armtally.MaxRSS), float64(sc.DuckDB.MaxRSS)))
 	}
@@ -173,7 +159,7 @@ func renderReport(rep *benchReport) string {
 	if len(rep.Decode) > 0 {
 		p("\n### Decode paths (the five needed columns, %d goroutines)\n\n", f.threads)
 		p("Each path reads `user_id`, `ts`, `event`, `experiment` and `arm` of `%s` (%d row groups), every row group handed to the next free goroutine, and folds every value into a checksum (rows, sum of ts, nulls, total string length); all paths must return the same checksum (%s rows, %s nulls, %s string bytes). ",
-			shortPath(rep.DecodeFile), findScenario(rep, "parquet").Info.RowGroups, thousands(rep.Decode[0].Sum.Rows), thousands(rep.Decode[0].Sum.Nulls), thousands(rep.Decode[0].Sum.StrBytes))
+			shortPath(rep.DecodeFile), findScenario(rep, "parquet").Info.RowGroups, report.FormatCount(rep.Decode[0].Sum.Rows), report.FormatCount(rep.Decode[0].Sum.Nulls), report.FormatCount(rep.Decode[0].Sum.StrBytes))
 		p("Command: `bench decode --file FILE --method NAME --workers %d`, a child process per run; %d runs each, interleaved; load average %s when they began, %s when they ended.\n\n", f.threads, rep.Decode[0].Stats.Runs, rep.DecodeLoad[0], rep.DecodeLoad[1])
 		p("| Path | Median wall | Range | In-process median | Peak RSS | vs parquet-go pages | What it does |\n|:--|--:|--:|--:|--:|--:|:--|\n")
 		base := rep.Decode[0].Stats.Wall.Seconds()
