@@ -80,7 +80,7 @@ func decodeIngest(path string, workers int) (decodeSum, error) {
 	defer r.Close()
 	var s decodeSum
 	for r.Next() {
-		rec := r.Record()
+		rec := r.RecordBatch()
 		ts := rec.Column(1).(*array.Timestamp).TimestampValues()
 		s.Rows += int64(len(ts))
 		for _, v := range ts {

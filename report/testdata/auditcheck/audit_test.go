@@ -50,7 +50,7 @@ func TestAuditReadsBackWithArrow(t *testing.T) {
 		t.Fatal(err)
 	}
 	for rd.Next() {
-		if err := tl.Add(rd.Record()); err != nil {
+		if err := tl.Add(rd.RecordBatch()); err != nil {
 			t.Fatal(err)
 		}
 	}
