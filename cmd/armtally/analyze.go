@@ -579,6 +579,8 @@ func analyze(ctx context.Context, run *analyzeRun) (*pipeline.Result, error) {
 		return nil, &dataError{de.Err}
 	case errors.As(err, &se):
 		return nil, fmt.Errorf("analyze: --memory-limit: %w", se.Err)
+	case errors.Is(err, context.Canceled) && ctx.Err() != nil:
+		return nil, fmt.Errorf("analyze: interrupted by a signal; no readout was written and the run's temporary files were removed: %w", err)
 	case err != nil:
 		return nil, fmt.Errorf("analyze: %w", err)
 	}
