@@ -12,6 +12,7 @@ import (
 	"time"
 
 	"github.com/armtally/armtally/experiment"
+	"github.com/armtally/armtally/internal/safetext"
 )
 
 // Document is the top level of the JSON output: the schema it follows and
@@ -27,6 +28,13 @@ type Document struct {
 // modified: every slice is a new one, empty rather than nil (so that the
 // JSON holds [] rather than null), every time is in UTC (so that the same
 // instants give the same bytes) and every warning is its English text.
+//
+// Every name from the data (experiment key, exposure event, arm, metric
+// and event names, segment dimensions and values) and every warning text
+// is in its JSON form (jsonText): as it is when it is valid UTF-8 without
+// a backslash followed by "x", else with each backslash doubled and each
+// byte that is not UTF-8 as \xNN, so that names that differ stay
+// different.
 func NewDocument(readouts []experiment.Readout) Document {
 	return Document{Schema: SchemaID, SchemaVersion: SchemaVersion, Readouts: convertAll(readouts, toJSONReadout)}
 }
@@ -51,26 +59,37 @@ type JSONReadout struct {
 
 func toJSONReadout(r experiment.Readout) JSONReadout {
 	seg := JSONSegmentation{
-		Dimensions: convertAll(r.Segmentation.Dimensions, same),
+		Dimensions: convertAll(r.Segmentation.Dimensions, jsonText),
 		Tests:      r.Segmentation.Tests,
 		Caution:    segmentCaution(r),
 	}
 	return JSONReadout{
-		Experiment:    r.Experiment,
-		ExposureEvent: r.ExposureEvent,
-		Control:       r.Control,
+		Experiment:    jsonText(r.Experiment),
+		ExposureEvent: jsonText(r.ExposureEvent),
+		Control:       jsonText(r.Control),
 		WindowStart:   utc(r.WindowStart),
 		WindowEnd:     utc(r.WindowEnd),
 		Freshness:     utc(r.Freshness),
 		Settings:      JSONSettings(r.Settings),
-		Arms:          convertAll(r.Arms, func(a experiment.ArmUnits) JSONArmUnits { return JSONArmUnits(a) }),
+		Arms:          convertAll(r.Arms, toJSONArmUnits),
 		SampleRatio:   JSONSampleRatio(r.SampleRatio),
 		Multiplicity:  JSONMultiplicity(r.Multiplicity),
 		Segmentation:  seg,
 		Metrics:       convertAll(r.Metrics, toJSONMetric),
 		Diagnostics:   toJSONDiagnostics(r.Diagnostics),
-		Warnings:      warningTexts(r.Warnings),
+		Warnings:      jsonWarnings(r.Warnings),
 	}
+}
+
+// jsonText is the JSON form of a name or text from the data
+// (safetext.Exact): valid names without a backslash followed by "x" come
+// out as they are, and no two different names give the same text.
+func jsonText(s string) string { return safetext.Exact(s) }
+
+// jsonWarnings words warnings in their JSON form: a warning's text may
+// hold an arm name.
+func jsonWarnings(ws []experiment.Warning) []string {
+	return convertAll(warningTexts(ws), jsonText)
 }
 
 // JSONSettings is the JSON form of experiment.Settings.
@@ -103,6 +122,12 @@ type JSONArmUnits struct {
 	Units         int64   `json:"units"`
 	PlannedShare  float64 `json:"planned_share"`
 	ObservedShare float64 `json:"observed_share"`
+}
+
+func toJSONArmUnits(a experiment.ArmUnits) JSONArmUnits {
+	j := JSONArmUnits(a)
+	j.Name = jsonText(a.Name)
+	return j
 }
 
 // JSONSampleRatio is the JSON form of experiment.SampleRatio.
@@ -140,8 +165,8 @@ type JSONMetric struct {
 
 func toJSONMetric(m experiment.MetricReadout) JSONMetric {
 	return JSONMetric{
-		Name:          m.Name,
-		Events:        convertAll(m.Events, same),
+		Name:          jsonText(m.Name),
+		Events:        convertAll(m.Events, jsonText),
 		WindowSeconds: m.WindowSeconds,
 		Target:        m.Target,
 		LowerIsBetter: m.LowerIsBetter,
@@ -149,7 +174,7 @@ func toJSONMetric(m experiment.MetricReadout) JSONMetric {
 		Arms:          convertAll(m.Arms, toJSONArmRate),
 		Comparisons:   convertAll(m.Comparisons, toJSONComparison),
 		Segments:      convertAll(m.Segments, toJSONSegment),
-		Warnings:      warningTexts(m.Warnings),
+		Warnings:      jsonWarnings(m.Warnings),
 	}
 }
 
@@ -164,8 +189,8 @@ type JSONSegment struct {
 
 func toJSONSegment(s experiment.SegmentResult) JSONSegment {
 	return JSONSegment{
-		Dimension:   s.Dimension,
-		Value:       s.Value,
+		Dimension:   jsonText(s.Dimension),
+		Value:       convertPtr(s.Value, jsonText),
 		Exploratory: s.Exploratory,
 		Arms:        convertAll(s.Arms, toJSONArmRate),
 		Comparisons: convertAll(s.Comparisons, toJSONComparison),
@@ -192,7 +217,7 @@ type JSONArmRate struct {
 
 func toJSONArmRate(a experiment.ArmRate) JSONArmRate {
 	return JSONArmRate{
-		Arm:         a.Arm,
+		Arm:         jsonText(a.Arm),
 		Units:       a.Units,
 		Conversions: a.Conversions,
 		Immature:    a.Immature,
@@ -262,7 +287,7 @@ func toJSONTargetTest(t experiment.TargetTest) JSONTargetTest {
 		Exact:        toJSONExactTest(t.Exact),
 		Significant:  t.Significant,
 		DecidedBy:    t.DecidedBy,
-		Warnings:     warningTexts(t.Warnings),
+		Warnings:     jsonWarnings(t.Warnings),
 	}
 }
 
@@ -288,8 +313,8 @@ type JSONComparison struct {
 
 func toJSONComparison(c experiment.Comparison) JSONComparison {
 	return JSONComparison{
-		Treatment:             c.Treatment,
-		Control:               c.Control,
+		Treatment:             jsonText(c.Treatment),
+		Control:               jsonText(c.Control),
 		Difference:            c.Difference,
 		DifferenceInterval:    toJSONInterval(c.DifferenceInterval),
 		RelativeLift:          c.RelativeLift,
@@ -303,7 +328,7 @@ func toJSONComparison(c experiment.Comparison) JSONComparison {
 		Adjusted:              convertPtr(c.Adjusted, toJSONAdjusted),
 		IntervalAgrees:        c.IntervalAgrees,
 		NonInferiority:        convertPtr(c.NonInferiority, toJSONNonInferiority),
-		Warnings:              warningTexts(c.Warnings),
+		Warnings:              jsonWarnings(c.Warnings),
 	}
 }
 
@@ -341,7 +366,7 @@ func toJSONNonInferiority(n experiment.NonInferiorityTest) JSONNonInferiorityTes
 		Z:              toJSONTest(n.Z),
 		NonInferior:    n.NonInferior,
 		Interval:       toJSONInterval(n.Interval),
-		Warnings:       warningTexts(n.Warnings),
+		Warnings:       jsonWarnings(n.Warnings),
 	}
 }
 
@@ -369,8 +394,8 @@ func toJSONDiagnostics(d experiment.Diagnostics) JSONDiagnostics {
 		UnitsExposed:  d.UnitsExposed,
 		MultiArmUnits: d.MultiArmUnits,
 		TiedUnits:     d.TiedUnits,
-		UnitsPerArm:   convertAll(d.UnitsPerArm, func(a experiment.ArmCount) JSONArmCount { return JSONArmCount(a) }),
-		Immature:      convertAll(d.Immature, func(m experiment.MetricCount) JSONMetricCount { return JSONMetricCount(m) }),
+		UnitsPerArm:   convertAll(d.UnitsPerArm, toJSONArmCount),
+		Immature:      convertAll(d.Immature, toJSONMetricCount),
 		IgnoredEvents: convertAll(d.IgnoredEvents, reasons),
 	}
 }
@@ -393,6 +418,14 @@ type JSONMetricCount struct {
 	Units  int64  `json:"units"`
 }
 
+func toJSONArmCount(a experiment.ArmCount) JSONArmCount {
+	return JSONArmCount{Arm: jsonText(a.Arm), Units: a.Units}
+}
+
+func toJSONMetricCount(m experiment.MetricCount) JSONMetricCount {
+	return JSONMetricCount{Metric: jsonText(m.Metric), Units: m.Units}
+}
+
 // convertAll returns f of each element of s, in a new slice that is never
 // nil.
 func convertAll[T, U any](s []T, f func(T) U) []U {
@@ -411,8 +444,6 @@ func convertPtr[T, U any](p *T, f func(T) U) *U {
 	u := f(*p)
 	return &u
 }
-
-func same[T any](v T) T { return v }
 
 func utc(t *time.Time) *time.Time {
 	if t == nil {

@@ -7,6 +7,7 @@ import (
 	"strings"
 
 	"github.com/armtally/armtally/experiment"
+	"github.com/armtally/armtally/internal/safetext"
 )
 
 // MarkdownOptions shapes the Markdown readout. The zero value gives the
@@ -62,8 +63,13 @@ type markdown struct {
 	opts  MarkdownOptions
 }
 
+// line writes one line. Every line of the readout passes here, so this is
+// where text from the data is made safe: control characters, bidi
+// controls and bytes that are not UTF-8 become visible escapes
+// (safetext.Visible; the readout's own text has none, so it is unchanged).
+// Table cells and code spans are escaped before (tableRow, code).
 func (md *markdown) line(s string) {
-	md.buf.WriteString(s)
+	md.buf.WriteString(safetext.Visible(s))
 	md.buf.WriteByte('\n')
 }
 
