@@ -185,3 +185,29 @@ func TestJSONKeepsNamesApart(t *testing.T) {
 		t.Errorf("the text %q and the bytes %q both became %q", `tr\xe9at`, "tr\xe9at", a)
 	}
 }
+
+// FuzzMarkdownNames renders the two-arm readout (and its segment table)
+// with arbitrary names for the experiment, both arms, a metric, the
+// segment dimension and a segment value, and checks that the Markdown is
+// valid UTF-8, holds no control character but newline, and keeps every
+// table row at its header's number of cells.
+func FuzzMarkdownNames(f *testing.F) {
+	f.Add("exp\x1b[31m", "ctl\x07", "tr\xe9at\x00\u202e", "buy|now`", "dev\nice", "``mob|le``")
+	f.Add("", " ", "\\", "|", "`", "\\|")
+	f.Add("a\u2066b", "\u0085", "\xff\xfe", "\r\n", "x\\", "| --- |")
+	f.Fuzz(func(t *testing.T, experimentKey, control, treatment, metric, dimension, value string) {
+		r := renamed(twoArmReadout(), map[string]string{
+			"checkout-button-color": experimentKey,
+			"control":               control,
+			"green-button":          treatment,
+			"purchase":              metric,
+			"device":                dimension,
+			"desktop":               value,
+		})
+		var buf bytes.Buffer
+		if err := WriteMarkdown(&buf, []experiment.Readout{r}, MarkdownOptions{}); err != nil {
+			t.Fatal(err)
+		}
+		checkMarkdownSafe(t, buf.String())
+	})
+}
