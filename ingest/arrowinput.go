@@ -3,7 +3,6 @@ package ingest
 import (
 	"fmt"
 	"strconv"
-	"strings"
 	"sync/atomic"
 	"unsafe"
 
@@ -387,7 +386,7 @@ func bindArrowColumn(stream string, schema *arrow.Schema, phys string, i int, p 
 			have = append(have, f.Name)
 		}
 		return nil, &ColumnError{File: stream, Column: phys, Err: ErrMissingColumn,
-			Detail: "the stream has: " + strings.Join(have, ", ")}
+			Detail: "the stream has: " + nameList(have)}
 	}
 	if len(idx) > 1 {
 		return nil, &ColumnError{File: stream, Column: phys, Err: ErrColumnType,

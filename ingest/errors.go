@@ -5,6 +5,8 @@ import (
 	"fmt"
 	"strconv"
 	"strings"
+
+	"github.com/armtally/armtally/internal/safetext"
 )
 
 // Reasons a row is bad. A *RowError returns one of these from Unwrap, so
@@ -132,8 +134,38 @@ var (
 // timestampForms names the accepted text forms in error messages.
 const timestampForms = "RFC 3339 or YYYY-MM-DD[ HH:MM:SS[.frac]]"
 
+// maxQuoted is the most bytes of escaped text a message shows of one value
+// or name from the data; maxListed the most names it lists.
+const (
+	maxQuoted = 64
+	maxListed = 100
+)
+
+// quote writes a value or name from the data in a message: in double
+// quotes, control characters, bidi controls and bytes that are not UTF-8
+// as visible escapes (safetext.Visible, as in the Markdown readout), and
+// cut after maxQuoted bytes with "... (N bytes)".
+func quote(s string) string {
+	return `"` + safetext.Short(s, maxQuoted) + `"`
+}
+
+// nameList lists column names for a message: each escaped and cut as
+// quote does (without the quotes), at most maxListed of them.
+func nameList(names []string) string {
+	shown := make([]string, 0, min(len(names), maxListed))
+	for _, n := range names[:min(len(names), maxListed)] {
+		shown = append(shown, safetext.Short(n, maxQuoted))
+	}
+	list := strings.Join(shown, ", ")
+	if more := len(names) - len(shown); more > 0 {
+		list += fmt.Sprintf(" and %d more", more)
+	}
+	return list
+}
+
 // RowError reports a bad row: where it is, which column, the raw value and
-// the reason. It prints as
+// the reason. The column name and the value are printed by quote: escaped
+// and cut to 64 bytes. It prints as
 //
 //	events.csv:1042: column "ts": cannot parse "2026-13-01" as a timestamp (want RFC 3339 or YYYY-MM-DD[ HH:MM:SS[.frac]])
 //	events.parquet:3146770: row group 3: column "user": null or empty user id
@@ -164,23 +196,23 @@ func (e *RowError) Error() string {
 		fmt.Fprintf(&b, "row group %d: ", e.RowGroup)
 	}
 	if e.Column != "" {
-		fmt.Fprintf(&b, "column %q: ", e.Column)
+		fmt.Fprintf(&b, "column %s: ", quote(e.Column))
 	}
 	switch e.Err {
 	case ErrBadTimestamp:
-		fmt.Fprintf(&b, "cannot parse %q as a timestamp (want %s", e.Value, timestampForms)
+		fmt.Fprintf(&b, "cannot parse %s as a timestamp (want %s", quote(e.Value), timestampForms)
 		if _, err := strconv.ParseInt(e.Value, 10, 64); err == nil {
 			b.WriteString(", or set the epoch unit for integer timestamps")
 		}
 		b.WriteString(")")
 	case ErrTimestampRange:
-		fmt.Fprintf(&b, "timestamp %q is outside the range of nanosecond timestamps (1677-09-21 to 2262-04-11)", e.Value)
+		fmt.Fprintf(&b, "timestamp %s is outside the range of nanosecond timestamps (1677-09-21 to 2262-04-11)", quote(e.Value))
 	case ErrFieldCount:
 		fmt.Fprintf(&b, "wrong number of fields: got %s, the header has %d", e.Value, e.wantFields)
 	default:
 		b.WriteString(e.Err.Error())
 		if e.Value != "" {
-			fmt.Fprintf(&b, " (value %q)", e.Value)
+			fmt.Fprintf(&b, " (value %s)", quote(e.Value))
 		}
 	}
 	return b.String()
@@ -248,7 +280,9 @@ func (e *BudgetError) Unwrap() []error {
 }
 
 // ColumnError reports a mapped column that a file lacks or that has a type
-// the reader cannot use. It prints as
+// the reader cannot use. The column name is printed by quote (escaped, cut
+// to 64 bytes) and the detail with its control characters escaped. It
+// prints as
 //
 //	events.csv: column "user_id": missing column (the file has: uid, ts, event)
 type ColumnError struct {
@@ -261,9 +295,9 @@ type ColumnError struct {
 }
 
 func (e *ColumnError) Error() string {
-	s := fmt.Sprintf("%s: column %q: %v", e.File, e.Column, e.Err)
+	s := fmt.Sprintf("%s: column %s: %v", e.File, quote(e.Column), e.Err)
 	if e.Detail != "" {
-		s += " (" + e.Detail + ")"
+		s += " (" + safetext.Visible(e.Detail) + ")"
 	}
 	return s
 }
@@ -272,11 +306,12 @@ func (e *ColumnError) Error() string {
 func (e *ColumnError) Unwrap() error { return e.Err }
 
 // missingColumn reports a mapped column that is neither a column of the file
-// nor one of its partition keys.
+// nor one of its partition keys. The names are listed by nameList: a
+// header of binary bytes gives a short, printable message.
 func missingColumn(file, column string, available, partitions []string) *ColumnError {
-	d := "the file has: " + strings.Join(available, ", ")
+	d := "the file has: " + nameList(available)
 	if len(partitions) > 0 {
-		d += "; partition keys: " + strings.Join(partitions, ", ")
+		d += "; partition keys: " + nameList(partitions)
 	}
 	return &ColumnError{File: file, Column: column, Err: ErrMissingColumn, Detail: d}
 }

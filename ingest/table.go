@@ -583,7 +583,7 @@ func newParquetTable(file string, o *openedSource, p *tablePlan) (pt *parquetTab
 	for i, c := range p.cols {
 		leaf, ok := lookupLeaf(schema, c.physical)
 		if !ok {
-			return nil, &ColumnError{File: file, Column: c.physical, Err: ErrMissingColumn, Detail: "the file has: " + strings.Join(top, ", ")}
+			return nil, missingColumn(file, c.physical, top, nil)
 		}
 		if leaf.MaxRepetitionLevel > 0 {
 			return nil, &ColumnError{File: file, Column: c.physical, Err: ErrColumnType, Detail: "a repeated column"}
