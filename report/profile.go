@@ -9,6 +9,7 @@ import (
 	"time"
 
 	"github.com/armtally/armtally/ingest/profile"
+	"github.com/armtally/armtally/internal/safetext"
 )
 
 // WriteProfile writes the profile of an event log (profile.Build) as text:
@@ -16,6 +17,11 @@ import (
 // the rows read, valid and bad (by reason, with the first bad row of
 // each), the time range, the exposure rows by experiment and arm and the
 // event names by rows, the first p.EventsShown of them.
+//
+// The profile is for the terminal: every name and message from the files
+// (file, column, experiment, arm and event names, partition values, error
+// texts) is written by safetext.Visible, so control characters, bidi
+// controls and bytes that are not UTF-8 show as escapes.
 func WriteProfile(w io.Writer, p *profile.Report) error {
 	var b bytes.Buffer
 	for _, f := range p.Files {
@@ -30,7 +36,7 @@ func WriteProfile(w io.Writer, p *profile.Report) error {
 		if i == 0 {
 			b.WriteString("  first bad row of each reason:\n")
 		}
-		fmt.Fprintf(&b, "    %s\n", e)
+		fmt.Fprintf(&b, "    %s\n", vis(e))
 	}
 	if p.First != nil {
 		fmt.Fprintf(&b, "time range: %s to %s\n", p.First.Format(time.RFC3339Nano), p.Last.Format(time.RFC3339Nano))
@@ -42,12 +48,15 @@ func WriteProfile(w io.Writer, p *profile.Report) error {
 	return err
 }
 
+// vis writes a name or message from the files for the terminal.
+func vis(s string) string { return safetext.Visible(s) }
+
 // profileTable returns a tabwriter for an aligned block of the profile.
 func profileTable(b *bytes.Buffer) *tabwriter.Writer { return tabwriter.NewWriter(b, 0, 0, 2, ' ', 0) }
 
 // writeProfileFile writes the block of one file.
 func writeProfileFile(b *bytes.Buffer, f profile.File) {
-	fmt.Fprintf(b, "%s\n", f.Name)
+	fmt.Fprintf(b, "%s\n", vis(f.Name))
 	rows := "rows counted"
 	if f.RowsFrom == "metadata" {
 		rows = "rows (from the file's metadata)"
@@ -56,14 +65,14 @@ func writeProfileFile(b *bytes.Buffer, f profile.File) {
 	if len(f.Partitions) > 0 {
 		var ps []string
 		for _, p := range f.Partitions {
-			ps = append(ps, p.Key+"="+p.Value)
+			ps = append(ps, vis(p.Key)+"="+vis(p.Value))
 		}
 		fmt.Fprintf(b, "  partitions: %s\n", strings.Join(ps, ", "))
 	}
 	b.WriteString("  columns:\n")
 	t := profileTable(b)
 	for _, c := range f.Columns {
-		fmt.Fprintf(t, "    %s\t%s\n", c.Name, c.Type)
+		fmt.Fprintf(t, "    %s\t%s\n", vis(c.Name), vis(c.Type))
 	}
 	t.Flush()
 	b.WriteString("  mapping:\n")
@@ -71,9 +80,9 @@ func writeProfileFile(b *bytes.Buffer, f profile.File) {
 	for _, m := range f.Mapping {
 		switch m.Status {
 		case profile.StatusColumn:
-			fmt.Fprintf(t, "    %s\t<- %s\n", m.Logical, m.Physical)
+			fmt.Fprintf(t, "    %s\t<- %s\n", m.Logical, vis(m.Physical))
 		case profile.StatusPartition:
-			fmt.Fprintf(t, "    %s\t<- %s (partition folder)\n", m.Logical, m.Physical)
+			fmt.Fprintf(t, "    %s\t<- %s (partition folder)\n", m.Logical, vis(m.Physical))
 		case profile.StatusNotMapped:
 			fmt.Fprintf(t, "    %s\tnot mapped\n", m.Logical)
 		default:
@@ -82,7 +91,7 @@ func writeProfileFile(b *bytes.Buffer, f profile.File) {
 	}
 	t.Flush()
 	if f.Error != "" {
-		fmt.Fprintf(b, "  rows not read: %s\n", f.Error)
+		fmt.Fprintf(b, "  rows not read: %s\n", vis(f.Error))
 	}
 	b.WriteString("\n")
 }
@@ -96,7 +105,7 @@ func writeProfileCounts(b *bytes.Buffer, p *profile.Report) {
 	t := profileTable(b)
 	var total int64
 	for _, e := range p.Exposures {
-		fmt.Fprintf(t, "  %s\t%s\t%s\n", e.Experiment, e.Arm, FormatCount(e.Rows))
+		fmt.Fprintf(t, "  %s\t%s\t%s\n", vis(e.Experiment), vis(e.Arm), FormatCount(e.Rows))
 		total += e.Rows
 	}
 	t.Flush()
@@ -107,7 +116,7 @@ func writeProfileCounts(b *bytes.Buffer, p *profile.Report) {
 	t = profileTable(b)
 	shown := max(0, min(p.EventsShown, len(p.Events)))
 	for _, e := range p.Events[:shown] {
-		fmt.Fprintf(t, "  %s\t%s\n", e.Event, FormatCount(e.Rows))
+		fmt.Fprintf(t, "  %s\t%s\n", vis(e.Event), FormatCount(e.Rows))
 	}
 	t.Flush()
 	if more := p.Events[shown:]; len(more) > 0 {

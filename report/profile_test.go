@@ -4,6 +4,7 @@ import (
 	"bytes"
 	"testing"
 	"time"
+	"unicode/utf8"
 
 	"github.com/armtally/armtally/ingest"
 	"github.com/armtally/armtally/ingest/profile"
@@ -90,5 +91,45 @@ events (1 names) by rows:
 	}
 	if b.String() != want {
 		t.Errorf("got\n%s\nwant\n%s", b.String(), want)
+	}
+}
+
+// TestWriteProfileHostileNames checks that names from the files reach the
+// terminal with their control characters, bidi controls and invalid bytes
+// as escapes (internal/safetext.Visible) and the columns still aligned.
+func TestWriteProfileHostileNames(t *testing.T) {
+	p := &profile.Report{
+		Files: []profile.File{{
+			Name: "e\x1b[2J.csv", Format: "CSV", Rows: 3, RowsFrom: "counted",
+			Columns:    []profile.Column{{Name: "us\ter", Type: "text"}},
+			Partitions: []ingest.Partition{{Key: "d\u202et", Value: "\xff"}},
+		}},
+		BadRows:        []ingest.BadRowCount{},
+		BadRowExamples: []string{"e.csv:2: \x07"},
+		ExposureEvent:  "exposure",
+		Exposures:      []profile.ExposureCount{{Experiment: "x\x00", Arm: "tr\xe9at", Rows: 3}},
+		Events:         []profile.EventCount{{Event: "bu\x1by", Rows: 3}},
+		EventsShown:    1,
+	}
+	var buf bytes.Buffer
+	if err := WriteProfile(&buf, p); err != nil {
+		t.Fatal(err)
+	}
+	for _, want := range []string{
+		"e\\x1b[2J.csv\n",
+		"    us\\x09er  text\n",
+		"  partitions: d\\u202et=\\xff\n",
+		"    e.csv:2: \\x07\n",
+		"  x\\x00  tr\\xe9at  3\n",
+		"  bu\\x1by  3\n",
+	} {
+		if !bytes.Contains(buf.Bytes(), []byte(want)) {
+			t.Errorf("profile lacks %q:\n%s", want, buf.String())
+		}
+	}
+	for i, r := range buf.String() {
+		if r != '\n' && (r < 0x20 || r == 0x7f || r == utf8.RuneError || r == 0x202e) {
+			t.Fatalf("profile holds %U at byte %d:\n%q", r, i, buf.String())
+		}
 	}
 }
