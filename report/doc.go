@@ -29,6 +29,14 @@
 // precision. Schema returns the JSON Schema (draft 2020-12) that describes
 // it exactly. Both writers reject NaN and infinity instead of writing them.
 //
+// Names from the data are made safe where they are written (the rules are
+// those of internal/safetext, described in the README): every Markdown
+// line, and every name in the profile, shows control characters, bidi
+// controls and bytes that are not UTF-8 as visible escapes, so the output
+// is valid UTF-8 and its tables stay whole; the JSON writes each name in a
+// one-to-one form (valid UTF-8 without a backslash followed by "x" as it
+// is), so names that differ never meet.
+//
 // WriteAudit writes the first stage of a tally, one row per exposed unit
 // (arm, first exposure, segment values, status, conversion and maturity
 // flags per metric), as a Parquet table sorted by unit (AuditSchema). The
