@@ -6,7 +6,7 @@ import (
 	"strconv"
 	"strings"
 
-	"github.com/armtally/armtally/internal/safetext"
+	"github.com/armtally/armtally/ingest/safetext"
 )
 
 // Reasons a row is bad. A *RowError returns one of these from Unwrap, so

@@ -12,7 +12,7 @@ import (
 	"time"
 
 	"github.com/armtally/armtally/experiment"
-	"github.com/armtally/armtally/internal/safetext"
+	"github.com/armtally/armtally/ingest/safetext"
 )
 
 // Document is the top level of the JSON output: the schema it follows and

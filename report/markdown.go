@@ -7,7 +7,7 @@ import (
 	"strings"
 
 	"github.com/armtally/armtally/experiment"
-	"github.com/armtally/armtally/internal/safetext"
+	"github.com/armtally/armtally/ingest/safetext"
 )
 
 // MarkdownOptions shapes the Markdown readout. The zero value gives the

@@ -9,7 +9,7 @@ import (
 	"time"
 
 	"github.com/armtally/armtally/ingest/profile"
-	"github.com/armtally/armtally/internal/safetext"
+	"github.com/armtally/armtally/ingest/safetext"
 )
 
 // WriteProfile writes the profile of an event log (profile.Build) as text:
