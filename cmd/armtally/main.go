@@ -30,6 +30,7 @@ import (
 	"fmt"
 	"io"
 	"os"
+	"syscall"
 
 	"github.com/spf13/pflag"
 
@@ -43,6 +44,8 @@ const (
 	exitUsage       = 2
 	exitData        = 3
 	exitSampleRatio = 4
+	exitInterrupted = 130 // 128 + SIGINT
+	exitTerminated  = 143 // 128 + SIGTERM
 )
 
 func main() {
@@ -63,6 +66,27 @@ type dataError struct{ err error }
 
 func (e *dataError) Error() string { return e.err.Error() }
 func (e *dataError) Unwrap() error { return e.err }
+
+// signalError is a run stopped by SIGINT or SIGTERM.
+type signalError struct{ sig os.Signal }
+
+func (e *signalError) Error() string {
+	if e.sig == syscall.SIGTERM {
+		return "SIGTERM"
+	}
+	if e.sig == os.Interrupt {
+		return "SIGINT"
+	}
+	return e.sig.String()
+}
+
+// code returns the exit code of the signal: 128 plus its number.
+func (e *signalError) code() int {
+	if e.sig == syscall.SIGTERM {
+		return exitTerminated
+	}
+	return exitInterrupted
+}
 
 // errSampleRatio reports a failed sample ratio check under
 // --fail-on-sample-ratio.
@@ -150,11 +174,15 @@ func exitCode(err error, stderr io.Writer) int {
 	var de *dataError
 	var se *specfile.Error
 	var ses specfile.Errors
+	var sig *signalError
 	switch {
 	case err == nil:
 		return exitOK
 	case errors.Is(err, errHelp):
 		return exitOK
+	case errors.As(err, &sig):
+		fmt.Fprintf(stderr, "armtally: %v\n", err)
+		return sig.code()
 	case errors.As(err, &se), errors.As(err, &ses):
 		fmt.Fprintf(stderr, "armtally: %v\n", err)
 		return exitUsage
