@@ -95,7 +95,8 @@ func spillOwnerGone(markerPath string) bool {
 // ("" is the system's temporary folder) whose marker names a process that
 // no longer runs: left behind by a run that was killed (SIGKILL, a crash,
 // a power cut) before it could remove its own. It returns the folders
-// removed, and an error naming each stale folder it could not remove.
+// removed, and an error naming each stale folder it could not remove. A
+// dir that does not exist holds no stale folder.
 //
 // Only Linux tells whether a process runs (through /proc); elsewhere
 // nothing is removed. A folder without a readable marker (one being made
@@ -106,6 +107,9 @@ func RemoveStaleSpills(dir string) (removed []string, err error) {
 		dir = os.TempDir()
 	}
 	entries, err := os.ReadDir(dir)
+	if errors.Is(err, fs.ErrNotExist) {
+		return nil, nil
+	}
 	if err != nil {
 		return nil, fmt.Errorf("spill: looking for stale spill folders: %w", err)
 	}
