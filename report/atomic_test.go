@@ -298,3 +298,36 @@ func TestOutputSetSymlink(t *testing.T) {
 		t.Errorf("the dangling link's target holds %q", got)
 	}
 }
+
+// A context done in the middle of a long write stops it as the data goes
+// to disk: the temporary file is removed and the target keeps its content.
+func TestOutputSetCancelledMidWrite(t *testing.T) {
+	dir := t.TempDir()
+	path := filepath.Join(dir, "audit.parquet")
+	if err := os.WriteFile(path, []byte("old\n"), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	ctx, cancel := context.WithCancel(context.Background())
+	s := NewOutputSet(ctx)
+	err := s.Add(path, func(w io.Writer) error {
+		chunk := strings.Repeat("x", 1<<10)
+		for i := 0; i < 1<<12; i++ {
+			if i == 10 {
+				cancel()
+			}
+			if _, err := io.WriteString(w, chunk); err != nil {
+				return err
+			}
+		}
+		return nil
+	})
+	if !errors.Is(err, context.Canceled) {
+		t.Fatalf("error %v, want context.Canceled", err)
+	}
+	if got := readOrNone(t, path); got != "old\n" {
+		t.Errorf("the target holds %.20q, want its old content", got)
+	}
+	if names := dirNames(t, dir); len(names) != 1 {
+		t.Errorf("the folder holds %q, want only the target", names)
+	}
+}

@@ -162,7 +162,7 @@ func interrupted(ctx context.Context) *signalError {
 func removeStaleSpills(dir string, stderr io.Writer) {
 	removed, err := ingest.RemoveStaleSpills(dir)
 	for _, path := range removed {
-		fmt.Fprintf(stderr, "armtally: removed %s, a spill folder left by a run that no longer runs\n", path)
+		fmt.Fprintf(stderr, "armtally: removed %s, a spill folder left by a run that was killed\n", path)
 	}
 	if err == nil {
 		return

@@ -2,6 +2,7 @@ package main
 
 import (
 	"bytes"
+	"context"
 	"errors"
 	"fmt"
 	"os"
@@ -289,5 +290,48 @@ func TestStaleSpillRemoved(t *testing.T) {
 	}
 	if _, err := os.Stat(live); err != nil {
 		t.Errorf("the live process's folder was removed: %v", err)
+	}
+}
+
+// A signal that arrives after the analysis, while the outputs are
+// written, replaces no output, leaves no temporary file and ends with
+// the signal's exit code.
+func TestSignalWhileWriting(t *testing.T) {
+	dir := t.TempDir()
+	in := spillLog(t, dir, 300)
+	md := writeTestFile(t, dir, "r.md", "old md\n")
+	js := filepath.Join(dir, "r.json")
+	var stdout, stderr bytes.Buffer
+	run, err := parseAnalyze([]string{in, "--experiment", "exp", "--metric", "purchase", "--out", md, "--json", js, "--audit", filepath.Join(dir, "u.parquet")}, &stdout, &stderr)
+	if err != nil {
+		t.Fatal(err)
+	}
+	res, err := analyze(context.Background(), run)
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, c := range []struct {
+		sig  os.Signal
+		code int
+	}{{os.Interrupt, exitInterrupted}, {syscall.SIGTERM, exitTerminated}} {
+		ctx, cancel := context.WithCancelCause(context.Background())
+		cancel(&signalError{c.sig})
+		err = writeOutputs(ctx, run, res, &stdout)
+		if got := exitCode(err, &stderr); got != c.code {
+			t.Errorf("%v: exit %d, want %d (%v)", c.sig, got, c.code, err)
+		}
+		if fileContent(t, md) != "old md\n" {
+			t.Errorf("%v: the Markdown readout was replaced", c.sig)
+		}
+		entries, err := os.ReadDir(dir)
+		if err != nil {
+			t.Fatal(err)
+		}
+		if len(entries) != 2 {
+			t.Errorf("%v: the folder holds %d entries, want the log and r.md only", c.sig, len(entries))
+		}
+	}
+	if stdout.Len() != 0 {
+		t.Errorf("stdout %q, want nothing", stdout.String())
 	}
 }
