@@ -60,7 +60,7 @@ func checkOutputs(run *analyzeRun, inputs []string) error {
 	for _, o := range outputFiles(run) {
 		target, err := report.ResolveOutput(o.path)
 		if errors.Is(err, fs.ErrNotExist) {
-			return usagef("analyze: %s %s: the folder %s does not exist", o.from, o.path, filepath.Dir(o.path))
+			return usagef("analyze: %s %s: the folder to write it in does not exist (%v)", o.from, o.path, err)
 		}
 		if err != nil {
 			return usagef("analyze: %s %s: %v", o.from, o.path, err)
