@@ -27,7 +27,10 @@ import (
 // The rows are written in a compact binary form (per column, in schema
 // order: ts as 8 bytes little-endian; text as a uvarint of length+1, 0 for
 // null, then the bytes), one file per partition, in a fresh folder that
-// Close removes. A Spill is not safe for concurrent use.
+// Close removes. The folder also holds a marker file naming the owning
+// process (its id and, on Linux, its start time), so that a later run can
+// tell a folder left by a killed process from one in use: see
+// RemoveStaleSpills. A Spill is not safe for concurrent use.
 type Spill struct {
 	dir    string
 	schema *arrow.Schema
@@ -48,7 +51,8 @@ type spillPart struct {
 
 // NewSpill makes a Spill of n partitions (1 to 4096) for record batches of
 // schema, the logical event table of a Reader (user, ts, event first), in a
-// new folder inside dir ("" is the system's temporary folder).
+// new folder inside dir ("" is the system's temporary folder), named
+// armtally-spill-* and holding the marker file of RemoveStaleSpills.
 func NewSpill(dir string, n int, schema *arrow.Schema) (*Spill, error) {
 	if n < 1 || n > 4096 {
 		return nil, fmt.Errorf("spill: %d partitions: want 1 to 4096", n)
@@ -61,11 +65,15 @@ func NewSpill(dir string, n int, schema *arrow.Schema) (*Spill, error) {
 			return nil, fmt.Errorf("spill: column %q is %v, want utf8", f.Name, f.Type)
 		}
 	}
-	d, err := os.MkdirTemp(dir, "armtally-spill-*")
+	d, err := os.MkdirTemp(dir, spillPrefix+"*")
 	if err != nil {
 		return nil, fmt.Errorf("spill: %w", err)
 	}
 	s := &Spill{dir: d, schema: schema, seed: maphash.MakeSeed(), maxTS: math.MinInt64}
+	if err := writeSpillMarker(d); err != nil {
+		s.Close()
+		return nil, fmt.Errorf("spill: %w", err)
+	}
 	for i := range n {
 		path := filepath.Join(d, fmt.Sprintf("part-%04d.rows", i))
 		f, err := os.Create(path)

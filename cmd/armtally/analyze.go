@@ -6,12 +6,10 @@ import (
 	"fmt"
 	"io"
 	"os"
-	"os/signal"
 	"path/filepath"
 	"runtime/debug"
 	"slices"
 	"strings"
-	"syscall"
 	"time"
 
 	"github.com/spf13/pflag"
@@ -117,8 +115,8 @@ func newAnalyzeFlagSet(f *analyzeFlags, stderr io.Writer) *pflag.FlagSet {
 	fs.StringVar(&f.exp.NonInferiorityMethod, "non-inferiority-method", "farrington-manning", "variance of guardrail tests: farrington-manning, miettinen-nurminen or wald")
 	fs.Int64Var(&f.exp.MinCount, "min-count", 5, "conversions and non-conversions per arm needed to trust the normal approximation")
 	fs.Float64Var(&f.exp.SampleRatioThreshold, "sample-ratio-threshold", experiment.DefaultSampleRatioThreshold, "p-value below which the sample ratio check fails")
-	fs.StringVarP(&f.out, "out", "o", "", "write the Markdown readout to this file instead of stdout")
-	fs.StringVar(&f.jsonOut, "json", "", "also write the JSON readout to this file")
+	fs.StringVarP(&f.out, "out", "o", "", "write the Markdown readout to this file instead of stdout (- for stdout)")
+	fs.StringVar(&f.jsonOut, "json", "", "also write the JSON readout to this file (- for stdout, with --out FILE)")
 	fs.StringVar(&f.audit, "audit", "", "also write the per-unit audit table (Parquet) to this file; with several experiments, one file each, named FILE-KEY.parquet")
 	fs.BoolVar(&f.failOnSampleRatio, "fail-on-sample-ratio", false, "exit with code 4 when the sample ratio check fails")
 	fs.StringVar(&f.memoryLimit, "memory-limit", "", "keep the per-unit state of an event log under about this size (such as 800MB or 2GiB): the rows go to disk in hash partitions of the units, tallied a group at a time and merged; no --audit")
@@ -143,13 +141,17 @@ type analyzeRun struct {
 	// --ts-col): a unit table's exposure time column is optional.
 	tsMapped bool
 	// counts names the columns of a counts table.
-	counts            ingest.CountsOptions
-	delimiter         rune
-	maxBadRows        int64
-	maxBadShare       float64
-	experiments       []builtExperiment
+	counts      ingest.CountsOptions
+	delimiter   rune
+	maxBadRows  int64
+	maxBadShare float64
+	experiments []builtExperiment
+	// out, jsonOut and audit are the output paths ("" for none; "-" is
+	// standard output for out and jsonOut); outFrom says where each was
+	// named: "--out", "--json", "--audit" or the spec file's key.
 	out, jsonOut      string
 	audit             string
+	outFrom           [3]string
 	failOnSampleRatio bool
 	// progress says whether to show a progress line on stderr while
 	// reading: stderr is a terminal and --no-progress is not given.
@@ -232,6 +234,18 @@ func parseAnalyzeRun(args []string, stdout, stderr io.Writer) (*analyzeRun, erro
 		if err := sf.CheckPartitions(run.sources); err != nil {
 			return nil, &dataError{err}
 		}
+	}
+	var inputs []string
+	if !f.demo {
+		for _, src := range run.sources {
+			inputs = append(inputs, src.Name)
+		}
+	}
+	if f.spec != "" {
+		inputs = append(inputs, f.spec)
+	}
+	if err := checkOutputs(run, inputs); err != nil {
+		return nil, err
 	}
 	return run, nil
 }
@@ -368,21 +382,25 @@ func applyReading(f *analyzeFlags, sf *specfile.File, override func(string) bool
 	return nil
 }
 
-// applyOutputs sets the outputs: the spec file's, then the flags.
+// applyOutputs sets the outputs: the spec file's, then the flags. Each
+// output remembers where it was named (the flag, or the spec file's key),
+// for the messages of checkOutputs.
 func applyOutputs(f *analyzeFlags, sf *specfile.File, override func(string) bool, run *analyzeRun) error {
 	if sf != nil {
 		run.out, run.jsonOut, run.audit = sf.Markdown, sf.JSON, sf.Audit
+		run.outFrom = [3]string{"output.markdown in " + sf.Name, "output.json in " + sf.Name, "output.audit in " + sf.Name}
 		if sf.FailOnSampleRatio != nil {
 			run.failOnSampleRatio = *sf.FailOnSampleRatio
 		}
 	}
-	for _, o := range []struct {
+	for i, o := range []struct {
 		flag string
 		v    string
 		dst  *string
 	}{{"out", f.out, &run.out}, {"json", f.jsonOut, &run.jsonOut}, {"audit", f.audit, &run.audit}} {
 		if override(o.flag) {
 			*o.dst = o.v
+			run.outFrom[i] = "--" + o.flag
 		}
 	}
 	if run.audit != "" && run.shape == experiment.InputCounts {
@@ -398,6 +416,9 @@ func applyOutputs(f *analyzeFlags, sf *specfile.File, override func(string) bool
 func applyMemoryLimit(f *analyzeFlags, run *analyzeRun) error {
 	run.spillDir = f.spillDir
 	if f.memoryLimit == "" {
+		if f.spillDir != "" {
+			return usagef("analyze: --spill-dir %s without --memory-limit: nothing is spilled to disk unless --memory-limit is given", f.spillDir)
+		}
 		return nil
 	}
 	n, err := parseBytes(f.memoryLimit)
@@ -486,37 +507,82 @@ func demoDefaults(fs *pflag.FlagSet, f *analyzeFlags) {
 	})
 }
 
+// runAnalyze runs analyze: the command line is checked (the output paths
+// too) before any input is read; SIGINT and SIGTERM stop the run, remove
+// its temporary files and replace no output.
 func runAnalyze(args []string, stdout, stderr io.Writer) error {
 	run, err := parseAnalyze(args, stdout, stderr)
 	if err != nil {
 		return err
 	}
-	ctx, stop := signal.NotifyContext(context.Background(), os.Interrupt, syscall.SIGTERM)
+	ctx, stop := notifySignals(context.Background())
 	defer stop()
+	if run.memoryLimit > 0 {
+		removeStaleSpills(run.spillDir, stderr)
+	}
 	res, err := analyze(ctx, run)
 	if err != nil {
 		return err
 	}
+	if err := writeOutputs(ctx, run, res, stdout); err != nil {
+		return err
+	}
+	return checkSampleRatio(run, res.Readouts)
+}
+
+// writeOutputs writes the readouts and audit tables of a run: the files
+// to temporary files first, all renamed into place only when every one is
+// complete, then what goes to standard output.
+func writeOutputs(ctx context.Context, run *analyzeRun, res *pipeline.Result, stdout io.Writer) error {
+	set := report.NewOutputSet(ctx)
+	defer set.Abort()
 	readouts := res.Readouts
-	if run.jsonOut != "" {
-		if err := report.WriteFileAtomic(run.jsonOut, func(w io.Writer) error { return report.WriteJSON(w, readouts) }); err != nil {
+	jsonOut := func(w io.Writer) error { return report.WriteJSON(w, readouts) }
+	md := func(w io.Writer) error { return report.WriteMarkdown(w, readouts, report.MarkdownOptions{}) }
+	err := addOutputs(set, run, res, jsonOut, md)
+	if err == nil {
+		err = set.Commit()
+	}
+	if sig := interrupted(ctx); err != nil && sig != nil {
+		return fmt.Errorf("analyze: interrupted by %w while writing the outputs; no output was replaced and the temporary files were removed", sig)
+	}
+	if err != nil {
+		return err
+	}
+	if run.jsonOut == "-" {
+		if err := jsonOut(stdout); err != nil {
 			return fmt.Errorf("writing the JSON readout: %w", err)
 		}
 	}
-	md := func(w io.Writer) error { return report.WriteMarkdown(w, readouts, report.MarkdownOptions{}) }
-	if run.out != "" {
-		err = report.WriteFileAtomic(run.out, md)
-	} else {
-		err = md(stdout)
-	}
-	if err != nil {
-		return fmt.Errorf("writing the Markdown readout: %w", err)
-	}
-	if run.audit != "" {
-		if err := writeAudits(run, res); err != nil {
-			return err
+	if run.out == "" || run.out == "-" {
+		if err := md(stdout); err != nil {
+			return fmt.Errorf("writing the Markdown readout: %w", err)
 		}
 	}
+	return nil
+}
+
+// addOutputs adds the output files of a run to set.
+func addOutputs(set *report.OutputSet, run *analyzeRun, res *pipeline.Result, jsonOut, md func(io.Writer) error) error {
+	if run.jsonOut != "" && run.jsonOut != "-" {
+		if err := set.Add(run.jsonOut, jsonOut); err != nil {
+			return fmt.Errorf("writing the JSON readout: %w", err)
+		}
+	}
+	if run.out != "" && run.out != "-" {
+		if err := set.Add(run.out, md); err != nil {
+			return fmt.Errorf("writing the Markdown readout: %w", err)
+		}
+	}
+	if run.audit != "" {
+		return writeAudits(set, run, res)
+	}
+	return nil
+}
+
+// checkSampleRatio returns errSampleRatio, with the experiments whose
+// sample ratio check failed, under --fail-on-sample-ratio.
+func checkSampleRatio(run *analyzeRun, readouts []experiment.Readout) error {
 	if !run.failOnSampleRatio {
 		return nil
 	}
@@ -567,6 +633,9 @@ func analyze(ctx context.Context, run *analyzeRun) (*pipeline.Result, error) {
 		debug.SetMemoryLimit(run.memoryLimit)
 	}
 	res, err := pipeline.Run(ctx, in, exps, opts)
+	if sig := interrupted(ctx); err != nil && sig != nil {
+		return nil, fmt.Errorf("analyze: interrupted by %w; no readout was written and the run's temporary files were removed", sig)
+	}
 	var (
 		ce *pipeline.ConfigError
 		de *pipeline.DataError
@@ -579,18 +648,16 @@ func analyze(ctx context.Context, run *analyzeRun) (*pipeline.Result, error) {
 		return nil, &dataError{de.Err}
 	case errors.As(err, &se):
 		return nil, fmt.Errorf("analyze: --memory-limit: %w", se.Err)
-	case errors.Is(err, context.Canceled) && ctx.Err() != nil:
-		return nil, fmt.Errorf("analyze: interrupted by a signal; no readout was written and the run's temporary files were removed: %w", err)
 	case err != nil:
 		return nil, fmt.Errorf("analyze: %w", err)
 	}
 	return res, nil
 }
 
-// writeAudits writes each experiment's per-unit audit table to run.audit,
-// or, with several experiments, to run.audit with "-KEY" before the
-// extension.
-func writeAudits(run *analyzeRun, res *pipeline.Result) error {
+// writeAudits adds each experiment's per-unit audit table to set, at
+// run.audit or, with several experiments, at run.audit with "-KEY" before
+// the extension.
+func writeAudits(set *report.OutputSet, run *analyzeRun, res *pipeline.Result) error {
 	for i, e := range run.experiments {
 		units, err := res.Units(i)
 		if err != nil {
@@ -601,7 +668,7 @@ func writeAudits(run *analyzeRun, res *pipeline.Result) error {
 			return fmt.Errorf("experiment %q: %w", e.spec.Key, err)
 		}
 		path := auditPath(run.audit, e.spec.Key, len(run.experiments))
-		err = report.WriteFileAtomic(path, func(w io.Writer) error { return report.WriteAudit(w, e.spec, units) })
+		err = set.Add(path, func(w io.Writer) error { return report.WriteAudit(w, e.spec, units) })
 		if err != nil {
 			return fmt.Errorf("writing the audit table of experiment %q: %w", e.spec.Key, err)
 		}

@@ -14,15 +14,30 @@
 //
 // Exit codes:
 //
-//	0  the readout was written
-//	1  an unexpected failure (for example, an output file could not be written)
-//	2  usage error: unknown flag, bad flag value, missing argument, a spec
-//	   file that cannot be read or has an error (named by file, line and key)
-//	3  data error: an input cannot be read, a row is malformed, the data
-//	   contradicts the settings (an arm that is not planned, several
-//	   experiments without --experiment)
-//	4  the sample ratio check failed and --fail-on-sample-ratio was given
-//	   (the readout is still written)
+//	0    the readout was written
+//	1    an unexpected failure (for example, a full disk while writing an
+//	     output: no output is then replaced)
+//	2    usage error: unknown flag, bad flag value, missing argument, a spec
+//	     file that cannot be read or has an error (named by file, line and
+//	     key), an output path that is an input, another output, a folder or
+//	     in a folder that is missing or not writable (checked before any
+//	     input is read)
+//	3    data error: an input cannot be read, a row is malformed, the data
+//	     contradicts the settings (an arm that is not planned, several
+//	     experiments without --experiment)
+//	4    the sample ratio check failed and --fail-on-sample-ratio was given
+//	     (the readout is still written)
+//	130  stopped by SIGINT (143: by SIGTERM)
+//
+// Outputs and signals: analyze writes every output file (--out, --json,
+// --audit) to a temporary file beside it and renames them all into place
+// only when all are complete, so a failure or a signal replaces none of
+// them; a symbolic link stays a link and its target is written. SIGINT
+// or SIGTERM cancels the run, removes the temporary outputs and the spill
+// folder of --memory-limit, and exits with 130 or 143. A spill folder
+// holds a marker naming its process; a later --memory-limit run removes
+// the folders (in the same parent) of processes that no longer run, and
+// says so on stderr.
 package main
 
 import (
@@ -30,6 +45,7 @@ import (
 	"fmt"
 	"io"
 	"os"
+	"syscall"
 
 	"github.com/spf13/pflag"
 
@@ -43,6 +59,8 @@ const (
 	exitUsage       = 2
 	exitData        = 3
 	exitSampleRatio = 4
+	exitInterrupted = 130 // 128 + SIGINT
+	exitTerminated  = 143 // 128 + SIGTERM
 )
 
 func main() {
@@ -64,6 +82,27 @@ type dataError struct{ err error }
 func (e *dataError) Error() string { return e.err.Error() }
 func (e *dataError) Unwrap() error { return e.err }
 
+// signalError is a run stopped by SIGINT or SIGTERM.
+type signalError struct{ sig os.Signal }
+
+func (e *signalError) Error() string {
+	if e.sig == syscall.SIGTERM {
+		return "SIGTERM"
+	}
+	if e.sig == os.Interrupt {
+		return "SIGINT"
+	}
+	return e.sig.String()
+}
+
+// code returns the exit code of the signal: 128 plus its number.
+func (e *signalError) code() int {
+	if e.sig == syscall.SIGTERM {
+		return exitTerminated
+	}
+	return exitInterrupted
+}
+
 // errSampleRatio reports a failed sample ratio check under
 // --fail-on-sample-ratio.
 var errSampleRatio = errors.New("sample ratio mismatch")
@@ -83,11 +122,13 @@ Usage:
   armtally help spec                        describe the experiment spec file (--spec)
 
 Exit codes:
-  0  the readout was written
-  1  unexpected failure (such as an output file that cannot be written)
-  2  usage error (including an error in a spec file, named by file, line and key)
-  3  data error (unreadable input, malformed row, data that contradicts the settings)
-  4  sample ratio mismatch with --fail-on-sample-ratio (the readout is still written)
+  0    the readout was written
+  1    unexpected failure (such as a full disk; no output is then replaced)
+  2    usage error (including an error in a spec file, named by file, line and
+       key, and an output path that is an input, another output or not writable)
+  3    data error (unreadable input, malformed row, data that contradicts the settings)
+  4    sample ratio mismatch with --fail-on-sample-ratio (the readout is still written)
+  130  stopped by SIGINT; 143: by SIGTERM (no output replaced, temporary files removed)
 
 Run 'armtally help COMMAND' for the flags of analyze, gen, plan or inspect,
 and 'armtally help spec' for the experiment spec file (analyze --spec).
@@ -150,11 +191,15 @@ func exitCode(err error, stderr io.Writer) int {
 	var de *dataError
 	var se *specfile.Error
 	var ses specfile.Errors
+	var sig *signalError
 	switch {
 	case err == nil:
 		return exitOK
 	case errors.Is(err, errHelp):
 		return exitOK
+	case errors.As(err, &sig):
+		fmt.Fprintf(stderr, "armtally: %v\n", err)
+		return sig.code()
 	case errors.As(err, &se), errors.As(err, &ses):
 		fmt.Fprintf(stderr, "armtally: %v\n", err)
 		return exitUsage
