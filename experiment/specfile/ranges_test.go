@@ -19,7 +19,7 @@ func TestFlagValueRanges(t *testing.T) {
 	}
 	base := Overrides{ExposureEvent: "x", Control: "c", MultiArm: "exclude", Maturity: "exclude", Alpha: 0.05,
 		Alternative: "two-sided", Adjust: "holm", Interval: "wilson", DifferenceInterval: "newcombe",
-		NonInferiorityMethod: "farrington-manning", SampleRatioThreshold: 0.001, MinCount: 5}
+		NonInferiorityMethod: "farrington-manning", SampleRatioThreshold: 0.001, MinCount: 5, MaxSegmentValues: 100}
 	for _, tc := range []struct {
 		name string
 		set  func(*Overrides)
@@ -39,6 +39,12 @@ func TestFlagValueRanges(t *testing.T) {
 			`--start 2262-01-01T00:00:00Z is out of range: want a time in the years 1678 to 2261`},
 		{"sample ratio threshold subnormal", func(o *Overrides) { o.SampleRatioThreshold = 1e-320 },
 			"--sample-ratio-threshold: 1e-320 is too small: want 1e-12 <= threshold < 1"},
+		{"max segment values 0", func(o *Overrides) {
+			o.MaxSegmentValues, o.Given = 0, func(f string) bool { return f == "max-segment-values" }
+		},
+			"--max-segment-values: 0: want 1 to 100000"},
+		{"max segment values huge", func(o *Overrides) { o.MaxSegmentValues = 1e6 },
+			"--max-segment-values: 1000000: want 1 to 100000"},
 		{"min count huge", func(o *Overrides) { o.MinCount = 99999999999999999 },
 			"--min-count: 99999999999999999 is too large: want 1 to 1000000000"},
 	} {
@@ -60,8 +66,12 @@ func TestFlagValueRanges(t *testing.T) {
 	if err := o.Apply(e, true); err != nil {
 		t.Fatalf("the limits themselves: %v", err)
 	}
-	if _, _, err := e.Build(); err != nil {
+	spec, _, err := e.Build()
+	if err != nil {
 		t.Fatalf("the limits themselves: %v", err)
+	}
+	if spec.MaxSegmentValues != 100 {
+		t.Errorf("MaxSegmentValues %d, want --max-segment-values 100", spec.MaxSegmentValues)
 	}
 }
 

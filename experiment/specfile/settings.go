@@ -31,6 +31,7 @@ type Settings struct {
 	maturity       experiment.MaturityPolicy
 	metrics        []Metric
 	segments       []string
+	maxSegValues   int
 	opts           experiment.AnalysisOptions
 
 	// from says where a setting came from, by its spec-file key name
@@ -143,6 +144,21 @@ func (e *Settings) AddSegment(name string) {
 	if !slices.Contains(e.segments, name) {
 		e.segments = append(e.segments, name)
 	}
+}
+
+// MaxMaxSegmentValues is the largest limit of distinct values per segment
+// dimension: the readout has a table row per value, arm and metric.
+const MaxMaxSegmentValues = 100_000
+
+// SetMaxSegmentValues sets the most distinct values a segment dimension
+// may have, from 1 to MaxMaxSegmentValues (the default is
+// experiment.DefaultMaxSegmentValues).
+func (e *Settings) SetMaxSegmentValues(n int64, o Origin) error {
+	if n < 1 || n > MaxMaxSegmentValues {
+		return o.errorf("%d: want 1 to %d", n, MaxMaxSegmentValues)
+	}
+	e.maxSegValues = int(n)
+	return nil
 }
 
 // MarkLowerIsBetter marks the metric name as one where a lower rate is the
@@ -284,7 +300,8 @@ func (e *Settings) Build() (experiment.Spec, experiment.AnalysisOptions, error) 
 	spec := experiment.Spec{
 		Key: e.key, ExposureEvent: e.exposureEvent, Control: e.control,
 		Start: e.start, End: e.end, MultiArm: e.multiArm, Maturity: e.maturity,
-		Segments: append([]string(nil), e.segments...),
+		Segments:         append([]string(nil), e.segments...),
+		MaxSegmentValues: e.maxSegValues,
 	}
 	if err := e.buildArms(&spec); err != nil {
 		return spec, e.opts, err
