@@ -19,7 +19,9 @@ import (
 // two-experiment spec of cmd/armtally and every file of testdata/bad) and
 // the large and deep inputs of hostileSpecs.
 func FuzzSpecFile(f *testing.F) {
-	for _, h := range hostileSpecs() {
+	// Seeds as large as TestHostileSpecs's would slow the fuzzer to a
+	// few runs a second; these are past every limit all the same.
+	for _, h := range hostileSpecs(100, 4<<10) {
 		f.Add(h.data)
 	}
 	f.Fuzz(func(t *testing.T, data []byte) {

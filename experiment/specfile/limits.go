@@ -90,7 +90,7 @@ func checkDocument(name string, data []byte) error {
 		}
 		if depth > MaxNesting {
 			line := 0
-			if _, first := keyParts(e); first != nil {
+			if first != nil {
 				line = p.Shape(first.Raw).Start.Line
 			}
 			return &Error{File: name, Line: line, Msg: fmt.Sprintf("nested more than %d deep (tables, dotted keys, arrays and inline tables count)", MaxNesting)}
