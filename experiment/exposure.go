@@ -36,6 +36,10 @@ type exposures struct {
 	armIndex map[string]int32
 	arms     []string
 	armFirst []int64 // earliest exposure seen per arm; math.MaxInt64 when none
+	// maxSeg is the spec's limit of distinct values per dimension;
+	// segOver is the first dimension past it plus one (0 when none).
+	maxSeg  int
+	segOver int
 }
 
 func newExposures(spec Spec) exposures {
@@ -43,6 +47,7 @@ func newExposures(spec Spec) exposures {
 		units:    newUnitIndex(),
 		dims:     len(spec.Segments),
 		armIndex: make(map[string]int32),
+		maxSeg:   spec.maxSegmentValues(),
 	}
 	x.segIndex = make([]map[string]int32, x.dims)
 	x.segVals = make([][]string, x.dims)
@@ -105,10 +110,22 @@ func (x *exposures) segValue(d int, col *array.String, i int) int32 {
 		return v
 	}
 	v := int32(len(x.segVals[d]))
+	if int(v) >= x.maxSeg && x.segOver == 0 {
+		x.segOver = d + 1
+	}
 	s = strings.Clone(s)
 	x.segIndex[d][s] = v
 	x.segVals[d] = append(x.segVals[d], s)
 	return v
+}
+
+// segmentLimit returns a *SegmentLimitError when a dimension has more
+// distinct values than the spec allows, or nil.
+func (x *exposures) segmentLimit(spec Spec) error {
+	if x.segOver == 0 {
+		return nil
+	}
+	return &SegmentLimitError{Dimension: spec.Segments[x.segOver-1], Limit: x.maxSeg}
 }
 
 // segLess reports whether interned value a of dimension d comes before b

@@ -7,10 +7,38 @@ import (
 	"github.com/armtally/armtally/experiment/stats"
 )
 
+// DefaultMaxSegmentValues is the most distinct values a segment dimension
+// may have when the spec does not say (Spec.MaxSegmentValues). A segment
+// breakdown is for a few groups (platform, country); a column such as the
+// unit key would give one table row per unit, and the readout would grow
+// with the square of their number.
+const DefaultMaxSegmentValues = 100
+
+// SegmentLimitError is a segment dimension with more distinct values than
+// the spec allows.
+type SegmentLimitError struct {
+	Dimension string
+	Limit     int
+}
+
+func (e *SegmentLimitError) Error() string {
+	return fmt.Sprintf("segment %q has more than %d distinct values, the limit for a segment breakdown (--max-segment-values): segment by a column with fewer values, or raise the limit", e.Dimension, e.Limit)
+}
+
+// maxSegmentValues returns the spec's limit of distinct values per
+// segment dimension.
+func (spec Spec) maxSegmentValues() int {
+	if spec.MaxSegmentValues > 0 {
+		return spec.MaxSegmentValues
+	}
+	return DefaultMaxSegmentValues
+}
+
 // checkSegments checks that every arm's segment counts follow the spec's
-// dimensions. An arm without segment counts (a control with no units, or
-// a tally made before segments existed) reads as empty when the spec has
-// no dimensions or the arm has no units.
+// dimensions, and that no dimension has more distinct values than the
+// spec allows. An arm without segment counts (a control with no units,
+// or a tally made before segments existed) reads as empty when the spec
+// has no dimensions or the arm has no units.
 func checkSegments(spec Spec, arms []ArmTally) error {
 	for _, a := range arms {
 		if len(a.Segments) == 0 {
@@ -33,7 +61,31 @@ func checkSegments(spec Spec, arms []ArmTally) error {
 			}
 		}
 	}
+	for d, dim := range spec.Segments {
+		if n := len(segmentValues(arms, d)); n > spec.maxSegmentValues() {
+			return &SegmentLimitError{Dimension: dim, Limit: spec.maxSegmentValues()}
+		}
+	}
 	return nil
+}
+
+// segmentValues returns the values of dimension d over the arms, sorted.
+func segmentValues(arms []ArmTally, d int) []SegmentValue {
+	var values []SegmentValue
+	seen := make(map[SegmentValue]bool)
+	for _, a := range arms {
+		if d >= len(a.Segments) {
+			continue
+		}
+		for _, c := range a.Segments[d].Values {
+			if !seen[c.Value] {
+				seen[c.Value] = true
+				values = append(values, c.Value)
+			}
+		}
+	}
+	slices.SortFunc(values, CompareSegmentValues)
+	return values
 }
 
 // segmentCount returns arm a's count of metric mi for value v of dimension
@@ -58,21 +110,7 @@ func segmentCount(a ArmTally, d int, v SegmentValue, mi int) Count {
 func analyzeSegments(spec Spec, mi int, arms []ArmTally, ctl int, so stats.Options, meth methods) ([]SegmentResult, error) {
 	var out []SegmentResult
 	for d, dim := range spec.Segments {
-		var values []SegmentValue
-		seen := make(map[SegmentValue]bool)
-		for _, a := range arms {
-			if d >= len(a.Segments) {
-				continue
-			}
-			for _, c := range a.Segments[d].Values {
-				if !seen[c.Value] {
-					seen[c.Value] = true
-					values = append(values, c.Value)
-				}
-			}
-		}
-		slices.SortFunc(values, CompareSegmentValues)
-		for _, v := range values {
+		for _, v := range segmentValues(arms, d) {
 			sr := SegmentResult{Dimension: dim, Exploratory: true}
 			if v.Valid {
 				s := v.Value

@@ -146,6 +146,10 @@ type Spec struct {
 	// string (so a value beats a null), being a value of its own otherwise.
 	// Segment results are exploratory: see Segmentation.
 	Segments []string
+	// MaxSegmentValues is the most distinct values (null is one) a
+	// segment dimension may have; more is a *SegmentLimitError, found as
+	// soon as a tally sees it. Zero means DefaultMaxSegmentValues.
+	MaxSegmentValues int
 }
 
 // validate checks what every input shape needs of a spec: known policies,

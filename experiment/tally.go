@@ -366,13 +366,20 @@ func (t *Tallier) Add(rec arrow.RecordBatch) error {
 	// The second: each partition's rows, on its own goroutine.
 	if len(t.parts) == 1 {
 		t.addPart(0, users, ts, segs, n)
-		return nil
+	} else {
+		var wg sync.WaitGroup
+		for p := range t.parts {
+			wg.Go(func() { t.addPart(p, users, ts, segs, n) })
+		}
+		wg.Wait()
 	}
-	var wg sync.WaitGroup
-	for p := range t.parts {
-		wg.Go(func() { t.addPart(p, users, ts, segs, n) })
+	if len(segs) > 0 {
+		for _, pt := range t.parts {
+			if err := pt.segmentLimit(t.spec); err != nil {
+				return err
+			}
+		}
 	}
-	wg.Wait()
 	return nil
 }
 

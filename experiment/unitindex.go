@@ -20,7 +20,10 @@ type unitIndex struct {
 	ends  chunked[uint64] // ends[u] is the end of key u in arena; it starts at ends[u-1] (0 for u = 0)
 }
 
-const unitIndexMinSlots = 1 << 10
+// unitIndexMinSlots is the size of a new index's table. It is small so
+// that a run of thousands of experiments, most with few units, holds
+// little memory for them; the table doubles as units arrive.
+const unitIndexMinSlots = 16
 
 func newUnitIndex() unitIndex { return newUnitIndexSeed(maphash.MakeSeed()) }
 

@@ -153,7 +153,7 @@ func (t *UnitTableTallier) Add(rec arrow.RecordBatch) error {
 		}
 	}
 	t.rows += int64(n)
-	return nil
+	return t.segmentLimit(t.spec)
 }
 
 // record fills rec for exposed unit u (its key only when withKey).

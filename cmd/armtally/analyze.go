@@ -124,6 +124,7 @@ func newAnalyzeFlagSet(f *analyzeFlags, stderr io.Writer) *pflag.FlagSet {
 	fs.BoolVar(&f.noProgress, "no-progress", false, "do not show the rows read, rate and elapsed time on stderr while reading (shown only when stderr is a terminal, and not for unit or counts tables)")
 	f.mapping = defineMappingFlags(fs)
 	fs.StringArrayVar(&f.segments, "segment", nil, "column to break every metric down by (read from each unit's first exposure row); exploratory results (repeatable)")
+	fs.Int64Var(&f.exp.MaxSegmentValues, "max-segment-values", experiment.DefaultMaxSegmentValues, "most distinct values (null counts as one) a segment column may have, 1 to 100000; more stops the run with an error")
 	fs.StringVar(&f.delimiter, "delimiter", ",", "field separator of CSV files: one character; tab or \\t for a tab")
 	fs.Int64Var(&f.maxBadRows, "max-bad-rows", 0, "skip and count up to this many bad rows (-1: any number); 0 stops at the first")
 	fs.Float64Var(&f.maxBadShare, "max-bad-share", 0, "skip and count bad rows up to this share of the rows read (0.001); checked at the end")

@@ -26,23 +26,27 @@ func (e *Error) Error() string {
 	}
 	b.WriteString(": ")
 	if e.Key != "" {
-		b.WriteString(e.Key)
+		b.WriteString(shorten(e.Key, maxKeyLen))
 		b.WriteString(": ")
 	}
-	b.WriteString(e.Msg)
+	b.WriteString(shorten(e.Msg, maxMsgLen))
 	return b.String()
 }
 
 // Errors is several spec-file errors at once (every unknown key, say).
 type Errors []*Error
 
-// Error returns one line per error.
+// Error returns one line per error, as many as fit in about 900 bytes,
+// then a line that says how many more there are.
 func (es Errors) Error() string {
 	lines := make([]string, len(es))
 	for i, e := range es {
 		lines[i] = e.Error()
 	}
-	return strings.Join(lines, "\n")
+	if len(es) == 0 {
+		return ""
+	}
+	return joinShort(es[0].File, lines)
 }
 
 // FlagError is a problem with a setting that no spec file gave: one from a

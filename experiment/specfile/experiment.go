@@ -3,12 +3,12 @@ package specfile
 import (
 	"fmt"
 	"slices"
+	"strings"
 	"time"
 
 	toml "github.com/pelletier/go-toml/v2"
 
 	"github.com/armtally/armtally/experiment"
-	"github.com/armtally/armtally/ingest"
 )
 
 // parseExperiment checks one [[experiment]] table key by key; Build checks
@@ -82,10 +82,8 @@ func parseWho(e *Settings, at func(string) Origin, fe fileExperiment) error {
 		e.SetArms(fe.Arms, false, at("arms"))
 	}
 	if fe.Split != nil {
-		for j, v := range fe.Split {
-			if !(v > 0) || v > 1e12 {
-				return at(fmt.Sprintf("split[%d]", j)).errorf("%v is not a positive number", v)
-			}
+		if j, msg := checkShares(fe.Split); msg != "" {
+			return at(fmt.Sprintf("split[%d]", j)).errorf("%v %s", fe.Split[j], msg)
 		}
 		e.SetSplit(fe.Split, at("split"))
 	}
@@ -174,16 +172,18 @@ func fileTime(o Origin, v any) (*time.Time, error) {
 	case time.Time:
 		t = x.UTC()
 	case string:
-		ns, err := ingest.ParseTimestamp([]byte(x))
-		if err != nil {
-			return nil, o.errorf("%s, or a TOML date such as 2026-11-02", timeFormsError(x))
+		var msg string
+		if t, msg = parseTime(x); msg != "" {
+			if strings.HasSuffix(msg, yearsRange) {
+				return nil, o.errorf("%s", msg)
+			}
+			return nil, o.errorf("%s, or a TOML date such as 2026-11-02", msg)
 		}
-		t = time.Unix(0, ns).UTC()
 	default:
 		return nil, o.errorf("wrong type: want a date, a date-time or a string (the file has %s)", tomlKind(v))
 	}
-	if t.Year() < 1678 || t.Year() > 2261 {
-		return nil, o.errorf("%s is outside the years 1678 to 2261", t.Format(time.RFC3339))
+	if msg := checkYears(t); msg != "" {
+		return nil, o.errorf("%s", msg)
 	}
 	return &t, nil
 }

@@ -1,8 +1,8 @@
 package specfile
 
 import (
+	"bytes"
 	"fmt"
-	"os"
 	"path/filepath"
 	"strings"
 
@@ -54,9 +54,11 @@ type File struct {
 }
 
 // Read reads and parses the spec file at path (see Parse). An error
-// reading it is returned as the file system gave it (an *fs.PathError).
+// reading it is returned as the file system gave it (an *fs.PathError);
+// a file larger than MaxFileSize is an *Error, found before the file is
+// read whole.
 func Read(path string) (*File, error) {
-	data, err := os.ReadFile(path)
+	data, err := readLimited(path)
 	if err != nil {
 		return nil, err
 	}
@@ -67,8 +69,14 @@ func Read(path string) (*File, error) {
 // name's folder). Unknown keys, values of the wrong type and values that
 // contradict each other are errors naming the file, the line and the key
 // (*Error or Errors). Keys whose feature is not available yet are accepted
-// here and refused by Unsupported.
+// here and refused by Unsupported. A UTF-8 byte-order mark at the start
+// is skipped; a file with no keys, or nested deeper than MaxNesting, is
+// an *Error.
 func Parse(name string, data []byte) (*File, error) {
+	data = bytes.TrimPrefix(data, utf8BOM)
+	if err := checkDocument(name, data); err != nil {
+		return nil, err
+	}
 	var fsp fileSpec
 	l, err := decodeSpec(name, data, &fsp)
 	if err != nil {

@@ -1,6 +1,7 @@
 package specfile
 
 import (
+	"bytes"
 	"path/filepath"
 	"slices"
 	"strings"
@@ -13,20 +14,30 @@ import (
 // panic; every error must name the file; and a file that parses must keep
 // every value it sets: the values decoded here by go-toml into plain maps,
 // without armtally's types, must be the values armtally's settings hold.
-// The seed corpus is testdata/fuzz/FuzzSpecFile (the example, the
-// two-experiment spec of cmd/armtally and every file of testdata/bad).
+// Every error is short, under 1 KB, however large or deeply nested the
+// input. The seed corpus is testdata/fuzz/FuzzSpecFile (the example, the
+// two-experiment spec of cmd/armtally and every file of testdata/bad) and
+// the large and deep inputs of hostileSpecs.
 func FuzzSpecFile(f *testing.F) {
+	// Seeds as large as TestHostileSpecs's would slow the fuzzer to a
+	// few runs a second; these are past every limit all the same.
+	for _, h := range hostileSpecs(100, 4<<10) {
+		f.Add(h.data)
+	}
 	f.Fuzz(func(t *testing.T, data []byte) {
 		sf, err := Parse("fuzz.toml", data)
 		if err != nil {
 			if !strings.HasPrefix(err.Error(), "fuzz.toml") {
 				t.Errorf("error does not start with the file name: %v", err)
 			}
+			if n := len(err.Error()); n >= 1<<10 {
+				t.Errorf("error of %d bytes, want under 1 KB: %.200s", n, err)
+			}
 			return
 		}
 		_ = sf.Unsupported()
 		var raw map[string]any
-		if err := toml.Unmarshal(data, &raw); err != nil {
+		if err := toml.Unmarshal(bytes.TrimPrefix(data, utf8BOM), &raw); err != nil {
 			t.Fatalf("armtally accepted a file go-toml rejects: %v", err)
 		}
 		checkRoundTrip(t, sf, raw)

@@ -35,6 +35,9 @@ type Overrides struct {
 	NonInferiorityMethod string  // --non-inferiority-method
 	MinCount             int64   // --min-count
 	SampleRatioThreshold float64 // --sample-ratio-threshold
+	// MaxSegmentValues is --max-segment-values; zero, unless Given says
+	// the flag was given, leaves the default.
+	MaxSegmentValues int64
 }
 
 // flagOrigin is the origin of a setting from the flag --name.
@@ -184,6 +187,9 @@ func (o Overrides) applyAnalysis(set func(string) bool, e *Settings) error {
 	}
 	if set("sample-ratio-threshold") {
 		errs = append(errs, e.SetSampleRatioThreshold(o.SampleRatioThreshold, flagOrigin("sample-ratio-threshold")))
+	}
+	if name := "max-segment-values"; set(name) && (o.MaxSegmentValues != 0 || o.Given != nil && o.Given(name)) {
+		errs = append(errs, e.SetMaxSegmentValues(o.MaxSegmentValues, flagOrigin(name)))
 	}
 	for _, err := range errs {
 		if err != nil {

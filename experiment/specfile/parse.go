@@ -4,6 +4,7 @@ import (
 	"bytes"
 	"errors"
 	"fmt"
+	"slices"
 	"strings"
 
 	toml "github.com/pelletier/go-toml/v2"
@@ -100,6 +101,10 @@ func decodeSpec(name string, data []byte, fsp *fileSpec) (l *locator, err error)
 	return locate(name, data), nil
 }
 
+// maxLocated is the number of unknown keys whose line and indexed path
+// are looked up; the message lists only the first few.
+const maxLocated = 20
+
 // decodeError turns go-toml's errors into spec errors with the file, line,
 // column and key, and a message in the file's terms.
 func decodeError(name string, data []byte, err error) error {
@@ -109,9 +114,14 @@ func decodeError(name string, data []byte, err error) error {
 		var out Errors
 		for i := range sme.Errors {
 			de := &sme.Errors[i]
-			line, col := de.Position()
 			plain := strings.Join(de.Key(), ".")
-			key := l.keyAt(line, plain)
+			line, col, key := 0, 0, plain
+			if i < maxLocated {
+				// Each position is found by counting lines from the
+				// start of the file: only the listed ones are.
+				line, col = de.Position()
+				key = l.keyAt(line, plain)
+			}
 			msg := "unknown key"
 			if known := knownKeys(parentKey(plain)); known != "" {
 				msg += " (known keys here: " + known + ")"
@@ -167,11 +177,24 @@ func locate(file string, data []byte) *locator {
 	l := &locator{file: file, lines: map[string]int{}}
 	var p unstable.Parser
 	p.Reset(data)
+	// The parser's Shape counts the lines from the start of the document
+	// on every call, which made locating the keys of a file with
+	// thousands of experiments take minutes; a table of line starts
+	// answers each in a binary search.
+	var starts []int
+	for i, b := range data {
+		if b == '\n' {
+			starts = append(starts, i+1)
+		}
+	}
 	lineOf := func(n *unstable.Node) int {
 		if n == nil || n.Raw.Length == 0 && n.Raw.Offset == 0 {
 			return 0
 		}
-		return p.Shape(n.Raw).Start.Line
+		// The number of line starts at or before the offset, plus the
+		// first line.
+		line, _ := slices.BinarySearch(starts, int(n.Raw.Offset)+1)
+		return line + 1
 	}
 	set := func(path string, line int) {
 		if _, ok := l.lines[path]; !ok && line > 0 {

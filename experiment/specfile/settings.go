@@ -31,6 +31,7 @@ type Settings struct {
 	maturity       experiment.MaturityPolicy
 	metrics        []Metric
 	segments       []string
+	maxSegValues   int
 	opts           experiment.AnalysisOptions
 
 	// from says where a setting came from, by its spec-file key name
@@ -145,6 +146,21 @@ func (e *Settings) AddSegment(name string) {
 	}
 }
 
+// MaxMaxSegmentValues is the largest limit of distinct values per segment
+// dimension: the readout has a table row per value, arm and metric.
+const MaxMaxSegmentValues = 100_000
+
+// SetMaxSegmentValues sets the most distinct values a segment dimension
+// may have, from 1 to MaxMaxSegmentValues (the default is
+// experiment.DefaultMaxSegmentValues).
+func (e *Settings) SetMaxSegmentValues(n int64, o Origin) error {
+	if n < 1 || n > MaxMaxSegmentValues {
+		return o.errorf("%d: want 1 to %d", n, MaxMaxSegmentValues)
+	}
+	e.maxSegValues = int(n)
+	return nil
+}
+
 // MarkLowerIsBetter marks the metric name as one where a lower rate is the
 // good outcome, and reports whether the experiment has such a metric.
 func (e *Settings) MarkLowerIsBetter(name string) bool {
@@ -170,10 +186,28 @@ func (e *Settings) MetricColumns() []ingest.ColumnMap {
 	return out
 }
 
-// SetAlpha sets the significance level, strictly between 0 and 0.5.
+// MinAlpha is the smallest significance level armtally accepts. Below
+// it the confidence level 1 - alpha loses alpha's digits in a float64
+// (below about 5.6e-17 it is exactly 1 and no interval can be computed),
+// and the readouts, which print the level to six decimals of a percent,
+// would show it as 100%.
+const MinAlpha = 1e-8
+
+// MinSampleRatioThreshold is the smallest sample ratio threshold armtally
+// accepts: a p-value threshold below it would be printed in the readout
+// as a long run of zeros and means no real check.
+const MinSampleRatioThreshold = 1e-12
+
+// MaxMinCount is the largest --min-count (min_count) armtally accepts.
+const MaxMinCount = 1_000_000_000
+
+// SetAlpha sets the significance level, from MinAlpha to below 0.5.
 func (e *Settings) SetAlpha(v float64, o Origin) error {
 	if !(v > 0 && v < 0.5) {
 		return o.errorf("%v is not strictly between 0 and 0.5", v)
+	}
+	if v < MinAlpha {
+		return o.errorf("%v is too small: want %g <= alpha < 0.5 (below %g the confidence level 1 - alpha cannot be computed or shown)", v, MinAlpha, MinAlpha)
 	}
 	e.opts.Stats.Alpha = v
 	e.from["alpha"] = o
@@ -232,20 +266,26 @@ func (e *Settings) SetNonInferiorityMethod(s string, o Origin) error {
 }
 
 // SetMinCount sets the conversions and non-conversions per arm needed to
-// trust the normal approximation, at least 1.
+// trust the normal approximation, from 1 to MaxMinCount.
 func (e *Settings) SetMinCount(n int64, o Origin) error {
 	if n < 1 {
 		return o.errorf("%d: must be at least 1", n)
+	}
+	if n > MaxMinCount {
+		return o.errorf("%d is too large: want 1 to %d", n, MaxMinCount)
 	}
 	e.opts.Stats.MinCount = n
 	return nil
 }
 
 // SetSampleRatioThreshold sets the p-value below which the sample ratio
-// check fails, strictly between 0 and 1.
+// check fails, from MinSampleRatioThreshold to below 1.
 func (e *Settings) SetSampleRatioThreshold(v float64, o Origin) error {
 	if !(v > 0 && v < 1) {
 		return o.errorf("%v is not strictly between 0 and 1", v)
+	}
+	if v < MinSampleRatioThreshold {
+		return o.errorf("%v is too small: want %g <= threshold < 1", v, MinSampleRatioThreshold)
 	}
 	e.opts.SampleRatioThreshold = v
 	return nil
@@ -260,7 +300,8 @@ func (e *Settings) Build() (experiment.Spec, experiment.AnalysisOptions, error) 
 	spec := experiment.Spec{
 		Key: e.key, ExposureEvent: e.exposureEvent, Control: e.control,
 		Start: e.start, End: e.end, MultiArm: e.multiArm, Maturity: e.maturity,
-		Segments: append([]string(nil), e.segments...),
+		Segments:         append([]string(nil), e.segments...),
+		MaxSegmentValues: e.maxSegValues,
 	}
 	if err := e.buildArms(&spec); err != nil {
 		return spec, e.opts, err

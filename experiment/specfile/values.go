@@ -138,18 +138,47 @@ func ParseRate(s string) (float64, error) {
 }
 
 // ParseTime parses a window bound: RFC 3339 or YYYY-MM-DD[ HH:MM:SS[.frac]]
-// (UTC unless an offset is given), the forms event logs use. The empty
-// string is no bound (nil).
+// (UTC unless an offset is given), the forms event logs use, in the years
+// 1678 to 2261. The empty string is no bound (nil).
 func ParseTime(s string) (*time.Time, error) {
 	if s == "" {
 		return nil, nil
 	}
+	t, msg := parseTime(s)
+	if msg != "" {
+		return nil, errors.New(msg)
+	}
+	return &t, nil
+}
+
+// parseTime parses a window bound written as a string; on a problem it
+// returns what is wrong.
+func parseTime(s string) (time.Time, string) {
 	ns, err := ingest.ParseTimestamp([]byte(s))
-	if err != nil {
-		return nil, errors.New(timeFormsError(s))
+	switch {
+	case errors.Is(err, ingest.ErrTimestampRange):
+		return time.Time{}, fmt.Sprintf("%q is out of range: %s", s, yearsRange)
+	case err != nil:
+		return time.Time{}, timeFormsError(s)
 	}
 	t := time.Unix(0, ns).UTC()
-	return &t, nil
+	if msg := checkYears(t); msg != "" {
+		return t, msg
+	}
+	return t, ""
+}
+
+// yearsRange says which times armtally holds: nanoseconds since 1970 in
+// 64 bits reach from September 1677 to April 2262.
+const yearsRange = "want a time in the years 1678 to 2261"
+
+// checkYears says what is wrong with a window bound outside the years
+// 1678 to 2261, or returns "".
+func checkYears(t time.Time) string {
+	if t.Year() < 1678 || t.Year() > 2261 {
+		return fmt.Sprintf("%s is out of range: %s", t.Format(time.RFC3339), yearsRange)
+	}
+	return ""
 }
 
 // timeFormsError says which forms a time is written in.
@@ -157,18 +186,57 @@ func timeFormsError(s string) string {
 	return fmt.Sprintf("%q: want RFC 3339 or YYYY-MM-DD[ HH:MM:SS] (UTC unless an offset is given)", s)
 }
 
+// MaxShare is the largest traffic share of a split, and MaxShareRatio
+// the most the largest share of a split may be times its smallest. Shares
+// are relative (50,50 and 1,1 are the same split); beyond these bounds the
+// expected counts of the sample ratio check are no longer representable
+// numbers (a share of 1e-320 next to 1 gives an infinite statistic).
+const (
+	MaxShare      = 1e12
+	MaxShareRatio = 1e9
+)
+
 // ParseShares parses a list of traffic shares: comma-separated positive
-// numbers (50,25,25).
+// numbers (50,25,25), each at most MaxShare, the largest at most
+// MaxShareRatio times the smallest.
 func ParseShares(s string) ([]float64, error) {
+	fields := strings.Split(s, ",")
 	var out []float64
-	for _, f := range strings.Split(s, ",") {
+	for _, f := range fields {
 		v, err := strconv.ParseFloat(strings.TrimSpace(f), 64)
-		if err != nil || !(v > 0) || v > 1e12 {
+		if err != nil && !errors.Is(err, strconv.ErrRange) {
 			return nil, fmt.Errorf("%q: %q is not a positive number", s, f)
 		}
 		out = append(out, v)
 	}
+	if i, msg := checkShares(out); msg != "" {
+		return nil, fmt.Errorf("%q: %q %s", s, fields[i], msg)
+	}
 	return out, nil
+}
+
+// checkShares checks traffic shares as ParseShares does. On a problem it
+// returns the index of the share at fault and what is wrong with it.
+func checkShares(shares []float64) (int, string) {
+	lo, hi := 0, 0
+	for i, v := range shares {
+		switch {
+		case !(v > 0):
+			return i, "is not a positive number"
+		case v > MaxShare:
+			return i, fmt.Sprintf("is too large: want a share above 0 and at most %g (shares are relative: 1,1 is 50,50)", float64(MaxShare))
+		}
+		if v < shares[lo] {
+			lo = i
+		}
+		if v > shares[hi] {
+			hi = i
+		}
+	}
+	if len(shares) > 0 && shares[hi] > shares[lo]*MaxShareRatio {
+		return lo, fmt.Sprintf("is too small next to %v: the largest share may be at most %g times the smallest", shares[hi], float64(MaxShareRatio))
+	}
+	return 0, ""
 }
 
 // ParseDelimiter reads a CSV delimiter: one character other than a quote or
