@@ -8,6 +8,9 @@ import (
 	"path/filepath"
 	"strings"
 	"testing"
+
+	"github.com/parquet-go/parquet-go"
+	"github.com/parquet-go/parquet-go/format"
 )
 
 // readErr reads sources through the event reader and through the unit
@@ -144,5 +147,78 @@ func TestGzipNamedCSVFile(t *testing.T) {
 	equalRows(t, rows, []string{`u1 | 2026-03-01T00:00:00Z | view | a, "b"`, "u2 | 2026-03-02T00:00:00Z | buy | c"})
 	if st.RowsRead != 2 {
 		t.Errorf("rows read %d, want 2", st.RowsRead)
+	}
+}
+
+// dictPageBody returns where the body of the first page (here the
+// dictionary page) of the column chunk of leaf column col in row group 0
+// starts, its length in bytes and its header's checksum.
+func dictPageBody(t *testing.T, data []byte, col int) (start, n int64, crc int32) {
+	t.Helper()
+	pf, err := parquet.OpenFile(bytes.NewReader(data), int64(len(data)))
+	if err != nil {
+		t.Fatal(err)
+	}
+	md := pf.Metadata().RowGroups[0].Columns[col].MetaData
+	pos := chunkStart(&md)
+	var buf []byte
+	h, hlen, err := readPageHeader(bytes.NewReader(data), pos, pos+md.TotalCompressedSize, 0, &buf)
+	if err != nil || h.Type != format.DictionaryPage {
+		t.Fatalf("column %d: first page %v, %v; want a dictionary page", col, h.Type, err)
+	}
+	return pos + hlen, int64(h.CompressedPageSize), h.CRC
+}
+
+// What the README says about checksums: a page whose header carries a
+// CRC-32 of its bytes (the Parquet format's optional page checksum) is
+// checked when it is read, so one changed byte stops the read with
+// ErrCorrupt; in a file written without page checksums the same change
+// reads without an error and changes a value. The changed byte is the
+// last of a BYTE_ARRAY dictionary page, XOR 0x08.
+func TestPageChecksums(t *testing.T) {
+	dir := filepath.Join(parquetTesting(t), "data")
+
+	// plain-dict-uncompressed-checksum.parquet: column 1, binary_field,
+	// has a dictionary page with a checksum.
+	data, err := os.ReadFile(filepath.Join(dir, "plain-dict-uncompressed-checksum.parquet"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	start, n, crc := dictPageBody(t, data, 1)
+	if crc == 0 {
+		t.Fatal("binary_field's dictionary page has no checksum")
+	}
+	if got := readParquetColumn(t, "crc.parquet", data, "binary_field", false); got.err != nil {
+		t.Fatalf("undamaged: %v", got.err)
+	}
+	data[start+n-1] ^= 0x08
+	got := readParquetColumn(t, "crc.parquet", data, "binary_field", false)
+	if !errors.Is(got.err, ErrCorrupt) || !errors.Is(got.err, parquet.ErrCorrupted) ||
+		!strings.Contains(got.err.Error(), "crc32 checksum mismatch") {
+		t.Errorf("checksummed page changed: %v, want ErrCorrupt from a checksum mismatch", got.err)
+	}
+
+	// alltypes_plain.parquet: column 9, string_col, has a dictionary of
+	// "0" and "1" (its bytes: length 1, "0", length 1, "1") without a
+	// checksum; "1" becomes "9".
+	data, err = os.ReadFile(filepath.Join(dir, "alltypes_plain.parquet"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	start, n, crc = dictPageBody(t, data, 9)
+	if crc != 0 || string(data[start:start+n]) != "\x01\x00\x00\x000\x01\x00\x00\x001" {
+		t.Fatalf("string_col's dictionary page: checksum %d, body %q", crc, data[start:start+n])
+	}
+	data[start+n-1] ^= 0x08
+	got = readParquetColumn(t, "plain.parquet", data, "string_col", false)
+	if got.err != nil {
+		t.Fatalf("page without a checksum changed: %v, want no error", got.err)
+	}
+	seen := map[string]int{}
+	for _, s := range got.text {
+		seen[s]++
+	}
+	if seen["9"] == 0 || seen["1"] != 0 || seen["0"]+seen["9"] != len(got.text) {
+		t.Errorf("values %v, want only 0 and 9", seen)
 	}
 }
