@@ -4,6 +4,7 @@ import (
 	"bytes"
 	"errors"
 	"flag"
+	"fmt"
 	"os"
 	"path/filepath"
 	"sort"
@@ -127,7 +128,7 @@ func TestParquetFlipSweep(t *testing.T) {
 			bad := bytes.Clone(data)
 			bad[pos] ^= 0xa5
 			for _, rowByRow := range []bool{false, true} {
-				err := sweepRead(t, name, bad, m, parts, rowByRow)
+				err := sweepRead(t, name, pos, bad, m, parts, rowByRow)
 				reads++
 				if err == nil {
 					continue
@@ -150,9 +151,9 @@ func TestParquetFlipSweep(t *testing.T) {
 }
 
 // sweepRead reads one damaged file and checks the properties of
-// TestParquetFlipSweep other than the error's wording; it returns the
-// reader's error.
-func sweepRead(t *testing.T, name string, data []byte, m Mapping, parts []Partition, rowByRow bool) error {
+// TestParquetFlipSweep other than the error's wording (pos, the damaged
+// byte, is for the messages); it returns the reader's error.
+func sweepRead(t *testing.T, name string, pos int64, data []byte, m Mapping, parts []Partition, rowByRow bool) error {
 	t.Helper()
 	src := BytesSource(name, data)
 	src.Partitions = parts
@@ -160,7 +161,7 @@ func sweepRead(t *testing.T, name string, data []byte, m Mapping, parts []Partit
 	var err error
 	var st Stats
 	var rows int64
-	within(t, name, func() {
+	within(t, fmt.Sprintf("%s byte %d (row by row %v)", name, pos, rowByRow), func() {
 		r, e := NewReader([]Source{src}, Options{Mapping: m, MaxBadRows: NoLimit, Allocator: mem, BatchSize: 64, Workers: 2, rowByRow: rowByRow})
 		if e != nil {
 			err = e
