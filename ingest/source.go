@@ -58,7 +58,11 @@ const hiveNull = "__HIVE_DEFAULT_PARTITION__"
 // held in memory. Its format comes from the end of Name, in any case: .csv
 // or .csv.gz (CSV), .parquet or .parq. A CSV source whose first two bytes
 // are gzip's magic number (0x1f 0x8b) is decompressed, whatever its name
-// (one member or several concatenated).
+// (one member or several concatenated). When a reader opens it, its bytes
+// are checked against the format: a CSV source holding Parquet data, or a
+// Parquet source holding something else, is refused with ErrFormat saying
+// what it holds, and a Parquet file cut short is reported as truncated
+// (ErrCorrupt).
 type Source struct {
 	// Name is the path of a file (for FSSources, its path inside the
 	// fs.FS), or the name of in-memory data; errors use it as the file
