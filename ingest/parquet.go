@@ -97,9 +97,6 @@ var errPanicked = errors.New("parquet-go panicked")
 
 func newParquetReader(source Source, src *openedSource, p *plan) (pr *parquetReader, err error) {
 	file := source.Name
-	if err := checkFooterLength(src.r, src.size); err != nil {
-		return nil, fmt.Errorf("%s: %w", file, err)
-	}
 	pf, err := openParquet(src.r, src.size)
 	if err != nil {
 		return nil, fmt.Errorf("%s: %w", file, err)
@@ -193,27 +190,68 @@ func openParquet(ra io.ReaderAt, size int64) (pf *parquet.File, err error) {
 	return parquet.OpenFile(ra, size, parquet.SkipPageIndex(true), parquet.SkipBloomFilters(true))
 }
 
-// checkFooterLength checks the footer length in a Parquet file's last 8
-// bytes (4-byte little-endian length, then the magic) against the file's
-// size: parquet-go v0.32.0 allocates whatever length is written there, so a
-// corrupt length of up to 4 GiB would be allocated for a file of a few
-// bytes. A file without the magic is left to parquet-go to reject.
-func checkFooterLength(r io.ReaderAt, size int64) error {
-	if size < 8 {
-		return nil
+// checkParquetBytes checks the two ends of a file named as Parquet before
+// parquet-go reads it. A Parquet file is "PAR1", the column chunks, the
+// footer, the footer's length (4 bytes, little-endian) and "PAR1" again
+// ("PARE" at both ends when the footer is encrypted), so it has at least 12
+// bytes. The errors, by what the bytes show:
+//
+//   - no Parquet magic at the start: not a Parquet file (ErrFormat), saying
+//     whether it holds gzip data or text such as CSV; with the magic at
+//     the end only, a corrupt start (ErrCorrupt);
+//   - the magic at the start, but fewer than 12 bytes, or no magic at the
+//     end: a truncated file (ErrCorrupt);
+//   - a footer length that points outside the file (ErrCorrupt):
+//     parquet-go v0.32.0 allocates whatever length is written there, so a
+//     corrupt length of up to 4 GiB would be allocated for a file of a few
+//     bytes.
+func checkParquetBytes(r io.ReaderAt, size int64) error {
+	var head, tail [8]byte
+	n, err := r.ReadAt(head[:min(size, 4)], 0)
+	if err != nil && n < int(min(size, 4)) {
+		return fmt.Errorf("reading the first bytes: %w", err)
 	}
-	var tail [8]byte
-	if _, err := r.ReadAt(tail[:], size-8); err != nil {
-		return fmt.Errorf("reading the footer: %w", err)
+	if size >= 8 {
+		if _, err := r.ReadAt(tail[:], size-8); err != nil {
+			return fmt.Errorf("reading the footer: %w", err)
+		}
 	}
-	if m := string(tail[4:]); m != "PAR1" && m != "PARE" {
-		return nil
+	start := string(head[:4])
+	if !parquetMagic(start) {
+		if size >= 12 && parquetMagic(string(tail[4:])) {
+			return &contentError{ErrCorrupt, fmt.Sprintf("corrupt parquet file: it ends like a Parquet file but starts with %q, not PAR1", start)}
+		}
+		if size < 4 && size > 0 && strings.HasPrefix("PAR1", string(head[:size])) {
+			return truncated(size, "too short to hold a footer")
+		}
+		return &contentError{ErrFormat, "not a Parquet file: " + describeContent(r, size)}
+	}
+	if size < 12 {
+		return truncated(size, "too short to hold a footer")
+	}
+	if !parquetMagic(string(tail[4:])) {
+		return truncated(size, "no footer: the last 4 bytes are not PAR1")
 	}
 	// The file starts with 4 bytes of magic and ends with 8.
 	if n := int64(binary.LittleEndian.Uint32(tail[:4])); n > size-12 {
-		return fmt.Errorf("%w: the footer claims %d bytes, the file has %d", ErrCorrupt, n, size)
+		return fmt.Errorf("%w: the footer claims %d bytes, the file has %d (truncated, or a corrupt footer length)", ErrCorrupt, n, size)
 	}
 	return nil
+}
+
+func parquetMagic(s string) bool { return s == "PAR1" || s == "PARE" }
+
+// truncated is the error of a Parquet file cut short; it is ErrCorrupt.
+func truncated(size int64, detail string) error {
+	return &contentError{ErrCorrupt, fmt.Sprintf("truncated Parquet file (%s; %s)", plural(size, "byte"), detail)}
+}
+
+// plural returns "1 byte" or "n bytes".
+func plural(n int64, unit string) string {
+	if n == 1 {
+		return "1 " + unit
+	}
+	return strconv.FormatInt(n, 10) + " " + unit + "s"
 }
 
 // lookupLeaf finds the leaf column called name: a top-level column, or a

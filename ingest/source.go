@@ -12,6 +12,7 @@ import (
 	"path/filepath"
 	"sort"
 	"strings"
+	"unicode/utf8"
 )
 
 // Format is the file format of a source, decided by its name's extension;
@@ -57,7 +58,11 @@ const hiveNull = "__HIVE_DEFAULT_PARTITION__"
 // held in memory. Its format comes from the end of Name, in any case: .csv
 // or .csv.gz (CSV), .parquet or .parq. A CSV source whose first two bytes
 // are gzip's magic number (0x1f 0x8b) is decompressed, whatever its name
-// (one member or several concatenated).
+// (one member or several concatenated). When a reader opens it, its bytes
+// are checked against the format: a CSV source holding Parquet data, or a
+// Parquet source holding something else, is refused with ErrFormat saying
+// what it holds, and a Parquet file cut short is reported as truncated
+// (ErrCorrupt).
 type Source struct {
 	// Name is the path of a file (for FSSources, its path inside the
 	// fs.FS), or the name of in-memory data; errors use it as the file
@@ -417,12 +422,101 @@ type openedSource struct {
 	c    io.Closer
 }
 
+// open opens the source and checks its first bytes against its format
+// (checkContent); errors name the file.
 func (s Source) open() (*openedSource, error) {
 	r, size, c, err := s.Open()
 	if err != nil {
 		return nil, err
 	}
+	if err := checkContent(s.kind, r, size); err != nil {
+		c.Close()
+		return nil, fmt.Errorf("%s: %w", s.Name, err)
+	}
 	return &openedSource{r: r, size: size, c: c}, nil
+}
+
+// ErrFormat: a file's contents are not of the format its name gives (a
+// file named as CSV that holds Parquet data, or one named as Parquet that
+// holds text or gzip data). The name decides how a file is read; the
+// error says what the file holds instead, so that it can be renamed.
+var ErrFormat = errors.New("contents do not match the file name")
+
+// contentError is an error about what a file's bytes are; errors.Is
+// matches it with is (ErrFormat or ErrCorrupt).
+type contentError struct {
+	is  error
+	msg string
+}
+
+func (e *contentError) Error() string        { return e.msg }
+func (e *contentError) Is(target error) bool { return target == e.is }
+
+// checkContent checks the bytes of a source against its format: a CSV
+// source must not start with Parquet's magic number "PAR1" (gzip data is
+// decompressed whatever the name, see CSVFile), and a Parquet source must
+// have Parquet's magic at both ends and a footer inside the file
+// (checkParquetBytes).
+func checkContent(kind Format, r io.ReaderAt, size int64) error {
+	switch kind {
+	case FormatParquet:
+		return checkParquetBytes(r, size)
+	case FormatCSV:
+		var head [4]byte
+		if n, _ := r.ReadAt(head[:], 0); n == len(head) && parquetMagic(string(head[:])) {
+			return &contentError{ErrFormat, "not a CSV file: it holds Parquet data (it starts with " +
+				string(head[:]) + "); name it .parquet or .parq"}
+		}
+	}
+	return nil
+}
+
+// describeContent says what the first bytes of a file that is not Parquet
+// look like, for the error: empty, gzip data, text (quoted, up to 32 bytes
+// of its first line) or other bytes (up to 8, in hex).
+func describeContent(r io.ReaderAt, size int64) string {
+	if size == 0 {
+		return "the file is empty"
+	}
+	var buf [64]byte
+	n, _ := r.ReadAt(buf[:min(size, int64(len(buf)))], 0)
+	b := buf[:n]
+	if len(b) >= 2 && [2]byte(b[:2]) == gzipMagic {
+		return "it holds gzip-compressed data (compressed CSV is named .csv or .csv.gz)"
+	}
+	if line, ok := textStart(b, n == len(buf)); ok {
+		return fmt.Sprintf("it holds text starting %q (CSV is named .csv)", line)
+	}
+	return fmt.Sprintf("it starts with the bytes % x, not PAR1", b[:min(len(b), 8)])
+}
+
+// textStart returns up to 32 bytes of the first line of b when b is text:
+// valid UTF-8 (cut is true when b may end inside a character) without
+// control characters other than tab, CR and LF.
+func textStart(b []byte, cut bool) (string, bool) {
+	for i := 0; i < len(b); {
+		r, w := utf8.DecodeRune(b[i:])
+		if r == utf8.RuneError && w <= 1 {
+			if cut && len(b)-i < utf8.UTFMax {
+				b = b[:i]
+				break
+			}
+			return "", false
+		}
+		if r < 0x20 && r != '\t' && r != '\r' && r != '\n' || r == 0x7f {
+			return "", false
+		}
+		i += w
+	}
+	line, _, _ := bytes.Cut(b, []byte("\n"))
+	line = bytes.TrimSuffix(line, []byte("\r"))
+	if len(line) > 32 {
+		line = line[:32]
+		for len(line) > 0 && !utf8.Valid(line) {
+			line = line[:len(line)-1]
+		}
+	}
+	return string(line), true
 }
 
 func (o *openedSource) Close() error { return o.c.Close() }
