@@ -2,8 +2,10 @@ package report
 
 import (
 	"bytes"
+	"encoding/json"
 	"fmt"
 	"io"
+	"slices"
 	"strings"
 	"text/tabwriter"
 	"time"
@@ -127,4 +129,38 @@ func writeProfileCounts(b *bytes.Buffer, p *profile.Report) {
 		n := int64(len(more))
 		fmt.Fprintf(b, "  %s more %s (%s)\n", FormatCount(n), PluralWord(n, "name", "names"), Plural(rows, "row", "rows"))
 	}
+}
+
+// WriteProfileJSON writes p as indented JSON. Names read from the data
+// (files, columns, partition values, experiment keys, arms, events) go
+// through safetext.Exact, so names that differ stay different in the JSON
+// as they do in the readout's (see the README, "Names from the data").
+func WriteProfileJSON(w io.Writer, p *profile.Report) error {
+	q := *p
+	q.Files = make([]profile.File, len(p.Files))
+	for i, f := range p.Files {
+		f.Name = safetext.Exact(f.Name)
+		f.Columns = slices.Clone(f.Columns)
+		for j := range f.Columns {
+			f.Columns[j].Name = safetext.Exact(f.Columns[j].Name)
+		}
+		f.Partitions = slices.Clone(f.Partitions)
+		for j := range f.Partitions {
+			f.Partitions[j].Key = safetext.Exact(f.Partitions[j].Key)
+			f.Partitions[j].Value = safetext.Exact(f.Partitions[j].Value)
+		}
+		q.Files[i] = f
+	}
+	q.Exposures = slices.Clone(p.Exposures)
+	for i := range q.Exposures {
+		q.Exposures[i].Experiment = safetext.Exact(q.Exposures[i].Experiment)
+		q.Exposures[i].Arm = safetext.Exact(q.Exposures[i].Arm)
+	}
+	q.Events = slices.Clone(p.Events)
+	for i := range q.Events {
+		q.Events[i].Event = safetext.Exact(q.Events[i].Event)
+	}
+	enc := json.NewEncoder(w)
+	enc.SetIndent("", "  ")
+	return enc.Encode(&q)
 }

@@ -2,6 +2,7 @@ package report
 
 import (
 	"bytes"
+	"encoding/json"
 	"testing"
 	"time"
 	"unicode/utf8"
@@ -131,5 +132,43 @@ func TestWriteProfileHostileNames(t *testing.T) {
 		if r != '\n' && (r < 0x20 || r == 0x7f || r == utf8.RuneError || r == 0x202e) {
 			t.Fatalf("profile holds %U at byte %d:\n%q", r, i, buf.String())
 		}
+	}
+}
+
+// Two arms whose names differ in a byte that is not UTF-8 stay two names
+// in the inspect JSON (encoding/json alone turns both into U+FFFD), and a
+// report with valid names is encoded as encoding/json encodes it.
+func TestWriteProfileJSONKeepsNamesApart(t *testing.T) {
+	p := &profile.Report{
+		Files:     []profile.File{{Name: "e.csv", Format: "CSV", Columns: []profile.Column{}}},
+		Exposures: []profile.ExposureCount{{Experiment: "x", Arm: "tr\xe9at", Rows: 1}, {Experiment: "x", Arm: "tr\xe8at", Rows: 2}},
+		Events:    []profile.EventCount{},
+	}
+	var buf bytes.Buffer
+	if err := WriteProfileJSON(&buf, p); err != nil {
+		t.Fatal(err)
+	}
+	var got profile.Report
+	if err := json.Unmarshal(buf.Bytes(), &got); err != nil {
+		t.Fatal(err)
+	}
+	if a, b := got.Exposures[0].Arm, got.Exposures[1].Arm; a == b || a != `tr\xe9at` || b != `tr\xe8at` {
+		t.Errorf("arms %q and %q, want tr\\xe9at and tr\\xe8at", a, b)
+	}
+	if p.Exposures[0].Arm != "tr\xe9at" {
+		t.Errorf("WriteProfileJSON changed its argument: %q", p.Exposures[0].Arm)
+	}
+
+	p.Exposures = []profile.ExposureCount{{Experiment: "x", Arm: "control", Rows: 1}}
+	buf.Reset()
+	if err := WriteProfileJSON(&buf, p); err != nil {
+		t.Fatal(err)
+	}
+	want, err := json.MarshalIndent(p, "", "  ")
+	if err != nil {
+		t.Fatal(err)
+	}
+	if got := bytes.TrimSuffix(buf.Bytes(), []byte("\n")); !bytes.Equal(got, want) {
+		t.Errorf("valid names: got\n%s\nwant\n%s", got, want)
 	}
 }

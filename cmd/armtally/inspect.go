@@ -1,7 +1,6 @@
 package main
 
 import (
-	"encoding/json"
 	"errors"
 	"fmt"
 	"io"
@@ -103,11 +102,7 @@ func runInspect(args []string, stdout, stderr io.Writer) error {
 		return &dataError{err}
 	}
 	if f.jsonOut != "" {
-		err := report.WriteFileAtomic(f.jsonOut, func(w io.Writer) error {
-			enc := json.NewEncoder(w)
-			enc.SetIndent("", "  ")
-			return enc.Encode(rep)
-		})
+		err := report.WriteFileAtomic(f.jsonOut, func(w io.Writer) error { return report.WriteProfileJSON(w, rep) })
 		if err != nil {
 			return fmt.Errorf("writing the JSON report: %w", err)
 		}
