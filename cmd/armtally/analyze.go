@@ -87,6 +87,7 @@ type analyzeFlags struct {
 	audit                 string
 	noProgress            bool
 	memoryLimit, spillDir string
+	maxSpecSize           string
 }
 
 func newAnalyzeFlagSet(f *analyzeFlags, stderr io.Writer) *pflag.FlagSet {
@@ -124,6 +125,7 @@ func newAnalyzeFlagSet(f *analyzeFlags, stderr io.Writer) *pflag.FlagSet {
 	fs.BoolVar(&f.noProgress, "no-progress", false, "do not show the rows read, rate and elapsed time on stderr while reading (shown only when stderr is a terminal, and not for unit or counts tables)")
 	f.mapping = defineMappingFlags(fs)
 	fs.StringArrayVar(&f.segments, "segment", nil, "column to break every metric down by (read from each unit's first exposure row); exploratory results (repeatable)")
+	fs.StringVar(&f.maxSpecSize, "max-spec-size", "4MiB", "largest --spec file to read (such as 16MiB); a larger one is refused before it is read")
 	fs.Int64Var(&f.exp.MaxSegmentValues, "max-segment-values", experiment.DefaultMaxSegmentValues, "most distinct values (null counts as one) a segment column may have, 1 to 100000; more stops the run with an error")
 	fs.StringVar(&f.delimiter, "delimiter", ",", "field separator of CSV files: one character; tab or \\t for a tab")
 	fs.Int64Var(&f.maxBadRows, "max-bad-rows", 0, "skip and count up to this many bad rows (-1: any number); 0 stops at the first")
@@ -194,7 +196,7 @@ func parseAnalyzeRun(args []string, stdout, stderr io.Writer) (*analyzeRun, erro
 		return nil, err
 	}
 	f.exp.Given = fs.Changed
-	sf, err := readSpec(f.spec)
+	sf, err := readSpec(f.spec, f.maxSpecSize)
 	if err != nil {
 		return nil, err
 	}
@@ -253,11 +255,15 @@ func parseAnalyzeRun(args []string, stdout, stderr io.Writer) (*analyzeRun, erro
 
 // readSpec reads the spec file of --spec, if any, and refuses the keys
 // whose feature armtally does not have yet.
-func readSpec(path string) (*specfile.File, error) {
+func readSpec(path, maxSize string) (*specfile.File, error) {
+	limit, err := parseBytes(maxSize)
+	if err != nil {
+		return nil, usagef("analyze: --max-spec-size: %v", err)
+	}
 	if path == "" {
 		return nil, nil
 	}
-	sf, err := specfile.Read(path)
+	sf, err := specfile.ReadLimit(path, limit)
 	if pe := (*os.PathError)(nil); errors.As(err, &pe) {
 		return nil, usagef("analyze: --spec: %v", err)
 	}

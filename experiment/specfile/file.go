@@ -57,8 +57,15 @@ type File struct {
 // reading it is returned as the file system gave it (an *fs.PathError);
 // a file larger than MaxFileSize is an *Error, found before the file is
 // read whole.
-func Read(path string) (*File, error) {
-	data, err := readLimited(path)
+func Read(path string) (*File, error) { return ReadLimit(path, MaxFileSize) }
+
+// ReadLimit is Read with another limit on the file's size in bytes
+// (positive; MaxFileSize for Read).
+func ReadLimit(path string, limit int64) (*File, error) {
+	if limit <= 0 {
+		return nil, fmt.Errorf("spec file size limit %d: want a positive number of bytes", limit)
+	}
+	data, err := readLimited(path, limit)
 	if err != nil {
 		return nil, err
 	}

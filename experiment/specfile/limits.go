@@ -12,9 +12,10 @@ import (
 )
 
 // MaxFileSize is the largest spec file Read accepts, 4 MiB: about 45,000
-// experiments of one metric each. The limit is checked before the file is
-// read whole, so that a path to a device or a large data file given as
-// --spec fails at once instead of filling the memory.
+// experiments of one metric each (ReadLimit takes another limit). The
+// limit is checked before the file is read whole, so that a path to a
+// device or a large data file given as --spec fails at once instead of
+// filling the memory.
 const MaxFileSize = 4 << 20
 
 // MaxNesting is the deepest nesting a spec file may have, counting each
@@ -37,22 +38,26 @@ const (
 var utf8BOM = []byte{0xEF, 0xBB, 0xBF}
 
 // readLimited reads the file at path, refusing it when it holds more than
-// MaxFileSize bytes.
-func readLimited(path string) ([]byte, error) {
+// limit bytes.
+func readLimited(path string, limit int64) ([]byte, error) {
 	f, err := os.Open(path)
 	if err != nil {
 		return nil, err
 	}
 	defer f.Close()
-	tooBig := &Error{File: path, Msg: fmt.Sprintf("the file is larger than %d MiB, the most a spec file may hold (is it a spec file?)", MaxFileSize>>20)}
-	if st, err := f.Stat(); err == nil && st.Mode().IsRegular() && st.Size() > MaxFileSize {
+	msg := fmt.Sprintf("the file is larger than %d bytes, the most a spec file may hold (is it a spec file? --max-spec-size raises the limit)", limit)
+	if limit == MaxFileSize {
+		msg = fmt.Sprintf("the file is larger than %d MiB, the most a spec file may hold (is it a spec file? --max-spec-size raises the limit)", MaxFileSize>>20)
+	}
+	tooBig := &Error{File: path, Msg: msg}
+	if st, err := f.Stat(); err == nil && st.Mode().IsRegular() && st.Size() > limit {
 		return nil, tooBig
 	}
-	data, err := io.ReadAll(io.LimitReader(f, MaxFileSize+1))
+	data, err := io.ReadAll(io.LimitReader(f, limit+1))
 	if err != nil {
 		return nil, err
 	}
-	if len(data) > MaxFileSize {
+	if int64(len(data)) > limit {
 		return nil, tooBig
 	}
 	return data, nil

@@ -120,6 +120,26 @@ func TestReadRefusesLargeFiles(t *testing.T) {
 	}
 }
 
+// TestReadLimit checks that the size limit can be raised and lowered: the
+// same file is refused under a limit below its size and read past it.
+func TestReadLimit(t *testing.T) {
+	path := filepath.Join(t.TempDir(), "s.toml")
+	spec := "[[experiment]]\nkey = \"e\"\n[[experiment.metric]]\nname = \"buy\"\nevents = [\"buy\"]\n"
+	if err := os.WriteFile(path, []byte(spec), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	var se *Error
+	if _, err := ReadLimit(path, int64(len(spec))-1); !errors.As(err, &se) || !strings.Contains(err.Error(), fmt.Sprintf("larger than %d bytes", len(spec)-1)) {
+		t.Errorf("limit below the size: %v, want an *Error naming the limit", err)
+	}
+	if f, err := ReadLimit(path, int64(len(spec))); err != nil || len(f.Experiments) != 1 {
+		t.Errorf("limit at the size: %v", err)
+	}
+	if _, err := ReadLimit(path, 0); err == nil {
+		t.Error("limit 0: no error")
+	}
+}
+
 // TestManyExperimentsParseFast checks that a spec file of 5,000
 // experiments parses in well under 10 s with the right line in its
 // errors: locating the keys counted lines from the start of the file for
