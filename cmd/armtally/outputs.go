@@ -5,35 +5,26 @@ import (
 	"errors"
 	"fmt"
 	"io"
-	"io/fs"
 	"os"
 	"os/signal"
-	"path/filepath"
 	"syscall"
 
 	"github.com/armtally/armtally/ingest"
 	"github.com/armtally/armtally/report"
 )
 
-// outputFile is one output file of a run and where it was named.
-type outputFile struct {
-	// from is the flag or spec file key that named the file.
-	from string
-	path string
-}
-
 // outputFiles returns the files a run writes: --out and --json unless
 // they are standard output, and the audit table of each experiment.
-func outputFiles(run *analyzeRun) []outputFile {
-	var outs []outputFile
+func outputFiles(run *analyzeRun) []report.OutputPath {
+	var outs []report.OutputPath
 	for i, path := range []string{run.out, run.jsonOut} {
 		if path != "" && path != "-" {
-			outs = append(outs, outputFile{run.outFrom[i], path})
+			outs = append(outs, report.OutputPath{From: run.outFrom[i], Path: path})
 		}
 	}
 	if run.audit != "" {
 		for _, e := range run.experiments {
-			outs = append(outs, outputFile{run.outFrom[2], auditPath(run.audit, e.spec.Key, len(run.experiments))})
+			outs = append(outs, report.OutputPath{From: run.outFrom[2], Path: auditPath(run.audit, e.spec.Key, len(run.experiments))})
 		}
 	}
 	return outs
@@ -52,76 +43,10 @@ func checkOutputs(run *analyzeRun, inputs []string) error {
 	if run.jsonOut == "-" && (run.out == "" || run.out == "-") {
 		return usagef("analyze: %s -: the Markdown readout goes to standard output too; name a file for it with --out FILE (or --out %s)", run.outFrom[1], os.DevNull)
 	}
-	var inputInfos []os.FileInfo
-	inputsStated := false
-	seen := map[string]outputFile{}
-	var written []outputFile
-	var writtenInfos []os.FileInfo
-	for _, o := range outputFiles(run) {
-		target, err := report.ResolveOutput(o.path)
-		if errors.Is(err, fs.ErrNotExist) {
-			return usagef("analyze: %s %s: the folder to write it in does not exist (%v)", o.from, o.path, err)
-		}
-		if err != nil {
-			return usagef("analyze: %s %s: %v", o.from, o.path, err)
-		}
-		fi, statErr := os.Stat(target)
-		switch {
-		case statErr == nil && fi.IsDir():
-			return usagef("analyze: %s %s: is a folder; name a file", o.from, o.path)
-		case statErr == nil && !fi.Mode().IsRegular():
-			// A device or a pipe: written directly, and may be named
-			// twice (/dev/null).
-			continue
-		}
-		if prev, ok := seen[target]; ok {
-			return usagef("analyze: %s %s and %s %s are the same file: each output needs its own", prev.from, prev.path, o.from, o.path)
-		}
-		seen[target] = o
-		if err := checkWritable(filepath.Dir(target)); err != nil {
-			return usagef("analyze: %s %s: cannot write in its folder: %v", o.from, o.path, err)
-		}
-		if statErr != nil {
-			continue
-		}
-		// An existing file: it may be an input or another output under
-		// another name (a hard link).
-		for i, prev := range writtenInfos {
-			if os.SameFile(fi, prev) {
-				return usagef("analyze: %s %s and %s %s are the same file: each output needs its own", written[i].from, written[i].path, o.from, o.path)
-			}
-		}
-		written, writtenInfos = append(written, o), append(writtenInfos, fi)
-		if !inputsStated {
-			inputsStated = true
-			inputInfos = make([]os.FileInfo, len(inputs))
-			for i, in := range inputs {
-				inputInfos[i], _ = os.Stat(in)
-			}
-		}
-		for i, in := range inputInfos {
-			if in != nil && os.SameFile(fi, in) {
-				return usagef("analyze: %s %s is an input of the run (%s); writing it would destroy it", o.from, o.path, inputs[i])
-			}
-		}
+	if err := report.CheckOutputPaths(outputFiles(run), inputs); err != nil {
+		return usagef("analyze: %v", err)
 	}
 	return nil
-}
-
-// checkWritable says whether a file can be made in dir, by making one
-// and removing it.
-func checkWritable(dir string) error {
-	f, err := os.CreateTemp(dir, ".armtally-check-*")
-	if err != nil {
-		var pe *fs.PathError
-		if errors.As(err, &pe) {
-			return pe.Err
-		}
-		return err
-	}
-	name := f.Name()
-	f.Close()
-	return os.Remove(name)
 }
 
 // notifySignals returns a context that SIGINT or SIGTERM cancels, with a
