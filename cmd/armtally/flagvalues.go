@@ -4,14 +4,7 @@ import (
 	"fmt"
 	"strconv"
 	"strings"
-
-	"github.com/armtally/armtally/experiment/specfile"
 )
-
-// parseRate and parseDelimiter read the values of plan's and inspect's
-// flags as analyze and a spec file read them.
-func parseRate(s string) (float64, error)   { return specfile.ParseRate(s) }
-func parseDelimiter(s string) (rune, error) { return specfile.ParseDelimiter(s) }
 
 // parseBytes parses a size in bytes: a positive number with an optional
 // unit, B, kB, MB, GB, TB (powers of 1000) or KiB, MiB, GiB, TiB (powers of

@@ -8,6 +8,7 @@ import (
 
 	"github.com/spf13/pflag"
 
+	"github.com/armtally/armtally/experiment/specfile"
 	"github.com/armtally/armtally/ingest"
 	"github.com/armtally/armtally/ingest/profile"
 	"github.com/armtally/armtally/report"
@@ -66,7 +67,7 @@ func runInspect(args []string, stdout, stderr io.Writer) error {
 	if err := mf.apply(&mapping, true, "inspect"); err != nil {
 		return err
 	}
-	delim, err := parseDelimiter(f.delimiter)
+	delim, err := specfile.ParseDelimiter(f.delimiter)
 	if err != nil {
 		return usagef("inspect: --delimiter: %v", err)
 	}

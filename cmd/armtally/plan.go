@@ -10,6 +10,7 @@ import (
 	"github.com/spf13/pflag"
 
 	"github.com/armtally/armtally/experiment/plan"
+	"github.com/armtally/armtally/experiment/specfile"
 	"github.com/armtally/armtally/experiment/stats"
 	"github.com/armtally/armtally/report"
 )
@@ -111,7 +112,7 @@ func parsePlan(args []string, stdout, stderr io.Writer) (plan.Input, planFlags, 
 		return in, f, usagef("plan: give the control arm's conversion rate with --baseline, as in --baseline 10%%")
 	}
 	var err error
-	if in.Baseline, err = parseRate(f.baseline); err != nil {
+	if in.Baseline, err = specfile.ParseRate(f.baseline); err != nil {
 		return in, f, usagef("plan: --baseline: %v", err)
 	}
 	hasMDE, hasUnits := fs.Changed("mde"), fs.Changed("units-per-arm")
@@ -156,7 +157,7 @@ func parsePlanRest(fs *pflag.FlagSet, f *planFlags, in *plan.Input) error {
 	in.Alpha = f.alpha
 	if in.Solve != plan.SolvePower {
 		var err error
-		if in.Power, err = parseRate(f.power); err != nil {
+		if in.Power, err = specfile.ParseRate(f.power); err != nil {
 			return usagef("plan: --power: %v", err)
 		}
 	}

@@ -119,7 +119,6 @@ type Result struct {
 	// reason, rows left out by the event filter.
 	Stats    ingest.Stats
 	talliers []tallier
-	spilled  bool
 }
 
 // Units returns the per-unit records of experiment i in key order, for
@@ -241,7 +240,7 @@ func Run(ctx context.Context, in Input, exps []Experiment, opts Options) (*Resul
 		return nil, err
 	}
 	st := r.Stats()
-	res := &Result{Readouts: make([]experiment.Readout, len(exps)), Stats: st, spilled: opts.MemoryLimit > 0}
+	res := &Result{Readouts: make([]experiment.Readout, len(exps)), Stats: st}
 	if opts.KeepUnits {
 		res.talliers = talliers
 	}

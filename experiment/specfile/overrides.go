@@ -163,36 +163,36 @@ func (o Overrides) applyMetrics(set func(string) bool, e *Settings) error {
 
 // applyAnalysis applies the flags of the statistical options.
 func (o Overrides) applyAnalysis(set func(string) bool, e *Settings) error {
-	var errs []error
-	if set("alpha") {
-		errs = append(errs, e.SetAlpha(o.Alpha, flagOrigin("alpha")))
-	}
+	from := flagOrigin
 	for _, s := range []struct {
-		flag string
-		v    string
-		fn   func(string, Origin) error
+		flag  string
+		apply func() error
 	}{
-		{"alternative", o.Alternative, e.SetAlternative},
-		{"adjust", o.Adjust, e.SetAdjust},
-		{"interval", o.Interval, e.SetInterval},
-		{"difference-interval", o.DifferenceInterval, e.SetDifferenceInterval},
-		{"non-inferiority-method", o.NonInferiorityMethod, e.SetNonInferiorityMethod},
+		{"alpha", func() error { return e.SetAlpha(o.Alpha, from("alpha")) }},
+		{"alternative", func() error { return e.SetAlternative(o.Alternative, from("alternative")) }},
+		{"adjust", func() error { return e.SetAdjust(o.Adjust, from("adjust")) }},
+		{"interval", func() error { return e.SetInterval(o.Interval, from("interval")) }},
+		{"difference-interval", func() error { return e.SetDifferenceInterval(o.DifferenceInterval, from("difference-interval")) }},
+		{"non-inferiority-method", func() error {
+			return e.SetNonInferiorityMethod(o.NonInferiorityMethod, from("non-inferiority-method"))
+		}},
+		{"min-count", func() error { return e.SetMinCount(o.MinCount, from("min-count")) }},
+		{"sample-ratio-threshold", func() error {
+			return e.SetSampleRatioThreshold(o.SampleRatioThreshold, from("sample-ratio-threshold"))
+		}},
+		{"max-segment-values", func() error {
+			// Zero, not given, keeps the default for callers that
+			// leave the field unset.
+			if o.MaxSegmentValues == 0 && (o.Given == nil || !o.Given("max-segment-values")) {
+				return nil
+			}
+			return e.SetMaxSegmentValues(o.MaxSegmentValues, from("max-segment-values"))
+		}},
 	} {
-		if set(s.flag) {
-			errs = append(errs, s.fn(s.v, flagOrigin(s.flag)))
+		if !set(s.flag) {
+			continue
 		}
-	}
-	if set("min-count") {
-		errs = append(errs, e.SetMinCount(o.MinCount, flagOrigin("min-count")))
-	}
-	if set("sample-ratio-threshold") {
-		errs = append(errs, e.SetSampleRatioThreshold(o.SampleRatioThreshold, flagOrigin("sample-ratio-threshold")))
-	}
-	if name := "max-segment-values"; set(name) && (o.MaxSegmentValues != 0 || o.Given != nil && o.Given(name)) {
-		errs = append(errs, e.SetMaxSegmentValues(o.MaxSegmentValues, flagOrigin(name)))
-	}
-	for _, err := range errs {
-		if err != nil {
+		if err := s.apply(); err != nil {
 			return err
 		}
 	}
