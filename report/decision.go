@@ -11,22 +11,21 @@ import (
 	"github.com/armtally/armtally/experiment"
 )
 
-// zRows returns the z test's summary and its two decision routes.
-func zRows(z *experiment.Test) (summary, statRoute, pRoute string) {
+// zCells returns a z test's method and sidedness ("pooled two-proportion
+// z test, two-sided") and its decision by both routes in one cell:
+// "|z| = 2.80 ≥ 1.96 and p = 0.0052 ≤ 0.05: reject H0", each route with
+// its own decision when they disagree.
+func zCells(z *experiment.Test) (method, routes string) {
 	if z == nil {
-		return "not computed", "n/a", "n/a"
+		return "not computed", "not computed"
 	}
-	// The critical value is printed on the side the test rejects on.
-	critical := math.Abs(z.CriticalValue)
-	if z.Alternative == "less" {
-		critical = -critical
+	method = z.Method + ", " + alternativeShort(z.Alternative)
+	st := statAgainst(z.Statistic, z.CriticalValue, z.Alternative)
+	pr := pAgainst(z.PValue, z.Alpha)
+	if z.RejectByStatistic == z.RejectByPValue {
+		return method, st + " and " + pr + ": " + rejectText(z.RejectByPValue)
 	}
-	summary = fmt.Sprintf("%s, %s: z = %s, critical value %s, %s",
-		z.Method, alternativeShort(z.Alternative), formatStatistic(z.Statistic),
-		formatStatistic(critical), pIs(z.PValue))
-	statRoute = statAgainst(z.Statistic, z.CriticalValue, z.Alternative) + ": " + rejectText(z.RejectByStatistic)
-	pRoute = pAgainst(z.PValue, z.Alpha) + ": " + rejectText(z.RejectByPValue)
-	return summary, statRoute, pRoute
+	return method, st + ": " + rejectText(z.RejectByStatistic) + "; " + pr + ": " + rejectText(z.RejectByPValue)
 }
 
 func alternativeShort(a string) string {
@@ -62,6 +61,48 @@ func exactText(e *experiment.ExactTest, conditionMet bool) string {
 		return "not run"
 	}
 	return fmt.Sprintf("%s, %s: %s: %s", e.Method, alternativeShort(e.Alternative), pAgainst(e.PValue, e.Alpha), rejectText(e.Reject))
+}
+
+// decisionCell is the Decision cell of a comparison: the reported
+// decision, after which adjustment, and the one before adjustment when it
+// differs; a comparison that a failed check makes unreadable says so
+// instead, whatever its test says.
+func decisionCell(r experiment.Readout, m experiment.MetricReadout, c experiment.Comparison) string {
+	by := decider(c.DecidedBy, c.Z, c.Exact)
+	if by == "" {
+		return "no decision (no test could be run)"
+	}
+	if r.SampleRatio.Checked && r.SampleRatio.Mismatch {
+		return "**not readable**: the sample ratio check failed, so no decision is drawn from this test"
+	}
+	alpha := formatAlpha(decisionAlpha(c.DecidedBy, c.Z, c.Exact))
+	s := "not significant at alpha " + alpha
+	if c.Significant {
+		s = "**significant** at alpha " + alpha
+	}
+	adj := c.Adjusted
+	switch {
+	case adj == nil && m.Guardrail != nil:
+		s += " (guardrail metric, outside the family)"
+	case adj == nil:
+		s += " (outside the family)"
+	case !adjusts(adj.Method):
+		s += " (no adjustment)"
+	default:
+		s += " after " + adjustmentName(adj.Method) + " adjustment (final)"
+		switch {
+		case c.Significant == c.SignificantUnadjusted:
+			s += ", as before it"
+		case c.SignificantUnadjusted:
+			s += "; significant before it"
+		default:
+			s += "; not significant before it"
+		}
+	}
+	if c.DecidedBy == experiment.DecidedByExact && c.Exact != nil {
+		s += "; by " + by
+	}
+	return s
 }
 
 // decisionText states the decision and which test made it.
@@ -146,22 +187,22 @@ func comparisonConclusion(m experiment.MetricReadout, c experiment.Comparison) s
 		return fmt.Sprintf("%s cannot be compared with %s: %s.", code(c.Treatment), code(c.Control), noUnits(t, ctl, c))
 	}
 	var b strings.Builder
-	fmt.Fprintf(&b, "%s converted at %s vs %s for %s: %s points", code(c.Treatment), formatPercent(*t.Rate), formatPercent(*ctl.Rate), code(c.Control), formatPoints(*c.Difference))
+	fmt.Fprintf(&b, "%s: %s vs %s for %s, %s", code(c.Treatment), formatPercent(*t.Rate), formatPercent(*ctl.Rate), code(c.Control), formatPP(*c.Difference))
 	if iv := c.DifferenceInterval; iv != nil {
-		fmt.Fprintf(&b, " (%s CI %s to %s", formatLevel(iv.Level), formatPoints(iv.Lower), formatPoints(iv.Upper))
+		fmt.Fprintf(&b, " (%s CI %s", formatLevel(iv.Level), formatPPRange(iv.Lower, iv.Upper))
 		if c.Adjusted != nil && c.Adjusted.DifferenceInterval != nil {
 			sim := c.Adjusted.DifferenceInterval
-			fmt.Fprintf(&b, "; %s simultaneous CI %s to %s", formatLevel(sim.Level), formatPoints(sim.Lower), formatPoints(sim.Upper))
+			fmt.Fprintf(&b, "; %s simultaneous CI %s", formatLevel(sim.Level), formatPPRange(sim.Lower, sim.Upper))
 		}
 		b.WriteString(")")
 	}
 	if c.RelativeLift != nil {
-		fmt.Fprintf(&b, ", a relative lift of %s", formatSignedPercent(*c.RelativeLift))
+		fmt.Fprintf(&b, ", lift %s", formatSignedPercent(*c.RelativeLift))
 		if iv := c.LiftInterval; iv != nil {
 			fmt.Fprintf(&b, " (%s CI %s to %s)", formatLevel(iv.Level), formatSignedPercent(iv.Lower), formatSignedPercent(iv.Upper))
 		}
 	} else {
-		b.WriteString(", relative lift undefined (" + liftUndefined(ctl, c) + ")")
+		b.WriteString(", lift undefined (" + liftUndefined(ctl, c) + ")")
 	}
 	b.WriteString("; ")
 	b.WriteString(comparisonVerdict(c, "the data do not separate it from "+code(c.Control)))
@@ -261,4 +302,44 @@ func qualifiers(decidedBy string, z *experiment.Test, e *experiment.ExactTest, s
 		s += ": " + otherwise
 	}
 	return s
+}
+
+// simultaneousSentence is the multiple-comparison paragraph's sentence on
+// Bonferroni's simultaneous intervals. Its levels are those the tables
+// print: each interval's level as the analysis stored it (the first of
+// the family's, which all share it), and the level they hold at together,
+// the readout's confidence level (1 - alpha, or 1 - 2 × alpha for a
+// one-sided test). "" when no comparison has one.
+func simultaneousSentence(r experiment.Readout) string {
+	for _, m := range r.Metrics {
+		for _, c := range m.Comparisons {
+			if c.Adjusted == nil || c.Adjusted.DifferenceInterval == nil {
+				continue
+			}
+			level := c.Adjusted.DifferenceInterval.Level
+			alpha := decisionAlpha(c.DecidedBy, c.Z, c.Exact)
+			return fmt.Sprintf(" Bonferroni also gives simultaneous intervals: each difference gets a %s interval (%s), and they all hold at once with at least %s confidence.",
+				formatLevel(level), levelRule(level, alpha, c.Adjusted.FamilySize), formatLevel(r.Settings.ConfidenceLevel))
+		}
+	}
+	return ""
+}
+
+// levelRule says how a simultaneous level follows from alpha and the
+// family size m: "1 - 0.05 / 4" for a two-sided test, "1 - 2 × 0.05 / 4"
+// for a one-sided one (whose intervals are two-sided at 1 - 2 × alpha),
+// whichever the level matches; the level as a number when neither does.
+func levelRule(level, alpha float64, m int) string {
+	if m < 1 {
+		return formatLevel(level)
+	}
+	two := 1 - alpha/float64(m)
+	one := 1 - 2*alpha/float64(m)
+	switch {
+	case math.Abs(level-two) < 1e-9:
+		return fmt.Sprintf("1 - %s / %d", formatAlpha(alpha), m)
+	case math.Abs(level-one) < 1e-9:
+		return fmt.Sprintf("1 - 2 × %s / %d", formatAlpha(alpha), m)
+	}
+	return formatLevel(level)
 }

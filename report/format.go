@@ -15,9 +15,11 @@ import (
 // printed as "< 0.0001".
 const pFloor = 0.0001
 
-// maxDecimals caps the digits after the decimal point of percentages,
-// percentage points and statistics.
-const maxDecimals = 6
+// numberDecimals is the decimals of every percent, percentage point,
+// lift and statistic in the readout (see the README, "How numbers are
+// written"). A decision route prints more only when two would blur which
+// side of its threshold a value is on.
+const numberDecimals = 2
 
 // FormatCount prints a count with comma thousands separators: 1234567 is
 // "1,234,567". The command's progress line uses it too.
@@ -40,18 +42,6 @@ func FormatCount(n int64) string {
 	return b.String()
 }
 
-// decimalsFor returns how many digits after the decimal point show v with
-// at least two significant digits, but never fewer than two decimals and
-// never more than maxDecimals: 12.345 gets 2, 0.345 gets 2, 0.0345 gets 3.
-func decimalsFor(v float64) int {
-	a := math.Abs(v)
-	if a == 0 || a >= 0.1 {
-		return 2
-	}
-	d := 1 - int(math.Floor(math.Log10(a)))
-	return min(max(d, 2), maxDecimals)
-}
-
 // fixed prints v with d decimals and drops the sign of a value that rounds
 // to zero, so that no "-0.00" appears.
 func fixed(v float64, d int) string {
@@ -71,25 +61,49 @@ func signed(v float64, d int) string {
 	return s
 }
 
-// formatPercent prints a proportion as a percentage: 0.12234 is "12.23%",
-// 0.000342 is "0.034%".
+// formatPercent prints a rate or share as a percentage with two decimals:
+// 0.12234 is "12.23%", 0.000342 is "0.03%".
 func formatPercent(p float64) string {
-	v := p * 100
-	return fixed(v, decimalsFor(v)) + "%"
+	return fixed(p*100, numberDecimals) + "%"
 }
 
-// formatSignedPercent prints a relative change as a signed percentage:
-// 0.1108 is "+11.08%".
+// formatSignedPercent prints a relative change as a signed percentage
+// with two decimals: 0.1108 is "+11.08%".
 func formatSignedPercent(p float64) string {
-	v := p * 100
-	return signed(v, decimalsFor(v)) + "%"
+	return signed(p*100, numberDecimals) + "%"
 }
 
 // formatPoints prints a difference of proportions in percentage points,
-// signed, without the unit: 0.0122 is "+1.22".
+// signed, with two decimals, without the unit: 0.0122 is "+1.22".
 func formatPoints(d float64) string {
-	v := d * 100
-	return signed(v, decimalsFor(v))
+	return signed(d*100, numberDecimals)
+}
+
+// formatPP is formatPoints with the unit: 0.0122 is "+1.22 pp".
+func formatPP(d float64) string {
+	return formatPoints(d) + " pp"
+}
+
+// formatPPRange prints an interval of a difference in percentage points:
+// "+0.45 to +2.58 pp".
+func formatPPRange(lower, upper float64) string {
+	return formatPoints(lower) + " to " + formatPP(upper)
+}
+
+// formatExpected prints an expected count (n p0) with two decimals and
+// thousands separators: 1234.5 is "1,234.50".
+func formatExpected(x float64) string {
+	s := fixed(x, numberDecimals)
+	whole, frac, _ := strings.Cut(s, ".")
+	n, err := strconv.ParseInt(whole, 10, 64)
+	if err != nil {
+		return s
+	}
+	w := FormatCount(n)
+	if n == 0 && strings.HasPrefix(whole, "-") {
+		w = "-0"
+	}
+	return w + "." + frac
 }
 
 // formatLevel prints a confidence level as a percentage with no trailing
@@ -112,7 +126,7 @@ func formatShare(s float64) string {
 
 // formatStatistic prints a test statistic with two decimals.
 func formatStatistic(x float64) string {
-	return fixed(x, 2)
+	return fixed(x, numberDecimals)
 }
 
 // formatPValue prints a p-value with four decimals, or "< 0.0001" below the
@@ -189,7 +203,7 @@ func statAgainst(z, critical float64, alternative string) string {
 		name, x, bound = "|z|", math.Abs(z), c
 		rel = relation(x, bound, "<", "≥")
 	}
-	for d := 2; d <= 17; d++ {
+	for d := numberDecimals; d <= 17; d++ {
 		sx, sb := fixed(x, d), fixed(bound, d)
 		if sameRelation(parse(sx), parse(sb), x, bound) {
 			return name + " = " + sx + " " + rel + " " + sb

@@ -28,17 +28,22 @@ func TestFormatNumbers(t *testing.T) {
 		{"percent one", formatPercent(1), "100.00%"},
 		// 0.00342 * 100 = 0.342 >= 0.1: two decimals
 		{"percent small", formatPercent(0.00342), "0.34%"},
-		// 0.000342 * 100 = 0.0342: floor(log10) = -2, 1 - (-2) = 3 decimals
-		{"percent smaller", formatPercent(0.000342), "0.034%"},
-		// 3e-9 * 100 = 3e-7: capped at six decimals
-		{"percent capped", formatPercent(3e-9), "0.000000%"},
+		// 0.000342 * 100 = 0.0342: two decimals all the same
+		{"percent smaller", formatPercent(0.000342), "0.03%"},
+		// 3e-9 * 100 = 3e-7 rounds to zero at two decimals
+		{"percent tiny", formatPercent(3e-9), "0.00%"},
 		{"points positive", formatPoints(0.012040816326530618), "+1.20"},
 		{"points negative", formatPoints(-0.0067260784215218763), "-0.67"},
-		// -6.89e-5 * 100 = -0.00689: floor(log10) = -3, 4 decimals
-		{"points tiny negative", formatPoints(-6.8938900617693429e-05), "-0.0069"},
+		// -6.89e-5 * 100 = -0.00689: two decimals give -0.01
+		{"points tiny negative", formatPoints(-6.8938900617693429e-05), "-0.01"},
+		{"pp", formatPP(0.0122), "+1.22 pp"},
+		{"pp range", formatPPRange(-0.0016, 0.0115), "-0.16 to +1.15 pp"},
+		{"expected count", formatExpected(1234.5), "1,234.50"},
+		{"expected count small", formatExpected(0.3), "0.30"},
 		{"points zero", formatPoints(0), "0.00"},
-		// -1e-12 rounds to zero at six decimals: no sign
-		{"points negative zero", formatPoints(-1e-12), "0.000000"},
+		// -1e-12 rounds to zero at two decimals: no sign
+		{"points negative zero", formatPoints(-1e-12), "0.00"},
+		{"lift tiny", formatSignedPercent(-0.000042), "0.00%"},
 		{"lift", formatSignedPercent(0.10946196660482377), "+10.95%"},
 		{"lift negative", formatSignedPercent(-0.032586776355572278), "-3.26%"},
 		{"level 95", formatLevel(0.95), "95%"},

@@ -95,8 +95,8 @@ func guardrailDefinition(r experiment.Readout, m experiment.MetricReadout) strin
 	if known {
 		size = formatSize(abs) + " pp"
 	}
-	fmt.Fprintf(&b, "Guardrail: each treatment must be shown not worse than %s by more than %s; %s, so worse means %s, and a treatment passes when the data rule out a %s of %s or more.",
-		code(r.Control), marginText(m, r.Control, abs, known), direction(m), rate, change, size)
+	fmt.Fprintf(&b, "Guardrail: a treatment passes when the data rule out a %s of %s or more against %s (margin %s; %s, so worse means %s).",
+		change, size, code(r.Control), marginText(m, r.Control, abs, known), direction(m), rate)
 	alpha := r.Settings.Alpha
 	method := r.Settings.NonInferiorityMethod
 	if method == "" {
@@ -106,9 +106,8 @@ func guardrailDefinition(r experiment.Readout, m experiment.MetricReadout) strin
 	if m.LowerIsBetter {
 		bound = "upper"
 	}
-	fmt.Fprintf(&b, " It is decided by the one-sided non-inferiority z test (%s) at alpha %s; its interval is two-sided at %s (1 - 2 × alpha), so that its %s bound is the one-sided %s bound compared with the margin.",
-		method, formatAlpha(alpha), formatLevel(1-2*alpha), bound, formatLevel(1-alpha))
-	b.WriteString(" Guardrail comparisons are outside the multiple-comparison family.")
+	fmt.Fprintf(&b, " One-sided non-inferiority z test (%s) at alpha %s; the %s bound of its %s interval (1 - 2 × alpha) is the one-sided %s bound read against the margin. Outside the multiple-comparison family.",
+		method, formatAlpha(alpha), bound, formatLevel(1-2*alpha), formatLevel(1-alpha))
 	return b.String()
 }
 
@@ -141,7 +140,7 @@ func checkInterval(m experiment.MetricReadout, ni *experiment.NonInferiorityTest
 // relation, "-0.94 > -1.20", with more decimals when two would blur it.
 func pointsAgainst(x, bound float64, below, above string) string {
 	rel := relation(x, bound, below, above)
-	for d := max(decimalsFor(x*100), decimalsFor(bound*100)); d <= 17; d++ {
+	for d := numberDecimals; d <= 17; d++ {
 		sx, sb := signed(x*100, d), signed(bound*100, d)
 		if sameRelation(parse(sx), parse(sb), x, bound) {
 			return sx + " " + rel + " " + sb
@@ -162,60 +161,73 @@ func guardrailVerdict(ni *experiment.NonInferiorityTest) string {
 }
 
 func (md *markdown) guardrails(r experiment.Readout, m experiment.MetricReadout, n *notes) {
-	header := []string{""}
-	labels := []string{"Rates", "Difference", "Margin", "Hypotheses", "Non-inferiority z test", "Statistic route", "p-value route", "Interval against the margin", "Verdict", "Notes"}
-	var cols [][]string
+	rows := []detailRow{
+		{label: "Rates"},
+		{label: "Difference"},
+		{label: "Margin", fold: func(c string) string { return "Margin: " + c + "." }},
+		{label: "Hypotheses", fold: func(c string) string { return c + "." }},
+		{label: "Test", fold: func(c string) string { return "Test: the " + c + "." }},
+		{label: "Non-inferiority test, both routes"},
+		{label: "Interval against the margin"},
+		{label: "Verdict"},
+		{label: "Notes", usual: "none", fold: sentence("No notes.")},
+	}
+	var header []string
 	for _, c := range m.Comparisons {
 		header = append(header, pairName(c))
-		t, ctl, diff := pairRates(m, c)
-		ni := c.NonInferiority
-		if ni == nil {
-			cols = append(cols, []string{rateText(t) + " vs " + rateText(ctl), diff, "n/a", "n/a", "not computed", "n/a", "n/a", "n/a", "not tested", n.add()})
-			continue
+		cells := guardrailCells(r, m, c, n)
+		for i := range rows {
+			rows[i].cells = append(rows[i].cells, cells[i])
 		}
-		margin := formatSize(ni.AbsoluteMargin) + " pp"
-		if m.Guardrail != nil && m.Guardrail.Relative {
-			margin += " (" + formatShareOf(m.Guardrail.Margin) + " of the " + code(c.Control) + " rate)"
-		}
-		var hyp string
-		if m.LowerIsBetter {
-			b := formatPoints(ni.AbsoluteMargin)
-			hyp = "H0: difference ≥ " + b + " pp (worse by the margin or more); H1: difference < " + b + " pp"
-		} else {
-			b := formatPoints(-ni.AbsoluteMargin)
-			hyp = "H0: difference ≤ " + b + " pp (worse by the margin or more); H1: difference > " + b + " pp"
-		}
-		zt, statRoute, pRoute := zRows(ni.Z)
-		against := "n/a (no interval)"
-		if chk, ok := checkInterval(m, ni); ok {
-			iv := ni.Interval
-			against = fmt.Sprintf("%s CI %s to %s pp (%s): %s, ", formatLevel(iv.Level), formatPoints(iv.Lower), formatPoints(iv.Upper), iv.Method, chk.text)
-			if chk.within {
-				against += "inside the margin"
-			} else {
-				against += "at or past the margin"
-			}
-			if ni.Z != nil && chk.within != ni.NonInferior {
-				against += "; disagrees with the test, a borderline result"
-			}
-		}
-		verdict := "**" + guardrailVerdict(ni) + "**"
-		if ni.Z == nil {
-			verdict = "not tested (" + noUnits(t, ctl, c) + ")"
-		}
-		cols = append(cols, []string{
-			rateText(t) + " vs " + rateText(ctl),
-			diff,
-			margin,
-			hyp,
-			zt, statRoute, pRoute,
-			against,
-			verdict,
-			n.addTest(ni.Z, ni.Warnings),
-		})
 	}
-	md.table(header, "", transpose(labels, cols))
+	md.detailTable(header, rows)
 	n.flush(md)
+}
+
+// guardrailCells returns one comparison's column of the guardrail table.
+func guardrailCells(r experiment.Readout, m experiment.MetricReadout, c experiment.Comparison, n *notes) []string {
+	t, ctl, diff := pairRates(m, c)
+	ni := c.NonInferiority
+	if ni == nil {
+		return []string{rateText(t) + " vs " + rateText(ctl), diff, "n/a", "n/a", "not computed", "n/a", "n/a", "not tested", n.add()}
+	}
+	margin := formatSize(ni.AbsoluteMargin) + " pp"
+	if m.Guardrail != nil && m.Guardrail.Relative {
+		margin += " (" + formatShareOf(m.Guardrail.Margin) + " of the " + code(c.Control) + " rate)"
+	}
+	var hyp string
+	if m.LowerIsBetter {
+		b := formatPP(ni.AbsoluteMargin)
+		hyp = "H0: difference ≥ " + b + " (worse by the margin or more); H1: difference < " + b
+	} else {
+		b := formatPP(-ni.AbsoluteMargin)
+		hyp = "H0: difference ≤ " + b + " (worse by the margin or more); H1: difference > " + b
+	}
+	method, routes := zCells(ni.Z)
+	against := "n/a (no interval)"
+	if chk, ok := checkInterval(m, ni); ok {
+		iv := ni.Interval
+		against = fmt.Sprintf("%s CI %s: %s, ", formatLevel(iv.Level), formatPPRange(iv.Lower, iv.Upper), chk.text)
+		if iv.Method != r.Settings.DifferenceIntervalMethod {
+			against = fmt.Sprintf("%s CI %s (%s): %s, ", formatLevel(iv.Level), formatPPRange(iv.Lower, iv.Upper), iv.Method, chk.text)
+		}
+		if chk.within {
+			against += "inside the margin"
+		} else {
+			against += "at or past the margin"
+		}
+		if ni.Z != nil && chk.within != ni.NonInferior {
+			against += "; disagrees with the test, a borderline result"
+		}
+	}
+	verdict := "**" + guardrailVerdict(ni) + "**"
+	switch {
+	case ni.Z == nil:
+		verdict = "not tested (" + noUnits(t, ctl, c) + ")"
+	case r.SampleRatio.Checked && r.SampleRatio.Mismatch:
+		verdict = "**not readable**: the sample ratio check failed, so no verdict is drawn from this test"
+	}
+	return []string{rateText(t) + " vs " + rateText(ctl), diff, margin, hyp, method, routes, against, verdict, n.addTest(ni.Z, ni.Warnings)}
 }
 
 // guardrailWarnings lists the guardrail tests that did not pass, for the
@@ -258,16 +270,16 @@ func guardrailConclusion(m experiment.MetricReadout, c experiment.Comparison) st
 	var b strings.Builder
 	fmt.Fprintf(&b, "Guardrail: %s is %s", code(c.Treatment), guardrailVerdict(ni))
 	if c.Difference != nil {
-		fmt.Fprintf(&b, ": %s points", formatPoints(*c.Difference))
+		fmt.Fprintf(&b, ": %s", formatPP(*c.Difference))
 		if iv := ni.Interval; iv != nil {
-			fmt.Fprintf(&b, " (%s CI %s to %s)", formatLevel(iv.Level), formatPoints(iv.Lower), formatPoints(iv.Upper))
+			fmt.Fprintf(&b, " (%s CI %s)", formatLevel(iv.Level), formatPPRange(iv.Lower, iv.Upper))
 		}
 	}
 	rules := "rules out"
 	if !ni.NonInferior {
 		rules = "does not rule out"
 	}
-	fmt.Fprintf(&b, ", which %s a %s of %s points or more against %s (non-inferiority %s).",
+	fmt.Fprintf(&b, ", which %s a %s of %s pp or more against %s (non-inferiority %s).",
 		rules, change, formatSize(ni.AbsoluteMargin), code(c.Control), pAgainst(ni.Z.PValue, ni.Z.Alpha))
 	return b.String()
 }

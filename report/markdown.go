@@ -192,3 +192,53 @@ func (n *notes) flush(md *markdown) {
 	n.printed = len(n.list)
 	md.line("")
 }
+
+// detailRow is one row of a detail table: its label, one cell per column
+// and, when fold is set, the sentence that replaces the row when every
+// cell reads the same (and, if usual is not "", reads usual).
+type detailRow struct {
+	label string
+	cells []string
+	usual string
+	fold  func(common string) string
+}
+
+// detailTable writes a detail table whose columns are named by header
+// (after the empty corner cell), then one line with the sentences of the
+// folded rows.
+func (md *markdown) detailTable(header []string, rows []detailRow) {
+	var kept [][]string
+	var folded []string
+	for _, r := range rows {
+		if r.fold != nil && sameCells(r.cells, r.usual) {
+			if text := r.fold(r.cells[0]); text != "" {
+				folded = append(folded, text)
+			}
+			continue
+		}
+		kept = append(kept, append([]string{r.label}, r.cells...))
+	}
+	md.table(append([]string{""}, header...), "", kept)
+	if len(folded) > 0 {
+		md.para(strings.Join(folded, " "))
+	}
+}
+
+// sameCells reports whether every cell equals the first and, when usual
+// is not "", equals usual.
+func sameCells(cells []string, usual string) bool {
+	if len(cells) == 0 {
+		return false
+	}
+	for _, c := range cells {
+		if c != cells[0] || (usual != "" && c != usual) {
+			return false
+		}
+	}
+	return true
+}
+
+// sentence makes a folded row's sentence from a fixed text.
+func sentence(text string) func(string) string {
+	return func(string) string { return text }
+}

@@ -237,7 +237,8 @@ func tableRowOf(t *testing.T, out, label string) string {
 }
 
 // TestDecisionRowShowsAdjustment checks that the Decision row follows the
-// adjusted decision and names the unadjusted one when they differ.
+// adjusted decision and names the unadjusted one when they differ, and
+// that a failed sample ratio check leaves no decision standing.
 func TestDecisionRowShowsAdjustment(t *testing.T) {
 	tests := []struct {
 		name    string
@@ -245,19 +246,31 @@ func TestDecisionRowShowsAdjustment(t *testing.T) {
 		want    string
 	}{
 		{"both significant", twoArmReadout,
-			"| Decision | **significant** at alpha 0.05 after Holm adjustment over 2 comparisons (final), and before it; by the pooled two-proportion z test |"},
-		{"significant before, not after", threeArmReadout,
-			"| Decision | not significant at alpha 0.05 after Holm adjustment over 4 comparisons (final), though significant before adjustment; by the pooled two-proportion z test | not significant at alpha 0.05 after Holm adjustment over 4 comparisons (final), nor before it; by the pooled two-proportion z test |"},
+			"| Decision | **significant** at alpha 0.05 after Holm adjustment (final), as before it |"},
+		{"significant before, not after", func() experiment.Readout {
+			r := threeArmReadout()
+			r.SampleRatio.Mismatch = false
+			return r
+		}, "| Decision | not significant at alpha 0.05 after Holm adjustment (final); significant before it | not significant at alpha 0.05 after Holm adjustment (final), as before it |"},
+		{"sample ratio mismatch", threeArmReadout,
+			"| Decision | **not readable**: the sample ratio check failed, so no decision is drawn from this test | **not readable**: the sample ratio check failed, so no decision is drawn from this test |"},
 		{"no adjustment", func() experiment.Readout {
 			r := twoArmReadout()
 			r.Metrics[0].Comparisons[0].Adjusted.Method = "none"
 			return r
-		}, "| Decision | **significant** at alpha 0.05, by the pooled two-proportion z test; no adjustment for multiple comparisons |"},
+		}, "| Decision | **significant** at alpha 0.05 (no adjustment) |"},
 		{"outside the family", func() experiment.Readout {
 			r := twoArmReadout()
 			r.Metrics[0].Comparisons[0].Adjusted = nil
 			return r
-		}, "| Decision | **significant** at alpha 0.05, by the pooled two-proportion z test; not adjusted (outside the family) |"},
+		}, "| Decision | **significant** at alpha 0.05 (outside the family) |"},
+		{"decided by the exact test", func() experiment.Readout {
+			r := twoArmReadout()
+			c := &r.Metrics[0].Comparisons[0]
+			c.DecidedBy = experiment.DecidedByExact
+			c.Exact = &experiment.ExactTest{Method: "Fisher's exact test", PValue: 0.01, Alpha: 0.05, Alternative: "two-sided", Reject: true}
+			return r
+		}, "| Decision | **significant** at alpha 0.05 after Holm adjustment (final), as before it; by Fisher's exact test |"},
 	}
 	for _, tc := range tests {
 		t.Run(tc.name, func(t *testing.T) {
@@ -271,7 +284,7 @@ func TestDecisionRowShowsAdjustment(t *testing.T) {
 
 func TestSimultaneousRowOnlyWithBonferroni(t *testing.T) {
 	out := render1(t, guardrailReadout())
-	want := "| Simultaneous interval | 97.5% CI +0.48 to +1.72 pp (Newcombe hybrid score at 1 - 0.05 / 2): excludes 0 | 97.5% CI -0.033 to +1.18 pp (Newcombe hybrid score at 1 - 0.05 / 2): includes 0 |"
+	want := "| Simultaneous interval | 97.5% CI +0.48 to +1.72 pp (Newcombe hybrid score at 1 - 0.05 / 2): excludes 0 | 97.5% CI -0.03 to +1.18 pp (Newcombe hybrid score at 1 - 0.05 / 2): includes 0 |"
 	if got := tableRowOf(t, out, "Simultaneous interval"); got != want {
 		t.Errorf("row\n%s\nwant\n%s", got, want)
 	}
@@ -350,10 +363,10 @@ func TestGuardrailTable(t *testing.T) {
 	out := render1(t, guardrailReadout())
 	_, sec, _ := strings.Cut(out, "## Metric `unsubscribe` (guardrail, lower is better)\n")
 	for _, want := range []string{
-		"| Hypotheses | H0: difference ≥ +0.50 pp (worse by the margin or more); H1: difference < +0.50 pp |",
-		"| Non-inferiority z test | non-inferiority z test (Farrington-Manning score), one-sided (less): z = 1.62, critical value -1.64, p = 0.9471 |",
-		"| Statistic route | z = 1.62 > -1.64: do not reject H0 | z = -3.29 ≤ -1.64: reject H0 |",
-		"| Interval against the margin | 90% CI +0.50 to +0.95 pp (Newcombe hybrid score): upper bound +0.95 ≥ +0.50, at or past the margin |",
+		"H0: difference ≥ +0.50 pp (worse by the margin or more); H1: difference < +0.50 pp.",
+		"| Non-inferiority test, both routes | z = 1.62 > -1.64 and p = 0.9471 > 0.05: do not reject H0 | z = -3.29 ≤ -1.64 and p = 0.0005 ≤ 0.05: reject H0 |",
+		"Test: the non-inferiority z test (Farrington-Manning score), one-sided (less).",
+		"| Interval against the margin | 90% CI +0.50 to +0.95 pp: upper bound +0.95 ≥ +0.50, at or past the margin |",
 		"| Verdict | **not shown to be within the margin** | **not worse than the margin** |",
 		"significant at alpha 0.05: an increase, which is bad news for this metric (lower is better).",
 	} {
@@ -364,8 +377,8 @@ func TestGuardrailTable(t *testing.T) {
 	_, sec, _ = strings.Cut(out, "## Metric `repeat_visit` (guardrail, higher is better)\n")
 	for _, want := range []string{
 		// 0.03 * 40.00% = 1.20 pp
-		"by more than 3% of the `control` rate 40.00%, that is 1.20 pp; higher is better",
-		"| Margin | 1.20 pp (3% of the `control` rate) |",
+		"rule out a drop of 1.20 pp or more against `control` (margin 3% of the `control` rate 40.00%, that is 1.20 pp; higher is better",
+		"Margin: 1.20 pp (3% of the `control` rate).",
 		"lower bound -0.94 > -1.20, inside the margin",
 	} {
 		if !strings.Contains(sec, want) {

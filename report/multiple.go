@@ -207,8 +207,7 @@ func (md *markdown) multiplicity(r experiment.Readout) {
 		}
 		b.WriteString("Each comparison's Decision row gives the adjusted decision, which is the final one, and says when the decision before adjustment differs.")
 		if mc.Method == "bonferroni" {
-			fmt.Fprintf(&b, " Bonferroni also gives simultaneous intervals: each difference gets a %s interval (1 - %s / %d), and they all hold at once with at least %s confidence.",
-				formatLevel(1-alpha/float64(mc.Size)), formatAlpha(alpha), mc.Size, formatLevel(1-alpha))
+			b.WriteString(simultaneousSentence(r))
 		}
 	}
 	o := countOutside(r)
@@ -256,9 +255,9 @@ func simultaneousRow(c experiment.Comparison) string {
 	if iv.Lower > 0 || iv.Upper < 0 {
 		zero = "excludes 0"
 	}
-	return fmt.Sprintf("%s CI %s to %s pp (%s at 1 - %s / %d): %s",
+	return fmt.Sprintf("%s CI %s to %s pp (%s at %s): %s",
 		formatLevel(iv.Level), formatPoints(iv.Lower), formatPoints(iv.Upper), iv.Method,
-		formatAlpha(decisionAlpha(c.DecidedBy, c.Z, c.Exact)), c.Adjusted.FamilySize, zero)
+		levelRule(iv.Level, decisionAlpha(c.DecidedBy, c.Z, c.Exact), c.Adjusted.FamilySize), zero)
 }
 
 func hasSimultaneous(m experiment.MetricReadout) bool {

@@ -13,7 +13,7 @@ import (
 )
 
 func (md *markdown) readout(r experiment.Readout) {
-	md.heading(0, "Experiment "+code(r.Experiment))
+	md.heading(0, readoutTitle(r))
 	md.header(r)
 	md.warnings(r)
 	md.arms(r)
@@ -25,6 +25,23 @@ func (md *markdown) readout(r experiment.Readout) {
 		md.cautions(r)
 	}
 	md.diagnostics(r)
+}
+
+// readoutTitle is the readout's heading: "Experiment `key`", or, for
+// rows without an experiment key, "Experiment readout" with the arms
+// compared.
+func readoutTitle(r experiment.Readout) string {
+	if r.Experiment != "" {
+		return "Experiment " + code(r.Experiment)
+	}
+	var names []string
+	for _, a := range r.Arms {
+		names = append(names, code(a.Name))
+	}
+	if len(names) == 0 {
+		return "Experiment readout (no experiment key)"
+	}
+	return "Experiment readout: " + joinAnd(names) + " (no experiment key)"
 }
 
 func (md *markdown) header(r experiment.Readout) {
@@ -331,7 +348,7 @@ func (md *markdown) metric(r experiment.Readout, m experiment.MetricReadout) {
 	}
 	if len(m.Comparisons) > 0 {
 		md.heading(2, "Against control")
-		md.comparisons(m, n)
+		md.comparisons(r, m, n)
 	}
 	if hasTargetTests(m) {
 		target := "the target rate"
@@ -423,61 +440,98 @@ func rateText(a *experiment.ArmRate) string {
 	return formatPercent(*a.Rate)
 }
 
-func (md *markdown) comparisons(m experiment.MetricReadout, n *notes) {
-	header := []string{""}
-	labels := []string{"Rates", "Difference", "Relative lift", "z test", "Statistic route", "p-value route", "Normal approximation", "Exact test", "Interval and test", "Adjusted p-value"}
-	simultaneous := hasSimultaneous(m)
-	if simultaneous {
-		labels = append(labels, "Simultaneous interval")
+// comparisons writes the table of each treatment against the control.
+func (md *markdown) comparisons(r experiment.Readout, m experiment.MetricReadout, n *notes) {
+	k := len(m.Comparisons)
+	rows := []detailRow{
+		{label: "Rates"},
+		{label: "Difference"},
+		{label: "Relative lift"},
+		{label: "Test", fold: func(c string) string { return "Test: the " + c + "." }},
+		{label: "z test, both routes"},
+		{label: "Normal approximation", usual: conditionText(true, "in each arm", &experiment.Test{}, nil),
+			fold: sentence("Normal approximation justified in every comparison (enough conversions and non-conversions in each arm), so no exact test was needed.")},
+		{label: "Exact test", usual: exactText(nil, true), fold: sentence("")},
+		{label: "Interval and test", usual: "agree", fold: sentence("Intervals and tests agree.")},
+		{label: "Adjusted p-value"},
 	}
-	labels = append(labels, "Decision", "Notes")
-	cols := make([][]string, 0, len(m.Comparisons))
+	if hasSimultaneous(m) {
+		rows = append(rows, detailRow{label: "Simultaneous interval"})
+	}
+	rows = append(rows,
+		detailRow{label: "Decision"},
+		detailRow{label: "Notes", usual: "none", fold: sentence("No notes.")},
+	)
+	header := make([]string, 0, k)
 	for _, c := range m.Comparisons {
 		header = append(header, pairName(c))
 		t, ctl, diff := pairRates(m, c)
 		if c.Difference != nil {
-			if iv := c.DifferenceInterval; iv != nil {
-				diff += fmt.Sprintf(", %s CI %s to %s pp (%s)", formatLevel(iv.Level), formatPoints(iv.Lower), formatPoints(iv.Upper), iv.Method)
-			}
+			diff += intervalText(c.DifferenceInterval, r.Settings.DifferenceIntervalMethod, formatPPRange)
 		}
 		lift := "undefined (" + liftUndefined(ctl, c) + ")"
 		if c.RelativeLift != nil {
-			lift = formatSignedPercent(*c.RelativeLift)
-			if iv := c.LiftInterval; iv != nil {
-				lift += fmt.Sprintf(", %s CI %s to %s (%s)", formatLevel(iv.Level), formatSignedPercent(iv.Lower), formatSignedPercent(iv.Upper), iv.Method)
-			}
+			lift = formatSignedPercent(*c.RelativeLift) + intervalText(c.LiftInterval, r.Settings.LiftIntervalMethod, percentRange)
 		}
-		zt, statRoute, pRoute := zRows(c.Z)
+		method, routes := zCells(c.Z)
 		agree := "agree"
 		if !c.IntervalAgrees {
 			agree = "disagree: " + disagreement(c)
 		}
-		col := []string{
+		cells := []string{
 			rateText(t) + " vs " + rateText(ctl),
 			diff,
 			lift,
-			zt, statRoute, pRoute,
+			method,
+			routes,
 			conditionText(c.ConditionMet, "in each arm", c.Z, c.Exact),
 			exactText(c.Exact, c.ConditionMet),
 			agree,
 			adjustedRow(m, c),
 		}
-		if simultaneous {
-			col = append(col, simultaneousRow(c))
+		if hasSimultaneous(m) {
+			cells = append(cells, simultaneousRow(c))
 		}
-		cols = append(cols, append(col,
-			comparisonDecision(m, c),
-			n.addTest(c.Z, c.Warnings),
-		))
+		cells = append(cells, decisionCell(r, m, c), n.addTest(c.Z, c.Warnings))
+		for i := range rows {
+			rows[i].cells = append(rows[i].cells, cells[i])
+		}
 	}
-	md.table(header, "", transpose(labels, cols))
+	md.detailTable(header, rows)
 	n.flush(md)
 }
 
+// intervalText is an interval after its estimate: " (95% CI +0.45 to
+// +2.58 pp)", with the method when it is not the one the header names.
+func intervalText(iv *experiment.Interval, usual string, rng func(lo, hi float64) string) string {
+	if iv == nil {
+		return ""
+	}
+	s := " (" + formatLevel(iv.Level) + " CI " + rng(iv.Lower, iv.Upper)
+	if iv.Method != usual {
+		s += ", " + iv.Method
+	}
+	return s + ")"
+}
+
+// percentRange prints an interval of a lift: "+4.26% to +26.93%".
+func percentRange(lo, hi float64) string {
+	return formatSignedPercent(lo) + " to " + formatSignedPercent(hi)
+}
+
 func (md *markdown) targetTests(m experiment.MetricReadout, n *notes) {
-	header := []string{""}
-	labels := []string{"Rate", "Difference from target", "z test", "Statistic route", "p-value route", "Normal approximation", "Exact test", "Decision", "Notes"}
-	var cols [][]string
+	rows := []detailRow{
+		{label: "Rate"},
+		{label: "Difference from target"},
+		{label: "Test", fold: func(c string) string { return "Test: the " + c + "." }},
+		{label: "z test, both routes"},
+		{label: "Normal approximation", usual: conditionText(true, "expected under the target", &experiment.Test{}, nil),
+			fold: sentence("Normal approximation justified for every arm (enough conversions and non-conversions expected under the target), so no exact test was needed.")},
+		{label: "Exact test", usual: exactText(nil, true), fold: sentence("")},
+		{label: "Decision"},
+		{label: "Notes", usual: "none", fold: sentence("No notes.")},
+	}
+	var header []string
 	for i := range m.Arms {
 		a := &m.Arms[i]
 		tt := a.TargetTest
@@ -487,35 +541,24 @@ func (md *markdown) targetTests(m experiment.MetricReadout, n *notes) {
 		header = append(header, code(a.Arm))
 		diff := "n/a"
 		if a.Rate != nil {
-			diff = formatPoints(*a.Rate-tt.Target) + " pp"
+			diff = formatPP(*a.Rate - tt.Target)
 		}
-		zt, statRoute, pRoute := zRows(tt.Z)
-		cols = append(cols, []string{
+		method, routes := zCells(tt.Z)
+		cells := []string{
 			rateText(a) + " vs " + formatPercent(tt.Target),
 			diff,
-			zt, statRoute, pRoute,
+			method, routes,
 			conditionText(tt.ConditionMet, "expected under the target", tt.Z, tt.Exact),
 			exactText(tt.Exact, tt.ConditionMet),
 			decisionText(tt.Significant, tt.DecidedBy, tt.Z, tt.Exact),
 			n.addTest(tt.Z, tt.Warnings),
-		})
-	}
-	md.table(header, "", transpose(labels, cols))
-	n.flush(md)
-}
-
-// transpose lays out one column per comparison: row i is labels[i]
-// followed by cols[j][i].
-func transpose(labels []string, cols [][]string) [][]string {
-	rows := make([][]string, len(labels))
-	for i, l := range labels {
-		row := []string{l}
-		for _, c := range cols {
-			row = append(row, c[i])
 		}
-		rows[i] = row
+		for i := range rows {
+			rows[i].cells = append(rows[i].cells, cells[i])
+		}
 	}
-	return rows
+	md.detailTable(header, rows)
+	n.flush(md)
 }
 
 func noUnits(t, ctl *experiment.ArmRate, c experiment.Comparison) string {

@@ -36,7 +36,7 @@ func segmentLabel(s experiment.SegmentResult) string {
 // the control in the same segment.
 func (md *markdown) segments(r experiment.Readout, m experiment.MetricReadout) {
 	md.heading(2, "By segment (exploratory)")
-	md.para(fmt.Sprintf("Each treatment against the control within each segment, tested at alpha %s on its own: no adjustment, outside the multiple-comparison family. Intervals at %s. A segment result is a lead to test, not a finding (see Before acting).",
+	md.para(fmt.Sprintf("Each treatment against the control within each segment, at alpha %s on its own (no adjustment, outside the multiple-comparison family), intervals at %s. A segment result is a lead to test, not a finding.",
 		formatAlpha(r.Settings.Alpha), formatLevel(r.Settings.ConfidenceLevel)))
 	var rows [][]string
 	for _, s := range m.Segments {

@@ -5,7 +5,6 @@ package report
 
 import (
 	"fmt"
-	"strconv"
 
 	"github.com/armtally/armtally/experiment"
 )
@@ -57,9 +56,7 @@ func segmentCaution(r experiment.Readout) string {
 		return ""
 	}
 	alpha := r.Settings.Alpha
-	return fmt.Sprintf("Segment results are exploratory: %s %s tested at alpha %s each, outside the multiple-comparison family and without adjustment. "+
-		"Even if no treatment had any effect, about %s of them would be expected to come out significant by chance, and the more segments, the more such false positives; "+
-		"treat a segment difference as a lead to test in a new experiment, not as a finding.",
-		Plural(int64(sg.Tests), "segment comparison", "segment comparisons"), PluralWord(int64(sg.Tests), "was", "were"),
-		strconv.FormatFloat(alpha, 'f', -1, 64), strconv.FormatFloat(alpha*float64(sg.Tests), 'f', 1, 64))
+	return fmt.Sprintf("Segment results are exploratory: %s, each at alpha %s without adjustment, outside the multiple-comparison family. "+
+		"With no true effect anywhere, about %s of them would still come out significant by chance; treat a segment difference as a lead for a new experiment, not as a finding.",
+		Plural(int64(sg.Tests), "segment comparison", "segment comparisons"), formatAlpha(alpha), formatExpected(alpha*float64(sg.Tests)))
 }

@@ -112,17 +112,17 @@ func TestWarningTextsMatchStats(t *testing.T) {
 }
 
 // TestSegmentCaution checks the caution on segment results: 6 tests at
-// alpha 0.05 expect 0.3 false positives when nothing works (6 x 0.05,
-// common practice), 1 test takes the singular, and a readout without
+// alpha 0.05 expect 0.30 false positives when nothing works (6 x 0.05,
+// common practice), 1 test at alpha 0.01 expects 0.01 and takes the singular, and a readout without
 // segment dimensions has none.
 func TestSegmentCaution(t *testing.T) {
 	r := twoArmReadout()
-	if got := segmentCaution(r); !strings.Contains(got, "6 segment comparisons were tested at alpha 0.05 each") || !strings.Contains(got, "about 0.3 of them") {
+	if got := segmentCaution(r); !strings.Contains(got, "6 segment comparisons, each at alpha 0.05") || !strings.Contains(got, "about 0.30 of them") {
 		t.Errorf("caution %q", got)
 	}
 	r.Segmentation.Tests = 1
 	r.Settings.Alpha = 0.01
-	if got := segmentCaution(r); !strings.Contains(got, "1 segment comparison was tested at alpha 0.01 each") || !strings.Contains(got, "about 0.0 of them") {
+	if got := segmentCaution(r); !strings.Contains(got, "1 segment comparison, each at alpha 0.01") || !strings.Contains(got, "about 0.01 of them") {
 		t.Errorf("caution %q", got)
 	}
 	r.Segmentation.Dimensions = nil
