@@ -19,12 +19,17 @@ type MarkdownOptions struct {
 	HeadingLevel int
 	// OmitCautions leaves out the "Before acting" list of cautions.
 	OmitCautions bool
+	// Brief writes the compact form for a ticket comment: each readout's
+	// title, summary, warnings and cautions, without the detail.
+	Brief bool
 }
 
 // WriteMarkdown writes readouts to w as a Markdown readout for an
-// experiment ticket, one section per readout in the order given: header,
-// warnings, arms and sample ratio, one section per metric with its
-// conclusion, cautions, and diagnostics.
+// experiment ticket, one section per readout in the order given: title,
+// summary (the overall decision, one row per treatment and metric, the
+// top cautions), header, warnings, arms and sample ratio, one section per
+// metric with its conclusion, cautions, and diagnostics. With
+// opts.Brief, only the title, summary, warnings and cautions.
 //
 // Like WriteJSON, it returns an error, and writes nothing, when a value is
 // NaN or infinite or an option is out of range. It does not check that the

@@ -59,6 +59,7 @@ apart) form one family, adjusted with --adjust (Holm by default).
 Examples:
   armtally analyze --demo
   armtally analyze --demo --json readout.json --out readout.md
+  armtally analyze --demo --out readout.md --brief ticket-comment.md
   armtally analyze events.parquet --experiment checkout-flow-2026 --metric purchase=purchase:7d
   armtally analyze exports/ --experiment search-ranking --exposure-event assigned --control baseline --arms baseline,fresh-ranker --split 80,20 --start 2026-11-01 --end 2026-11-29 --metric signup=account_created:3d@10% --alpha 0.01
   armtally analyze events.parquet --experiment checkout-flow-2026 --metric purchase=purchase:7d --guardrail unsubscribe=newsletter_unsubscribe:7d~0.2pp --lower-is-better unsubscribe --adjust bonferroni
@@ -79,6 +80,7 @@ type analyzeFlags struct {
 	exp                   specfile.Overrides
 	lowerIsBetter         []string
 	out, jsonOut          string
+	brief                 string
 	failOnSampleRatio     bool
 	spec                  string
 	delimiter             string
@@ -118,6 +120,7 @@ func newAnalyzeFlagSet(f *analyzeFlags, stderr io.Writer) *pflag.FlagSet {
 	fs.Float64Var(&f.exp.SampleRatioThreshold, "sample-ratio-threshold", experiment.DefaultSampleRatioThreshold, "p-value below which the sample ratio check fails")
 	fs.StringVarP(&f.out, "out", "o", "", "write the Markdown readout to this file instead of stdout (- for stdout)")
 	fs.StringVar(&f.jsonOut, "json", "", "also write the JSON readout to this file (- for stdout, with --out FILE)")
+	fs.StringVar(&f.brief, "brief", "", "also write the compact Markdown readout for a ticket comment (summary, warnings, cautions) to this file")
 	fs.StringVar(&f.audit, "audit", "", "also write the per-unit audit table (Parquet) to this file; with several experiments, one file each, named FILE-KEY.parquet")
 	fs.BoolVar(&f.failOnSampleRatio, "fail-on-sample-ratio", false, "exit with code 4 when the sample ratio check fails")
 	fs.StringVar(&f.memoryLimit, "memory-limit", "", "keep the per-unit state of an event log under about this size (such as 800MB or 2GiB): the rows go to disk in hash partitions of the units, tallied a group at a time and merged; no --audit")
@@ -152,9 +155,12 @@ type analyzeRun struct {
 	// out, jsonOut and audit are the output paths ("" for none; "-" is
 	// standard output for out and jsonOut); outFrom says where each was
 	// named: "--out", "--json", "--audit" or the spec file's key.
-	out, jsonOut      string
-	audit             string
-	outFrom           [3]string
+	out, jsonOut string
+	audit        string
+	outFrom      [3]string
+	// brief is the path of the compact Markdown readout ("" for none),
+	// named by --brief.
+	brief             string
 	failOnSampleRatio bool
 	// progress says whether to show a progress line on stderr while
 	// reading: stderr is a terminal and --no-progress is not given.
@@ -416,6 +422,9 @@ func applyOutputs(f *analyzeFlags, sf *specfile.File, override func(string) bool
 	if override("fail-on-sample-ratio") {
 		run.failOnSampleRatio = f.failOnSampleRatio
 	}
+	if override("brief") {
+		run.brief = f.brief
+	}
 	return nil
 }
 
@@ -579,6 +588,15 @@ func addOutputs(set *report.OutputSet, run *analyzeRun, res *pipeline.Result, js
 	if run.out != "" && run.out != "-" {
 		if err := set.Add(run.out, md); err != nil {
 			return fmt.Errorf("writing the Markdown readout: %w", err)
+		}
+	}
+	if run.brief != "" {
+		readouts := res.Readouts
+		brief := func(w io.Writer) error {
+			return report.WriteMarkdown(w, readouts, report.MarkdownOptions{Brief: true})
+		}
+		if err := set.Add(run.brief, brief); err != nil {
+			return fmt.Errorf("writing the brief Markdown readout: %w", err)
 		}
 	}
 	if run.audit != "" {

@@ -22,6 +22,9 @@ func outputFiles(run *analyzeRun) []report.OutputPath {
 			outs = append(outs, report.OutputPath{From: run.outFrom[i], Path: path})
 		}
 	}
+	if run.brief != "" {
+		outs = append(outs, report.OutputPath{From: "--brief", Path: run.brief})
+	}
 	if run.audit != "" {
 		for _, e := range run.experiments {
 			outs = append(outs, report.OutputPath{From: run.outFrom[2], Path: auditPath(run.audit, e.spec.Key, len(run.experiments))})
@@ -39,6 +42,9 @@ func outputFiles(run *analyzeRun) []report.OutputPath {
 func checkOutputs(run *analyzeRun, inputs []string) error {
 	if run.audit == "-" {
 		return usagef("analyze: %s -: the audit table is a Parquet file, which is not written to standard output; name a file", run.outFrom[2])
+	}
+	if run.brief == "-" {
+		return usagef("analyze: --brief -: the brief readout is written next to the full one; name a file")
 	}
 	if run.jsonOut == "-" && (run.out == "" || run.out == "-") {
 		return usagef("analyze: %s -: the Markdown readout goes to standard output too; name a file for it with --out FILE (or --out %s)", run.outFrom[1], os.DevNull)
