@@ -77,6 +77,7 @@ func Analyze(spec Spec, t Tally, opts AnalysisOptions) (Readout, error) {
 	}
 	r.Diagnostics = diagnostics(spec, t, arms, opts)
 	r.Warnings = openWindowWarnings(spec, t.Input)
+	r.Verdict = NewVerdict(r)
 	return r, nil
 }
 
@@ -244,7 +245,7 @@ func plannedShares(spec Spec, arms []ArmTally) []float64 {
 }
 
 func analyzeMetric(spec Spec, m Metric, mi int, arms []ArmTally, ctl int, so stats.Options, meth methods) (MetricReadout, error) {
-	mr := MetricReadout{Name: m.Name, Events: append([]string(nil), m.Events...), Target: m.Target, LowerIsBetter: m.LowerIsBetter}
+	mr := MetricReadout{Name: m.Name, Events: append([]string(nil), m.Events...), Target: m.Target, LowerIsBetter: m.LowerIsBetter, Role: m.Role}
 	if m.Guardrail != nil {
 		mr.Guardrail = &Guardrail{Margin: m.Guardrail.Value, Relative: m.Guardrail.Relative}
 	}

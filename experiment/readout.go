@@ -24,6 +24,9 @@ type Readout struct {
 	Segmentation Segmentation
 	Metrics      []MetricReadout
 	Diagnostics  Diagnostics
+	// Verdict is the answer first: the decision, its reasons and every
+	// treatment's outcome on every metric (NewVerdict).
+	Verdict Verdict
 	// Warnings are the readout-wide cautions of the analysis (a window
 	// with no end); package report adds those the numbers show (sample
 	// ratio, exclusions, conditions) and words them all.
@@ -101,6 +104,9 @@ type MetricReadout struct {
 	// (unsubscribes, refunds); it sets the direction of guardrail tests
 	// and of the readout's wording.
 	LowerIsBetter bool
+	// Role is the metric's role (Metric.Role); for a guardrail it is not
+	// read, and RoleName says "guardrail".
+	Role Role
 	// Guardrail is set for a guardrail metric: each treatment is tested
 	// for non-inferiority against the control with this margin. Guardrail
 	// comparisons are outside the multiple-comparison family.

@@ -2,6 +2,7 @@ package experiment
 
 import (
 	"fmt"
+	"slices"
 	"time"
 )
 
@@ -97,6 +98,10 @@ type Metric struct {
 	Target *float64
 	// LowerIsBetter marks a metric where a lower rate is the good outcome.
 	LowerIsBetter bool
+	// Role says whether the metric decides (Primary, the default) or
+	// informs (Secondary); a guardrail's Role is not read. A spec needs
+	// at least one primary metric that is not a guardrail.
+	Role Role
 	// Guardrail, when non-nil, makes this a guardrail metric: each
 	// treatment is tested for non-inferiority with this margin, and its
 	// comparisons stay out of the multiple-comparison family.
@@ -187,12 +192,19 @@ func (spec Spec) validate(reserved ...string) error {
 			return fmt.Errorf("experiment %q: metric %q defined twice", spec.Key, m.Name)
 		}
 		metrics[m.Name] = true
+		if !m.Role.Valid() {
+			return fmt.Errorf("experiment %q: metric %q has an unknown role %v", spec.Key, m.Name, m.Role)
+		}
 		if m.Window < 0 {
 			return fmt.Errorf("experiment %q: metric %q has a negative window", spec.Key, m.Name)
 		}
 		if m.Target != nil && !(*m.Target > 0 && *m.Target < 1) {
 			return fmt.Errorf("experiment %q: metric %q: target rate %v is not strictly between 0 and 1", spec.Key, m.Name, *m.Target)
 		}
+	}
+	if !slices.ContainsFunc(spec.Metrics, Metric.isPrimary) {
+		return fmt.Errorf("experiment %q: no primary metric: every metric is secondary or a guardrail, "+
+			"and the primary metrics are the ones that decide (make at least one metric primary)", spec.Key)
 	}
 	dims := make(map[string]bool, len(spec.Segments))
 	for i, d := range spec.Segments {

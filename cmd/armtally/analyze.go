@@ -104,6 +104,7 @@ func newAnalyzeFlagSet(f *analyzeFlags, stderr io.Writer) *pflag.FlagSet {
 	fs.StringSliceVar(&f.exp.Arms, "arms", nil, "planned arms, comma-separated (the control is added first when missing); any other arm in the data is an error")
 	fs.StringVar(&f.exp.Split, "split", "", "planned traffic shares of --arms, comma-separated (50,25,25); default equal")
 	fs.StringArrayVar(&f.exp.Metrics, "metric", nil, "conversion metric NAME=EVENT[,EVENT...][:WINDOW][@TARGET] (repeatable)")
+	fs.StringArrayVar(&f.exp.Secondary, "secondary-metric", nil, "secondary conversion metric, as --metric: compared in a family of its own, never deciding (repeatable)")
 	fs.StringArrayVar(&f.exp.Guardrails, "guardrail", nil, "guardrail metric NAME=EVENT[,EVENT...][:WINDOW]~MARGIN, MARGIN 0.5pp (absolute) or 5% (of the control's rate) (repeatable)")
 	fs.StringArrayVar(&f.lowerIsBetter, "lower-is-better", nil, "metric where a lower rate is the good outcome (repeatable)")
 	fs.StringVar(&f.exp.Start, "start", "", "start of the analysis window, inclusive (RFC 3339 or YYYY-MM-DD); default: all data")

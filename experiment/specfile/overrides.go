@@ -25,6 +25,7 @@ type Overrides struct {
 	MultiArm      string   // --multi-arm
 	Maturity      string   // --maturity
 	Metrics       []string // --metric
+	Secondary     []string // --secondary-metric
 	Guardrails    []string // --guardrail
 
 	Alpha                float64 // --alpha
@@ -136,19 +137,25 @@ func (o Overrides) applyWindow(set func(string) bool, e *Settings) error {
 	return nil
 }
 
-// applyMetrics applies --metric and --guardrail, which together replace
-// the file's metrics.
+// applyMetrics applies --metric, --secondary-metric and --guardrail,
+// which together replace the file's metrics.
 func (o Overrides) applyMetrics(set func(string) bool, e *Settings) error {
-	if !set("metric") && !set("guardrail") {
+	if !set("metric") && !set("secondary-metric") && !set("guardrail") {
 		return nil
 	}
 	var ms []Metric
-	for _, s := range o.Metrics {
-		m, err := ParseMetric(s)
-		if err != nil {
-			return flagErrorf("--metric: %v", err)
+	for _, f := range []struct {
+		flag string
+		defs []string
+		role Role
+	}{{"metric", o.Metrics, Primary}, {"secondary-metric", o.Secondary, Secondary}} {
+		for _, s := range f.defs {
+			m, err := ParseMetric(s)
+			if err != nil {
+				return flagErrorf("--%s: %v", f.flag, err)
+			}
+			ms = append(ms, Metric{Metric: m, Role: f.role, From: flagOrigin(f.flag)})
 		}
-		ms = append(ms, Metric{Metric: m, Role: Primary, From: flagOrigin("metric")})
 	}
 	for _, s := range o.Guardrails {
 		m, err := ParseGuardrail(s)

@@ -50,6 +50,17 @@ type Metric struct {
 	From   Origin
 }
 
+// experimentMetric returns the metric with its role: a secondary metric
+// is experiment.Secondary; a guardrail's role is its margin.
+func (ms Metric) experimentMetric() experiment.Metric {
+	m := ms.Metric
+	m.Role = experiment.Primary
+	if ms.Role == Secondary {
+		m.Role = experiment.Secondary
+	}
+	return m
+}
+
 // NewSettings returns the defaults of an experiment read from an event
 // log: exposure event "exposure", control "control", the default policies
 // and analysis options, no metrics.
@@ -319,7 +330,7 @@ func (e *Settings) Build() (experiment.Spec, experiment.AnalysisOptions, error) 
 	for _, primary := range []bool{true, false} {
 		for _, ms := range e.metrics {
 			if primary == (ms.Role == Primary) {
-				spec.Metrics = append(spec.Metrics, ms.Metric)
+				spec.Metrics = append(spec.Metrics, ms.experimentMetric())
 			}
 		}
 	}
