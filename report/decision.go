@@ -63,22 +63,30 @@ func exactText(e *experiment.ExactTest, conditionMet bool) string {
 	return fmt.Sprintf("%s, %s: %s: %s", e.Method, alternativeShort(e.Alternative), pAgainst(e.PValue, e.Alpha), rejectText(e.Reject))
 }
 
-// decisionCell is the Decision cell of a comparison: the reported
-// decision, after which adjustment, and the one before adjustment when it
-// differs; a comparison that a failed check makes unreadable says so
-// instead, whatever its test says.
-func decisionCell(r experiment.Readout, m experiment.MetricReadout, c experiment.Comparison) string {
+// notReadable is the Decision cell of a test that a failed check makes
+// unreadable.
+const notReadable = "**not readable**: a check failed (sample ratio), so no decision is drawn from this test"
+
+// decisionCell is the Decision cell of a comparison: the verdict's
+// outcome (for a metric that is not a guardrail), the reported decision,
+// after which adjustment, and the one before adjustment when it differs.
+// A comparison that a failed check makes unreadable says so instead,
+// whatever its test says.
+func decisionCell(v experiment.Verdict, m experiment.MetricReadout, c experiment.Comparison) string {
 	by := decider(c.DecidedBy, c.Z, c.Exact)
 	if by == "" {
 		return "no decision (no test could be run)"
 	}
-	if r.SampleRatio.Checked && r.SampleRatio.Mismatch {
-		return "**not readable**: the sample ratio check failed, so no decision is drawn from this test"
+	if checkFailed(v, m.Name, c.Treatment) {
+		return notReadable
 	}
 	alpha := formatAlpha(decisionAlpha(c.DecidedBy, c.Z, c.Exact))
 	s := "not significant at alpha " + alpha
 	if c.Significant {
-		s = "**significant** at alpha " + alpha
+		s = "significant at alpha " + alpha
+	}
+	if o, ok := rowOutcome(v, m.Name, c.Treatment); ok && m.Guardrail == nil {
+		s = "**" + outcomeWords(o) + "**: " + s
 	}
 	adj := c.Adjusted
 	switch {
@@ -171,8 +179,8 @@ func (md *markdown) conclusion(r experiment.Readout, m experiment.MetricReadout)
 		return
 	}
 	intro := "**Conclusion:**"
-	if r.SampleRatio.Checked && r.SampleRatio.Mismatch {
-		intro += " the sample ratio check failed, so these numbers may be biased whatever they say."
+	if verdictOf(r).Decision == experiment.DecisionFixData {
+		intro += " not readable: the sample ratio check failed, so no decision is drawn from these numbers, which may be biased whatever they say. As computed:"
 	}
 	md.para(intro)
 	for _, l := range lines {
@@ -187,7 +195,7 @@ func comparisonConclusion(m experiment.MetricReadout, c experiment.Comparison) s
 		return fmt.Sprintf("%s cannot be compared with %s: %s.", code(c.Treatment), code(c.Control), noUnits(t, ctl, c))
 	}
 	var b strings.Builder
-	fmt.Fprintf(&b, "%s: %s vs %s for %s, %s", code(c.Treatment), formatPercent(*t.Rate), formatPercent(*ctl.Rate), code(c.Control), formatPP(*c.Difference))
+	fmt.Fprintf(&b, "%s vs %s: %s", code(c.Treatment), code(c.Control), formatPP(*c.Difference))
 	if iv := c.DifferenceInterval; iv != nil {
 		fmt.Fprintf(&b, " (%s CI %s", formatLevel(iv.Level), formatPPRange(iv.Lower, iv.Upper))
 		if c.Adjusted != nil && c.Adjusted.DifferenceInterval != nil {
@@ -198,9 +206,6 @@ func comparisonConclusion(m experiment.MetricReadout, c experiment.Comparison) s
 	}
 	if c.RelativeLift != nil {
 		fmt.Fprintf(&b, ", lift %s", formatSignedPercent(*c.RelativeLift))
-		if iv := c.LiftInterval; iv != nil {
-			fmt.Fprintf(&b, " (%s CI %s to %s)", formatLevel(iv.Level), formatSignedPercent(iv.Lower), formatSignedPercent(iv.Upper))
-		}
 	} else {
 		b.WriteString(", lift undefined (" + liftUndefined(ctl, c) + ")")
 	}

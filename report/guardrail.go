@@ -162,7 +162,6 @@ func guardrailVerdict(ni *experiment.NonInferiorityTest) string {
 
 func (md *markdown) guardrails(r experiment.Readout, m experiment.MetricReadout, n *notes) {
 	rows := []detailRow{
-		{label: "Rates"},
 		{label: "Difference"},
 		{label: "Margin", fold: func(c string) string { return "Margin: " + c + "." }},
 		{label: "Hypotheses", fold: func(c string) string { return c + "." }},
@@ -189,7 +188,7 @@ func guardrailCells(r experiment.Readout, m experiment.MetricReadout, c experime
 	t, ctl, diff := pairRates(m, c)
 	ni := c.NonInferiority
 	if ni == nil {
-		return []string{rateText(t) + " vs " + rateText(ctl), diff, "n/a", "n/a", "not computed", "n/a", "n/a", "not tested", n.add()}
+		return []string{diff, "n/a", "n/a", "not computed", "n/a", "n/a", "not tested", n.add()}
 	}
 	margin := formatSize(ni.AbsoluteMargin) + " pp"
 	if m.Guardrail != nil && m.Guardrail.Relative {
@@ -224,10 +223,10 @@ func guardrailCells(r experiment.Readout, m experiment.MetricReadout, c experime
 	switch {
 	case ni.Z == nil:
 		verdict = "not tested (" + noUnits(t, ctl, c) + ")"
-	case r.SampleRatio.Checked && r.SampleRatio.Mismatch:
-		verdict = "**not readable**: the sample ratio check failed, so no verdict is drawn from this test"
+	case checkFailed(verdictOf(r), m.Name, c.Treatment):
+		verdict = "**not readable**: a check failed (sample ratio), so no verdict is drawn from this test"
 	}
-	return []string{rateText(t) + " vs " + rateText(ctl), diff, margin, hyp, method, routes, against, verdict, n.addTest(ni.Z, ni.Warnings)}
+	return []string{diff, margin, hyp, method, routes, against, verdict, n.addTest(ni.Z, ni.Warnings)}
 }
 
 // guardrailWarnings lists the guardrail tests that did not pass, for the

@@ -269,35 +269,6 @@ func hasSimultaneous(m experiment.MetricReadout) bool {
 	return false
 }
 
-// comparisonDecision is the comparison table's Decision cell: the final
-// (adjusted) decision, and the unadjusted one when it differs.
-func comparisonDecision(m experiment.MetricReadout, c experiment.Comparison) string {
-	by := decider(c.DecidedBy, c.Z, c.Exact)
-	if by == "" {
-		return "no decision (no test could be run)"
-	}
-	alpha := formatAlpha(decisionAlpha(c.DecidedBy, c.Z, c.Exact))
-	adj := c.Adjusted
-	switch {
-	case adj == nil && m.Guardrail != nil:
-		return decisionText(c.Significant, c.DecidedBy, c.Z, c.Exact) + "; not adjusted (guardrail comparisons are outside the family)"
-	case adj == nil:
-		return decisionText(c.Significant, c.DecidedBy, c.Z, c.Exact) + "; not adjusted (outside the family)"
-	case !adjusts(adj.Method):
-		return decisionText(c.Significant, c.DecidedBy, c.Z, c.Exact) + "; no adjustment for multiple comparisons"
-	}
-	after := "after " + adjustmentName(adj.Method) + " adjustment over " + Plural(int64(adj.FamilySize), "comparison", "comparisons") + " (final)"
-	switch {
-	case c.Significant && c.SignificantUnadjusted:
-		return "**significant** at alpha " + alpha + " " + after + ", and before it; by " + by
-	case !c.Significant && !c.SignificantUnadjusted:
-		return "not significant at alpha " + alpha + " " + after + ", nor before it; by " + by
-	case !c.Significant:
-		return "not significant at alpha " + alpha + " " + after + ", though significant before adjustment; by " + by
-	}
-	return "**significant** at alpha " + alpha + " " + after + ", though not before adjustment; by " + by
-}
-
 // decisionP is the p-value of the test that decided.
 func decisionP(decidedBy string, z *experiment.Test, e *experiment.ExactTest) float64 {
 	switch {

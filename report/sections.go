@@ -14,6 +14,15 @@ import (
 
 func (md *markdown) readout(r experiment.Readout) {
 	md.heading(0, readoutTitle(r))
+	md.summary(r)
+	if md.opts.Brief {
+		md.warnings(r)
+		if !md.opts.OmitCautions {
+			md.cautions(r)
+		}
+		return
+	}
+	md.heading(1, "Setup")
 	md.header(r)
 	md.warnings(r)
 	md.arms(r)
@@ -120,10 +129,24 @@ func alternativeName(a string) string {
 	return a
 }
 
-// warnings writes the block of readout-wide warnings: those the numbers
-// show (sample ratio, exclusions, conditions, interval and test
-// disagreeing), then the readout's own, without repeats.
+// warnings writes the block of readout-wide warnings (warningList).
 func (md *markdown) warnings(r experiment.Readout) {
+	list := warningList(r)
+	if len(list) == 0 {
+		return
+	}
+	md.line("> **Warnings**")
+	md.line(">")
+	for i, w := range list {
+		md.line(fmt.Sprintf("> %d. %s", i+1, oneLine(w)))
+	}
+	md.line("")
+}
+
+// warningList returns the readout-wide warnings: those the numbers show
+// (sample ratio, exclusions, conditions, interval and test disagreeing),
+// then the readout's own, without repeats.
+func warningList(r experiment.Readout) []string {
 	var list []string
 	sr := r.SampleRatio
 	switch {
@@ -194,16 +217,7 @@ func (md *markdown) warnings(r experiment.Readout) {
 		list = append(list, other...)
 	}
 	list = append(list, warningTexts(r.Warnings)...)
-	list = dedupe(list)
-	if len(list) == 0 {
-		return
-	}
-	md.line("> **Warnings**")
-	md.line(">")
-	for i, w := range list {
-		md.line(fmt.Sprintf("> %d. %s", i+1, oneLine(w)))
-	}
-	md.line("")
+	return dedupe(list)
 }
 
 // groups collects members under keys, both in first-seen order.
@@ -326,19 +340,7 @@ func (md *markdown) metric(r experiment.Readout, m experiment.MetricReadout) {
 	}
 	n := newNotes()
 
-	rows := make([][]string, 0, len(m.Arms))
-	for _, a := range m.Arms {
-		rate, interval, method := "n/a (no units)", "n/a", "n/a"
-		if a.Rate != nil {
-			rate = formatPercent(*a.Rate)
-		}
-		if a.Interval != nil {
-			interval = formatPercent(a.Interval.Lower) + " to " + formatPercent(a.Interval.Upper)
-			method = a.Interval.Method + ", " + formatLevel(a.Interval.Level)
-		}
-		rows = append(rows, []string{armLabel(a.Arm, r.Control), FormatCount(a.Units), FormatCount(a.Conversions), rate, interval, method, FormatCount(a.Immature)})
-	}
-	md.table([]string{"Arm", "Units", "Conversions", "Rate", "Interval", "Interval method", "Immature (left out)"}, "lrrrrlr", rows)
+	md.armRates(r, m)
 	n.add(warningTexts(m.Warnings)...)
 	n.flush(md)
 
@@ -356,12 +358,71 @@ func (md *markdown) metric(r experiment.Readout, m experiment.MetricReadout) {
 			target += " " + formatPercent(*m.Target)
 		}
 		md.heading(2, "Against "+target)
-		md.targetTests(m, n)
+		md.targetTests(r, m, n)
 	}
 	md.conclusion(r, m)
 	if len(m.Segments) > 0 {
 		md.segments(r, m)
 	}
+}
+
+// armRates writes a metric's table of arms. The interval method and the
+// immature units get a column only when they are not the same for every
+// arm as the header says (the rate method at the confidence level; no
+// immature unit).
+func (md *markdown) armRates(r experiment.Readout, m experiment.MetricReadout) {
+	usual := r.Settings.IntervalMethod + ", " + formatLevel(r.Settings.ConfidenceLevel)
+	showMethod, showImmature := false, false
+	rows := make([][]string, 0, len(m.Arms))
+	for _, a := range m.Arms {
+		rate, interval, method := "n/a (no units)", "n/a", "n/a"
+		if a.Rate != nil {
+			rate = formatPercent(*a.Rate)
+		}
+		if a.Interval != nil {
+			interval = formatPercent(a.Interval.Lower) + " to " + formatPercent(a.Interval.Upper)
+			method = a.Interval.Method + ", " + formatLevel(a.Interval.Level)
+		}
+		showMethod = showMethod || (a.Interval != nil && method != usual)
+		showImmature = showImmature || a.Immature != 0
+		rows = append(rows, []string{armLabel(a.Arm, r.Control), FormatCount(a.Units), FormatCount(a.Conversions), rate, interval, method, FormatCount(a.Immature)})
+	}
+	header := []string{"Arm", "Units", "Conversions", "Rate", usual + " interval", "Interval method", "Immature (left out)"}
+	align := "lrrrrlr"
+	keep := []bool{true, true, true, true, true, showMethod, showImmature}
+	if showMethod {
+		header[4] = "Interval"
+	}
+	md.table(pick(header, keep), pickAlign(align, keep), pickRows(rows, keep))
+}
+
+// pick keeps the cells whose keep is true.
+func pick(cells []string, keep []bool) []string {
+	var out []string
+	for i, c := range cells {
+		if keep[i] {
+			out = append(out, c)
+		}
+	}
+	return out
+}
+
+func pickAlign(align string, keep []bool) string {
+	var b strings.Builder
+	for i := range keep {
+		if keep[i] {
+			b.WriteByte(align[i])
+		}
+	}
+	return b.String()
+}
+
+func pickRows(rows [][]string, keep []bool) [][]string {
+	out := make([][]string, len(rows))
+	for i, r := range rows {
+		out[i] = pick(r, keep)
+	}
+	return out
 }
 
 func metricDefinition(r experiment.Readout, m experiment.MetricReadout) string {
@@ -444,7 +505,6 @@ func rateText(a *experiment.ArmRate) string {
 func (md *markdown) comparisons(r experiment.Readout, m experiment.MetricReadout, n *notes) {
 	k := len(m.Comparisons)
 	rows := []detailRow{
-		{label: "Rates"},
 		{label: "Difference"},
 		{label: "Relative lift"},
 		{label: "Test", fold: func(c string) string { return "Test: the " + c + "." }},
@@ -465,7 +525,7 @@ func (md *markdown) comparisons(r experiment.Readout, m experiment.MetricReadout
 	header := make([]string, 0, k)
 	for _, c := range m.Comparisons {
 		header = append(header, pairName(c))
-		t, ctl, diff := pairRates(m, c)
+		_, ctl, diff := pairRates(m, c)
 		if c.Difference != nil {
 			diff += intervalText(c.DifferenceInterval, r.Settings.DifferenceIntervalMethod, formatPPRange)
 		}
@@ -479,7 +539,6 @@ func (md *markdown) comparisons(r experiment.Readout, m experiment.MetricReadout
 			agree = "disagree: " + disagreement(c)
 		}
 		cells := []string{
-			rateText(t) + " vs " + rateText(ctl),
 			diff,
 			lift,
 			method,
@@ -492,7 +551,7 @@ func (md *markdown) comparisons(r experiment.Readout, m experiment.MetricReadout
 		if hasSimultaneous(m) {
 			cells = append(cells, simultaneousRow(c))
 		}
-		cells = append(cells, decisionCell(r, m, c), n.addTest(c.Z, c.Warnings))
+		cells = append(cells, decisionCell(verdictOf(r), m, c), n.addTest(c.Z, c.Warnings))
 		for i := range rows {
 			rows[i].cells = append(rows[i].cells, cells[i])
 		}
@@ -519,7 +578,8 @@ func percentRange(lo, hi float64) string {
 	return formatSignedPercent(lo) + " to " + formatSignedPercent(hi)
 }
 
-func (md *markdown) targetTests(m experiment.MetricReadout, n *notes) {
+func (md *markdown) targetTests(r experiment.Readout, m experiment.MetricReadout, n *notes) {
+	unreadable := verdictOf(r).Decision == experiment.DecisionFixData
 	rows := []detailRow{
 		{label: "Rate"},
 		{label: "Difference from target"},
@@ -544,13 +604,17 @@ func (md *markdown) targetTests(m experiment.MetricReadout, n *notes) {
 			diff = formatPP(*a.Rate - tt.Target)
 		}
 		method, routes := zCells(tt.Z)
+		decision := decisionText(tt.Significant, tt.DecidedBy, tt.Z, tt.Exact)
+		if unreadable && decider(tt.DecidedBy, tt.Z, tt.Exact) != "" {
+			decision = notReadable
+		}
 		cells := []string{
 			rateText(a) + " vs " + formatPercent(tt.Target),
 			diff,
 			method, routes,
 			conditionText(tt.ConditionMet, "expected under the target", tt.Z, tt.Exact),
 			exactText(tt.Exact, tt.ConditionMet),
-			decisionText(tt.Significant, tt.DecidedBy, tt.Z, tt.Exact),
+			decision,
 			n.addTest(tt.Z, tt.Warnings),
 		}
 		for i := range rows {
@@ -590,6 +654,9 @@ func (md *markdown) cautions(r experiment.Readout) {
 	md.line("- Statistical significance is not practical importance: judge each interval against the smallest effect that would matter. An interval that reaches effects too small to matter has not shown a useful change.")
 	md.line("- Looking at the results repeatedly and stopping when they first look significant inflates false positives. Read the result at the sample size or date fixed in advance.")
 	check := "- Check the data before acting: the sample ratio, the exclusions and the diagnostics below."
+	if md.opts.Brief {
+		check = "- Check the data before acting: the sample ratio, the exclusions and the diagnostics of the full readout."
+	}
 	if r.SampleRatio.Checked && r.SampleRatio.Mismatch {
 		check += " This readout failed the sample ratio check."
 	}
@@ -638,7 +705,9 @@ func (md *markdown) diagnostics(r experiment.Readout) {
 	}
 	rows = append(rows, []string{"Immature units (policy " + r.Settings.MaturityPolicy + ")", FormatCount(immature)})
 	for _, im := range d.Immature {
-		rows = append(rows, []string{"Immature units: " + code(im.Metric), FormatCount(im.Units)})
+		if immature > 0 {
+			rows = append(rows, []string{"Immature units: " + code(im.Metric), FormatCount(im.Units)})
+		}
 	}
 	rows = append(rows, []string{"Ignored events", FormatCount(sumReasons(d.IgnoredEvents))})
 	for _, rc := range d.IgnoredEvents {
