@@ -89,6 +89,9 @@ func TestOutputPathsRefused(t *testing.T) {
 		{"--json - with the Markdown on stdout", []string{bad, "--json", "-"}, "--json -"},
 		{"--json - and --out -", []string{bad, "--json", "-", "--out", "-"}, "--json -"},
 		{"--spill-dir without --memory-limit", []string{bad, "--spill-dir", dir}, "--spill-dir"},
+		{"--brief is the input", []string{good, "--brief", good}, "--brief " + good + " is an input"},
+		{"--brief and --out the same file", []string{bad, "--brief", filepath.Join(dir, "r.out"), "--out", filepath.Join(dir, "r.out")}, "are the same file"},
+		{"--brief -", []string{bad, "--brief", "-"}, "--brief -"},
 	}
 	if err := os.Symlink(okJSON, filepath.Join(dir, "ok-link.json")); err != nil {
 		t.Fatal(err)
