@@ -7,6 +7,7 @@ package report
 
 import (
 	"fmt"
+	"slices"
 	"strings"
 
 	"github.com/armtally/armtally/experiment"
@@ -109,8 +110,14 @@ func overallLine(r experiment.Readout, v experiment.Verdict) string {
 	default:
 		b.WriteString("**Wait: nothing to ship or stop yet.**")
 	}
+	// The treatments the decision names first, then the others, each in
+	// arm order.
 	var clauses []string
-	for _, tv := range v.PerTreatment {
+	per := slices.Clone(v.PerTreatment)
+	slices.SortStableFunc(per, func(a, b experiment.TreatmentVerdict) int {
+		return cmpBool(a.Decision != v.Decision, b.Decision != v.Decision)
+	})
+	for _, tv := range per {
 		c := code(tv.Treatment)
 		if tv.Decision != v.Decision {
 			c += " (" + decisionWord(tv.Decision) + ")"
@@ -300,4 +307,15 @@ func joinWith(list []string, word string) string {
 		return strings.Join(list, "")
 	}
 	return strings.Join(list[:len(list)-1], ", ") + " " + word + " " + list[len(list)-1]
+}
+
+// cmpBool orders false before true.
+func cmpBool(a, b bool) int {
+	switch {
+	case a == b:
+		return 0
+	case !a:
+		return -1
+	}
+	return 1
 }
