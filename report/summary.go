@@ -137,32 +137,40 @@ func overallLine(r experiment.Readout, v experiment.Verdict) string {
 	return b.String()
 }
 
+// reasonWords words each reason of a treatment: the phrase, and the rows
+// whose metrics it names (guardrails or primary metrics, with outcome).
+var reasonWords = map[experiment.Reason]struct {
+	phrase    string
+	guardrail bool
+	outcome   experiment.Outcome
+}{
+	experiment.ReasonPrimaryBetter:       {"is better on", false, experiment.OutcomeBetter},
+	experiment.ReasonGuardrailsHeld:      {"held", true, experiment.OutcomeGuardrailHeld},
+	experiment.ReasonPrimaryWorse:        {"is worse on", false, experiment.OutcomeWorse},
+	experiment.ReasonGuardrailWorse:      {"is worse on", true, experiment.OutcomeWorse},
+	experiment.ReasonNoPrimaryDifference: {"shows no detectable difference on", false, experiment.OutcomeNoDetectableDifference},
+	experiment.ReasonGuardrailNotShown:   {"is not shown to hold", true, experiment.OutcomeGuardrailNotShown},
+}
+
 // treatmentReasons words one treatment's reasons, each with the metrics
 // of its rows that carry it: "is better on the primary metric `purchase`".
 func treatmentReasons(v experiment.Verdict, tv experiment.TreatmentVerdict) string {
 	var parts []string
 	for _, reason := range tv.Reasons {
+		if w, ok := reasonWords[reason]; ok {
+			parts = append(parts, w.phrase+" "+metricsOf(v, tv.Treatment, w.guardrail, w.outcome))
+			continue
+		}
 		switch reason {
-		case experiment.ReasonPrimaryBetter:
-			parts = append(parts, "is better on "+metricsOf(v, tv.Treatment, false, experiment.OutcomeBetter))
-		case experiment.ReasonGuardrailsHeld:
-			parts = append(parts, "held "+metricsOf(v, tv.Treatment, true, experiment.OutcomeGuardrailHeld))
-		case experiment.ReasonPrimaryWorse:
-			parts = append(parts, "is worse on "+metricsOf(v, tv.Treatment, false, experiment.OutcomeWorse))
-		case experiment.ReasonGuardrailWorse:
-			parts = append(parts, "is worse on "+metricsOf(v, tv.Treatment, true, experiment.OutcomeWorse))
-		case experiment.ReasonNoPrimaryDifference:
-			parts = append(parts, "shows no detectable difference on "+metricsOf(v, tv.Treatment, false, experiment.OutcomeNoDetectableDifference))
-		case experiment.ReasonGuardrailNotShown:
-			parts = append(parts, "is not shown to hold "+metricsOf(v, tv.Treatment, true, experiment.OutcomeGuardrailNotShown))
 		case experiment.ReasonNotEnoughData:
-			if m := metricsOf(v, tv.Treatment, false, experiment.OutcomeNotEnoughData); m != "" {
-				parts = append(parts, "has not enough data on "+m)
-			} else if m := metricsOf(v, tv.Treatment, true, experiment.OutcomeNotEnoughData); m != "" {
-				parts = append(parts, "has not enough data on "+m)
-			} else {
-				parts = append(parts, "has not enough data")
+			m := metricsOf(v, tv.Treatment, false, experiment.OutcomeNotEnoughData)
+			if m == "" {
+				m = metricsOf(v, tv.Treatment, true, experiment.OutcomeNotEnoughData)
 			}
+			if m != "" {
+				m = " on " + m
+			}
+			parts = append(parts, "has not enough data"+m)
 		case experiment.ReasonSampleRatioMismatch:
 			parts = append(parts, "is not readable (the sample ratio check failed)")
 		}

@@ -93,7 +93,7 @@ func TestSummaryFirstLines(t *testing.T) {
 // (experiment.NewVerdict's doc): a treatment better on a primary metric
 // with no guardrail ships; one worse on a guardrail stops whatever its
 // primary metric says; a failed sample ratio check makes nothing
-// readable.
+// readable; nothing significant, or an arm without units, is wait.
 func TestSummaryOverallLine(t *testing.T) {
 	tests := []struct {
 		name    string
@@ -103,6 +103,12 @@ func TestSummaryOverallLine(t *testing.T) {
 		{"ship", twoArmReadout(), []string{"**Ship `green-button`.**", "is better on the primary metric `purchase`", "The sample ratio check passed"}},
 		{"stop on a guardrail", guardrailReadout(), []string{"**Stop `email-reminder`.**", "is better on the primary metric `reorder`, but is worse on the guardrail `unsubscribe`", "`push-reminder` (wait)"}},
 		{"fix the data", threeArmReadout(), []string{"**Fix the data first: no comparison is readable.**", "The sample ratio check failed (p = 0.0007 < 0.001)"}},
+		{"wait", func() experiment.Readout {
+			r := twoArmReadout()
+			r.Metrics[0].Comparisons[0].Significant = false
+			return r
+		}(), []string{"**Wait: nothing to ship or stop yet.**", "`green-button` shows no detectable difference on the primary metrics `purchase` and `signup`."}},
+		{"not enough data", emptyReadout(), []string{"**Wait: nothing to ship or stop yet.**", "has not enough data on the primary metric `trial_started`", "Sample ratio not checked"}},
 	}
 	for _, tc := range tests {
 		t.Run(tc.name, func(t *testing.T) {
