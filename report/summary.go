@@ -22,37 +22,29 @@ func verdictOf(r experiment.Readout) experiment.Verdict {
 	return r.Verdict
 }
 
+// outcomeText is the summary's fixed vocabulary of outcomes.
+var outcomeText = map[experiment.Outcome]string{
+	experiment.OutcomeBetter:                 "better",
+	experiment.OutcomeWorse:                  "worse",
+	experiment.OutcomeNoDetectableDifference: "no detectable difference",
+	experiment.OutcomeGuardrailHeld:          "guardrail held",
+	experiment.OutcomeGuardrailNotShown:      "guardrail not shown",
+	experiment.OutcomeCheckFailed:            "not readable: a check failed",
+	experiment.OutcomeNotEnoughData:          "not enough data",
+}
+
 // outcomeWords words an outcome in the summary's fixed vocabulary.
 func outcomeWords(o experiment.Outcome) string {
-	switch o {
-	case experiment.OutcomeBetter:
-		return "better"
-	case experiment.OutcomeWorse:
-		return "worse"
-	case experiment.OutcomeNoDetectableDifference:
-		return "no detectable difference"
-	case experiment.OutcomeGuardrailHeld:
-		return "guardrail held"
-	case experiment.OutcomeGuardrailNotShown:
-		return "guardrail not shown"
-	case experiment.OutcomeCheckFailed:
-		return "not readable: a check failed"
-	case experiment.OutcomeNotEnoughData:
-		return "not enough data"
+	if t, ok := outcomeText[o]; ok {
+		return t
 	}
 	return o.String()
 }
 
-// decisionWord is a decision as the summary says it.
+// decisionWord is a decision as the summary says it: its code, with
+// fix_data in words.
 func decisionWord(d experiment.Decision) string {
-	switch d {
-	case experiment.DecisionShip:
-		return "ship"
-	case experiment.DecisionStop:
-		return "stop"
-	case experiment.DecisionWait:
-		return "wait"
-	case experiment.DecisionFixData:
+	if d == experiment.DecisionFixData {
 		return "fix the data"
 	}
 	return d.String()
