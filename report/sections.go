@@ -504,17 +504,12 @@ func rateText(a *experiment.ArmRate) string {
 // comparisons writes the table of each treatment against the control.
 func (md *markdown) comparisons(r experiment.Readout, m experiment.MetricReadout, n *notes) {
 	k := len(m.Comparisons)
-	rows := []detailRow{
-		{label: "Difference"},
-		{label: "Relative lift"},
-		{label: "Test", fold: func(c string) string { return "Test: the " + c + "." }},
-		{label: "z test, both routes"},
-		{label: "Normal approximation", usual: conditionText(true, "in each arm", &experiment.Test{}, nil),
-			fold: sentence("Normal approximation justified in every comparison (enough conversions and non-conversions in each arm), so no exact test was needed.")},
-		{label: "Exact test", usual: exactText(nil, true), fold: sentence("")},
-		{label: "Interval and test", usual: "agree", fold: sentence("Intervals and tests agree.")},
-		{label: "Adjusted p-value"},
-	}
+	rows := append([]detailRow{{label: "Difference"}, {label: "Relative lift"}},
+		testRows("in each arm", "in every comparison")...)
+	rows = append(rows,
+		detailRow{label: "Interval and test", usual: "agree", fold: sentence("Intervals and tests agree.")},
+		detailRow{label: "Adjusted p-value"},
+	)
 	if hasSimultaneous(m) {
 		rows = append(rows, detailRow{label: "Simultaneous interval"})
 	}
@@ -560,6 +555,20 @@ func (md *markdown) comparisons(r experiment.Readout, m experiment.MetricReadout
 	n.flush(md)
 }
 
+// testRows are the rows of a detail table on its tests: the test, both
+// routes, the normal approximation's condition (checked where) and the
+// exact test; the condition and the exact test fold into one sentence
+// when the condition holds in every column (each).
+func testRows(where, each string) []detailRow {
+	return []detailRow{
+		{label: "Test", fold: func(c string) string { return "Test: the " + c + "." }},
+		{label: "z test, both routes"},
+		{label: "Normal approximation", usual: conditionText(true, where, &experiment.Test{}, nil),
+			fold: sentence("Normal approximation justified " + each + " (enough conversions and non-conversions " + where + "), so no exact test was needed.")},
+		{label: "Exact test", usual: exactText(nil, true), fold: sentence("")},
+	}
+}
+
 // intervalText is an interval after its estimate: " (95% CI +0.45 to
 // +2.58 pp)", with the method when it is not the one the header names.
 func intervalText(iv *experiment.Interval, usual string, rng func(lo, hi float64) string) string {
@@ -580,17 +589,9 @@ func percentRange(lo, hi float64) string {
 
 func (md *markdown) targetTests(r experiment.Readout, m experiment.MetricReadout, n *notes) {
 	unreadable := verdictOf(r).Decision == experiment.DecisionFixData
-	rows := []detailRow{
-		{label: "Rate"},
-		{label: "Difference from target"},
-		{label: "Test", fold: func(c string) string { return "Test: the " + c + "." }},
-		{label: "z test, both routes"},
-		{label: "Normal approximation", usual: conditionText(true, "expected under the target", &experiment.Test{}, nil),
-			fold: sentence("Normal approximation justified for every arm (enough conversions and non-conversions expected under the target), so no exact test was needed.")},
-		{label: "Exact test", usual: exactText(nil, true), fold: sentence("")},
-		{label: "Decision"},
-		{label: "Notes", usual: "none", fold: sentence("No notes.")},
-	}
+	rows := append([]detailRow{{label: "Rate"}, {label: "Difference from target"}},
+		testRows("expected under the target", "for every arm")...)
+	rows = append(rows, detailRow{label: "Decision"}, detailRow{label: "Notes", usual: "none", fold: sentence("No notes.")})
 	var header []string
 	for i := range m.Arms {
 		a := &m.Arms[i]
