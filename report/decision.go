@@ -68,8 +68,9 @@ func exactText(e *experiment.ExactTest, conditionMet bool) string {
 const notReadable = "**not readable**: a check failed (sample ratio), so no decision is drawn from this test"
 
 // decisionCell is the Decision cell of a comparison: the verdict's
-// outcome (for a metric that is not a guardrail), the reported decision,
-// after which adjustment, and the one before adjustment when it differs.
+// outcome (for a metric that is not a guardrail), the reported decision
+// (at the alpha of the routes above it), after which adjustment, and the
+// one before adjustment when it differs.
 // A comparison that a failed check makes unreadable says so instead,
 // whatever its test says.
 func decisionCell(v experiment.Verdict, m experiment.MetricReadout, c experiment.Comparison) string {
@@ -80,10 +81,9 @@ func decisionCell(v experiment.Verdict, m experiment.MetricReadout, c experiment
 	if checkFailed(v, m.Name, c.Treatment) {
 		return notReadable
 	}
-	alpha := formatAlpha(decisionAlpha(c.DecidedBy, c.Z, c.Exact))
-	s := "not significant at alpha " + alpha
+	s := "not significant"
 	if c.Significant {
-		s = "significant at alpha " + alpha
+		s = "significant"
 	}
 	if o, ok := rowOutcome(v, m.Name, c.Treatment); ok && m.Guardrail == nil {
 		s = "**" + outcomeWords(o) + "**: " + s
@@ -97,7 +97,7 @@ func decisionCell(v experiment.Verdict, m experiment.MetricReadout, c experiment
 	case !adjusts(adj.Method):
 		s += " (no adjustment)"
 	default:
-		s += " after " + adjustmentName(adj.Method) + " adjustment (final)"
+		s += " after " + adjustmentName(adj.Method) + " adjustment"
 		switch {
 		case c.Significant == c.SignificantUnadjusted:
 			s += ", as before it"

@@ -246,31 +246,31 @@ func TestDecisionRowShowsAdjustment(t *testing.T) {
 		want    string
 	}{
 		{"both significant", twoArmReadout,
-			"| Decision | **better**: significant at alpha 0.05 after Holm adjustment (final), as before it |"},
+			"| Decision | **better**: significant after Holm adjustment, as before it |"},
 		{"significant before, not after", func() experiment.Readout {
 			r := threeArmReadout()
 			r.SampleRatio.Mismatch = false
 			return r
-		}, "| Decision | **no detectable difference**: not significant at alpha 0.05 after Holm adjustment (final); significant before it | **no detectable difference**: not significant at alpha 0.05 after Holm adjustment (final), as before it |"},
+		}, "| Decision | **no detectable difference**: not significant after Holm adjustment; significant before it | **no detectable difference**: not significant after Holm adjustment, as before it |"},
 		{"sample ratio mismatch", threeArmReadout,
 			"| Decision | **not readable**: a check failed (sample ratio), so no decision is drawn from this test | **not readable**: a check failed (sample ratio), so no decision is drawn from this test |"},
 		{"no adjustment", func() experiment.Readout {
 			r := twoArmReadout()
 			r.Metrics[0].Comparisons[0].Adjusted.Method = "none"
 			return r
-		}, "| Decision | **better**: significant at alpha 0.05 (no adjustment) |"},
+		}, "| Decision | **better**: significant (no adjustment) |"},
 		{"outside the family", func() experiment.Readout {
 			r := twoArmReadout()
 			r.Metrics[0].Comparisons[0].Adjusted = nil
 			return r
-		}, "| Decision | **better**: significant at alpha 0.05 (outside the family) |"},
+		}, "| Decision | **better**: significant (outside the family) |"},
 		{"decided by the exact test", func() experiment.Readout {
 			r := twoArmReadout()
 			c := &r.Metrics[0].Comparisons[0]
 			c.DecidedBy = experiment.DecidedByExact
 			c.Exact = &experiment.ExactTest{Method: "Fisher's exact test", PValue: 0.01, Alpha: 0.05, Alternative: "two-sided", Reject: true}
 			return r
-		}, "| Decision | **better**: significant at alpha 0.05 after Holm adjustment (final), as before it; by Fisher's exact test |"},
+		}, "| Decision | **better**: significant after Holm adjustment, as before it; by Fisher's exact test |"},
 	}
 	for _, tc := range tests {
 		t.Run(tc.name, func(t *testing.T) {
