@@ -149,7 +149,8 @@ func sampleRatio(spec Spec, arms []ArmTally, threshold float64) ([]ArmUnits, Sam
 }
 
 // analyzeMetrics fills in the readout's metrics, the multiple-comparison
-// adjustment over them and their segment breakdowns.
+// adjustment of the primary family and of the secondary one, and their
+// segment breakdowns.
 func analyzeMetrics(r *Readout, spec Spec, arms []ArmTally, so stats.Options, adj stats.AdjustMethod, m methods) error {
 	ctl := slices.IndexFunc(arms, func(a ArmTally) bool { return a.Name == spec.Control })
 	for mi, mt := range spec.Metrics {
@@ -159,11 +160,18 @@ func analyzeMetrics(r *Readout, spec Spec, arms []ArmTally, so stats.Options, ad
 		}
 		r.Metrics = append(r.Metrics, mr)
 	}
-	mult, err := adjust(r.Metrics, adj, so, m)
+	mult, err := adjust(r.Metrics, Primary, adj, so, m)
 	if err != nil {
 		return err
 	}
 	r.Multiplicity = mult
+	if slices.ContainsFunc(spec.Metrics, func(m Metric) bool { return m.Guardrail == nil && m.Role == Secondary }) {
+		sec, err := adjust(r.Metrics, Secondary, adj, so, m)
+		if err != nil {
+			return err
+		}
+		r.SecondaryMultiplicity = &sec
+	}
 	r.Segmentation.Dimensions = append([]string(nil), spec.Segments...)
 	if len(spec.Segments) == 0 {
 		return nil
