@@ -6,7 +6,8 @@ import "time"
 // report renders as Markdown and JSON. Values that are undefined for the
 // given counts (a rate of an arm with no units, a lift over a zero control
 // rate) are nil pointers, never NaN or Inf. Slices are in readout order: arms
-// in spec order then first seen, metrics in spec order.
+// in ArmOrder (the control, the planned arms, the other arms by name) in
+// every list, metrics in spec order.
 type Readout struct {
 	Experiment    string
 	ExposureEvent string

@@ -2,6 +2,7 @@ package experiment
 
 import (
 	"reflect"
+	"slices"
 	"strings"
 	"testing"
 )
@@ -388,5 +389,43 @@ func TestAnalyzeFamiliesByRole(t *testing.T) {
 	}
 	if f := r.Families(); len(f) != 1 || f[0].Size != 4 || r.SecondaryMultiplicity != nil {
 		t.Errorf("all primary: families %+v", f)
+	}
+}
+
+// ArmOrder: the control, the planned arms as given, then the others by
+// name in byte order (upper case before lower case). Common practice.
+func TestReadoutArmOrder(t *testing.T) {
+	for _, tc := range []struct {
+		control string
+		planned []string
+		in      []string
+		want    []string
+	}{
+		{"control", nil, []string{"b", "control", "B", "a"}, []string{"control", "B", "a", "b"}},
+		{"control", []string{"b", "control", "a"}, []string{"a", "control", "b"}, []string{"control", "b", "a"}},
+		{"base", []string{"z"}, []string{"y", "z", "x", "base"}, []string{"base", "z", "x", "y"}},
+	} {
+		got := slices.Clone(tc.in)
+		slices.SortStableFunc(got, ArmOrder(tc.control, tc.planned))
+		if !slices.Equal(got, tc.want) {
+			t.Errorf("ArmOrder(%q, %q) sorts %q to %q, want %q", tc.control, tc.planned, tc.in, got, tc.want)
+		}
+	}
+	// Analyze puts a control missing from the data first, whatever the
+	// tally's order.
+	spec := spec2()
+	spec.Arms = nil
+	tl := twoArmTally([][2]int64{{5, 50}}, [][2]int64{{6, 50}})
+	tl.Arms[0].Name, tl.Arms[1].Name = "zeta", "alpha"
+	r, err := Analyze(spec, tl, DefaultAnalysisOptions())
+	if err != nil {
+		t.Fatal(err)
+	}
+	var names []string
+	for _, a := range r.Arms {
+		names = append(names, a.Name)
+	}
+	if want := []string{"control", "alpha", "zeta"}; !slices.Equal(names, want) {
+		t.Errorf("arms %q, want %q", names, want)
 	}
 }
