@@ -1,6 +1,7 @@
 package experiment
 
 import (
+	"cmp"
 	"errors"
 	"fmt"
 	"slices"
@@ -149,7 +150,8 @@ func sampleRatio(spec Spec, arms []ArmTally, threshold float64) ([]ArmUnits, Sam
 }
 
 // analyzeMetrics fills in the readout's metrics, the multiple-comparison
-// adjustment over them and their segment breakdowns.
+// adjustment of the primary family and of the secondary one, and their
+// segment breakdowns.
 func analyzeMetrics(r *Readout, spec Spec, arms []ArmTally, so stats.Options, adj stats.AdjustMethod, m methods) error {
 	ctl := slices.IndexFunc(arms, func(a ArmTally) bool { return a.Name == spec.Control })
 	for mi, mt := range spec.Metrics {
@@ -159,11 +161,18 @@ func analyzeMetrics(r *Readout, spec Spec, arms []ArmTally, so stats.Options, ad
 		}
 		r.Metrics = append(r.Metrics, mr)
 	}
-	mult, err := adjust(r.Metrics, adj, so, m)
+	mult, err := adjust(r.Metrics, Primary, adj, so, m)
 	if err != nil {
 		return err
 	}
 	r.Multiplicity = mult
+	if slices.ContainsFunc(spec.Metrics, func(m Metric) bool { return m.Guardrail == nil && m.Role == Secondary }) {
+		sec, err := adjust(r.Metrics, Secondary, adj, so, m)
+		if err != nil {
+			return err
+		}
+		r.SecondaryMultiplicity = &sec
+	}
 	r.Segmentation.Dimensions = append([]string(nil), spec.Segments...)
 	if len(spec.Segments) == 0 {
 		return nil
@@ -179,10 +188,9 @@ func analyzeMetrics(r *Readout, spec Spec, arms []ArmTally, so stats.Options, ad
 	return nil
 }
 
-// readoutArms returns the tally's arms with the control present (added
-// with zero counts when the data has none) and first unless the spec lists
-// it elsewhere, checking that every arm seen
-// is planned when the spec lists arms.
+// readoutArms returns the tally's arms in readout order (ArmOrder), with
+// the control present (added with zero counts when the data has none),
+// checking that every arm seen is planned when the spec lists arms.
 func readoutArms(spec Spec, t Tally) ([]ArmTally, error) {
 	arms := append([]ArmTally(nil), t.Arms...)
 	if len(spec.Arms) > 0 {
@@ -201,23 +209,38 @@ func readoutArms(spec Spec, t Tally) ([]ArmTally, error) {
 				strings.Join(unknown, ", "), strings.Join(spec.Arms, ", "))
 		}
 	}
-	listed := false
-	for _, a := range spec.Arms {
-		listed = listed || a == spec.Control
+	if !slices.ContainsFunc(arms, func(a ArmTally) bool { return a.Name == spec.Control }) {
+		arms = append(arms, ArmTally{Name: spec.Control, Metrics: make([]Count, len(spec.Metrics))})
 	}
-	for i, a := range arms {
-		if a.Name != spec.Control {
-			continue
+	order := ArmOrder(spec.Control, spec.Arms)
+	slices.SortStableFunc(arms, func(a, b ArmTally) int { return order(a.Name, b.Name) })
+	return arms, nil
+}
+
+// ArmOrder returns the comparison function of the readout's arm order,
+// the same for every input shape and whatever order the data shows the
+// arms in: the control first, then the planned arms in their given order,
+// then any other arm by name (byte order).
+func ArmOrder(control string, planned []string) func(a, b string) int {
+	rank := map[string]int{control: 0}
+	for _, a := range planned {
+		if _, ok := rank[a]; !ok {
+			rank[a] = len(rank)
 		}
-		if !listed {
-			// An unlisted control goes first rather than where its first
-			// exposure happens to fall.
-			arms = append(append([]ArmTally{a}, arms[:i]...), arms[i+1:]...)
-		}
-		return arms, nil
 	}
-	zero := ArmTally{Name: spec.Control, Metrics: make([]Count, len(spec.Metrics))}
-	return append([]ArmTally{zero}, arms...), nil
+	return func(a, b string) int {
+		ra, oka := rank[a]
+		rb, okb := rank[b]
+		switch {
+		case oka && okb:
+			return cmp.Compare(ra, rb)
+		case oka:
+			return -1
+		case okb:
+			return 1
+		}
+		return strings.Compare(a, b)
+	}
 }
 
 // plannedShares returns the planned share of each readout arm: the spec's

@@ -72,22 +72,25 @@ func errorRate(a stats.AdjustMethod) string {
 	return "per comparison"
 }
 
-// familyText describes the family of adjusted comparisons.
-const familyText = "each treatment against the control on each metric that is not a guardrail (target-rate tests and guardrail tests are outside the family)"
+// familyText describes each family of adjusted comparisons.
+var familyText = [...]string{
+	Primary:   "each treatment against the control on each primary metric (the confirmatory family; secondary metrics are adjusted in a family of their own, and target-rate tests and guardrail tests are outside both)",
+	Secondary: "each treatment against the control on each secondary metric (adjusted apart from the confirmatory family; these comparisons never change a decision)",
+}
 
-// adjust applies the multiple-comparison adjustment to the family: every
-// comparison with a test on a metric that is not a guardrail. The p-value
-// adjusted is that of the test relied on (the z test, or the exact test
-// where the normal approximation is not justified). Each comparison in the
-// family gets its Adjusted record and its Significant becomes the adjusted
-// decision. With Bonferroni, the simultaneous difference interval at level
-// 1 - (1 - level)/m is added.
-func adjust(metrics []MetricReadout, method stats.AdjustMethod, so stats.Options, meth methods) (Multiplicity, error) {
+// adjust applies the multiple-comparison adjustment to the family of
+// role: every comparison with a test on a metric of that role that is not
+// a guardrail. The p-value adjusted is that of the test relied on (the z
+// test, or the exact test where the normal approximation is not
+// justified). Each comparison in the family gets its Adjusted record and
+// its Significant becomes the adjusted decision. With Bonferroni, the
+// simultaneous difference interval at level 1 - (1 - level)/m is added.
+func adjust(metrics []MetricReadout, role Role, method stats.AdjustMethod, so stats.Options, meth methods) (Multiplicity, error) {
 	type ref struct{ m, c int }
 	var refs []ref
 	var ps []float64
 	for mi := range metrics {
-		if metrics[mi].Guardrail != nil {
+		if metrics[mi].Guardrail != nil || metrics[mi].Role != role {
 			continue
 		}
 		for ci := range metrics[mi].Comparisons {
@@ -103,14 +106,14 @@ func adjust(metrics []MetricReadout, method stats.AdjustMethod, so stats.Options
 			refs = append(refs, ref{mi, ci})
 		}
 	}
-	mult := Multiplicity{Method: method.String(), ErrorRate: errorRate(method), Family: familyText, Size: len(refs)}
+	mult := Multiplicity{Role: role, Method: method.String(), ErrorRate: errorRate(method), Family: familyText[role], Size: len(refs)}
 	adj, err := stats.AdjustPValues(ps, method)
 	if err != nil {
 		return mult, fmt.Errorf("multiple comparisons: %w", err)
 	}
 	for i, r := range refs {
 		c := &metrics[r.m].Comparisons[r.c]
-		a := &Adjusted{Method: method.String(), FamilySize: len(refs), PValue: adj[i], Significant: adj[i] <= so.Alpha}
+		a := &Adjusted{Family: role, Method: method.String(), FamilySize: len(refs), PValue: adj[i], Significant: adj[i] <= so.Alpha}
 		if method == stats.Bonferroni {
 			level := 1 - (1-so.Level)/float64(len(refs))
 			arms := metrics[r.m].Arms

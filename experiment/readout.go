@@ -6,7 +6,8 @@ import "time"
 // report renders as Markdown and JSON. Values that are undefined for the
 // given counts (a rate of an arm with no units, a lift over a zero control
 // rate) are nil pointers, never NaN or Inf. Slices are in readout order: arms
-// in spec order then first seen, metrics in spec order.
+// in ArmOrder (the control, the planned arms, the other arms by name) in
+// every list, metrics in spec order.
 type Readout struct {
 	Experiment    string
 	ExposureEvent string
@@ -17,8 +18,13 @@ type Readout struct {
 	Settings      Settings
 	Arms          []ArmUnits
 	SampleRatio   SampleRatio
-	// Multiplicity says how the comparisons were adjusted for being many.
+	// Multiplicity says how the confirmatory family, the comparisons on
+	// the primary metrics, was adjusted for being many.
 	Multiplicity Multiplicity
+	// SecondaryMultiplicity says how the comparisons on the secondary
+	// metrics were adjusted, in a family of their own with the same
+	// method; nil when the readout has no secondary metric.
+	SecondaryMultiplicity *Multiplicity
 	// Segmentation says which segment dimensions the metrics are broken
 	// down by, and how far to trust those breakdowns.
 	Segmentation Segmentation
@@ -31,6 +37,16 @@ type Readout struct {
 	// with no end); package report adds those the numbers show (sample
 	// ratio, exclusions, conditions) and words them all.
 	Warnings []Warning
+}
+
+// Families returns the readout's multiple-comparison families: the
+// confirmatory (primary) family, then the secondary one when there is one.
+func (r Readout) Families() []Multiplicity {
+	fs := []Multiplicity{r.Multiplicity}
+	if r.SecondaryMultiplicity != nil {
+		fs = append(fs, *r.SecondaryMultiplicity)
+	}
+	return fs
 }
 
 // Settings echoes the analysis settings that shaped the numbers.
@@ -57,8 +73,11 @@ type Settings struct {
 	NonInferiorityMethod string
 }
 
-// Multiplicity describes the family of comparisons adjusted together.
+// Multiplicity describes a family of comparisons adjusted together.
 type Multiplicity struct {
+	// Role is the role of the family's metrics: Primary for the
+	// confirmatory family, Secondary for the secondary one.
+	Role Role
 	// Method is the adjustment (as Settings.Adjustment).
 	Method string
 	// ErrorRate is what the method controls at alpha: "family-wise error
@@ -109,7 +128,7 @@ type MetricReadout struct {
 	Role Role
 	// Guardrail is set for a guardrail metric: each treatment is tested
 	// for non-inferiority against the control with this margin. Guardrail
-	// comparisons are outside the multiple-comparison family.
+	// comparisons are outside the multiple-comparison families.
 	Guardrail   *Guardrail
 	Arms        []ArmRate
 	Comparisons []Comparison
@@ -234,12 +253,12 @@ type Comparison struct {
 	// any multiple-comparison adjustment.
 	SignificantUnadjusted bool
 	// Significant is the decision the readout reports: the adjusted one
-	// when the comparison is in the family (Adjusted is set), otherwise
+	// when the comparison is in a family (Adjusted is set), otherwise
 	// SignificantUnadjusted.
 	Significant bool
 	DecidedBy   string
 	// Adjusted is the multiple-comparison adjustment of this comparison;
-	// nil when it is outside the family (a guardrail, or no test run).
+	// nil when it is outside the families (a guardrail, or no test run).
 	Adjusted *Adjusted
 	// IntervalAgrees is false when the (unadjusted) difference interval's
 	// exclusion of zero disagrees with the unadjusted decision.
@@ -251,6 +270,9 @@ type Comparison struct {
 
 // Adjusted is one comparison's multiple-comparison adjustment.
 type Adjusted struct {
+	// Family is the role of the family the comparison was adjusted in
+	// (Multiplicity.Role).
+	Family     Role
 	Method     string
 	FamilySize int
 	PValue     float64

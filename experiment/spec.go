@@ -129,9 +129,9 @@ type Spec struct {
 	ExposureEvent string
 	// Control is the control arm's name.
 	Control string
-	// Arms lists the planned arms in readout order. Arms seen in the data
-	// but not listed are appended in the order first seen (by first
-	// exposure time, then name). May be empty.
+	// Arms lists the planned arms in readout order (after the control,
+	// which always comes first; see ArmOrder). With no planned arms, the
+	// arms seen in the data follow the control by name. May be empty.
 	Arms []string
 	// Split holds the planned share of each arm in Arms (same length), or
 	// is empty for an equal split over the arms in the readout.

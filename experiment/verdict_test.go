@@ -2,6 +2,7 @@ package experiment
 
 import (
 	"reflect"
+	"slices"
 	"strings"
 	"testing"
 )
@@ -330,5 +331,101 @@ func TestSpecNeedsPrimary(t *testing.T) {
 		if (err == nil) != (tc.err == "") || (err != nil && !strings.Contains(err.Error(), tc.err)) {
 			t.Errorf("%s: %v, want %q", tc.name, err, tc.err)
 		}
+	}
+}
+
+// Metric roles decide the family: the primary metric's comparisons are
+// adjusted together, the secondary metric's in a family of their own,
+// the guardrail's in none. Check values: R 4.2.2,
+//
+//	p <- c(prop.test(c(1090, 1000), c(10000, 10000), correct = FALSE)$p.value,
+//	       prop.test(c(1040, 1000), c(10000, 10000), correct = FALSE)$p.value)
+//	q <- c(prop.test(c(455, 400), c(10000, 10000), correct = FALSE)$p.value,
+//	       prop.test(c(390, 400), c(10000, 10000), correct = FALSE)$p.value)
+//	p.adjust(p, "holm"); p.adjust(q, "holm")
+func TestAnalyzeFamiliesByRole(t *testing.T) {
+	spec := spec2()
+	spec.Arms = []string{"control", "t1", "t2"}
+	spec.Metrics = []Metric{
+		{Name: "a", Events: []string{"a"}},
+		{Name: "b", Events: []string{"b"}, Role: Secondary},
+		{Name: "g", Events: []string{"g"}, Guardrail: &Margin{Value: 0.01}},
+	}
+	tl := threeArmTally(
+		[][2]int64{{1000, 10000}, {400, 10000}, {400, 10000}},
+		[][2]int64{{1090, 10000}, {455, 10000}, {400, 10000}},
+		[][2]int64{{1040, 10000}, {390, 10000}, {400, 10000}})
+	r, err := Analyze(spec, tl, DefaultAnalysisOptions())
+	if err != nil {
+		t.Fatal(err)
+	}
+	want := map[string][]float64{
+		"a": {0.074986739524022933, 0.350015600058214860},
+		"b": {0.10908508371300855, 0.71658543757779569},
+	}
+	for _, m := range r.Metrics {
+		for i, c := range m.Comparisons {
+			if m.Guardrail != nil {
+				if c.Adjusted != nil {
+					t.Errorf("guardrail %s/%s adjusted", m.Name, c.Treatment)
+				}
+				continue
+			}
+			near(t, m.Name+"/"+c.Treatment+" adjusted p", c.Adjusted.PValue, want[m.Name][i], 1e-10)
+			if c.Adjusted.FamilySize != 2 || c.Adjusted.Family != m.Role {
+				t.Errorf("%s/%s: family %v of %d", m.Name, c.Treatment, c.Adjusted.Family, c.Adjusted.FamilySize)
+			}
+		}
+	}
+	if f := r.Families(); len(f) != 2 || f[0].Role != Primary || f[0].Size != 2 || f[1].Role != Secondary || f[1].Size != 2 ||
+		f[0].Family == f[1].Family {
+		t.Errorf("families %+v", f)
+	}
+	// Flag-only runs: every metric primary, one family of all of them.
+	spec.Metrics[1].Role = Primary
+	r, err = Analyze(spec, tl, DefaultAnalysisOptions())
+	if err != nil {
+		t.Fatal(err)
+	}
+	if f := r.Families(); len(f) != 1 || f[0].Size != 4 || r.SecondaryMultiplicity != nil {
+		t.Errorf("all primary: families %+v", f)
+	}
+}
+
+// ArmOrder: the control, the planned arms as given, then the others by
+// name in byte order (upper case before lower case). Common practice.
+func TestReadoutArmOrder(t *testing.T) {
+	for _, tc := range []struct {
+		control string
+		planned []string
+		in      []string
+		want    []string
+	}{
+		{"control", nil, []string{"b", "control", "B", "a"}, []string{"control", "B", "a", "b"}},
+		{"control", []string{"b", "control", "a"}, []string{"a", "control", "b"}, []string{"control", "b", "a"}},
+		{"base", []string{"z"}, []string{"y", "z", "x", "base"}, []string{"base", "z", "x", "y"}},
+	} {
+		got := slices.Clone(tc.in)
+		slices.SortStableFunc(got, ArmOrder(tc.control, tc.planned))
+		if !slices.Equal(got, tc.want) {
+			t.Errorf("ArmOrder(%q, %q) sorts %q to %q, want %q", tc.control, tc.planned, tc.in, got, tc.want)
+		}
+	}
+	// Analyze puts a control missing from the data first, whatever the
+	// tally's order.
+	spec := spec2()
+	spec.Arms = nil
+	tl := twoArmTally([][2]int64{{5, 50}}, [][2]int64{{6, 50}})
+	tl.Arms[0].Name, tl.Arms[1].Name = "zeta", "alpha"
+	r, err := Analyze(spec, tl, DefaultAnalysisOptions())
+	if err != nil {
+		t.Fatal(err)
+	}
+	var names []string
+	for _, a := range r.Arms {
+		names = append(names, a.Name)
+	}
+	if want := []string{"control", "alpha", "zeta"}; !slices.Equal(names, want) {
+		t.Errorf("arms %q, want %q", names, want)
 	}
 }

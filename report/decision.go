@@ -98,6 +98,9 @@ func decisionCell(v experiment.Verdict, m experiment.MetricReadout, c experiment
 		s += " (no adjustment)"
 	default:
 		s += " after " + adjustmentName(adj.Method) + " adjustment"
+		if adj.Family == experiment.Secondary {
+			s += " in the secondary family"
+		}
 		switch {
 		case c.Significant == c.SignificantUnadjusted:
 			s += ", as before it"
@@ -307,27 +310,6 @@ func qualifiers(decidedBy string, z *experiment.Test, e *experiment.ExactTest, s
 		s += ": " + otherwise
 	}
 	return s
-}
-
-// simultaneousSentence is the multiple-comparison paragraph's sentence on
-// Bonferroni's simultaneous intervals. Its levels are those the tables
-// print: each interval's level as the analysis stored it (the first of
-// the family's, which all share it), and the level they hold at together,
-// the readout's confidence level (1 - alpha, or 1 - 2 × alpha for a
-// one-sided test). "" when no comparison has one.
-func simultaneousSentence(r experiment.Readout) string {
-	for _, m := range r.Metrics {
-		for _, c := range m.Comparisons {
-			if c.Adjusted == nil || c.Adjusted.DifferenceInterval == nil {
-				continue
-			}
-			level := c.Adjusted.DifferenceInterval.Level
-			alpha := decisionAlpha(c.DecidedBy, c.Z, c.Exact)
-			return fmt.Sprintf(" Bonferroni also gives simultaneous intervals: each difference gets a %s interval (%s), and they all hold at once with at least %s confidence.",
-				formatLevel(level), levelRule(level, alpha, c.Adjusted.FamilySize), formatLevel(r.Settings.ConfidenceLevel))
-		}
-	}
-	return ""
 }
 
 // levelRule says how a simultaneous level follows from alpha and the

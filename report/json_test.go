@@ -239,8 +239,12 @@ func TestFixturesConsistent(t *testing.T) {
 						if adj.PValue < decisionP(c.DecidedBy, c.Z, c.Exact) {
 							t.Errorf("%s: adjusted p %v below the raw p", where, adj.PValue)
 						}
-						if adj.Method != r.Settings.Adjustment || adj.FamilySize != r.Multiplicity.Size {
-							t.Errorf("%s: adjusted by %s over %d, readout says %s over %d", where, adj.Method, adj.FamilySize, r.Settings.Adjustment, r.Multiplicity.Size)
+						fam := r.Multiplicity
+						if adj.Family == experiment.Secondary && r.SecondaryMultiplicity != nil {
+							fam = *r.SecondaryMultiplicity
+						}
+						if adj.Method != r.Settings.Adjustment || adj.FamilySize != fam.Size || fam.Role != adj.Family {
+							t.Errorf("%s: adjusted by %s over %d in the %v family, readout says %s over %d", where, adj.Method, adj.FamilySize, adj.Family, r.Settings.Adjustment, fam.Size)
 						}
 						if m.Guardrail != nil {
 							t.Errorf("%s: a guardrail comparison is in the family", where)
@@ -269,8 +273,15 @@ func TestFixturesConsistent(t *testing.T) {
 					}
 				}
 			}
-			if inFamily != r.Multiplicity.Size || r.Multiplicity.Method != r.Settings.Adjustment {
-				t.Errorf("%s: %d comparisons adjusted, multiple_comparisons says %s over %d", r.Experiment, inFamily, r.Multiplicity.Method, r.Multiplicity.Size)
+			size := 0
+			for _, f := range r.Families() {
+				size += f.Size
+				if f.Method != r.Settings.Adjustment {
+					t.Errorf("%s: %v family adjusted by %s, settings say %s", r.Experiment, f.Role, f.Method, r.Settings.Adjustment)
+				}
+			}
+			if inFamily != size {
+				t.Errorf("%s: %d comparisons adjusted, multiple_comparisons says %d", r.Experiment, inFamily, size)
 			}
 			level := 1 - r.Settings.Alpha
 			if r.Settings.Alternative != "two-sided" {
@@ -315,10 +326,10 @@ func TestSchemaRejectsBrokenDocuments(t *testing.T) {
 			delete(readout(doc)["settings"].(map[string]any), "interval_method")
 		}},
 		{"unknown error rate", func(doc any) {
-			readout(doc)["multiple_comparisons"].(map[string]any)["error_rate"] = "familywise"
+			readout(doc)["multiple_comparisons"].([]any)[0].(map[string]any)["error_rate"] = "familywise"
 		}},
 		{"fractional family size", func(doc any) {
-			readout(doc)["multiple_comparisons"].(map[string]any)["family_size"] = json.Number("2.5")
+			readout(doc)["multiple_comparisons"].([]any)[0].(map[string]any)["family_size"] = json.Number("2.5")
 		}},
 		{"missing significant_unadjusted", func(doc any) { delete(comparison(doc, 0, 0), "significant_unadjusted") }},
 		{"adjusted p above one", func(doc any) {
@@ -334,7 +345,7 @@ func TestSchemaRejectsBrokenDocuments(t *testing.T) {
 			readout(doc)["metrics"].([]any)[0].(map[string]any)["lower_is_better"] = "no"
 		}},
 		{"missing schema version", func(doc any) { delete(doc.(map[string]any), "schema_version") }},
-		{"wrong schema version", func(doc any) { doc.(map[string]any)["schema_version"] = "2.0.0" }},
+		{"wrong schema version", func(doc any) { doc.(map[string]any)["schema_version"] = "1.2.0" }},
 		{"wrong type", func(doc any) {
 			readout(doc)["arms"].([]any)[0].(map[string]any)["units"] = "1050"
 		}},

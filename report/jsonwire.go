@@ -41,20 +41,20 @@ func NewDocument(readouts []experiment.Readout) Document {
 
 // JSONReadout is the JSON form of experiment.Readout.
 type JSONReadout struct {
-	Experiment    string           `json:"experiment"`
-	ExposureEvent string           `json:"exposure_event"`
-	Control       string           `json:"control"`
-	WindowStart   *time.Time       `json:"window_start"`
-	WindowEnd     *time.Time       `json:"window_end"`
-	Freshness     *time.Time       `json:"data_freshness"`
-	Settings      JSONSettings     `json:"settings"`
-	Arms          []JSONArmUnits   `json:"arms"`
-	SampleRatio   JSONSampleRatio  `json:"sample_ratio"`
-	Multiplicity  JSONMultiplicity `json:"multiple_comparisons"`
-	Segmentation  JSONSegmentation `json:"segmentation"`
-	Metrics       []JSONMetric     `json:"metrics"`
-	Diagnostics   JSONDiagnostics  `json:"diagnostics"`
-	Warnings      []string         `json:"warnings"`
+	Experiment    string             `json:"experiment"`
+	ExposureEvent string             `json:"exposure_event"`
+	Control       string             `json:"control"`
+	WindowStart   *time.Time         `json:"window_start"`
+	WindowEnd     *time.Time         `json:"window_end"`
+	Freshness     *time.Time         `json:"data_freshness"`
+	Settings      JSONSettings       `json:"settings"`
+	Arms          []JSONArmUnits     `json:"arms"`
+	SampleRatio   JSONSampleRatio    `json:"sample_ratio"`
+	Multiplicity  []JSONMultiplicity `json:"multiple_comparisons"`
+	Segmentation  JSONSegmentation   `json:"segmentation"`
+	Metrics       []JSONMetric       `json:"metrics"`
+	Diagnostics   JSONDiagnostics    `json:"diagnostics"`
+	Warnings      []string           `json:"warnings"`
 }
 
 func toJSONReadout(r experiment.Readout) JSONReadout {
@@ -73,7 +73,7 @@ func toJSONReadout(r experiment.Readout) JSONReadout {
 		Settings:      JSONSettings(r.Settings),
 		Arms:          convertAll(r.Arms, toJSONArmUnits),
 		SampleRatio:   JSONSampleRatio(r.SampleRatio),
-		Multiplicity:  JSONMultiplicity(r.Multiplicity),
+		Multiplicity:  convertAll(r.Families(), toJSONMultiplicity),
 		Segmentation:  seg,
 		Metrics:       convertAll(r.Metrics, toJSONMetric),
 		Diagnostics:   toJSONDiagnostics(r.Diagnostics),
@@ -108,12 +108,19 @@ type JSONSettings struct {
 	NonInferiorityMethod     string  `json:"non_inferiority_method"`
 }
 
-// JSONMultiplicity is the JSON form of experiment.Multiplicity.
+// JSONMultiplicity is the JSON form of experiment.Multiplicity: one
+// family of comparisons adjusted together, "primary" (the confirmatory
+// family) or "secondary".
 type JSONMultiplicity struct {
-	Method    string `json:"method"`
-	ErrorRate string `json:"error_rate"`
-	Family    string `json:"family"`
-	Size      int    `json:"family_size"`
+	Family      string `json:"family"`
+	Method      string `json:"method"`
+	ErrorRate   string `json:"error_rate"`
+	Description string `json:"description"`
+	Size        int    `json:"family_size"`
+}
+
+func toJSONMultiplicity(m experiment.Multiplicity) JSONMultiplicity {
+	return JSONMultiplicity{Family: m.Role.String(), Method: m.Method, ErrorRate: m.ErrorRate, Description: m.Family, Size: m.Size}
 }
 
 // JSONArmUnits is the JSON form of experiment.ArmUnits.
@@ -152,6 +159,7 @@ type JSONSegmentation struct {
 // JSONMetric is the JSON form of experiment.MetricReadout.
 type JSONMetric struct {
 	Name          string           `json:"name"`
+	Role          string           `json:"role"`
 	Events        []string         `json:"events"`
 	WindowSeconds *int64           `json:"window_seconds"`
 	Target        *float64         `json:"target_rate"`
@@ -166,6 +174,7 @@ type JSONMetric struct {
 func toJSONMetric(m experiment.MetricReadout) JSONMetric {
 	return JSONMetric{
 		Name:          jsonText(m.Name),
+		Role:          m.RoleName(),
 		Events:        convertAll(m.Events, jsonText),
 		WindowSeconds: m.WindowSeconds,
 		Target:        m.Target,
@@ -334,6 +343,7 @@ func toJSONComparison(c experiment.Comparison) JSONComparison {
 
 // JSONAdjusted is the JSON form of experiment.Adjusted.
 type JSONAdjusted struct {
+	Family             string        `json:"family"`
 	Method             string        `json:"method"`
 	FamilySize         int           `json:"family_size"`
 	PValue             float64       `json:"p_value"`
@@ -343,6 +353,7 @@ type JSONAdjusted struct {
 
 func toJSONAdjusted(a experiment.Adjusted) JSONAdjusted {
 	return JSONAdjusted{
+		Family:             a.Family.String(),
 		Method:             a.Method,
 		FamilySize:         a.FamilySize,
 		PValue:             a.PValue,

@@ -171,9 +171,10 @@ func checkProseLevels(t *testing.T, md string, adjust stats.AdjustMethod) {
 			want("the simultaneous level", m[1]+"%", s+"%")
 		}
 		want("the joint level", m[3]+"%", level+"%")
+		rule, _, _ := strings.Cut(m[2], ",")
 		for _, row := range cellsOf(md, "Simultaneous interval") {
-			if !strings.Contains(row, "at "+m[2]+")") {
-				t.Errorf("the prose's rule %q is not the table's: %s", m[2], row)
+			if !strings.Contains(row, "at "+rule+")") {
+				t.Errorf("the prose's rule %q is not the table's: %s", rule, row)
 			}
 		}
 	}

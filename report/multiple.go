@@ -71,13 +71,14 @@ func joinAnd(list []string) string {
 }
 
 // familyMembers lists, per metric in readout order, the treatments whose
-// comparison with the control is in the family (Adjusted set).
-func familyMembers(r experiment.Readout) (metrics []string, treatments [][]string, control string) {
+// comparison with the control is in the family of role (Adjusted set
+// with that family).
+func familyMembers(r experiment.Readout, role experiment.Role) (metrics []string, treatments [][]string, control string) {
 	control = r.Control
 	for _, m := range r.Metrics {
 		var ts []string
 		for _, c := range m.Comparisons {
-			if c.Adjusted != nil {
+			if c.Adjusted != nil && c.Adjusted.Family == role {
 				ts = append(ts, code(c.Treatment))
 				control = c.Control
 			}
@@ -90,11 +91,11 @@ func familyMembers(r experiment.Readout) (metrics []string, treatments [][]strin
 	return metrics, treatments, control
 }
 
-// familyList names the comparisons of the family: "`a` and `b` against
-// `control` on `m1` and `m2`" when every metric has the same treatments,
-// else one clause per metric.
-func familyList(r experiment.Readout) string {
-	metrics, treatments, control := familyMembers(r)
+// familyList names the comparisons of the family of role: "`a` and `b`
+// against `control` on `m1` and `m2`" when every metric has the same
+// treatments, else one clause per metric.
+func familyList(r experiment.Readout, role experiment.Role) string {
+	metrics, treatments, control := familyMembers(r, role)
 	if len(metrics) == 0 {
 		return ""
 	}
@@ -112,6 +113,16 @@ func familyList(r experiment.Readout) string {
 		clauses[i] = joinAnd(treatments[i]) + " against " + code(control) + " on " + metrics[i]
 	}
 	return strings.Join(clauses, "; ")
+}
+
+// overFamily is "4 comparisons", or "2 comparisons (secondary family)"
+// for a comparison adjusted in the secondary family.
+func overFamily(adj *experiment.Adjusted) string {
+	s := Plural(int64(adj.FamilySize), "comparison", "comparisons")
+	if adj.Family == experiment.Secondary {
+		s += " (secondary family)"
+	}
+	return s
 }
 
 // outside counts the tests decided outside the family: target-rate tests,
@@ -166,13 +177,13 @@ func countOutside(r experiment.Readout) outside {
 	return o
 }
 
-// changedByAdjustment counts the comparisons whose reported decision
-// differs from the unadjusted one.
-func changedByAdjustment(r experiment.Readout) int {
+// changedByAdjustment counts the comparisons of the family of role whose
+// reported decision differs from the unadjusted one.
+func changedByAdjustment(r experiment.Readout, role experiment.Role) int {
 	k := 0
 	for _, m := range r.Metrics {
 		for _, c := range m.Comparisons {
-			if c.Adjusted != nil && c.Significant != c.SignificantUnadjusted {
+			if c.Adjusted != nil && c.Adjusted.Family == role && c.Significant != c.SignificantUnadjusted {
 				k++
 			}
 		}
@@ -180,13 +191,43 @@ func changedByAdjustment(r experiment.Readout) int {
 	return k
 }
 
-// multiplicity writes the statement of the multiple-comparison family.
+// multiplicity writes the statement of the multiple-comparison families:
+// the confirmatory family of the primary metrics and, when the readout
+// has secondary metrics, their family.
 func (md *markdown) multiplicity(r experiment.Readout) {
-	mc := r.Multiplicity
-	alpha := r.Settings.Alpha
 	md.heading(1, "Multiple comparisons")
+	families := r.Families()
+	for i, mc := range families {
+		var b strings.Builder
+		if len(families) > 1 {
+			if mc.Role == experiment.Secondary {
+				b.WriteString("**Secondary family** (secondary metrics; they never change the decision): ")
+			} else {
+				b.WriteString("**Confirmatory family** (primary metrics; they decide): ")
+			}
+		}
+		b.WriteString(familyStatement(r, mc))
+		o := countOutside(r)
+		var out []string
+		if o.targets > 0 {
+			out = append(out, "target-rate tests")
+		}
+		if o.guardrails > 0 || o.guardrailDiffs > 0 {
+			out = append(out, "guardrail metrics (their non-inferiority tests and their difference tests)")
+		}
+		if i == len(families)-1 && len(out) > 0 && mc.Size > 0 {
+			fmt.Fprintf(&b, " Outside the %s, each at alpha %s on its own: %s.",
+				PluralWord(int64(len(families)), "family", "families"), formatAlpha(r.Settings.Alpha), joinAnd(out))
+		}
+		md.para(b.String())
+	}
+}
+
+// familyStatement says how one family was adjusted and what it holds.
+func familyStatement(r experiment.Readout, mc experiment.Multiplicity) string {
+	alpha := r.Settings.Alpha
 	var b strings.Builder
-	list := familyList(r)
+	list := familyList(r, mc.Role)
 	switch {
 	case mc.Size == 0 && !adjusts(mc.Method):
 		b.WriteString("No adjustment for multiple comparisons, and no comparison with the control could be tested.")
@@ -207,21 +248,31 @@ func (md *markdown) multiplicity(r experiment.Readout) {
 		}
 		b.WriteString("Each comparison's Decision row gives the adjusted decision, which is the final one, and says when the decision before adjustment differs.")
 		if mc.Method == "bonferroni" {
-			b.WriteString(simultaneousSentence(r))
+			b.WriteString(bonferroniSentence(r, mc))
 		}
 	}
-	o := countOutside(r)
-	var out []string
-	if o.targets > 0 {
-		out = append(out, "target-rate tests")
+	return b.String()
+}
+
+// bonferroniSentence states the level of the simultaneous intervals of a
+// Bonferroni family: the level the comparison tables print (1 - alpha/m,
+// or 1 - 2 alpha/m for a one-sided alternative, whose intervals are at
+// 1 - 2 alpha), and the level they hold at together.
+func bonferroniSentence(r experiment.Readout, mc experiment.Multiplicity) string {
+	level := 1 - (1-r.Settings.ConfidenceLevel)/float64(mc.Size)
+	for _, m := range r.Metrics {
+		for _, c := range m.Comparisons {
+			if a := c.Adjusted; a != nil && a.Family == mc.Role && a.DifferenceInterval != nil {
+				level = a.DifferenceInterval.Level
+			}
+		}
 	}
-	if o.guardrails > 0 || o.guardrailDiffs > 0 {
-		out = append(out, "guardrail metrics (their non-inferiority tests and their difference tests)")
+	rule := fmt.Sprintf("1 - %s / %d", formatAlpha(r.Settings.Alpha), mc.Size)
+	if r.Settings.Alternative != "two-sided" {
+		rule = fmt.Sprintf("1 - 2 × %s / %d, the one-sided test's two-sided level", formatAlpha(r.Settings.Alpha), mc.Size)
 	}
-	if len(out) > 0 && mc.Size > 0 {
-		fmt.Fprintf(&b, " Outside the family, each at alpha %s on its own: %s.", formatAlpha(alpha), joinAnd(out))
-	}
-	md.para(b.String())
+	return fmt.Sprintf(" Bonferroni also gives simultaneous intervals: each difference gets a %s interval (%s), and they all hold at once with at least %s confidence.",
+		formatLevel(level), rule, formatLevel(r.Settings.ConfidenceLevel))
 }
 
 // adjustedRow is the comparison table's "Adjusted p-value" cell.
@@ -241,7 +292,7 @@ func adjustedRow(m experiment.MetricReadout, c experiment.Comparison) string {
 	p := decisionP(c.DecidedBy, c.Z, c.Exact)
 	alpha := decisionAlpha(c.DecidedBy, c.Z, c.Exact)
 	return fmt.Sprintf("%s over %s, from %s (%s): adjusted %s: %s",
-		adjustmentName(adj.Method), Plural(int64(adj.FamilySize), "comparison", "comparisons"), pIs(p), by,
+		adjustmentName(adj.Method), overFamily(adj), pIs(p), by,
 		pAgainst(adj.PValue, alpha), rejectText(adj.Significant))
 }
 
@@ -307,17 +358,32 @@ func multiplicityCaution(r experiment.Readout) string {
 		}
 		return fmt.Sprintf("This readout makes %d tests, %s, with no adjustment for multiple comparisons; the more tests, the likelier one is significant by chance.", k, each)
 	}
-	metrics, _, _ := familyMembers(r)
+	metrics, _, _ := familyMembers(r, experiment.Primary)
 	var b strings.Builder
-	fmt.Fprintf(&b, "Multiple comparisons: the %s with the control on %s were adjusted together by the %s method, which keeps %s at alpha %s; the decisions above are the adjusted ones",
-		Plural(int64(mc.Size), "comparison", "comparisons"), joinAnd(metrics), adjustmentName(mc.Method),
-		errorRateText(mc.ErrorRate), formatAlpha(r.Settings.Alpha))
-	if k := changedByAdjustment(r); k > 0 {
-		fmt.Fprintf(&b, " (%d %s significant only before adjustment)", k, PluralWord(int64(k), "was", "were"))
+	if len(metrics) > 0 {
+		fmt.Fprintf(&b, "Multiple comparisons: the %s with the control on %s were adjusted together by the %s method, which keeps %s at alpha %s; the decisions above are the adjusted ones",
+			Plural(int64(mc.Size), "comparison", "comparisons"), joinAnd(metrics), adjustmentName(mc.Method),
+			errorRateText(mc.ErrorRate), formatAlpha(r.Settings.Alpha))
+		if k := changedByAdjustment(r, experiment.Primary); k > 0 {
+			fmt.Fprintf(&b, " (%d %s significant only before adjustment)", k, PluralWord(int64(k), "was", "were"))
+		}
+		b.WriteString(".")
 	}
-	b.WriteString(".")
+	if sec := r.SecondaryMultiplicity; sec != nil && sec.Size > 0 {
+		metrics, _, _ := familyMembers(r, experiment.Secondary)
+		if b.Len() > 0 {
+			b.WriteString(" ")
+		}
+		fmt.Fprintf(&b, "The %s on the secondary %s %s were adjusted apart, in a family of their own by the same method",
+			Plural(int64(sec.Size), "comparison", "comparisons"), PluralWord(int64(len(metrics)), "metric", "metrics"), joinAnd(metrics))
+		if k := changedByAdjustment(r, experiment.Secondary); k > 0 {
+			fmt.Fprintf(&b, " (%d %s significant only before adjustment)", k, PluralWord(int64(k), "was", "were"))
+		}
+		b.WriteString("; they never change the decision.")
+	}
 	if o.total() > 0 {
-		fmt.Fprintf(&b, " Outside the family, %s on its own: %s; the more of them, the likelier one is significant by chance.", each, o.text())
+		fmt.Fprintf(&b, " Outside the %s, %s on its own: %s; the more of them, the likelier one is significant by chance.",
+			PluralWord(int64(len(r.Families())), "family", "families"), each, o.text())
 	}
 	return b.String()
 }

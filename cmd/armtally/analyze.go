@@ -53,8 +53,11 @@ Guardrails (--guardrail, repeatable): a metric that must not get worse,
   control's rate (5%). Each treatment is tested for non-inferiority; mark
   metrics where lower is better (unsubscribes, refunds) with --lower-is-better.
 
-Comparisons of each treatment with the control on each metric (guardrails
-apart) form one family, adjusted with --adjust (Holm by default).
+Secondary metrics (--secondary-metric, repeatable, as --metric) inform but
+never decide. Every --metric is primary: the primary metrics' comparisons of
+each treatment with the control form the confirmatory family, adjusted with
+--adjust (Holm by default); the secondary metrics' comparisons are adjusted
+in a family of their own by the same method; guardrails stay outside both.
 
 Examples:
   armtally analyze --demo
@@ -113,7 +116,7 @@ func newAnalyzeFlagSet(f *analyzeFlags, stderr io.Writer) *pflag.FlagSet {
 	fs.StringVar(&f.exp.Maturity, "maturity", "exclude", "units whose attribution window has not closed: exclude or include")
 	fs.Float64Var(&f.exp.Alpha, "alpha", 0.05, "significance level of every test; intervals are at 1 - alpha")
 	fs.StringVar(&f.exp.Alternative, "alternative", "two-sided", "alternative hypothesis: two-sided, greater (treatment higher) or less; intervals are at 1 - 2 alpha for one-sided tests")
-	fs.StringVar(&f.exp.Adjust, "adjust", "holm", "multiple-comparison adjustment over treatments x metrics: holm, bonferroni, hochberg, bh, by or none")
+	fs.StringVar(&f.exp.Adjust, "adjust", "holm", "multiple-comparison adjustment over treatments x primary metrics (and, apart, x secondary metrics): holm, bonferroni, hochberg, bh, by or none")
 	fs.StringVar(&f.exp.Interval, "interval", experiment.IntervalWilson.String(), "interval of each arm's rate: wilson, clopper-pearson, agresti-coull or wald")
 	fs.StringVar(&f.exp.DifferenceInterval, "difference-interval", experiment.DifferenceNewcombe.String(), "interval of each difference: newcombe or wald")
 	fs.StringVar(&f.exp.NonInferiorityMethod, "non-inferiority-method", "farrington-manning", "variance of guardrail tests: farrington-manning, miettinen-nurminen or wald")
