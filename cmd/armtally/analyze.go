@@ -78,6 +78,7 @@ type analyzeFlags struct {
 	// exp holds the flags of one experiment's settings.
 	exp                   specfile.Overrides
 	lowerIsBetter         []string
+	allowAbsent           []string
 	out, jsonOut          string
 	failOnSampleRatio     bool
 	spec                  string
@@ -104,6 +105,7 @@ func newAnalyzeFlagSet(f *analyzeFlags, stderr io.Writer) *pflag.FlagSet {
 	fs.StringArrayVar(&f.exp.Metrics, "metric", nil, "conversion metric NAME=EVENT[,EVENT...][:WINDOW][@TARGET] (repeatable)")
 	fs.StringArrayVar(&f.exp.Guardrails, "guardrail", nil, "guardrail metric NAME=EVENT[,EVENT...][:WINDOW]~MARGIN, MARGIN 0.5pp (absolute) or 5% (of the control's rate) (repeatable)")
 	fs.StringArrayVar(&f.lowerIsBetter, "lower-is-better", nil, "metric where a lower rate is the good outcome (repeatable)")
+	fs.StringArrayVar(&f.allowAbsent, "allow-absent-event", nil, "event of a metric that may occur in no row of the log, for a genuinely rare event; without it such an event stops the run (exit 3) with the event names the log holds (repeatable)")
 	fs.StringVar(&f.exp.Start, "start", "", "start of the analysis window, inclusive (RFC 3339 or YYYY-MM-DD); default: all data")
 	fs.StringVar(&f.exp.End, "end", "", "end of the analysis window, exclusive; default: no end (maturity is judged against the latest event)")
 	fs.StringVar(&f.exp.MultiArm, "multi-arm", "exclude", "units exposed to several arms: exclude, or first (keep the first exposure's arm)")
@@ -174,6 +176,8 @@ type builtExperiment struct {
 	opts experiment.AnalysisOptions
 	// metricColumns maps each metric to its column of a unit table.
 	metricColumns []ingest.ColumnMap
+	// allowAbsent lists the events that may occur in no row.
+	allowAbsent []string
 }
 
 // parseAnalyze parses the analyze command line, and the spec file it
@@ -213,7 +217,8 @@ func parseAnalyzeRun(args []string, stdout, stderr io.Writer) (*analyzeRun, erro
 		if err != nil {
 			return nil, err
 		}
-		run.experiments = append(run.experiments, builtExperiment{spec: spec, opts: opts, metricColumns: e.MetricColumns()})
+		run.experiments = append(run.experiments, builtExperiment{spec: spec, opts: opts, metricColumns: e.MetricColumns(),
+			allowAbsent: e.AllowAbsentEvents()})
 	}
 	// Flags the user set override the file's values; without a file,
 	// every flag applies.
@@ -302,6 +307,9 @@ func analyzeExperiments(fs *pflag.FlagSet, f *analyzeFlags, sf *specfile.File) (
 		}
 	}
 	if err := applyLowerIsBetter(f.lowerIsBetter, exps); err != nil {
+		return nil, err
+	}
+	if err := applyAllowAbsent(f.allowAbsent, exps); err != nil {
 		return nil, err
 	}
 	for _, name := range f.segments {
@@ -487,6 +495,22 @@ func applyLowerIsBetter(names []string, exps []*specfile.Settings) error {
 	return nil
 }
 
+// applyAllowAbsent lets the events named by --allow-absent-event occur in
+// no row, in every experiment that counts them; an event no metric counts
+// is an error.
+func applyAllowAbsent(events []string, exps []*specfile.Settings) error {
+	for _, ev := range events {
+		found := false
+		for _, e := range exps {
+			found = e.AllowAbsentEvent(ev) || found
+		}
+		if !found {
+			return usagef("analyze: --allow-absent-event %q: no metric or guardrail counts that event", ev)
+		}
+	}
+	return nil
+}
+
 // demoDefaults sets the flags the user left alone to the demo's settings.
 func demoDefaults(fs *pflag.FlagSet, f *analyzeFlags) {
 	d := sampledata.DemoSpec()
@@ -531,10 +555,21 @@ func runAnalyze(args []string, stdout, stderr io.Writer) error {
 	if err != nil {
 		return err
 	}
+	noteKeys(run, res.Readouts, stderr)
 	if err := writeOutputs(ctx, run, res, stdout); err != nil {
 		return err
 	}
 	return checkSampleRatio(run, res.Readouts)
+}
+
+// noteKeys says on stderr which experiment a run without a key analysed:
+// the one key on the log's exposure rows.
+func noteKeys(run *analyzeRun, readouts []experiment.Readout, stderr io.Writer) {
+	for i, e := range run.experiments {
+		if e.spec.Key == "" && i < len(readouts) && readouts[i].Experiment != "" {
+			fmt.Fprintf(stderr, "armtally: no experiment key given; the log's exposure rows carry one, %q: analysing it\n", readouts[i].Experiment)
+		}
+	}
 }
 
 // writeOutputs writes the readouts and audit tables of a run: the files
@@ -620,7 +655,8 @@ func pipelineInput(run *analyzeRun) (pipeline.Input, []pipeline.Experiment) {
 	}
 	exps := make([]pipeline.Experiment, len(run.experiments))
 	for i, e := range run.experiments {
-		exps[i] = pipeline.Experiment{Spec: e.spec, Options: e.opts, MetricColumns: e.metricColumns}
+		exps[i] = pipeline.Experiment{Spec: e.spec, Options: e.opts, MetricColumns: e.metricColumns,
+			AllowAbsentEvents: e.allowAbsent}
 	}
 	return in, exps
 }
