@@ -148,8 +148,10 @@ func (v *inventory) severalKeys(keys []string) error {
 
 // checkArms returns a *NotInDataError when the control or a planned arm
 // has no units in the tally: an arm is never made up with zero counts.
+// The arms that have units are listed most first.
 func checkArms(spec experiment.Spec, t experiment.Tally) error {
 	held := experiment.ArmsWithUnits(t)
+	slices.SortFunc(held, compareCounts)
 	has := func(name string) bool {
 		return slices.ContainsFunc(held, func(h experiment.NameCount) bool { return h.Name == name })
 	}
@@ -259,14 +261,17 @@ func byCount(m map[string]int64) []experiment.NameCount {
 	for k, n := range m {
 		out = append(out, experiment.NameCount{Name: k, Count: n})
 	}
-	slices.SortFunc(out, func(a, b experiment.NameCount) int {
-		if a.Count != b.Count {
-			if a.Count > b.Count {
-				return -1
-			}
-			return 1
-		}
-		return strings.Compare(a.Name, b.Name)
-	})
+	slices.SortFunc(out, compareCounts)
 	return out
+}
+
+// compareCounts orders counts most first, then by name.
+func compareCounts(a, b experiment.NameCount) int {
+	if a.Count != b.Count {
+		if a.Count > b.Count {
+			return -1
+		}
+		return 1
+	}
+	return strings.Compare(a.Name, b.Name)
 }

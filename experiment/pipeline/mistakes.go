@@ -59,8 +59,8 @@ type NotInDataError struct {
 	// Missing lists the names not found (empty for MismatchSeveralKeys).
 	Missing []Missing
 	// Held lists what the input holds of the kind Of names, with the count
-	// Per names ("" when the names could not be counted), most first
-	// (arms in the tally's order).
+	// Per names ("" when the names could not be counted), most first, then
+	// by name.
 	Held []experiment.NameCount
 	Of   string
 	Per  string
