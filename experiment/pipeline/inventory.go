@@ -185,6 +185,9 @@ func checkArms(spec experiment.Spec, t experiment.Tally) error {
 	}
 	if n := t.Diag.ExposuresOutsideWindow; n > 0 {
 		note = fmt.Sprintf("%s exposure rows of the experiment fall outside the analysis window", groupDigits(n))
+		if n == 1 {
+			note = "1 exposure row of the experiment falls outside the analysis window"
+		}
 	}
 	return &NotInDataError{Experiment: spec.Key, Kind: MismatchArm, Missing: missing, Held: held, Of: "arms", Per: per, Note: note}
 }
