@@ -306,10 +306,12 @@ func analyzeExperiments(fs *pflag.FlagSet, f *analyzeFlags, sf *specfile.File) (
 			}
 		}
 	}
-	if err := applyLowerIsBetter(f.lowerIsBetter, exps); err != nil {
+	// --lower-is-better marks the metrics of that name; --allow-absent-event
+	// lets the event occur in no row, in every experiment that counts it.
+	if err := applyToAll("lower-is-better", f.lowerIsBetter, exps, (*specfile.Settings).MarkLowerIsBetter, "no metric of that name"); err != nil {
 		return nil, err
 	}
-	if err := applyAllowAbsent(f.allowAbsent, exps); err != nil {
+	if err := applyToAll("allow-absent-event", f.allowAbsent, exps, (*specfile.Settings).AllowAbsentEvent, "no metric or guardrail counts that event"); err != nil {
 		return nil, err
 	}
 	for _, name := range f.segments {
@@ -480,32 +482,17 @@ func analyzeSources(fs *pflag.FlagSet, f *analyzeFlags, sf *specfile.File) ([]in
 	return sources, nil
 }
 
-// applyLowerIsBetter marks the metrics named by --lower-is-better in every
-// experiment that has them; a name no experiment has is an error.
-func applyLowerIsBetter(names []string, exps []*specfile.Settings) error {
+// applyToAll applies each name of the repeatable flag to every experiment
+// with apply, which reports whether the experiment has what the name
+// names; a name no experiment has is an error that says why.
+func applyToAll(flag string, names []string, exps []*specfile.Settings, apply func(*specfile.Settings, string) bool, why string) error {
 	for _, name := range names {
 		found := false
 		for _, e := range exps {
-			found = e.MarkLowerIsBetter(name) || found
+			found = apply(e, name) || found
 		}
 		if !found {
-			return usagef("analyze: --lower-is-better %q: no metric of that name", name)
-		}
-	}
-	return nil
-}
-
-// applyAllowAbsent lets the events named by --allow-absent-event occur in
-// no row, in every experiment that counts them; an event no metric counts
-// is an error.
-func applyAllowAbsent(events []string, exps []*specfile.Settings) error {
-	for _, ev := range events {
-		found := false
-		for _, e := range exps {
-			found = e.AllowAbsentEvent(ev) || found
-		}
-		if !found {
-			return usagef("analyze: --allow-absent-event %q: no metric or guardrail counts that event", ev)
+			return usagef("analyze: --%s %q: %s", flag, name, why)
 		}
 	}
 	return nil

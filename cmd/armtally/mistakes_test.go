@@ -8,47 +8,15 @@ import (
 	"testing"
 )
 
-// writeMistakesLog writes a hand-made event log into dir and returns its
-// path. Its counts, by construction: checkout-flow-2026 exposes u1-u3 in
-// control and u4-u5 in one-page (5 exposure rows), search-ranking (left
-// out with oneKey) exposes s1 and s2 (2 rows); event rows: exposure 7,
-// page_view 4, purchase 3, newsletter_signup 1 (oneKey: 5, 2, 3, 0).
-func writeMistakesLog(t *testing.T, dir string, oneKey bool) string {
-	t.Helper()
-	var b strings.Builder
-	b.WriteString("user_id,ts,event,experiment,arm\n")
-	row := func(user string, minute int, event, exp, arm string) {
-		fmt.Fprintf(&b, "%s,2026-11-02T10:%02d:00Z,%s,%s,%s\n", user, minute, event, exp, arm)
-	}
-	for i, u := range []string{"u1", "u2", "u3", "u4", "u5"} {
-		arm := "control"
-		if i >= 3 {
-			arm = "one-page"
-		}
-		row(u, i, "exposure", "checkout-flow-2026", arm)
-	}
-	for _, u := range []string{"u1", "u4", "u5"} {
-		row(u, 30, "purchase", "", "")
-	}
-	row("u1", 31, "page_view", "", "")
-	row("u2", 31, "page_view", "", "")
-	if !oneKey {
-		row("s1", 10, "exposure", "search-ranking", "baseline")
-		row("s2", 11, "exposure", "search-ranking", "fresh")
-		row("s1", 32, "page_view", "", "")
-		row("s2", 32, "page_view", "", "")
-		row("s2", 33, "newsletter_signup", "", "")
-	}
-	name := "two.csv"
-	if oneKey {
-		name = "one.csv"
-	}
-	path := filepath.Join(dir, name)
-	if err := os.WriteFile(path, []byte(b.String()), 0o644); err != nil {
-		t.Fatal(err)
-	}
-	return path
-}
+// The hand-made event logs testdata/mistakes/two.csv and one.csv. Their
+// counts, by construction (count the lines): checkout-flow-2026 exposes
+// u1-u3 in control and u4-u5 in one-page (5 exposure rows), search-ranking
+// (not in one.csv) exposes s1 and s2 (2 rows); event rows: exposure 7,
+// page_view 4, purchase 3, newsletter_signup 1 (one.csv: 5, 2, 3, 0).
+const (
+	mistakesTwo = "testdata/mistakes/two.csv"
+	mistakesOne = "testdata/mistakes/one.csv"
+)
 
 // TestMistakes runs each common mistake through the command: a mistake in
 // the names stops the run with exit 3 and a message that lists what the
@@ -56,11 +24,15 @@ func writeMistakesLog(t *testing.T, dir string, oneKey bool) string {
 // definition with exit 2; nothing is written to stdout then.
 func TestMistakes(t *testing.T) {
 	dir := t.TempDir()
-	two, one := writeMistakesLog(t, dir, false), writeMistakesLog(t, dir, true)
+	two, one := mistakesTwo, mistakesOne
+	abs, err := filepath.Abs(two)
+	if err != nil {
+		t.Fatal(err)
+	}
 	keyed := []string{"--experiment", "checkout-flow-2026", "--metric", "purchase=purchase:1d"}
 	spec := filepath.Join(dir, "spec.toml")
 	specText := `[input]
-paths = ["two.csv"]
+paths = [%q]
 
 [[experiment]]
 key = "checkout-flow"
@@ -70,6 +42,7 @@ name = "purchase"
 events = ["purchase"]
 window = "1d"
 `
+	specText = fmt.Sprintf(specText, abs)
 	if err := os.WriteFile(spec, []byte(specText), 0o644); err != nil {
 		t.Fatal(err)
 	}
@@ -153,10 +126,8 @@ events = ["refund"]
 // TestOneKeyNamed checks that a run without --experiment over a log of one
 // experiment names it in both readouts.
 func TestOneKeyNamed(t *testing.T) {
-	dir := t.TempDir()
-	one := writeMistakesLog(t, dir, true)
-	out := filepath.Join(dir, "r.json")
-	code, md, stderr := runCmd(t, "analyze", one, "--metric", "purchase=purchase:1d", "--json", out)
+	out := filepath.Join(t.TempDir(), "r.json")
+	code, md, stderr := runCmd(t, "analyze", mistakesOne, "--metric", "purchase=purchase:1d", "--json", out)
 	if code != exitOK {
 		t.Fatalf("exit %d: %s", code, stderr)
 	}

@@ -157,20 +157,18 @@ func (e *NotInDataError) writeHeld(b *strings.Builder) {
 	}
 }
 
-// groupDigits writes n with a comma between groups of three digits.
+// groupDigits writes a count with a comma between groups of three
+// digits.
 func groupDigits(n int64) string {
-	s := strconv.FormatInt(n, 10)
-	neg := strings.HasPrefix(s, "-")
-	s = strings.TrimPrefix(s, "-")
-	var b strings.Builder
-	if neg {
-		b.WriteByte('-')
+	if n < 0 {
+		return "-" + groupUint(uint64(-(n+1))+1)
 	}
-	for i, c := range s {
-		if i > 0 && (len(s)-i)%3 == 0 {
-			b.WriteByte(',')
-		}
-		b.WriteRune(c)
+	return groupUint(uint64(n))
+}
+
+func groupUint(u uint64) string {
+	if u < 1000 {
+		return strconv.FormatUint(u, 10)
 	}
-	return b.String()
+	return groupUint(u/1000) + fmt.Sprintf(",%03d", u%1000)
 }

@@ -4,6 +4,9 @@ import (
 	"context"
 	"errors"
 	"fmt"
+	"math"
+	"os"
+	"path/filepath"
 	"reflect"
 	"strings"
 	"testing"
@@ -15,38 +18,24 @@ import (
 	"github.com/armtally/armtally/ingest"
 )
 
-// mistakesLog is a hand-made event log whose counts are known by
-// construction: experiment checkout-flow-2026 exposes u1-u3 in control
-// and u4-u5 in one-page (5 exposure rows), search-ranking exposes s1 and
-// s2 (2 rows); page_view has 4 rows, purchase 3, newsletter_signup 1. With
-// oneKey, only the checkout-flow-2026 rows (5 exposures, purchase 3,
+// mistakesLog is the hand-made event log testdata/mistakes/two.csv (one
+// key: one.csv), read with os.ReadFile. Its counts, by construction (count
+// the lines): experiment checkout-flow-2026 exposes u1-u3 in control and
+// u4-u5 in one-page (5 exposure rows), search-ranking exposes s1 and s2 (2
+// rows); page_view has 4 rows, purchase 3, newsletter_signup 1. one.csv
+// holds only the checkout-flow-2026 rows (5 exposures, purchase 3,
 // page_view 2).
-func mistakesLog(oneKey bool) ingest.Source {
-	var b strings.Builder
-	b.WriteString("user_id,ts,event,experiment,arm\n")
-	row := func(user string, minute int, event, exp, arm string) {
-		fmt.Fprintf(&b, "%s,2026-11-02T10:%02d:00Z,%s,%s,%s\n", user, minute, event, exp, arm)
+func mistakesLog(t *testing.T, oneKey bool) ingest.Source {
+	t.Helper()
+	name := "two.csv"
+	if oneKey {
+		name = "one.csv"
 	}
-	for i, u := range []string{"u1", "u2", "u3", "u4", "u5"} {
-		arm := "control"
-		if i >= 3 {
-			arm = "one-page"
-		}
-		row(u, i, "exposure", "checkout-flow-2026", arm)
+	data, err := os.ReadFile(filepath.Join("testdata", "mistakes", name))
+	if err != nil {
+		t.Fatal(err)
 	}
-	for _, u := range []string{"u1", "u4", "u5"} {
-		row(u, 30, "purchase", "", "")
-	}
-	row("u1", 31, "page_view", "", "")
-	row("u2", 31, "page_view", "", "")
-	if !oneKey {
-		row("s1", 10, "exposure", "search-ranking", "baseline")
-		row("s2", 11, "exposure", "search-ranking", "fresh")
-		row("s1", 32, "page_view", "", "")
-		row("s2", 32, "page_view", "", "")
-		row("s2", 33, "newsletter_signup", "", "")
-	}
-	return ingest.BytesSource("log.csv", []byte(b.String()))
+	return ingest.BytesSource(name, data)
 }
 
 // mistakeSpec is the experiment the log holds, with one metric.
@@ -96,7 +85,7 @@ func TestRunNotInData(t *testing.T) {
 		for _, limit := range []int64{0, 1 << 20} {
 			e := Experiment{Spec: mistakeSpec(), Options: experiment.DefaultAnalysisOptions()}
 			tc.edit(&e)
-			_, err := Run(context.Background(), Input{Sources: []ingest.Source{mistakesLog(tc.oneKey)}}, []Experiment{e}, Options{MemoryLimit: limit})
+			_, err := Run(context.Background(), Input{Sources: []ingest.Source{mistakesLog(t, tc.oneKey)}}, []Experiment{e}, Options{MemoryLimit: limit})
 			var de *DataError
 			var nd *NotInDataError
 			if !errors.As(err, &de) || !errors.As(err, &nd) {
@@ -124,7 +113,7 @@ func TestRunOneKey(t *testing.T) {
 	e.Spec.Key = ""
 	e.Spec.Metrics = append(e.Spec.Metrics, experiment.Metric{Name: "refunds", Events: []string{"refund"}})
 	e.AllowAbsentEvents = []string{"refund"}
-	res, err := Run(context.Background(), Input{Sources: []ingest.Source{mistakesLog(true)}}, []Experiment{e}, Options{})
+	res, err := Run(context.Background(), Input{Sources: []ingest.Source{mistakesLog(t, true)}}, []Experiment{e}, Options{})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -147,7 +136,7 @@ func TestRunOneKey(t *testing.T) {
 // counts, before anything is read.
 func TestRunAllowUnknownEvent(t *testing.T) {
 	e := Experiment{Spec: mistakeSpec(), Options: experiment.DefaultAnalysisOptions(), AllowAbsentEvents: []string{"refund"}}
-	_, err := Run(context.Background(), Input{Sources: []ingest.Source{mistakesLog(true)}}, []Experiment{e}, Options{})
+	_, err := Run(context.Background(), Input{Sources: []ingest.Source{mistakesLog(t, true)}}, []Experiment{e}, Options{})
 	var ce *ConfigError
 	if !errors.As(err, &ce) || !strings.Contains(err.Error(), `"refund"`) {
 		t.Errorf("error %v, want a ConfigError naming refund", err)
@@ -235,5 +224,15 @@ func TestNotInDataMessage(t *testing.T) {
 	}
 	if strings.Contains(msg, "e12") {
 		t.Errorf("message lists more than %d names:\n%s", heldShown, msg)
+	}
+}
+
+// TestGroupDigits checks the thousands separators (common practice).
+func TestGroupDigits(t *testing.T) {
+	for n, want := range map[int64]string{0: "0", 999: "999", 1000: "1,000", 1234567: "1,234,567", 1000005: "1,000,005",
+		-1234: "-1,234", math.MinInt64: "-9,223,372,036,854,775,808"} {
+		if got := groupDigits(n); got != want {
+			t.Errorf("groupDigits(%d) = %q, want %q", n, got, want)
+		}
 	}
 }
