@@ -56,6 +56,16 @@ Guardrails (--guardrail, repeatable): a metric that must not get worse,
 Comparisons of each treatment with the control on each metric (guardrails
 apart) form one family, adjusted with --adjust (Holm by default).
 
+The window is the part after the last colon (page:view:7d is the event
+page:view); an event that also ends in a window (signup:1d:2d) is refused
+as ambiguous. Names the log does not hold stop the run with exit 3 and a
+list of what it holds, with counts and a close name: an experiment key
+(--experiment), the exposure event, the control or a planned arm (--arms),
+an event of a metric or guardrail (allow a genuinely rare one with
+--allow-absent-event EVENT). Without --experiment, a log whose exposure
+rows carry one key is analysed under it (said on stderr); several keys
+stop the run with their list.
+
 Examples:
   armtally analyze --demo
   armtally analyze --demo --json readout.json --out readout.md
@@ -97,7 +107,7 @@ func newAnalyzeFlagSet(f *analyzeFlags, stderr io.Writer) *pflag.FlagSet {
 	fs.SortFlags = false
 	fs.StringVar(&f.spec, "spec", "", "read the input, column mapping, outputs and experiments from this TOML spec file (see armtally help spec); flags you give override it")
 	fs.BoolVar(&f.demo, "demo", false, "analyse the embedded demo event log (its experiment, metrics and window are the defaults)")
-	fs.StringVar(&f.exp.Experiment, "experiment", "", "experiment key on exposure rows (required when the log holds several experiments); with --spec, run only the file's experiment of this key")
+	fs.StringVar(&f.exp.Experiment, "experiment", "", "experiment key on exposure rows (required when the log holds several experiments; with one, it is used); with --spec, run only the file's experiment of this key")
 	fs.StringVar(&f.exp.ExposureEvent, "exposure-event", "exposure", "event name of exposure rows")
 	fs.StringVar(&f.exp.Control, "control", "control", "name of the control arm")
 	fs.StringSliceVar(&f.exp.Arms, "arms", nil, "planned arms, comma-separated (the control is added first when missing); any other arm in the data is an error")

@@ -17,7 +17,13 @@
 //   - with a memory limit, the rows spilled to disk in hash partitions of
 //     the units, tallied a group at a time with the freshness of the whole
 //     input (SeeTime) and merged (experiment.MergeTallies);
-//   - the reader's rows read and bad rows passed to the analysis.
+//   - the reader's rows read and bad rows passed to the analysis;
+//   - each tally checked against the names its settings give (experiment
+//     key, exposure event, control and planned arms, the metrics' events):
+//     a name the input does not hold stops the run with a
+//     *NotInDataError listing what it holds, rather than a readout of
+//     zero counts; a log of one experiment key, given none, is analysed
+//     under that key.
 //
 // The readouts are the same bytes whichever way the rows arrive.
 package pipeline
