@@ -123,6 +123,19 @@ events = ["refund"]
 	}
 }
 
+// TestNoExperimentColumn checks that a log without an experiment column
+// (testdata/mistakes/nocolumn.csv: one.csv without it, read with
+// --experiment-col "") runs as before: no key to name, nothing on stderr.
+func TestNoExperimentColumn(t *testing.T) {
+	code, md, stderr := runCmd(t, "analyze", "testdata/mistakes/nocolumn.csv", "--experiment-col", "", "--metric", "purchase=purchase:1d")
+	if code != exitOK || stderr != "" {
+		t.Fatalf("exit %d, stderr %q; want 0 and nothing", code, stderr)
+	}
+	if title := strings.SplitN(md, "\n", 2)[0]; strings.Contains(title, "checkout-flow-2026") {
+		t.Errorf("title %q names a key the log does not have", title)
+	}
+}
+
 // TestOneKeyNamed checks that a run without --experiment over a log of one
 // experiment names it in both readouts.
 func TestOneKeyNamed(t *testing.T) {
