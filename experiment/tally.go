@@ -165,6 +165,10 @@ type Tallier struct {
 	rowKind []int32
 	rowArm  []int32
 	rowHash []uint64
+
+	// metricRows[i] counts the rows of event metricNames[i] (see
+	// MetricEventRows).
+	metricRows []int64
 }
 
 // tallyPart is one hash partition of the units.
@@ -251,6 +255,7 @@ func newTallier(spec Spec, partitions int) (*Tallier, error) {
 		t.end, t.hasEnd = spec.End.UnixNano(), true
 	}
 	t.diag.OutsideAttribution = make([]int64, len(spec.Metrics))
+	t.metricRows = make([]int64, len(t.metricNames))
 	return t, nil
 }
 
@@ -351,6 +356,7 @@ func (t *Tallier) Add(rec arrow.RecordBatch) error {
 			t.rowArm[i] = a
 		} else {
 			t.diag.MetricEvents++
+			t.metricRows[kind]++
 			if t.hasEnd && at >= t.end {
 				t.diag.AfterWindowEnd++
 				continue

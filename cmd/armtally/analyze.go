@@ -59,6 +59,16 @@ each treatment with the control form the confirmatory family, adjusted with
 --adjust (Holm by default); the secondary metrics' comparisons are adjusted
 in a family of their own by the same method; guardrails stay outside both.
 
+The window is the part after the last colon (page:view:7d is the event
+page:view); an event that also ends in a window (signup:1d:2d) is refused
+as ambiguous. Names the log does not hold stop the run with exit 3 and a
+list of what it holds, with counts and a close name: an experiment key
+(--experiment), the exposure event, the control or a planned arm (--arms),
+an event of a metric or guardrail (allow a genuinely rare one with
+--allow-absent-event EVENT). Without --experiment, a log whose exposure
+rows carry one key is analysed under it (said on stderr); several keys
+stop the run with their list.
+
 Examples:
   armtally analyze --demo
   armtally analyze --demo --json readout.json --out readout.md
@@ -82,6 +92,7 @@ type analyzeFlags struct {
 	// exp holds the flags of one experiment's settings.
 	exp                   specfile.Overrides
 	lowerIsBetter         []string
+	allowAbsent           []string
 	out, jsonOut          string
 	brief                 string
 	failOnSampleRatio     bool
@@ -101,7 +112,7 @@ func newAnalyzeFlagSet(f *analyzeFlags, stderr io.Writer) *pflag.FlagSet {
 	fs.SortFlags = false
 	fs.StringVar(&f.spec, "spec", "", "read the input, column mapping, outputs and experiments from this TOML spec file (see armtally help spec); flags you give override it")
 	fs.BoolVar(&f.demo, "demo", false, "analyse the embedded demo event log (its experiment, metrics and window are the defaults)")
-	fs.StringVar(&f.exp.Experiment, "experiment", "", "experiment key on exposure rows (required when the log holds several experiments); with --spec, run only the file's experiment of this key")
+	fs.StringVar(&f.exp.Experiment, "experiment", "", "experiment key on exposure rows (required when the log holds several experiments; with one, it is used); with --spec, run only the file's experiment of this key")
 	fs.StringVar(&f.exp.ExposureEvent, "exposure-event", "exposure", "event name of exposure rows")
 	fs.StringVar(&f.exp.Control, "control", "control", "name of the control arm")
 	fs.StringSliceVar(&f.exp.Arms, "arms", nil, "planned arms, comma-separated (the control is added first when missing); any other arm in the data is an error")
@@ -110,6 +121,7 @@ func newAnalyzeFlagSet(f *analyzeFlags, stderr io.Writer) *pflag.FlagSet {
 	fs.StringArrayVar(&f.exp.Secondary, "secondary-metric", nil, "secondary conversion metric, as --metric: compared in a family of its own, never deciding (repeatable)")
 	fs.StringArrayVar(&f.exp.Guardrails, "guardrail", nil, "guardrail metric NAME=EVENT[,EVENT...][:WINDOW]~MARGIN, MARGIN 0.5pp (absolute) or 5% (of the control's rate) (repeatable)")
 	fs.StringArrayVar(&f.lowerIsBetter, "lower-is-better", nil, "metric where a lower rate is the good outcome (repeatable)")
+	fs.StringArrayVar(&f.allowAbsent, "allow-absent-event", nil, "event of a metric that may occur in no row of the log, for a genuinely rare event; without it such an event stops the run (exit 3) with the event names the log holds (repeatable)")
 	fs.StringVar(&f.exp.Start, "start", "", "start of the analysis window, inclusive (RFC 3339 or YYYY-MM-DD); default: all data")
 	fs.StringVar(&f.exp.End, "end", "", "end of the analysis window, exclusive; default: no end (maturity is judged against the latest event)")
 	fs.StringVar(&f.exp.MultiArm, "multi-arm", "exclude", "units exposed to several arms: exclude, or first (keep the first exposure's arm)")
@@ -184,6 +196,8 @@ type builtExperiment struct {
 	opts experiment.AnalysisOptions
 	// metricColumns maps each metric to its column of a unit table.
 	metricColumns []ingest.ColumnMap
+	// allowAbsent lists the events that may occur in no row.
+	allowAbsent []string
 }
 
 // parseAnalyze parses the analyze command line, and the spec file it
@@ -223,7 +237,8 @@ func parseAnalyzeRun(args []string, stdout, stderr io.Writer) (*analyzeRun, erro
 		if err != nil {
 			return nil, err
 		}
-		run.experiments = append(run.experiments, builtExperiment{spec: spec, opts: opts, metricColumns: e.MetricColumns()})
+		run.experiments = append(run.experiments, builtExperiment{spec: spec, opts: opts, metricColumns: e.MetricColumns(),
+			allowAbsent: e.AllowAbsentEvents()})
 	}
 	// Flags the user set override the file's values; without a file,
 	// every flag applies.
@@ -311,7 +326,12 @@ func analyzeExperiments(fs *pflag.FlagSet, f *analyzeFlags, sf *specfile.File) (
 			}
 		}
 	}
-	if err := applyLowerIsBetter(f.lowerIsBetter, exps); err != nil {
+	// --lower-is-better marks the metrics of that name; --allow-absent-event
+	// lets the event occur in no row, in every experiment that counts it.
+	if err := applyToAll("lower-is-better", f.lowerIsBetter, exps, (*specfile.Settings).MarkLowerIsBetter, "no metric of that name"); err != nil {
+		return nil, err
+	}
+	if err := applyToAll("allow-absent-event", f.allowAbsent, exps, (*specfile.Settings).AllowAbsentEvent, "no metric or guardrail counts that event"); err != nil {
 		return nil, err
 	}
 	for _, name := range f.segments {
@@ -485,16 +505,17 @@ func analyzeSources(fs *pflag.FlagSet, f *analyzeFlags, sf *specfile.File) ([]in
 	return sources, nil
 }
 
-// applyLowerIsBetter marks the metrics named by --lower-is-better in every
-// experiment that has them; a name no experiment has is an error.
-func applyLowerIsBetter(names []string, exps []*specfile.Settings) error {
+// applyToAll applies each name of the repeatable flag to every experiment
+// with apply, which reports whether the experiment has what the name
+// names; a name no experiment has is an error that says why.
+func applyToAll(flag string, names []string, exps []*specfile.Settings, apply func(*specfile.Settings, string) bool, why string) error {
 	for _, name := range names {
 		found := false
 		for _, e := range exps {
-			found = e.MarkLowerIsBetter(name) || found
+			found = apply(e, name) || found
 		}
 		if !found {
-			return usagef("analyze: --lower-is-better %q: no metric of that name", name)
+			return usagef("analyze: --%s %q: %s", flag, name, why)
 		}
 	}
 	return nil
@@ -544,10 +565,21 @@ func runAnalyze(args []string, stdout, stderr io.Writer) error {
 	if err != nil {
 		return err
 	}
+	noteKeys(run, res.Readouts, stderr)
 	if err := writeOutputs(ctx, run, res, stdout); err != nil {
 		return err
 	}
 	return checkSampleRatio(run, res.Readouts)
+}
+
+// noteKeys says on stderr which experiment a run without a key analysed:
+// the one key on the log's exposure rows.
+func noteKeys(run *analyzeRun, readouts []experiment.Readout, stderr io.Writer) {
+	for i, e := range run.experiments {
+		if e.spec.Key == "" && i < len(readouts) && readouts[i].Experiment != "" {
+			fmt.Fprintf(stderr, "armtally: no experiment key given; the log's exposure rows carry one, %q: analysing it\n", readouts[i].Experiment)
+		}
+	}
 }
 
 // writeOutputs writes the readouts and audit tables of a run: the files
@@ -642,7 +674,8 @@ func pipelineInput(run *analyzeRun) (pipeline.Input, []pipeline.Experiment) {
 	}
 	exps := make([]pipeline.Experiment, len(run.experiments))
 	for i, e := range run.experiments {
-		exps[i] = pipeline.Experiment{Spec: e.spec, Options: e.opts, MetricColumns: e.metricColumns}
+		exps[i] = pipeline.Experiment{Spec: e.spec, Options: e.opts, MetricColumns: e.metricColumns,
+			AllowAbsentEvents: e.allowAbsent}
 	}
 	return in, exps
 }

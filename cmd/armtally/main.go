@@ -24,7 +24,10 @@
 //	     input is read)
 //	3    data error: an input cannot be read, a row is malformed, the data
 //	     contradicts the settings (an arm that is not planned, several
-//	     experiments without --experiment)
+//	     experiments without --experiment), or the data does not hold a
+//	     name the settings give (an experiment key, the exposure event, the
+//	     control or a planned arm, an event of a metric): the message lists
+//	     what the log holds, with counts, and a close name ("did you mean")
 //	4    the sample ratio check failed and --fail-on-sample-ratio was given
 //	     (the readout is still written)
 //	130  stopped by SIGINT (143: by SIGTERM)
@@ -49,6 +52,7 @@ import (
 
 	"github.com/spf13/pflag"
 
+	"github.com/armtally/armtally/experiment/pipeline"
 	"github.com/armtally/armtally/experiment/specfile"
 )
 
@@ -126,7 +130,9 @@ Exit codes:
   1    unexpected failure (such as a full disk; no output is then replaced)
   2    usage error (including an error in a spec file, named by file, line and
        key, and an output path that is an input, another output or not writable)
-  3    data error (unreadable input, malformed row, data that contradicts the settings)
+  3    data error (unreadable input, malformed row, data that contradicts the settings,
+       a name the data does not hold: experiment key, exposure event, control or
+       planned arm, event of a metric; the message lists what the log holds)
   4    sample ratio mismatch with --fail-on-sample-ratio (the readout is still written)
   130  stopped by SIGINT; 143: by SIGTERM (no output replaced, temporary files removed)
 
@@ -208,6 +214,10 @@ func exitCode(err error, stderr io.Writer) int {
 		return exitUsage
 	case errors.As(err, &de):
 		fmt.Fprintf(stderr, "armtally: %v\n", err)
+		var nd *pipeline.NotInDataError
+		if errors.As(err, &nd) {
+			fmt.Fprintln(stderr, notInDataHint(nd.Kind))
+		}
 		return exitData
 	case errors.Is(err, errSampleRatio):
 		fmt.Fprintf(stderr, "armtally: %v\n", err)
@@ -215,4 +225,21 @@ func exitCode(err error, stderr io.Writer) int {
 	}
 	fmt.Fprintf(stderr, "armtally: %v\n", err)
 	return exitFailure
+}
+
+// notInDataHint says which setting names what the data does not hold.
+func notInDataHint(k pipeline.MismatchKind) string {
+	switch k {
+	case pipeline.MismatchExperimentKey:
+		return "Name the experiment with --experiment KEY (key in a spec file)."
+	case pipeline.MismatchSeveralKeys:
+		return "Choose one with --experiment KEY."
+	case pipeline.MismatchExposureEvent:
+		return "Name the exposure event with --exposure-event EVENT (exposure_event in a spec file)."
+	case pipeline.MismatchArm:
+		return "Name the control with --control and the planned arms with --arms (control and arms in a spec file)."
+	case pipeline.MismatchEvent:
+		return "Correct the metric, or allow a genuinely rare event with --allow-absent-event EVENT (allow_absent_events in a spec file)."
+	}
+	return "Check the settings against what the input holds ('armtally inspect')."
 }

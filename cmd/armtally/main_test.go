@@ -291,8 +291,8 @@ func TestExitCodes(t *testing.T) {
 		{"missing file", []string{"analyze", filepath.Join(dir, "nope.csv"), "--metric", "buy"}, exitData, "nope.csv"},
 		{"bad row", []string{"analyze", bad, "--metric", "buy"}, exitData, `bad.csv:4: column "ts": cannot parse "yesterday"`},
 		{"unplanned arm", []string{"analyze", skewed, "--metric", "buy", "--arms", "control,other"}, exitData, `part-0.csv:1002: column "arm": exposure row with an arm that is not planned (value "treat")`},
-		{"sample ratio ignored", []string{"analyze", skewed, "--metric", "buy"}, exitOK, ""},
-		{"sample ratio fails", []string{"analyze", skewed, "--metric", "buy", "--fail-on-sample-ratio"}, exitSampleRatio, "sample ratio mismatch"},
+		{"sample ratio ignored", []string{"analyze", skewed, "--metric", "buy", "--allow-absent-event", "buy"}, exitOK, ""},
+		{"sample ratio fails", []string{"analyze", skewed, "--metric", "buy", "--allow-absent-event", "buy", "--fail-on-sample-ratio"}, exitSampleRatio, "sample ratio mismatch"},
 		{"bad adjustment", []string{"analyze", "--demo", "--adjust", "sidak"}, exitUsage, "--adjust"},
 		{"bad interval", []string{"analyze", "--demo", "--interval", "exact"}, exitUsage, "--interval"},
 		{"alpha too large for one-sided", []string{"analyze", "--demo", "--alpha", "0.5"}, exitUsage, "--alpha"},
@@ -381,15 +381,18 @@ func TestSegmentFlag(t *testing.T) {
 
 // TestUnknownArmBudget checks that, under an error budget, exposures in an
 // arm that is not planned are skipped and counted: the skewed log of
-// TestExitCodes has 1,000 control and 1,200 "treat" exposures (counted by
-// construction), and only control is planned besides "other".
+// TestExitCodes has 1,000 control and 1,200 "treat" exposures, here with 10
+// "other" exposures after them (counted by construction), and only control
+// is planned besides "other".
 func TestUnknownArmBudget(t *testing.T) {
 	dir := t.TempDir()
 	var b strings.Builder
 	b.WriteString("user_id,ts,event,experiment,arm\n")
-	for i := 0; i < 2200; i++ {
+	for i := 0; i < 2210; i++ {
 		arm := "control"
-		if i >= 1000 {
+		if i >= 2200 {
+			arm = "other"
+		} else if i >= 1000 {
 			arm = "treat"
 		}
 		b.WriteString("u" + strconv.Itoa(i) + ",2026-11-02T10:00:00Z,exposure,exp," + arm + "\n")
@@ -399,14 +402,14 @@ func TestUnknownArmBudget(t *testing.T) {
 		t.Fatal(err)
 	}
 	out := filepath.Join(dir, "r.json")
-	code, _, stderr := runCmd(t, "analyze", in, "--metric", "buy", "--arms", "control,other", "--max-bad-rows", "-1", "--json", out)
+	code, _, stderr := runCmd(t, "analyze", in, "--metric", "buy", "--allow-absent-event", "buy", "--arms", "control,other", "--max-bad-rows", "-1", "--json", out)
 	if code != exitOK {
 		t.Fatalf("exit %d: %s", code, stderr)
 	}
 	_, doc := readDoc(t, out)
 	d := doc.Readouts[0].Diagnostics
 	want := []report.JSONReasonCount{{Reason: "unknown_arm", Count: 1200}}
-	if !reflect.DeepEqual(d.BadRows, want) || d.RowsRead != 2200 || d.UnitsExposed != 1000 {
-		t.Errorf("bad rows %+v, rows read %d, units exposed %d; want %+v, 2200, 1000", d.BadRows, d.RowsRead, d.UnitsExposed, want)
+	if !reflect.DeepEqual(d.BadRows, want) || d.RowsRead != 2210 || d.UnitsExposed != 1010 {
+		t.Errorf("bad rows %+v, rows read %d, units exposed %d; want %+v, 2210, 1010", d.BadRows, d.RowsRead, d.UnitsExposed, want)
 	}
 }

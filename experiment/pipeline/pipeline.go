@@ -17,7 +17,13 @@
 //   - with a memory limit, the rows spilled to disk in hash partitions of
 //     the units, tallied a group at a time with the freshness of the whole
 //     input (SeeTime) and merged (experiment.MergeTallies);
-//   - the reader's rows read and bad rows passed to the analysis.
+//   - the reader's rows read and bad rows passed to the analysis;
+//   - each tally checked against the names its settings give (experiment
+//     key, exposure event, control and planned arms, the metrics' events):
+//     a name the input does not hold stops the run with a
+//     *NotInDataError listing what it holds, rather than a readout of
+//     zero counts; a log of one experiment key, given none, is analysed
+//     under that key.
 //
 // The readouts are the same bytes whichever way the rows arrive.
 package pipeline
@@ -87,6 +93,11 @@ type Experiment struct {
 	// MetricColumns maps each metric to its 0/1 column of a unit table;
 	// a metric left out is read from the column of its own name.
 	MetricColumns []ingest.ColumnMap
+	// AllowAbsentEvents lists events of the metrics that may occur in no
+	// row of an event log (a genuinely rare event): without it, such an
+	// event stops the run with a *NotInDataError. Each must be an event
+	// of one of the experiment's metrics.
+	AllowAbsentEvents []string
 }
 
 // Options are the settings of a run that do not change its numbers.
@@ -230,14 +241,21 @@ func Run(ctx context.Context, in Input, exps []Experiment, opts Options) (*Resul
 		return nil, err
 	}
 	defer r.Close()
-	var tallies []experiment.Tally
+	var (
+		tallies []experiment.Tally
+		rows    [][]experiment.NameCount // per experiment, the rows of each metric event
+	)
 	if opts.MemoryLimit > 0 {
-		tallies, err = readSpilled(ctx, r, exps, opts)
+		tallies, rows, err = readSpilled(ctx, r, exps, opts)
 	} else {
-		tallies, err = readInMemory(ctx, r, talliers, opts)
+		tallies, rows, err = readInMemory(ctx, r, talliers, opts)
+	}
+	inv := &inventory{ctx: ctx, in: in, exps: exps, workers: opts.Workers}
+	if sk := (*severalKeys)(nil); errors.As(err, &sk) {
+		err = inv.severalKeys(sk.keys)
 	}
 	if err != nil {
-		return nil, err
+		return nil, asDataError(err)
 	}
 	st := r.Stats()
 	res := &Result{Readouts: make([]experiment.Readout, len(exps)), Stats: st}
@@ -245,13 +263,31 @@ func Run(ctx context.Context, in Input, exps []Experiment, opts Options) (*Resul
 		res.talliers = talliers
 	}
 	for i, e := range exps {
+		if err := inv.check(i, tallies[i], rows[i]); err != nil {
+			return nil, asDataError(err)
+		}
 		o := e.Options
 		o.RowsRead, o.BadRows = st.RowsRead, reasonCounts(st.BadRows)
-		if res.Readouts[i], err = experiment.Analyze(e.Spec, tallies[i], o); err != nil {
+		spec := e.Spec
+		if keys := tallies[i].Diag.ExperimentKeys; spec.Key == "" && in.Shape == experiment.InputEventLog && len(keys) == 1 {
+			// The one experiment of the log: the readout names it.
+			spec.Key = keys[0]
+		}
+		if res.Readouts[i], err = experiment.Analyze(spec, tallies[i], o); err != nil {
 			return nil, &DataError{err}
 		}
 	}
 	return res, nil
+}
+
+// asDataError wraps a *NotInDataError in a *DataError and returns any
+// other error as it is.
+func asDataError(err error) error {
+	var nd *NotInDataError
+	if errors.As(err, &nd) && !errors.As(err, new(*DataError)) {
+		return &DataError{err}
+	}
+	return err
 }
 
 // checkOptions rejects option sets that cannot work, before anything is
@@ -282,6 +318,11 @@ func checkOptions(in Input, exps []Experiment, opts Options) error {
 			return &ConfigError{errors.New("a memory limit and the per-unit records together: the audit table lists every unit in key order, which needs them all in memory")}
 		}
 	}
+	for _, e := range exps {
+		if err := checkAllowed(in.Shape, e); err != nil {
+			return err
+		}
+	}
 	exposure := exps[0].Spec.ExposureEvent
 	for _, e := range exps[1:] {
 		if in.Shape == experiment.InputEventLog && e.Spec.ExposureEvent != exposure {
@@ -291,38 +332,62 @@ func checkOptions(in Input, exps []Experiment, opts Options) error {
 	return nil
 }
 
-// readInMemory feeds every record batch to every tallier and tallies them.
-func readInMemory(ctx context.Context, r recordReader, talliers []tallier, opts Options) ([]experiment.Tally, error) {
+// checkAllowed checks the experiment's AllowAbsentEvents: each is an
+// event of one of its metrics, and the input is an event log.
+func checkAllowed(shape experiment.InputShape, e Experiment) error {
+	for _, ev := range e.AllowAbsentEvents {
+		if shape != experiment.InputEventLog {
+			return &ConfigError{fmt.Errorf("experiment %q: an absent event allowed (%q), but a %s has no events", e.Spec.Key, ev, shape)}
+		}
+		used := slices.ContainsFunc(e.Spec.Metrics, func(m experiment.Metric) bool { return slices.Contains(m.Events, ev) })
+		if !used {
+			return &ConfigError{fmt.Errorf("experiment %q: the absent event allowed, %q, is not an event of any of its metrics", e.Spec.Key, ev)}
+		}
+	}
+	return nil
+}
+
+// readInMemory feeds every record batch to every tallier and tallies them;
+// for the talliers of an event log it also returns the rows of each metric
+// event (Tallier.MetricEventRows).
+func readInMemory(ctx context.Context, r recordReader, talliers []tallier, opts Options) ([]experiment.Tally, [][]experiment.NameCount, error) {
 	stop := startProgress(r, opts)
 	defer stop()
 	for r.Next() {
 		if err := ctx.Err(); err != nil {
-			return nil, err
+			return nil, nil, err
 		}
 		rec := r.RecordBatch()
 		for _, tl := range talliers {
 			if err := tl.Add(rec); err != nil {
-				return nil, &DataError{err}
+				return nil, nil, &DataError{err}
 			}
 		}
 	}
 	stop()
 	if err := r.Err(); err != nil {
-		return nil, &DataError{err}
+		return nil, nil, &DataError{err}
 	}
 	st := r.Stats()
 	tallies := make([]experiment.Tally, len(talliers))
+	rows := make([][]experiment.NameCount, len(talliers))
 	for i, tl := range talliers {
-		if tl, ok := tl.(*experiment.Tallier); ok && st.Filtered > 0 {
-			tl.AddFiltered(st.Filtered, st.FilteredMaxTS)
+		if tl, ok := tl.(*experiment.Tallier); ok {
+			if st.Filtered > 0 {
+				tl.AddFiltered(st.Filtered, st.FilteredMaxTS)
+			}
+			if _, err := checkKeys(tl, nil); err != nil {
+				return nil, nil, err
+			}
+			rows[i] = tl.MetricEventRows()
 		}
 		t, err := tl.Tally()
 		if err != nil {
-			return nil, &DataError{err}
+			return nil, nil, &DataError{err}
 		}
 		tallies[i] = t
 	}
-	return tallies, nil
+	return tallies, rows, nil
 }
 
 // startProgress calls opts.Progress when the reader can count as it goes.

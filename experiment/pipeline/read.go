@@ -36,12 +36,7 @@ func sources(in Input) ([]ingest.Source, error) {
 // lists the events the talliers use: the reader leaves out the rows of
 // other events and counts them (see ingest.Options.Events).
 func openReader(in Input, exps []Experiment, events []string, workers int) (recordReader, error) {
-	m := in.Mapping
-	if m.User == "" && m.TS == "" && m.Event == "" && m.Experiment == "" && m.Arm == "" {
-		def := ingest.DefaultMapping()
-		def.Segments, def.EpochUnit = m.Segments, m.EpochUnit
-		m = def
-	}
+	m := mappingOf(in)
 	if in.Records != nil {
 		name := in.RecordsName
 		if name == "" {
@@ -68,6 +63,18 @@ func openReader(in Input, exps []Experiment, events []string, workers int) (reco
 		return nil, &ConfigError{err}
 	}
 	return r, nil
+}
+
+// mappingOf returns the input's column mapping: with none of User, TS,
+// Event, Experiment and Arm set, the names of ingest.DefaultMapping.
+func mappingOf(in Input) ingest.Mapping {
+	m := in.Mapping
+	if m.User == "" && m.TS == "" && m.Event == "" && m.Experiment == "" && m.Arm == "" {
+		def := ingest.DefaultMapping()
+		def.Segments, def.EpochUnit = m.Segments, m.EpochUnit
+		m = def
+	}
+	return m
 }
 
 // eventOptions are the reader options of an event log.
@@ -129,25 +136,25 @@ const spillBytesPerRow = 100
 // readSpilled writes the rows of an event log to disk in hash partitions
 // of the units, then tallies them with tallySpilled. The partition files
 // are removed before it returns.
-func readSpilled(ctx context.Context, r recordReader, exps []Experiment, opts Options) ([]experiment.Tally, error) {
+func readSpilled(ctx context.Context, r recordReader, exps []Experiment, opts Options) ([]experiment.Tally, [][]experiment.NameCount, error) {
 	spill, err := ingest.NewSpill(opts.SpillDir, spillPartitions, r.Schema())
 	if err != nil {
-		return nil, &SpillError{err}
+		return nil, nil, &SpillError{err}
 	}
 	defer spill.Close()
 	stop := startProgress(r, opts)
 	defer stop()
 	for r.Next() {
 		if err := ctx.Err(); err != nil {
-			return nil, err
+			return nil, nil, err
 		}
 		if err := spill.Add(r.RecordBatch()); err != nil {
-			return nil, &SpillError{err}
+			return nil, nil, &SpillError{err}
 		}
 	}
 	stop()
 	if err := r.Err(); err != nil {
-		return nil, &DataError{err}
+		return nil, nil, &DataError{err}
 	}
 	return tallySpilled(ctx, exps, spill, r.Stats(), opts.MemoryLimit)
 }
@@ -157,14 +164,17 @@ func readSpilled(ctx context.Context, r recordReader, exps []Experiment, opts Op
 // rows, each group tallied by fresh talliers that share the whole input's
 // freshness, and the tallies of the groups merged, which is exact since a
 // unit's rows are all in one partition (experiment.MergeTallies). st holds
-// the reader's counts.
-func tallySpilled(ctx context.Context, exps []Experiment, spill *ingest.Spill, st ingest.Stats, memoryLimit int64) ([]experiment.Tally, error) {
+// the reader's counts. It also returns the rows of each experiment's
+// metric events (Tallier.MetricEventRows), summed over the groups.
+func tallySpilled(ctx context.Context, exps []Experiment, spill *ingest.Spill, st ingest.Stats, memoryLimit int64) ([]experiment.Tally, [][]experiment.NameCount, error) {
 	fresh, hasFresh := spill.MaxTS()
 	if st.Filtered > 0 && (!hasFresh || st.FilteredMaxTS > fresh) {
 		fresh, hasFresh = st.FilteredMaxTS, true
 	}
 	maxRows := max(1, memoryLimit/spillBytesPerRow)
 	parts := make([][]experiment.Tally, len(exps))
+	events := make([][]experiment.NameCount, len(exps))
+	keys := make([][]string, len(exps))
 	for p := 0; p < spill.Partitions(); {
 		q, rows := p, int64(0)
 		for q < spill.Partitions() && (q == p || rows+spill.Rows(q) <= maxRows) {
@@ -175,13 +185,13 @@ func tallySpilled(ctx context.Context, exps []Experiment, spill *ingest.Spill, s
 		for i, e := range exps {
 			tl, err := experiment.NewTallier(e.Spec)
 			if err != nil {
-				return nil, &ConfigError{err}
+				return nil, nil, &ConfigError{err}
 			}
 			talliers[i] = tl
 		}
 		for k := p; k < q; k++ {
 			if err := addSpilled(ctx, spill, k, talliers); err != nil {
-				return nil, err
+				return nil, nil, err
 			}
 		}
 		for i, tl := range talliers {
@@ -191,9 +201,14 @@ func tallySpilled(ctx context.Context, exps []Experiment, spill *ingest.Spill, s
 			if hasFresh {
 				tl.SeeTime(fresh)
 			}
+			var err error
+			if keys[i], err = checkKeys(tl, keys[i]); err != nil {
+				return nil, nil, err
+			}
+			events[i] = addRows(events[i], tl)
 			t, err := tl.Tally()
 			if err != nil {
-				return nil, &DataError{err}
+				return nil, nil, &DataError{err}
 			}
 			parts[i] = append(parts[i], t)
 		}
@@ -203,11 +218,11 @@ func tallySpilled(ctx context.Context, exps []Experiment, spill *ingest.Spill, s
 	for i, e := range exps {
 		t, err := experiment.MergeTallies(e.Spec, parts[i]...)
 		if err != nil {
-			return nil, &DataError{err}
+			return nil, nil, &DataError{err}
 		}
 		out[i] = t
 	}
-	return out, nil
+	return out, events, nil
 }
 
 // addSpilled feeds partition k of spill to the talliers.

@@ -60,6 +60,15 @@ func (sf *File) parseExperiment(l *locator, i int, fe fileExperiment) (*Settings
 		metrics = append(metrics, ms)
 	}
 	e.SetMetrics(metrics, at("metric"))
+	for j, ev := range fe.AllowAbsentEvents {
+		o := at(fmt.Sprintf("allow_absent_events[%d]", j))
+		if sf.Shape != experiment.InputEventLog {
+			return nil, o.errorf("is for input.shape = \"events\" (the shape is %q)", shapeName(sf.Shape))
+		}
+		if !e.AllowAbsentEvent(ev) {
+			return nil, o.errorf("%q is not an event of any metric of this experiment", ev)
+		}
+	}
 	return e, nil
 }
 

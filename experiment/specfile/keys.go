@@ -53,6 +53,7 @@ var specKeys = map[string]string{
 	"experiment.min_count":              "an integer",
 	"experiment.sample_ratio_threshold": "a number",
 	"experiment.segments":               "a list of strings",
+	"experiment.allow_absent_events":    "a list of strings",
 	"experiment.metric":                 "an array of tables ([[experiment.metric]])",
 	"experiment.metric.name":            "a string",
 	"experiment.metric.events":          "a list of strings",

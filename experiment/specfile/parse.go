@@ -71,6 +71,7 @@ type fileExperiment struct {
 	MinCount             *int64       `toml:"min_count"`
 	SampleRatioThreshold *float64     `toml:"sample_ratio_threshold"`
 	Segments             []string     `toml:"segments"`
+	AllowAbsentEvents    []string     `toml:"allow_absent_events"`
 	Metric               []fileMetric `toml:"metric"`
 }
 

@@ -33,6 +33,8 @@ type Settings struct {
 	segments       []string
 	maxSegValues   int
 	opts           experiment.AnalysisOptions
+	// allowAbsent lists events that may occur in no row of the log.
+	allowAbsent []string
 
 	// from says where a setting came from, by its spec-file key name
 	// ("split", "arms", "metrics", ...); absent means the default.
@@ -182,6 +184,30 @@ func (e *Settings) MarkLowerIsBetter(name string) bool {
 		}
 	}
 	return found
+}
+
+// AllowAbsentEvent lets the event occur in no row of the event log (a
+// genuinely rare event; without it, such an event of a metric stops the
+// run), and reports whether one of the experiment's metrics counts it.
+func (e *Settings) AllowAbsentEvent(event string) bool {
+	if !slices.Contains(e.allowAbsent, event) {
+		e.allowAbsent = append(e.allowAbsent, event)
+	}
+	return slices.ContainsFunc(e.metrics, func(ms Metric) bool { return slices.Contains(ms.Metric.Events, event) })
+}
+
+// AllowAbsentEvents returns the events allowed to occur in no row
+// (AllowAbsentEvent) that the experiment's metrics count, for
+// pipeline.Experiment.AllowAbsentEvents. An allowance left over from metrics
+// that flags replaced is dropped.
+func (e *Settings) AllowAbsentEvents() []string {
+	var out []string
+	for _, ev := range e.allowAbsent {
+		if slices.ContainsFunc(e.metrics, func(ms Metric) bool { return slices.Contains(ms.Metric.Events, ev) }) {
+			out = append(out, ev)
+		}
+	}
+	return out
 }
 
 // MetricColumns maps each metric to its column of a unit table.

@@ -18,7 +18,21 @@ import (
 //
 // WINDOW is a number with a unit s, m, h, d or w (7d, 36h, 90m); no window
 // means unlimited. TARGET is a rate in (0, 1) or a percentage (0.12 or 12%).
+//
+// The window is the part after the last colon, so an event name may hold
+// colons (page:view:7d is the event page:view with a 7-day window). An
+// event name whose own last colon part is a window too (signup:1d:2d) is
+// refused as ambiguous: it could be the event signup:1d with a 2-day
+// window, or the event signup with a window written twice. A spec file
+// (events and window apart) says the first.
 func ParseMetric(s string) (experiment.Metric, error) {
+	return parseMetric(s, "metric", "")
+}
+
+// parseMetric is ParseMetric for a definition of the given kind ("metric"
+// or "guardrail"); suffix ends the forms the errors suggest (~MARGIN for
+// a guardrail).
+func parseMetric(s, kind, suffix string) (experiment.Metric, error) {
 	var m experiment.Metric
 	rest := s
 	if at := strings.LastIndexByte(rest, '@'); at >= 0 {
@@ -29,12 +43,13 @@ func ParseMetric(s string) (experiment.Metric, error) {
 		m.Target = &p
 		rest = rest[:at]
 	}
+	window := ""
 	if colon := strings.LastIndexByte(rest, ':'); colon >= 0 {
 		w, err := ParseWindow(rest[colon+1:])
 		if err != nil {
-			return m, fmt.Errorf("metric %q: window: %w", s, err)
+			return m, fmt.Errorf("%s %q: window: %w", kind, s, err)
 		}
-		m.Window = w
+		m.Window, window = w, strings.TrimSpace(rest[colon+1:])
 		rest = rest[:colon]
 	}
 	name, events, named := strings.Cut(rest, "=")
@@ -50,7 +65,41 @@ func ParseMetric(s string) (experiment.Metric, error) {
 	if m.Name == "" || len(m.Events) == 0 {
 		return m, fmt.Errorf("metric %q: want NAME=EVENT[,EVENT...][:WINDOW][@TARGET], for example purchase=purchase:7d", s)
 	}
+	if window != "" {
+		if err := checkEventWindows(s, kind, suffix, m, named, window); err != nil {
+			return m, err
+		}
+	}
 	return m, nil
+}
+
+// checkEventWindows refuses a definition with a window (window, already
+// taken off) one of whose events also ends in a colon and a window: the
+// window is then written twice, or the event's name holds one. The error
+// shows both readings and how to write each (named: s has NAME=).
+func checkEventWindows(s, kind, suffix string, m experiment.Metric, named bool, window string) error {
+	for i, ev := range m.Events {
+		colon := strings.LastIndexByte(ev, ':')
+		if colon < 0 {
+			continue
+		}
+		inner := strings.TrimSpace(ev[colon+1:])
+		if _, err := ParseWindow(inner); err != nil {
+			continue
+		}
+		base := strings.TrimSpace(ev[:colon])
+		events := append([]string(nil), m.Events...)
+		events[i] = base
+		short := strings.Join(events, ",")
+		if named {
+			short = m.Name + "=" + short
+		}
+		return fmt.Errorf("%s %q is ambiguous: it reads as the event %q with a %s window, or as the event %q with the window written twice (%s and %s). "+
+			"For the event %q write %s:%s%s or %s:%s%s; for an event named %q, define the %s in a spec file: events = [%q], window = %q",
+			kind, s, ev, window, base, inner, window,
+			base, short, inner, suffix, short, window, suffix, ev, kind, ev, window)
+	}
+	return nil
 }
 
 // ParseGuardrail parses a guardrail metric as the --guardrail flag gives
@@ -62,7 +111,7 @@ func ParseGuardrail(s string) (experiment.Metric, error) {
 	if !ok {
 		return experiment.Metric{}, fmt.Errorf("guardrail %q: want NAME=EVENT[,EVENT...][:WINDOW]~MARGIN, for example unsubscribe=newsletter_unsubscribe:7d~0.2pp", s)
 	}
-	m, err := ParseMetric(spec)
+	m, err := parseMetric(spec, "guardrail", "~"+strings.TrimSpace(margin))
 	if err != nil {
 		return m, err
 	}

@@ -31,6 +31,17 @@ func TestParseMetric(t *testing.T) {
 		{"buy@0%", experiment.Metric{}, "not strictly between 0 and 1"},
 		{"=buy", experiment.Metric{}, "want NAME=EVENT"},
 		{"buy=", experiment.Metric{}, "want NAME=EVENT"},
+		// Event names with colons that are not windows (common practice:
+		// namespaced event names).
+		{"views=page:view:7d", experiment.Metric{Name: "views", Events: []string{"page:view"}, Window: 7 * 24 * time.Hour}, ""},
+		{"c=app:checkout:done,app:pay:1d", experiment.Metric{Name: "c", Events: []string{"app:checkout:done", "app:pay"}, Window: 24 * time.Hour}, ""},
+		{"v=ns:2d-signup:3d", experiment.Metric{Name: "v", Events: []string{"ns:2d-signup"}, Window: 3 * 24 * time.Hour}, ""},
+		// A window written twice, or an event whose name ends in one: both
+		// readings and how to write each.
+		{"s=signup:1d:2d", experiment.Metric{}, `metric "s=signup:1d:2d" is ambiguous: it reads as the event "signup:1d" with a 2d window, or as the event "signup" with the window written twice (1d and 2d). ` +
+			`For the event "signup" write s=signup:1d or s=signup:2d; for an event named "signup:1d", define the metric in a spec file: events = ["signup:1d"], window = "2d"`},
+		{"b=order:7d,paid:1d@10%", experiment.Metric{}, `the event "order" with the window written twice (7d and 1d). For the event "order" write b=order,paid:7d or b=order,paid:1d`},
+		{"ns:5m:1d", experiment.Metric{}, `reads as the event "ns:5m" with a 1d window, or as the event "ns" with the window written twice (5m and 1d). For the event "ns" write ns:5m or ns:1d;`},
 	}
 	for _, tc := range cases {
 		got, err := ParseMetric(tc.in)
@@ -59,6 +70,10 @@ func TestParseGuardrail(t *testing.T) {
 		{"refund~5", experiment.Margin{}, "want percentage points"},
 		{"refund~0pp", experiment.Margin{}, "above 0"},
 		{"refund", experiment.Margin{}, "~MARGIN"},
+		{"unsub=a:b:7d~0.2pp", experiment.Margin{Value: 0.002}, ""},
+		{"unsub=unsub:1d:2d~0.2pp", experiment.Margin{}, `guardrail "unsub=unsub:1d:2d" is ambiguous: it reads as the event "unsub:1d" with a 2d window, ` +
+			`or as the event "unsub" with the window written twice (1d and 2d). For the event "unsub" write unsub=unsub:1d~0.2pp or unsub=unsub:2d~0.2pp; ` +
+			`for an event named "unsub:1d", define the guardrail in a spec file`},
 	}
 	for _, tc := range cases {
 		got, err := ParseGuardrail(tc.in)
