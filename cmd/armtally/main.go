@@ -11,6 +11,7 @@
 //	armtally plan [flags]                     size an experiment before it starts
 //	armtally inspect [flags] FILE|FOLDER...   show what an event log holds
 //	armtally help [COMMAND]                   show help
+//	armtally version                          print the version (also --version)
 //
 // Exit codes:
 //
@@ -120,6 +121,7 @@ Usage:
   armtally inspect [flags] FILE|FOLDER...   show what an event log holds before a run
   armtally help [COMMAND]                   show help for a command
   armtally help spec                        describe the experiment spec file (--spec)
+  armtally version                          print the version, revision and Go version (also --version)
 
 Exit codes:
   0    the readout was written
@@ -150,6 +152,8 @@ func run(args []string, stdout, stderr io.Writer) int {
 		err = runPlan(args[1:], stdout, stderr)
 	case "inspect":
 		err = runInspect(args[1:], stdout, stderr)
+	case "version", "--version":
+		err = runVersion(args[1:], stdout)
 	case "help", "-h", "--help":
 		if len(args) > 1 && cmd == "help" {
 			if args[1] == "spec" {
