@@ -459,8 +459,12 @@ func analyzeSources(fs *pflag.FlagSet, f *analyzeFlags, sf *specfile.File) ([]in
 		return []ingest.Source{ingest.BytesSource(name, data)}, nil
 	}
 	paths := fs.Args()
-	if len(paths) == 0 && sf != nil {
-		paths = sf.Paths
+	if len(paths) == 0 && sf != nil && len(sf.Paths) > 0 {
+		sources, err := sf.Sources()
+		if err != nil {
+			return nil, &dataError{err}
+		}
+		return sources, nil
 	}
 	if len(paths) == 0 {
 		if sf != nil {
