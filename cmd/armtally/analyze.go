@@ -42,6 +42,14 @@ Each row is one event with the columns user, ts, event, experiment and arm
 analysis window decides its arm; a unit converts on a metric when one of the
 metric's events follows its first exposure within the attribution window.
 
+Tables (--input-shape): a unit table (units) has one row per unit with the
+columns user, arm, optionally the exposure time (--ts-col) and one 0/1
+column per metric, named by --metric NAME=COLUMN (NAME alone: the column
+NAME); a counts table (counts) has one row per arm, segment values and
+metric with the columns arm, metric, units, conversions and optionally
+immature (rename them with --metric-col, --units-col, --conversions-col,
+--immature-col), and --metric NAME names a value of its metric column.
+
 Metrics (--metric, repeatable):
   NAME=EVENT[,EVENT...][:WINDOW][@TARGET]
   WINDOW is a number with a unit s, m, h, d or w (7d, 36h); none is unlimited.
@@ -66,6 +74,8 @@ Examples:
   armtally analyze --spec experiments.toml
   armtally analyze --spec experiments.toml --experiment search-ranking --alpha 0.01 exports/dt=2026-11-30/
   armtally analyze exports/ --delimiter tab --max-bad-share 0.001 --metric purchase=purchase:7d
+  armtally analyze units.csv --input-shape units --user-col visitor_id --ts-col exposed_at --metric purchase=purchased_flag:7d
+  armtally analyze arm_counts.csv --input-shape counts --units-col n --conversions-col converted --metric purchase --metric signup
 
 Flags:
 `

@@ -23,9 +23,10 @@
 //	     key), an output path that is an input, another output, a folder or
 //	     in a folder that is missing or not writable (checked before any
 //	     input is read)
-//	3    data error: an input cannot be read, a row is malformed, the data
-//	     contradicts the settings (an arm that is not planned, several
-//	     experiments without --experiment)
+//	3    data error: an input cannot be read (or an input path names no
+//	     input file; from a spec file, named by file, line and key), a row
+//	     is malformed, the data contradicts the settings (an arm that is
+//	     not planned, several experiments without --experiment)
 //	4    the sample ratio check failed and --fail-on-sample-ratio was given
 //	     (the readout is still written)
 //	130  stopped by SIGINT (143: by SIGTERM)
