@@ -231,23 +231,21 @@ func planDecimals(v float64) int {
 
 // FormatPlanRate prints a rate as a plan does: a percentage with two
 // decimals, 0.1 is "10.00%" and 0.11220102507438608 is "11.22%".
-func FormatPlanRate(v float64) string {
-	p := v * 100
-	return fixed(p, planDecimals(p)) + "%"
-}
+func FormatPlanRate(v float64) string { return planHundredths(v, fixed, "%") }
 
 // planPoints prints a difference of rates in percentage points, signed,
 // with two decimals: 0.0122 is "+1.22 pp".
-func planPoints(d float64) string {
-	p := d * 100
-	return signed(p, planDecimals(p)) + " pp"
-}
+func planPoints(d float64) string { return planHundredths(d, signed, " pp") }
 
 // planLift prints a relative change as a signed percentage with two
 // decimals: 0.122 is "+12.20%".
-func planLift(v float64) string {
+func planLift(v float64) string { return planHundredths(v, signed, "%") }
+
+// planHundredths prints 100 v with the decimals of planDecimals, by
+// format (fixed or signed), and the unit.
+func planHundredths(v float64, format func(float64, int) string, unit string) string {
 	p := v * 100
-	return signed(p, planDecimals(p)) + "%"
+	return format(p, planDecimals(p)) + unit
 }
 
 // FormatPlanAlpha prints an alpha in its shortest form: the shortest

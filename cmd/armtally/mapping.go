@@ -38,24 +38,34 @@ func defineMappingFlags(fs *pflag.FlagSet) *mappingFlags {
 	return mf
 }
 
+// flagValue is a string flag's value (src) and the setting it replaces
+// (dst).
+type flagValue struct {
+	flag     string
+	dst, src *string
+}
+
+// given returns the flags of vs the user gave on fs, or all of them.
+func given(fs *pflag.FlagSet, all bool, vs []flagValue) []flagValue {
+	var out []flagValue
+	for _, v := range vs {
+		if all || fs.Changed(v.flag) {
+			out = append(out, v)
+		}
+	}
+	return out
+}
+
 // apply sets on m each column the user gave a flag for, every one when
 // all is set, and checks the epoch unit of the result; cmd names the
 // command in the error.
 func (mf *mappingFlags) apply(m *ingest.Mapping, all bool, cmd string) error {
-	for _, c := range []struct {
-		flag     string
-		dst, src *string
-	}{
-		{"user-col", &m.User, &mf.m.User},
-		{"ts-col", &m.TS, &mf.m.TS},
-		{"event-col", &m.Event, &mf.m.Event},
-		{"experiment-col", &m.Experiment, &mf.m.Experiment},
-		{"arm-col", &m.Arm, &mf.m.Arm},
+	for _, c := range given(mf.fs, all, []flagValue{
+		{"user-col", &m.User, &mf.m.User}, {"ts-col", &m.TS, &mf.m.TS}, {"event-col", &m.Event, &mf.m.Event},
+		{"experiment-col", &m.Experiment, &mf.m.Experiment}, {"arm-col", &m.Arm, &mf.m.Arm},
 		{"epoch-unit", &m.EpochUnit, &mf.m.EpochUnit},
-	} {
-		if all || mf.fs.Changed(c.flag) {
-			*c.dst = *c.src
-		}
+	}) {
+		*c.dst = *c.src
 	}
 	switch m.EpochUnit {
 	case "", "s", "ms", "us", "ns":
@@ -91,18 +101,10 @@ func defineTableFlags(fs *pflag.FlagSet) *tableFlags {
 // apply sets on c each counts column the user gave a flag for; they are
 // only for a counts table.
 func (tf *tableFlags) apply(c *ingest.CountsOptions, shape experiment.InputShape) error {
-	for _, col := range []struct {
-		flag     string
-		dst, src *string
-	}{
-		{"metric-col", &c.Metric, &tf.counts.Metric},
-		{"units-col", &c.Units, &tf.counts.Units},
-		{"conversions-col", &c.Conversions, &tf.counts.Conversions},
-		{"immature-col", &c.Immature, &tf.counts.Immature},
-	} {
-		if !tf.fs.Changed(col.flag) {
-			continue
-		}
+	for _, col := range given(tf.fs, false, []flagValue{
+		{"metric-col", &c.Metric, &tf.counts.Metric}, {"units-col", &c.Units, &tf.counts.Units},
+		{"conversions-col", &c.Conversions, &tf.counts.Conversions}, {"immature-col", &c.Immature, &tf.counts.Immature},
+	}) {
 		if shape != experiment.InputCounts {
 			return usagef("analyze: --%s is for a counts table (--input-shape counts); the input shape is %q", col.flag, specfile.ShapeName(shape))
 		}
