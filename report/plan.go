@@ -13,8 +13,11 @@ import (
 )
 
 // This file writes a sample-size plan (experiment/plan) as text for a
-// terminal and as JSON. Plans print numbers with at most 4 significant
-// digits, unlike the readout.
+// terminal and as JSON. The text follows the number style of the readout:
+// counts with thousands separators; rates as percentages with two
+// decimals; differences of rates in percentage points, signed, with two
+// decimals and "pp"; relative changes as signed percentages with two
+// decimals; alphas, and a power that was given, in their shortest form.
 
 // planTest names the test every plan is for.
 const planTest = "pooled two-proportion z test"
@@ -104,21 +107,20 @@ func WritePlan(w io.Writer, r plan.Result) error {
 	}[r.Alternative]
 	fmt.Fprintf(&b, "Sample-size plan for the %s, %s\n\n", planTest, alt)
 	row := func(label, value string) { fmt.Fprintf(&b, "  %-27s %s\n", label, value) }
-	effect := fmt.Sprintf("%s pp absolute, %s relative (%s to %s)",
-		planSigned(planNum(r.EffectAbsolute*100), r.EffectAbsolute), planSigned(FormatPlanRate(r.EffectRelative), r.EffectRelative),
-		FormatPlanRate(r.Baseline), FormatPlanRate(r.TreatmentRate))
+	effect := fmt.Sprintf("%s absolute, %s relative (%s to %s)",
+		planPoints(r.EffectAbsolute), planLift(r.EffectRelative), FormatPlanRate(r.Baseline), FormatPlanRate(r.TreatmentRate))
 	row("baseline rate", FormatPlanRate(r.Baseline))
 	if r.Solve != plan.SolveEffect {
 		row("minimum detectable effect", effect)
 	}
 	if r.Comparisons == 1 {
-		row("alpha", planNum(r.Alpha))
+		row("alpha", FormatPlanAlpha(r.Alpha))
 	} else {
-		row("alpha", fmt.Sprintf("%s for the family of %d comparisons, %s per comparison (%s)",
-			planNum(r.Alpha), r.Comparisons, planNum(r.AlphaPerComparison), r.Adjust))
+		row("alpha", fmt.Sprintf("%s for the family of %s comparisons, %s per comparison (%s)",
+			FormatPlanAlpha(r.Alpha), FormatCount(int64(r.Comparisons)), FormatPlanAlpha(r.AlphaPerComparison), r.Adjust))
 	}
 	if r.Solve != plan.SolvePower {
-		row("power", FormatPlanRate(r.Power))
+		row("power", FormatPlanPower(r.Power))
 	}
 	b.WriteString("\n")
 	switch r.Solve {
@@ -128,7 +130,8 @@ func WritePlan(w io.Writer, r plan.Result) error {
 		row("power", FormatPlanRate(r.Power))
 	}
 	row("units per arm", FormatCount(r.UnitsPerArm))
-	row("arms", fmt.Sprintf("%d (the control and %d %s, equal sizes)", r.Arms, r.Arms-1, PluralWord(int64(r.Arms-1), "treatment", "treatments")))
+	row("arms", fmt.Sprintf("%s (the control and %s %s, equal sizes)", FormatCount(int64(r.Arms)), FormatCount(int64(r.Arms-1)),
+		PluralWord(int64(r.Arms-1), "treatment", "treatments")))
 	row("total units", FormatCount(r.TotalUnits))
 	if r.DailyUnits > 0 {
 		row("days", fmt.Sprintf("%s at %s units a day", FormatCount(r.Days), planAmount(r.DailyUnits)))
@@ -173,13 +176,14 @@ func adjustNote(r plan.Result) string {
 	if m == 1 {
 		return ""
 	}
-	family := fmt.Sprintf("%d comparisons (%d treatment %s x %d %s)",
-		m, r.Arms-1, PluralWord(int64(r.Arms-1), "arm", "arms"), r.Metrics, PluralWord(int64(r.Metrics), "metric", "metrics"))
-	a := planNum(r.AlphaPerComparison)
+	family := fmt.Sprintf("%s comparisons (%s treatment %s x %s %s)", FormatCount(int64(m)),
+		FormatCount(int64(r.Arms-1)), PluralWord(int64(r.Arms-1), "arm", "arms"),
+		FormatCount(int64(r.Metrics)), PluralWord(int64(r.Metrics), "metric", "metrics"))
+	a := FormatPlanAlpha(r.AlphaPerComparison)
 	switch r.Adjust {
 	case stats.None:
 		return fmt.Sprintf("No adjustment for %s: each is tested at alpha %s, so the chance of at least one false positive in the family is above %s (%s if the comparisons were independent).",
-			family, planNum(r.Alpha), planNum(r.Alpha), planNum(r.FamilyErrorIndependent))
+			family, FormatPlanAlpha(r.Alpha), FormatPlanAlpha(r.Alpha), FormatPlanAlpha(r.FamilyErrorIndependent))
 	case stats.Bonferroni:
 		return fmt.Sprintf("Bonferroni over %s: each is tested at alpha / %d = %s.", family, m, a)
 	case stats.Holm, stats.Hochberg:
@@ -208,31 +212,73 @@ func adjustNote(r plan.Result) string {
 }
 
 // planNum prints v with at most 4 significant digits and no exponent:
-// 0.025, 3841, 1.22.
+// 1.833, 2.45. Only the factor c(m) of Benjamini-Yekutieli is printed so.
 func planNum(v float64) string {
 	r, _ := strconv.ParseFloat(strconv.FormatFloat(v, 'g', 4, 64), 64)
 	return strconv.FormatFloat(r, 'f', -1, 64)
 }
 
-// FormatPlanRate prints a rate as a plan does: a percentage with at most 4
-// significant digits and no exponent, 0.1 is "10%" and 0.11220 is "11.22%".
-func FormatPlanRate(v float64) string { return planNum(v*100) + "%" }
-
-// planAmount prints a whole number with thousands separators and any
-// other number in full: 20000 is "20,000", 1234.5 is "1234.5".
-func planAmount(v float64) string {
-	if v == math.Trunc(v) && math.Abs(v) < 1e15 {
-		return FormatCount(int64(v))
+// planDecimals returns the decimals that show the percentage v: two, or,
+// for a nonzero v that two decimals would show as zero, enough for two
+// significant digits (a baseline of 0.0004% is "0.00040%", not "0.00%").
+func planDecimals(v float64) int {
+	a := math.Abs(v)
+	if a == 0 || a >= 0.005 {
+		return 2
 	}
-	return strconv.FormatFloat(v, 'f', -1, 64)
+	return min(1-int(math.Floor(math.Log10(a))), 20)
 }
 
-// planSigned puts a + before a positive formatted value.
-func planSigned(s string, v float64) string {
-	if v > 0 {
-		return "+" + s
+// FormatPlanRate prints a rate as a plan does: a percentage with two
+// decimals, 0.1 is "10.00%" and 0.11220102507438608 is "11.22%".
+func FormatPlanRate(v float64) string { return planHundredths(v, fixed, "%") }
+
+// planPoints prints a difference of rates in percentage points, signed,
+// with two decimals: 0.0122 is "+1.22 pp".
+func planPoints(d float64) string { return planHundredths(d, signed, " pp") }
+
+// planLift prints a relative change as a signed percentage with two
+// decimals: 0.122 is "+12.20%".
+func planLift(v float64) string { return planHundredths(v, signed, "%") }
+
+// planHundredths prints 100 v with the decimals of planDecimals, by
+// format (fixed or signed), and the unit.
+func planHundredths(v float64, format func(float64, int) string, unit string) string {
+	p := v * 100
+	return format(p, planDecimals(p)) + unit
+}
+
+// FormatPlanAlpha prints an alpha in its shortest form: the shortest
+// decimal that reads back as the same float64, 0.05 is "0.05" and 0.0125
+// is "0.0125". A plan's derived alphas are rounded to
+// plan.DerivedDigits significant digits, so 0.05 / 3 is "0.0166666666667",
+// the same number the JSON holds.
+func FormatPlanAlpha(a float64) string { return strconv.FormatFloat(a, 'f', -1, 64) }
+
+// FormatPlanPower prints a target power in its shortest form as a
+// percentage: 0.8 is "80%" and 0.855 is "85.5%". A power a plan computes
+// is a rate, printed by FormatPlanRate.
+func FormatPlanPower(p float64) string {
+	v, _ := strconv.ParseFloat(strconv.FormatFloat(p*100, 'g', 15, 64), 64)
+	return strconv.FormatFloat(v, 'f', -1, 64) + "%"
+}
+
+// planAmount prints an amount of units with thousands separators, and
+// the decimals of one that is not whole in their shortest form: 20000 is
+// "20,000", 1234.5 is "1,234.5".
+func planAmount(v float64) string {
+	if v != math.Trunc(v) || math.Abs(v) >= 1e18 {
+		s := strconv.FormatFloat(v, 'f', -1, 64)
+		whole, frac, _ := strings.Cut(s, ".")
+		if n, err := strconv.ParseInt(whole, 10, 64); err == nil {
+			if frac != "" {
+				return FormatCount(n) + "." + frac
+			}
+			return FormatCount(n)
+		}
+		return s
 	}
-	return s
+	return FormatCount(int64(v))
 }
 
 // wrapWords breaks s into lines of at most width bytes at spaces (a longer

@@ -42,6 +42,14 @@ Each row is one event with the columns user, ts, event, experiment and arm
 analysis window decides its arm; a unit converts on a metric when one of the
 metric's events follows its first exposure within the attribution window.
 
+Tables (--input-shape): a unit table (units) has one row per unit with the
+columns user, arm, optionally the exposure time (--ts-col) and one 0/1
+column per metric, named by --metric NAME=COLUMN (NAME alone: the column
+NAME); a counts table (counts) has one row per arm, segment values and
+metric with the columns arm, metric, units, conversions and optionally
+immature (rename them with --metric-col, --units-col, --conversions-col,
+--immature-col), and --metric NAME names a value of its metric column.
+
 Metrics (--metric, repeatable):
   NAME=EVENT[,EVENT...][:WINDOW][@TARGET]
   WINDOW is a number with a unit s, m, h, d or w (7d, 36h); none is unlimited.
@@ -80,6 +88,8 @@ Examples:
   armtally analyze --spec experiments.toml
   armtally analyze --spec experiments.toml --experiment search-ranking --alpha 0.01 exports/dt=2026-11-30/
   armtally analyze exports/ --delimiter tab --max-bad-share 0.001 --metric purchase=purchase:7d
+  armtally analyze units.csv --input-shape units --user-col visitor_id --ts-col exposed_at --metric purchase=purchased_flag:7d
+  armtally analyze arm_counts.csv --input-shape counts --units-col n --conversions-col converted --metric purchase --metric signup
 
 Flags:
 `
@@ -88,6 +98,7 @@ Flags:
 type analyzeFlags struct {
 	demo     bool
 	mapping  *mappingFlags
+	tables   *tableFlags
 	segments []string
 	// exp holds the flags of one experiment's settings.
 	exp                   specfile.Overrides
@@ -112,6 +123,7 @@ func newAnalyzeFlagSet(f *analyzeFlags, stderr io.Writer) *pflag.FlagSet {
 	fs.SortFlags = false
 	fs.StringVar(&f.spec, "spec", "", "read the input, column mapping, outputs and experiments from this TOML spec file (see armtally help spec); flags you give override it")
 	fs.BoolVar(&f.demo, "demo", false, "analyse the embedded demo event log (its experiment, metrics and window are the defaults)")
+	fs.StringVar(&f.exp.Shape, "input-shape", "events", "how the input's rows are laid out: events (one row per event), units (one row per unit: unit, arm, optional exposure time (--ts-col), one 0/1 column per metric, --metric NAME=COLUMN) or counts (one row per arm, segment values and metric: arm, metric, units, conversions; --metric NAME)")
 	fs.StringVar(&f.exp.Experiment, "experiment", "", "experiment key on exposure rows (required when the log holds several experiments; with one, it is used); with --spec, run only the file's experiment of this key")
 	fs.StringVar(&f.exp.ExposureEvent, "exposure-event", "exposure", "event name of exposure rows")
 	fs.StringVar(&f.exp.Control, "control", "control", "name of the control arm")
@@ -143,6 +155,7 @@ func newAnalyzeFlagSet(f *analyzeFlags, stderr io.Writer) *pflag.FlagSet {
 	fs.StringVar(&f.spillDir, "spill-dir", "", "folder for the partition files of --memory-limit (default: the system's temporary folder)")
 	fs.BoolVar(&f.noProgress, "no-progress", false, "do not show the rows read, rate and elapsed time on stderr while reading (shown only when stderr is a terminal, and not for unit or counts tables)")
 	f.mapping = defineMappingFlags(fs)
+	f.tables = defineTableFlags(fs)
 	fs.StringArrayVar(&f.segments, "segment", nil, "column to break every metric down by (read from each unit's first exposure row); exploratory results (repeatable)")
 	fs.StringVar(&f.maxSpecSize, "max-spec-size", "4MiB", "largest --spec file to read (such as 16MiB); a larger one is refused before it is read")
 	fs.Int64Var(&f.exp.MaxSegmentValues, "max-segment-values", experiment.DefaultMaxSegmentValues, "most distinct values (null counts as one) a segment column may have, 1 to 100000; more stops the run with an error")
@@ -224,9 +237,9 @@ func parseAnalyzeRun(args []string, stdout, stderr io.Writer) (*analyzeRun, erro
 	if err != nil {
 		return nil, err
 	}
-	run := &analyzeRun{shape: experiment.InputEventLog, stderr: stderr, progress: !f.noProgress && isTerminal(stderr)}
-	if sf != nil {
-		run.shape, run.counts = sf.Shape, sf.Counts
+	run := &analyzeRun{stderr: stderr, progress: !f.noProgress && isTerminal(stderr)}
+	if err := applyShape(fs, &f, sf, run); err != nil {
+		return nil, err
 	}
 	exps, err := analyzeExperiments(fs, &f, sf)
 	if err != nil {
@@ -247,6 +260,9 @@ func parseAnalyzeRun(args []string, stdout, stderr io.Writer) (*analyzeRun, erro
 		return nil, err
 	}
 	if err := applyReading(&f, sf, override, run); err != nil {
+		return nil, err
+	}
+	if err := checkTableReading(run); err != nil {
 		return nil, err
 	}
 	if err := applyOutputs(&f, sf, override, run); err != nil {
@@ -486,8 +502,12 @@ func analyzeSources(fs *pflag.FlagSet, f *analyzeFlags, sf *specfile.File) ([]in
 		return []ingest.Source{ingest.BytesSource(name, data)}, nil
 	}
 	paths := fs.Args()
-	if len(paths) == 0 && sf != nil {
-		paths = sf.Paths
+	if len(paths) == 0 && sf != nil && len(sf.Paths) > 0 {
+		sources, err := sf.Sources()
+		if err != nil {
+			return nil, &dataError{err}
+		}
+		return sources, nil
 	}
 	if len(paths) == 0 {
 		if sf != nil {
@@ -707,7 +727,7 @@ func analyze(ctx context.Context, run *analyzeRun) (*pipeline.Result, error) {
 	case errors.As(err, &ce):
 		return nil, usagef("analyze: %v", ce.Err)
 	case errors.As(err, &de):
-		return nil, &dataError{de.Err}
+		return nil, &dataError{withShapeHint(de.Err, run)}
 	case errors.As(err, &se):
 		return nil, fmt.Errorf("analyze: --memory-limit: %w", se.Err)
 	case err != nil:

@@ -11,6 +11,7 @@
 //	armtally plan [flags]                     size an experiment before it starts
 //	armtally inspect [flags] FILE|FOLDER...   show what an event log holds
 //	armtally help [COMMAND]                   show help
+//	armtally version                          print the version (also --version)
 //
 // Exit codes:
 //
@@ -22,12 +23,14 @@
 //	     key), an output path that is an input, another output, a folder or
 //	     in a folder that is missing or not writable (checked before any
 //	     input is read)
-//	3    data error: an input cannot be read, a row is malformed, the data
-//	     contradicts the settings (an arm that is not planned, several
-//	     experiments without --experiment), or the data does not hold a
-//	     name the settings give (an experiment key, the exposure event, the
-//	     control or a planned arm, an event of a metric): the message lists
-//	     what the log holds, with counts, and a close name ("did you mean")
+//	3    data error: an input cannot be read (or an input path names no
+//	     input file; from a spec file, named by file, line and key), a row
+//	     is malformed, the data contradicts the settings (an arm that is
+//	     not planned, several experiments without --experiment), or the
+//	     data does not hold a name the settings give (an experiment key,
+//	     the exposure event, the control or a planned arm, an event of a
+//	     metric): the message lists what the log holds, with counts, and a
+//	     close name ("did you mean")
 //	4    the sample ratio check failed and --fail-on-sample-ratio was given
 //	     (the readout is still written)
 //	130  stopped by SIGINT (143: by SIGTERM)
@@ -124,6 +127,7 @@ Usage:
   armtally inspect [flags] FILE|FOLDER...   show what an event log holds before a run
   armtally help [COMMAND]                   show help for a command
   armtally help spec                        describe the experiment spec file (--spec)
+  armtally version                          print the version, revision and Go version (also --version)
 
 Exit codes:
   0    the readout was written
@@ -156,6 +160,8 @@ func run(args []string, stdout, stderr io.Writer) int {
 		err = runPlan(args[1:], stdout, stderr)
 	case "inspect":
 		err = runInspect(args[1:], stdout, stderr)
+	case "version", "--version":
+		err = runVersion(args[1:], stdout)
 	case "help", "-h", "--help":
 		if len(args) > 1 && cmd == "help" {
 			if args[1] == "spec" {

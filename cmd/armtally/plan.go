@@ -198,7 +198,8 @@ func planError(in plan.Input, err error) error {
 	switch pe.Problem {
 	case plan.PowerTooLow:
 		a, s := plan.ComparisonAlpha(in.Alpha, in.Adjust, in.Comparisons()), plan.Sides(in.Alternative)
-		return usagef("plan: --power %v: want more than the per-comparison alpha / %v = %.4g", in.Power, s, a/s)
+		return usagef("plan: --power %s: want more than the per-comparison alpha / %v = %s",
+			report.FormatPlanPower(in.Power), s, report.FormatPlanAlpha(plan.RoundDerived(a/s)))
 	case plan.Direction:
 		if in.Alternative == stats.Greater {
 			return usagef("plan: --mde %q is a drop, but --alternative greater tests for a rise", mde)
@@ -216,10 +217,10 @@ func planError(in plan.Input, err error) error {
 		if in.Alternative == stats.Less {
 			dir = "down to 0%"
 		}
-		return usagef("plan: --units-per-arm %d is too few: no treatment rate %s reaches power %s against a baseline of %s",
-			in.UnitsPerArm, dir, report.FormatPlanRate(in.Power), report.FormatPlanRate(in.Baseline))
+		return usagef("plan: --units-per-arm %s is too few: no treatment rate %s reaches power %s against a baseline of %s",
+			report.FormatCount(in.UnitsPerArm), dir, report.FormatPlanPower(in.Power), report.FormatPlanRate(in.Baseline))
 	case plan.TooManyUnits:
-		return usagef("plan: %d units per arm in %d arms is beyond any experiment", pe.UnitsPerArm, in.Arms)
+		return usagef("plan: %s units per arm in %s arms is beyond any experiment", report.FormatCount(pe.UnitsPerArm), report.FormatCount(int64(in.Arms)))
 	}
 	return fmt.Errorf("plan: %w", pe.Err)
 }

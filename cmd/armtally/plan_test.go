@@ -167,7 +167,7 @@ func TestPlanErrors(t *testing.T) {
 		{"mde too small", []string{"--baseline", "10%", "--mde", "1e-9pp"}, "--mde \"1e-9pp\" is too small to plan for"},
 		// 1e-18% of 10% is lost in rounding: nothing to detect.
 		{"mde rounds away", []string{"--baseline", "10%", "--mde", "1e-18%"}, "--mde \"1e-18%\": "},
-		{"units beyond any experiment", []string{"--baseline", "10%", "--units-per-arm", "9223372036854775807", "--arms", "3"}, "9223372036854775807 units per arm in 3 arms is beyond any experiment"},
+		{"units beyond any experiment", []string{"--baseline", "10%", "--units-per-arm", "9223372036854775807", "--arms", "3"}, "9,223,372,036,854,775,807 units per arm in 3 arms is beyond any experiment"},
 		{"argument", []string{"--baseline", "10%", "--mde", "2pp", "extra"}, "unexpected arguments extra"},
 		{"unknown flag", []string{"--baseline", "10%", "--mde", "2pp", "--sides", "2"}, "unknown flag: --sides"},
 	}

@@ -93,13 +93,14 @@ func TestSpecOverrides(t *testing.T) {
 		t.Helper()
 		return parseAnalyze(append([]string{"--spec", spec}, args...), &bytes.Buffer{}, &bytes.Buffer{})
 	}
-	// The example's input folder does not exist; FILE arguments replace it.
+	// The example's input.paths is its folder of example data; FILE
+	// arguments replace it.
 	dir := t.TempDir()
 	csvPath := filepath.Join(dir, "log.csv")
 	if err := os.WriteFile(csvPath, []byte("visitor_id,event_time,event_name,test_key,variant\n"), 0o644); err != nil {
 		t.Fatal(err)
 	}
-	if _, err := parse(); err == nil || !strings.Contains(err.Error(), filepath.Join(filepath.Dir(exampleSpec), "exports", "2027-03")) {
+	if run, err := parse(); err != nil || len(run.sources) != 1 || run.sources[0].Name != exampleLog {
 		t.Errorf("input.paths not used: %v", err)
 	}
 

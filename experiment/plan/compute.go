@@ -15,6 +15,11 @@ import (
 //   - SolveEffect: the treatment rate [stats.DetectableRate] finds;
 //   - SolvePower: the power of [stats.PowerNormal].
 //
+// The values derived from the inputs by arithmetic (the treatment rate of
+// an effect, the effects, the per-comparison alpha, the family error and
+// c(m)) are rounded to [DerivedDigits] significant digits; the solution
+// keeps every digit.
+//
 // All three are the normal approximation with the pooled variance under H0
 // and equal allocation; wrong-direction rejections are not counted, as in
 // R's power.prop.test.
@@ -41,8 +46,8 @@ func Compute(in Input) (Result, error) {
 		Adjust:                 in.Adjust,
 		Comparisons:            m,
 		AlphaPerComparison:     ComparisonAlpha(in.Alpha, in.Adjust, m),
-		Harmonic:               Harmonic(m),
-		FamilyErrorIndependent: 1 - math.Pow(1-in.Alpha, float64(m)),
+		Harmonic:               RoundDerived(Harmonic(m)),
+		FamilyErrorIndependent: RoundDerived(1 - math.Pow(1-in.Alpha, float64(m))),
 		Power:                  in.Power,
 		Arms:                   in.Arms,
 		Metrics:                in.Metrics,
@@ -53,8 +58,8 @@ func Compute(in Input) (Result, error) {
 	if err := solve(in, &r); err != nil {
 		return r, err
 	}
-	r.EffectAbsolute = r.TreatmentRate - in.Baseline
-	r.EffectRelative = r.TreatmentRate/in.Baseline - 1
+	r.EffectAbsolute = RoundDerived(r.TreatmentRate - in.Baseline)
+	r.EffectRelative = RoundDerived(r.TreatmentRate/in.Baseline - 1)
 	if r.UnitsPerArm > math.MaxInt64/int64(in.Arms) {
 		return r, &Error{Problem: TooManyUnits, UnitsPerArm: r.UnitsPerArm}
 	}

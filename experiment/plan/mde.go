@@ -60,7 +60,9 @@ func ParseMDE(s string) (MDE, error) {
 	if v == 0 {
 		return m, &MDEError{s, "a zero effect cannot be detected"}
 	}
-	m.Value = v / 100
+	// The nearest float64 to the decimal written: v / 100 alone can be
+	// one unit in the last place off (4.4 / 100 is 0.044000000000000004).
+	m.Value = roundSignificant(v/100, 15)
 	if neg {
 		m.Value = -m.Value
 	}
@@ -85,7 +87,8 @@ func cutUnit(t string) (num string, relative, ok bool) {
 // A signed effect against a one-sided alternative (a drop under
 // [stats.Greater], a rise under [stats.Less]) is an [*Error] with problem
 // [Direction]; a treatment rate outside (0, 1) is one with problem
-// [RateOutOfRange].
+// [RateOutOfRange]. The rate is rounded to [DerivedDigits] significant
+// digits: 4% plus 10% of it is 0.044, not 0.044000000000000004.
 func (m MDE) TreatmentRate(baseline float64, alt stats.Alternative) (float64, error) {
 	v := m.Value
 	if !m.Signed && alt == stats.Less {
@@ -98,6 +101,7 @@ func (m MDE) TreatmentRate(baseline float64, alt stats.Alternative) (float64, er
 	if m.Relative {
 		p2 = baseline * (1 + v)
 	}
+	p2 = RoundDerived(p2)
 	if !(p2 > 0 && p2 < 1) {
 		return 0, &Error{Problem: RateOutOfRange, Rate: p2}
 	}

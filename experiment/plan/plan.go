@@ -16,6 +16,7 @@ package plan
 
 import (
 	"fmt"
+	"strconv"
 
 	"github.com/armtally/armtally/experiment/stats"
 )
@@ -177,14 +178,42 @@ func Harmonic(m int) float64 {
 //
 // The thresholds are those of [stats.AdjustPValues], whose documentation
 // names the source of each method.
+//
+// The result is rounded to [DerivedDigits] significant digits, so that
+// 0.07 / 7 is 0.01 and not 0.010000000000000002.
 func ComparisonAlpha(alpha float64, adjust stats.AdjustMethod, m int) float64 {
 	if m == 1 || adjust == stats.None {
 		return alpha
 	}
 	if adjust == stats.BenjaminiYekutieli {
-		return alpha / (float64(m) * Harmonic(m))
+		return RoundDerived(alpha / (float64(m) * Harmonic(m)))
 	}
-	return alpha / float64(m)
+	return RoundDerived(alpha / float64(m))
+}
+
+// DerivedDigits is the number of significant digits a plan keeps of a
+// value it derives from its inputs by arithmetic (a treatment rate from a
+// baseline and an effect, an effect from two rates, a per-comparison
+// alpha). The inputs are short decimals, and float64 arithmetic on them
+// leaves an error in the 16th or 17th significant digit (0.04 x 1.1 is
+// 0.044000000000000004); 12 digits drop that error, which is at least a
+// thousand times smaller than the last digit kept, and keep far more
+// digits than any plan needs. Values a plan solves for numerically (the
+// unrounded units per arm, a detectable rate, a power) keep every digit.
+const DerivedDigits = 12
+
+// RoundDerived rounds v to [DerivedDigits] significant digits: the
+// float64 nearest to the decimal with that many digits.
+func RoundDerived(v float64) float64 { return roundSignificant(v, DerivedDigits) }
+
+// roundSignificant returns the float64 nearest to v written with digits
+// significant digits.
+func roundSignificant(v float64, digits int) float64 {
+	r, err := strconv.ParseFloat(strconv.FormatFloat(v, 'g', digits, 64), 64)
+	if err != nil {
+		return v // not reached: FormatFloat's output always parses
+	}
+	return r
 }
 
 // Problem names the reason a plan cannot be made.

@@ -212,7 +212,8 @@ func TestComparisonAlpha(t *testing.T) {
 		{stats.BenjaminiYekutieli, 0.05, 3, 0.05 / 5.5, 11.0 / 6, 0.142625},
 	}
 	for _, tc := range cases {
-		if got := ComparisonAlpha(tc.alpha, tc.adjust, tc.m); !near(got, tc.want, 1e-14) {
+		// ComparisonAlpha keeps 12 significant digits (DerivedDigits).
+		if got := ComparisonAlpha(tc.alpha, tc.adjust, tc.m); !near(got, tc.want, 1e-11) {
 			t.Errorf("ComparisonAlpha(%v, %v, %d) = %v, want %v", tc.alpha, tc.adjust, tc.m, got, tc.want)
 		}
 		if got := Harmonic(tc.m); !near(got, tc.harmonic, 1e-14) {
@@ -224,7 +225,8 @@ func TestComparisonAlpha(t *testing.T) {
 		if err != nil {
 			t.Fatal(err)
 		}
-		if r.Comparisons != tc.m || !near(r.FamilyErrorIndependent, tc.fwIID, 1e-12) || !near(r.Harmonic, tc.harmonic, 1e-14) {
+		// The plan keeps c(m) to 12 significant digits (DerivedDigits).
+		if r.Comparisons != tc.m || !near(r.FamilyErrorIndependent, tc.fwIID, 1e-12) || !near(r.Harmonic, tc.harmonic, 1e-11) {
 			t.Errorf("%v over %d: comparisons %d, family error %v, harmonic %v; want %d, %v, %v",
 				tc.adjust, tc.m, r.Comparisons, r.FamilyErrorIndependent, r.Harmonic, tc.m, tc.fwIID, tc.harmonic)
 		}
@@ -369,5 +371,45 @@ func TestSolveNames(t *testing.T) {
 	// keys and values).
 	if SolveUnits.String() != "units_per_arm" || SolveEffect.String() != "detectable_effect" || SolvePower.String() != "power" {
 		t.Errorf("names %v, %v, %v", SolveUnits, SolveEffect, SolvePower)
+	}
+}
+
+// TestDerivedValuesRoundTrip checks that the values a plan derives from
+// short decimal inputs are the float64 nearest to the decimal the
+// arithmetic gives by hand, with none of float64's error in the last
+// digits (hand arithmetic beside each case; the float64 results without
+// rounding are those Go gives for the same operations at run time).
+func TestDerivedValuesRoundTrip(t *testing.T) {
+	// 4% + 10% of it = 4.4%: 0.04 x 1.1 is 0.044000000000000004 at run
+	// time; 4.4 / 100 is 0.044000000000000004 as well.
+	r, err := Compute(Input{Solve: SolveUnits, Baseline: 0.04, Effect: mustMDE(t, "10%"), Alpha: 0.05, Power: 0.8, Arms: 3, Metrics: 2, Adjust: stats.Holm})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if r.TreatmentRate != 0.044 || r.EffectAbsolute != 0.004 || r.EffectRelative != 0.1 {
+		t.Errorf("4%% + 10%%: treatment rate %v, effects %v and %v; want 0.044, 0.004 and 0.1", r.TreatmentRate, r.EffectAbsolute, r.EffectRelative)
+	}
+	if m := mustMDE(t, "4.4pp"); m.Value != 0.044 {
+		t.Errorf("4.4pp is %v, want 0.044", m.Value)
+	}
+	// 0.07 / 7 = 0.01 (0.010000000000000002 unrounded).
+	if a := ComparisonAlpha(0.07, stats.Bonferroni, 7); a != 0.01 {
+		t.Errorf("0.07 / 7 = %v, want 0.01", a)
+	}
+	// c(6) = 1 + 1/2 + ... + 1/6 = 49/20 = 2.45 (2.4499999999999997
+	// summed in float64); 1 - 0.95^2 = 0.0975.
+	r, err = Compute(Input{Solve: SolveEffect, Baseline: 0.1, UnitsPerArm: 10000, Alpha: 0.05, Power: 0.8, Arms: 7, Metrics: 1, Adjust: stats.BenjaminiYekutieli})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if r.Harmonic != 2.45 {
+		t.Errorf("c(6) = %v, want 2.45", r.Harmonic)
+	}
+	r, err = Compute(Input{Solve: SolveEffect, Baseline: 0.1, UnitsPerArm: 10000, Alpha: 0.05, Power: 0.8, Arms: 3, Metrics: 1, Adjust: stats.None})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if r.FamilyErrorIndependent != 0.0975 {
+		t.Errorf("1 - 0.95^2 = %v, want 0.0975", r.FamilyErrorIndependent)
 	}
 }

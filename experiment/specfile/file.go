@@ -48,7 +48,8 @@ type File struct {
 	// Experiments are the [[experiment]] tables, in the file's order.
 	Experiments []*Settings
 
-	dir string // the folder relative paths start from
+	dir   string        // the folder relative paths start from
+	paths []writtenPath // input.paths as written, with their origins
 
 	delimFrom, badRowFrom, badFrom, partFrom Origin
 }

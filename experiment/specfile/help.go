@@ -21,8 +21,11 @@ Rules:
     flag values are relative to the current folder.
   - Flags you give override the file, and flags you leave out do not:
       FILE arguments replace input.paths (and so does --demo);
-      --user-col, --ts-col, --event-col, --experiment-col, --arm-col and
-        --epoch-unit replace the [columns] keys;
+      --input-shape replaces input.shape (the file's metrics must then
+        suit the new shape);
+      --user-col, --ts-col, --event-col, --experiment-col, --arm-col,
+        --epoch-unit, --metric-col, --units-col, --conversions-col and
+        --immature-col replace the [columns] keys;
       --delimiter, --max-bad-rows and --max-bad-share replace the [input]
         keys of the same names;
       --out, --json, --audit and --fail-on-sample-ratio replace the
@@ -48,6 +51,10 @@ Rules:
   - With the units and counts shapes, input.delimiter other than "," and
     input.max_bad_rows or input.max_bad_share other than 0 stop the run with
     "not supported yet: KEY": those readers do not have them yet.
+  - Every entry of input.paths must name at least one input file; one that
+    does not (a missing file or folder, a folder or pattern without .csv,
+    .csv.gz, .parquet or .parq files) stops the run with exit code 3 and
+    a message naming the file, line and key (input.paths[N]).
 
 An example that shows every key:
 

@@ -1,7 +1,9 @@
 package specfile
 
 import (
+	"errors"
 	"fmt"
+	"io/fs"
 	"strings"
 
 	"github.com/armtally/armtally/experiment"
@@ -27,10 +29,12 @@ func shapeName(s experiment.InputShape) string {
 
 func (sf *File) parseInput(l *locator, in fileInput) error {
 	for i, p := range in.Paths {
+		o := l.at(fmt.Sprintf("input.paths[%d]", i))
 		if strings.TrimSpace(p) == "" {
-			return l.at(fmt.Sprintf("input.paths[%d]", i)).errorf("empty path")
+			return o.errorf("empty path")
 		}
 		sf.Paths = append(sf.Paths, sf.resolve(p))
+		sf.paths = append(sf.paths, writtenPath{text: p, from: o})
 	}
 	if in.Shape != nil {
 		shape, ok := shapeNames[*in.Shape]
@@ -159,4 +163,58 @@ func (sf *File) parseOutput(l *locator, o fileOutput) error {
 	}
 	sf.FailOnSampleRatio = o.FailOnSampleRatio
 	return nil
+}
+
+// writtenPath is an entry of input.paths as the file writes it, and where.
+type writtenPath struct {
+	text string
+	from Origin
+}
+
+// PathError is an entry of input.paths that names no input: a file or
+// folder that does not exist or cannot be read, a file of an unknown type,
+// a pattern that matches no input file or a folder that holds none. It
+// names the spec file, the line and the key, and the path as written and
+// as resolved against the spec file's folder:
+//
+//	specs/ab.toml:15: input.paths[0]: "exports/", which is specs/exports (relative paths start at the spec file's folder): no such file or directory
+type PathError struct {
+	From     Origin
+	Written  string // the path as the file writes it
+	Resolved string // the path relative paths resolve to
+	Err      error
+}
+
+func (e *PathError) Error() string {
+	why := e.Err
+	// The file system's error repeats the path: keep its reason.
+	var pe *fs.PathError
+	if errors.As(e.Err, &pe) && pe.Path == e.Resolved {
+		why = pe.Err
+	}
+	if e.Written == e.Resolved {
+		return fmt.Sprintf("%s: %q: %v", e.From, e.Written, why)
+	}
+	return fmt.Sprintf("%s: %q, which is %s (relative paths start at the spec file's folder): %v", e.From, e.Written, e.Resolved, why)
+}
+
+// Unwrap returns the error of the file system or of ingest.FileSources.
+func (e *PathError) Unwrap() error { return e.Err }
+
+// Sources returns the inputs of input.paths by the rules of
+// ingest.FileSources, in the file's order. An entry that names no input
+// file is a *PathError: every entry must contribute at least one file.
+func (sf *File) Sources() ([]ingest.Source, error) {
+	var out []ingest.Source
+	for i, p := range sf.Paths {
+		srcs, err := ingest.FileSources([]string{p})
+		if err == nil && len(srcs) == 0 {
+			err = fmt.Errorf("no .csv, .csv.gz, .parquet or .parq files in %s", p)
+		}
+		if err != nil {
+			return nil, &PathError{From: sf.paths[i].from, Written: sf.paths[i].text, Resolved: p, Err: err}
+		}
+		out = append(out, srcs...)
+	}
+	return out, nil
 }

@@ -16,6 +16,8 @@ type Overrides struct {
 	// given; nil means none was.
 	Given func(flag string) bool
 
+	// Shape is --input-shape: events, units or counts.
+	Shape         string
 	Experiment    string   // --experiment
 	ExposureEvent string   // --exposure-event
 	Control       string   // --control
@@ -53,6 +55,13 @@ func (o Overrides) Apply(e *Settings, all bool) error {
 	set := func(name string) bool { return all || o.Given != nil && o.Given(name) }
 	if all {
 		e.SetKey(o.Experiment, flagOrigin("experiment"))
+	}
+	if set("input-shape") && (o.Shape != "" || !all) {
+		shape, err := ParseShape(o.Shape)
+		if err != nil {
+			return flagErrorf("--input-shape %v", err)
+		}
+		e.SetShape(shape, flagOrigin("input-shape"))
 	}
 	for _, apply := range []func(func(string) bool, *Settings) error{o.applyArms, o.applyWindow, o.applyMetrics, o.applyAnalysis} {
 		if err := apply(set, e); err != nil {
@@ -138,7 +147,9 @@ func (o Overrides) applyWindow(set func(string) bool, e *Settings) error {
 }
 
 // applyMetrics applies --metric, --secondary-metric and --guardrail,
-// which together replace the file's metrics.
+// which together replace the file's metrics. With a unit or counts table
+// as the input, the EVENT part of each names the metric's column or is left
+// out (see tableMetric).
 func (o Overrides) applyMetrics(set func(string) bool, e *Settings) error {
 	if !set("metric") && !set("secondary-metric") && !set("guardrail") {
 		return nil
@@ -163,6 +174,14 @@ func (o Overrides) applyMetrics(set func(string) bool, e *Settings) error {
 			return flagErrorf("--guardrail: %v", err)
 		}
 		ms = append(ms, Metric{Metric: m, Role: Guardrail, From: flagOrigin("guardrail")})
+	}
+	if e.shape != experiment.InputEventLog {
+		texts := append(append(append([]string(nil), o.Metrics...), o.Secondary...), o.Guardrails...)
+		for i := range ms {
+			if err := tableMetric(&ms[i], e.shape, strings.TrimPrefix(ms[i].From.Flag, "--"), texts[i]); err != nil {
+				return err
+			}
+		}
 	}
 	e.SetMetrics(ms, flagOrigin("metric"))
 	return nil

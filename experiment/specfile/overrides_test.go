@@ -91,3 +91,60 @@ func TestOverridesErrors(t *testing.T) {
 		}
 	}
 }
+
+// TestOverridesShape checks --input-shape and the metrics of a table: with
+// a unit table, --metric NAME=COLUMN names the metric's column; a spec
+// file's metrics are checked against a shape the flag changes, and the
+// error names the file, line and key.
+func TestOverridesShape(t *testing.T) {
+	const units = "[input]\nshape = \"units\"\n\n[[experiment]]\nkey = \"k\"\n\n[[experiment.metric]]\nname = \"booked\"\ncolumn = \"booked_flag\"\n"
+	const events = "[[experiment]]\nkey = \"k\"\n\n[[experiment.metric]]\nname = \"booked\"\nevents = [\"booking_confirmed\"]\n"
+	given := func(flags ...string) func(string) bool {
+		return func(f string) bool { return strings.Contains(" "+strings.Join(flags, " ")+" ", " "+f+" ") }
+	}
+	cases := []struct {
+		name, file string
+		o          Overrides
+		columns    []string // the metrics' columns, or
+		err        string   // the error
+	}{
+		{"file's column", units, Overrides{}, []string{"booked_flag"}, ""},
+		{"flag's column over the file's", units, Overrides{Given: given("metric"), Metrics: []string{"booked=b2:3d", "paid"}}, []string{"b2", "paid"}, ""},
+		{"file's events, flag's units", events, Overrides{Given: given("input-shape"), Shape: "units"}, nil,
+			`s.toml:5: experiment[0].metric[0].name: metric "booked" lists events (booking_confirmed), which only an event log has; the input is a unit table (input shape "units", from --input-shape)`},
+		{"file's column, flag's events", units, Overrides{Given: given("input-shape"), Shape: "events"}, nil,
+			`s.toml:8: experiment[0].metric[0].name: metric "booked" has no events, and the input is an event log (input shape "events", from --input-shape)`},
+		{"file's column, flag's counts", units, Overrides{Given: given("input-shape"), Shape: "counts"}, nil,
+			`metric "booked" names a column (booked_flag), which only a unit table has; the input shape is "counts" (from --input-shape)`},
+		{"unknown shape", events, Overrides{Given: given("input-shape"), Shape: "rows"}, nil, `--input-shape "rows": want events, units or counts`},
+	}
+	for _, tc := range cases {
+		t.Run(tc.name, func(t *testing.T) {
+			sf, err := Parse("s.toml", []byte(tc.file))
+			if err != nil {
+				t.Fatal(err)
+			}
+			e := sf.Experiments[0]
+			err = tc.o.Apply(e, false)
+			if err == nil {
+				_, _, err = e.Build()
+			}
+			if tc.err != "" {
+				if err == nil || !strings.Contains(err.Error(), tc.err) {
+					t.Errorf("error %v, want %q", err, tc.err)
+				}
+				return
+			}
+			if err != nil {
+				t.Fatal(err)
+			}
+			var cols []string
+			for _, c := range e.MetricColumns() {
+				cols = append(cols, c.Physical)
+			}
+			if !reflect.DeepEqual(cols, tc.columns) {
+				t.Errorf("columns %q, want %q", cols, tc.columns)
+			}
+		})
+	}
+}

@@ -353,6 +353,9 @@ func (e *Settings) Build() (experiment.Spec, experiment.AnalysisOptions, error) 
 		}
 		return spec, e.opts, flagErrorf("name at least one metric with --metric NAME=EVENT[:WINDOW], for example --metric purchase=purchase:7d")
 	}
+	if err := e.checkShape(); err != nil {
+		return spec, e.opts, err
+	}
 	for _, primary := range []bool{true, false} {
 		for _, ms := range e.metrics {
 			if primary == (ms.Role == Primary) {

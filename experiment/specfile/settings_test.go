@@ -75,8 +75,10 @@ func TestBuildErrors(t *testing.T) {
 // (primary ones first), --lower-is-better marking and a unit table's
 // metric columns.
 func TestSettingsMetrics(t *testing.T) {
+	// A unit table: metrics have columns, not events.
 	e := NewSettings()
-	m := func(name string) experiment.Metric { return experiment.Metric{Name: name, Events: []string{name}} }
+	e.SetShape(experiment.InputUnitTable, Origin{Flag: "--input-shape"})
+	m := func(name string) experiment.Metric { return experiment.Metric{Name: name} }
 	refund := m("refund")
 	refund.Guardrail = &experiment.Margin{Value: 0.01}
 	e.SetMetrics([]Metric{

@@ -179,7 +179,9 @@ func ParseRate(s string) (float64, error) {
 	if err != nil {
 		return 0, fmt.Errorf("%q is not a number", s)
 	}
-	v *= scale
+	// Rounded to 15 significant digits: the float64 nearest to the
+	// decimal written, which 12 x 0.01 is not always.
+	v, _ = strconv.ParseFloat(strconv.FormatFloat(v*scale, 'g', 15, 64), 64)
 	if !(v > 0 && v < 1) {
 		return 0, fmt.Errorf("%v is not strictly between 0 and 1", v)
 	}

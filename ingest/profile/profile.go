@@ -404,3 +404,15 @@ func countCSVRows(src ingest.Source, delim rune) (int64, error) {
 		n++
 	}
 }
+
+// Columns returns a source's columns with their types, in file order (a
+// Parquet file's groups and the fields inside them as "group.field"),
+// from its header (CSV, with the delimiter; 0 means ',') or its footer
+// (Parquet) alone: no row is read.
+func Columns(src ingest.Source, delimiter rune) ([]Column, error) {
+	fr, err := describe(src, ingest.Options{Delimiter: delimiter})
+	if err != nil {
+		return nil, err
+	}
+	return fr.Columns, nil
+}
