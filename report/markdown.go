@@ -19,6 +19,11 @@ type MarkdownOptions struct {
 	HeadingLevel int
 	// OmitCautions leaves out the "Before acting" list of cautions.
 	OmitCautions bool
+	// ChartPath, when set, is the chart file (WriteChart) linked above
+	// the metric sections, as a path relative to the Markdown file's
+	// folder; with several readouts, each links its own file,
+	// PerExperimentPath(ChartPath, experiment, number of readouts).
+	ChartPath string
 }
 
 // WriteMarkdown writes readouts to w as a Markdown readout for an
@@ -41,7 +46,7 @@ func WriteMarkdown(w io.Writer, readouts []experiment.Readout, opts MarkdownOpti
 	if err := checkFinite(NewDocument(readouts)); err != nil {
 		return err
 	}
-	md := &markdown{level: level, opts: opts}
+	md := &markdown{level: level, opts: opts, readouts: len(readouts)}
 	for i, r := range readouts {
 		if i > 0 {
 			md.line("---")
@@ -61,6 +66,8 @@ type markdown struct {
 	buf   bytes.Buffer
 	level int
 	opts  MarkdownOptions
+	// readouts is the number of readouts written (for chartLink).
+	readouts int
 }
 
 // line writes one line. Every line of the readout passes here, so this is
