@@ -55,7 +55,7 @@ const (
 	chartTitleSpace = 0.9 * vg.Inch
 	chartPanelBase  = 0.95 * vg.Inch // a panel's title and x axis
 	chartRowHeight  = 0.42 * vg.Inch // one comparison
-	chartNameMax    = 40             // bytes of a name shown before it is cut
+	chartNameMax    = 32             // bytes of a name shown before it is cut
 	chartPNGDPI     = 144
 )
 
@@ -63,7 +63,7 @@ var (
 	chartInk    = color.RGBA{R: 0x1f, G: 0x4e, B: 0x79, A: 0xff} // intervals and points
 	chartZero   = color.RGBA{R: 0x55, G: 0x55, B: 0x55, A: 0xff} // the line at 0
 	chartMargin = color.RGBA{R: 0xc0, G: 0x39, B: 0x2b, A: 0xff} // a guardrail's margin
-	chartGrid   = color.RGBA{R: 0xdd, G: 0xdd, B: 0xdd, A: 0xff}
+	chartGrid   = color.RGBA{R: 0xd0, G: 0xd0, B: 0xd0, A: 0xff}
 )
 
 // chartPanel is one metric's panel: what the chart plots, in percentage
@@ -101,7 +101,7 @@ type chartRow struct {
 //
 // What the readout leaves undefined (a difference or interval that is nil,
 // NaN or infinite) is left out of the drawing and the row says so. Names
-// from the data are shown as safetext.Short makes them, cut after 40
+// from the data are shown as safetext.Short makes them, cut after 32
 // bytes. The same readout and options give the same bytes: the SVG writer
 // names its fonts without embedding them, and nothing depends on the
 // time or on map order.
