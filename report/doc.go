@@ -43,10 +43,8 @@
 // module in testdata/auditcheck reads it back with a second Parquet
 // library; run it by hand.
 //
-// WriteChart draws one readout as a picture (SVG or PNG, gonum/plot): a
-// panel per metric, a point and an interval bar per treatment, the zero
-// line and a guardrail's margin; MarkdownOptions.ChartPath links it from
-// the Markdown.
+// Package report/chart draws one readout as a picture (SVG or PNG,
+// gonum/plot); MarkdownOptions.ChartPath links it from the Markdown.
 //
 // Both writers are deterministic: the same readouts give the same bytes.
 // Nothing is written to w until the whole output is built, so a failed

@@ -19,7 +19,7 @@ type MarkdownOptions struct {
 	HeadingLevel int
 	// OmitCautions leaves out the "Before acting" list of cautions.
 	OmitCautions bool
-	// ChartPath, when set, is the chart file (WriteChart) linked above
+	// ChartPath, when set, is the chart file (report/chart) linked above
 	// the metric sections, as a path relative to the Markdown file's
 	// folder; with several readouts, each links its own file,
 	// PerExperimentPath(ChartPath, experiment, number of readouts).

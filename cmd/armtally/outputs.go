@@ -13,6 +13,7 @@ import (
 	"github.com/armtally/armtally/experiment"
 	"github.com/armtally/armtally/ingest"
 	"github.com/armtally/armtally/report"
+	"github.com/armtally/armtally/report/chart"
 )
 
 // outputFiles returns the files a run writes: --out and --json unless
@@ -118,14 +119,14 @@ func writeCharts(set *report.OutputSet, run *analyzeRun, readouts []experiment.R
 	if run.chart == "" {
 		return nil
 	}
-	opts := report.ChartOptions{Format: report.ChartFormatOf(run.chart)}
+	opts := chart.Options{Format: chart.FormatOf(run.chart)}
 	for i, e := range run.experiments {
 		if i >= len(readouts) {
 			return fmt.Errorf("writing the chart of experiment %q: the run has no readout of it", e.spec.Key)
 		}
 		r := readouts[i]
 		path := report.PerExperimentPath(run.chart, e.spec.Key, len(run.experiments))
-		if err := set.Add(path, func(w io.Writer) error { return report.WriteChart(w, r, opts) }); err != nil {
+		if err := set.Add(path, func(w io.Writer) error { return chart.Write(w, r, opts) }); err != nil {
 			return fmt.Errorf("writing the chart of experiment %q: %w", e.spec.Key, err)
 		}
 	}
@@ -140,14 +141,14 @@ func chartLinkPath(run *analyzeRun) string {
 	if run.chart == "" || run.out == "" || run.out == "-" {
 		return run.chart
 	}
-	chart, err1 := filepath.Abs(run.chart)
+	abs, err1 := filepath.Abs(run.chart)
 	dir, err2 := filepath.Abs(filepath.Dir(run.out))
 	if err1 != nil || err2 != nil {
 		return run.chart
 	}
-	rel, err := filepath.Rel(dir, chart)
+	rel, err := filepath.Rel(dir, abs)
 	if err != nil {
-		return chart
+		return abs
 	}
 	return rel
 }
