@@ -377,15 +377,14 @@ func TestFormatOf(t *testing.T) {
 // the same bytes.
 func render(t *testing.T, write func(*bytes.Buffer) error) []byte {
 	t.Helper()
-	var first, second bytes.Buffer
-	if err := write(&first); err != nil {
-		t.Fatal(err)
+	var runs [2]bytes.Buffer
+	for i := range runs {
+		if err := write(&runs[i]); err != nil {
+			t.Fatal(err)
+		}
 	}
-	if err := write(&second); err != nil {
-		t.Fatal(err)
+	if !bytes.Equal(runs[0].Bytes(), runs[1].Bytes()) {
+		t.Fatalf("two runs differ (%d and %d bytes)", runs[0].Len(), runs[1].Len())
 	}
-	if !bytes.Equal(first.Bytes(), second.Bytes()) {
-		t.Fatalf("two runs differ (%d and %d bytes)", first.Len(), second.Len())
-	}
-	return first.Bytes()
+	return runs[0].Bytes()
 }
