@@ -43,6 +43,9 @@
 // module in testdata/auditcheck reads it back with a second Parquet
 // library; run it by hand.
 //
+// Package report/chart draws one readout as a picture (SVG or PNG,
+// gonum/plot); MarkdownOptions.ChartPath links it from the Markdown.
+//
 // Both writers are deterministic: the same readouts give the same bytes.
 // Nothing is written to w until the whole output is built, so a failed
 // call writes nothing. WriteFileAtomic puts either output in a file with a

@@ -22,6 +22,11 @@ type MarkdownOptions struct {
 	// Brief writes the compact form for a ticket comment: each readout's
 	// title, summary, warnings and cautions, without the detail.
 	Brief bool
+	// ChartPath, when set, is the chart file (report/chart) linked above
+	// the metric sections, as a path relative to the Markdown file's
+	// folder; with several readouts, each links its own file,
+	// PerExperimentPath(ChartPath, experiment, number of readouts).
+	ChartPath string
 }
 
 // WriteMarkdown writes readouts to w as a Markdown readout for an
@@ -46,7 +51,7 @@ func WriteMarkdown(w io.Writer, readouts []experiment.Readout, opts MarkdownOpti
 	if err := checkFinite(NewDocument(readouts)); err != nil {
 		return err
 	}
-	md := &markdown{level: level, opts: opts}
+	md := &markdown{level: level, opts: opts, readouts: len(readouts)}
 	for i, r := range readouts {
 		if i > 0 {
 			md.line("---")
@@ -66,6 +71,8 @@ type markdown struct {
 	buf   bytes.Buffer
 	level int
 	opts  MarkdownOptions
+	// readouts is the number of readouts written (for chartLink).
+	readouts int
 }
 
 // line writes one line. Every line of the readout passes here, so this is

@@ -27,6 +27,7 @@ func (md *markdown) readout(r experiment.Readout) {
 	md.warnings(r)
 	md.arms(r)
 	md.multiplicity(r)
+	md.chartLink(r)
 	for _, m := range r.Metrics {
 		md.metric(r, m)
 	}

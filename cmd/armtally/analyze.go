@@ -6,7 +6,6 @@ import (
 	"fmt"
 	"io"
 	"os"
-	"path/filepath"
 	"runtime/debug"
 	"slices"
 	"strings"
@@ -112,6 +111,7 @@ type analyzeFlags struct {
 	maxBadRows            int64
 	maxBadShare           float64
 	audit                 string
+	chart                 string
 	noProgress            bool
 	memoryLimit, spillDir string
 	maxSpecSize           string
@@ -150,6 +150,7 @@ func newAnalyzeFlagSet(f *analyzeFlags, stderr io.Writer) *pflag.FlagSet {
 	fs.StringVar(&f.jsonOut, "json", "", "also write the JSON readout to this file (- for stdout, with --out FILE)")
 	fs.StringVar(&f.brief, "brief", "", "also write the compact Markdown readout for a ticket comment (summary, warnings, cautions) to this file")
 	fs.StringVar(&f.audit, "audit", "", "also write the per-unit audit table (Parquet) to this file; with several experiments, one file each, named FILE-KEY.parquet")
+	fs.StringVar(&f.chart, "chart", "", "also write a chart of each treatment's difference from the control with its interval, per metric, to this file: SVG, or PNG when FILE ends in .png; linked from the Markdown readout; with several experiments, one file each, named FILE-KEY.svg")
 	fs.BoolVar(&f.failOnSampleRatio, "fail-on-sample-ratio", false, "exit with code 4 when the sample ratio check fails")
 	fs.StringVar(&f.memoryLimit, "memory-limit", "", "keep the per-unit state of an event log under about this size (such as 800MB or 2GiB): the rows go to disk in hash partitions of the units, tallied a group at a time and merged; no --audit")
 	fs.StringVar(&f.spillDir, "spill-dir", "", "folder for the partition files of --memory-limit (default: the system's temporary folder)")
@@ -189,7 +190,9 @@ type analyzeRun struct {
 	outFrom      [3]string
 	// brief is the path of the compact Markdown readout ("" for none),
 	// named by --brief.
-	brief             string
+	brief string
+	// chart is the --chart file ("" for none).
+	chart             string
 	failOnSampleRatio bool
 	// progress says whether to show a progress line on stderr while
 	// reading: stderr is a terminal and --no-progress is not given.
@@ -456,6 +459,7 @@ func applyOutputs(f *analyzeFlags, sf *specfile.File, override func(string) bool
 			run.outFrom[i] = "--" + o.flag
 		}
 	}
+	run.chart = f.chart
 	if run.audit != "" && run.shape == experiment.InputCounts {
 		return usagef("analyze: an audit table lists units, and a counts table has none (output.audit or --audit)")
 	}
@@ -610,7 +614,9 @@ func writeOutputs(ctx context.Context, run *analyzeRun, res *pipeline.Result, st
 	defer set.Abort()
 	readouts := res.Readouts
 	jsonOut := func(w io.Writer) error { return report.WriteJSON(w, readouts) }
-	md := func(w io.Writer) error { return report.WriteMarkdown(w, readouts, report.MarkdownOptions{}) }
+	md := func(w io.Writer) error {
+		return report.WriteMarkdown(w, readouts, report.MarkdownOptions{ChartPath: chartLinkPath(run)})
+	}
 	err := addOutputs(set, run, res, jsonOut, md)
 	if err == nil {
 		err = set.Commit()
@@ -654,6 +660,9 @@ func addOutputs(set *report.OutputSet, run *analyzeRun, res *pipeline.Result, js
 		if err := set.Add(run.brief, brief); err != nil {
 			return fmt.Errorf("writing the brief Markdown readout: %w", err)
 		}
+	}
+	if err := writeCharts(set, run, res.Readouts); err != nil {
+		return err
 	}
 	if run.audit != "" {
 		return writeAudits(set, run, res)
@@ -749,30 +758,11 @@ func writeAudits(set *report.OutputSet, run *analyzeRun, res *pipeline.Result) e
 			}
 			return fmt.Errorf("experiment %q: %w", e.spec.Key, err)
 		}
-		path := auditPath(run.audit, e.spec.Key, len(run.experiments))
+		path := report.PerExperimentPath(run.audit, e.spec.Key, len(run.experiments))
 		err = set.Add(path, func(w io.Writer) error { return report.WriteAudit(w, e.spec, units) })
 		if err != nil {
 			return fmt.Errorf("writing the audit table of experiment %q: %w", e.spec.Key, err)
 		}
 	}
 	return nil
-}
-
-// auditPath returns the audit file of the experiment key: path itself for
-// a run of one experiment, else path with "-KEY" before its extension
-// (characters other than letters, digits, '.', '_' and '-' in the key
-// become '_').
-func auditPath(path, key string, experiments int) string {
-	if experiments == 1 {
-		return path
-	}
-	safe := strings.Map(func(r rune) rune {
-		switch {
-		case r >= 'a' && r <= 'z', r >= 'A' && r <= 'Z', r >= '0' && r <= '9', r == '.', r == '_', r == '-':
-			return r
-		}
-		return '_'
-	}, key)
-	ext := filepath.Ext(path)
-	return strings.TrimSuffix(path, ext) + "-" + safe + ext
 }

@@ -7,10 +7,13 @@ import (
 	"io"
 	"os"
 	"os/signal"
+	"path/filepath"
 	"syscall"
 
+	"github.com/armtally/armtally/experiment"
 	"github.com/armtally/armtally/ingest"
 	"github.com/armtally/armtally/report"
+	"github.com/armtally/armtally/report/chart"
 )
 
 // outputFiles returns the files a run writes: --out and --json unless
@@ -27,7 +30,12 @@ func outputFiles(run *analyzeRun) []report.OutputPath {
 	}
 	if run.audit != "" {
 		for _, e := range run.experiments {
-			outs = append(outs, report.OutputPath{From: run.outFrom[2], Path: auditPath(run.audit, e.spec.Key, len(run.experiments))})
+			outs = append(outs, report.OutputPath{From: run.outFrom[2], Path: report.PerExperimentPath(run.audit, e.spec.Key, len(run.experiments))})
+		}
+	}
+	if run.chart != "" {
+		for _, e := range run.experiments {
+			outs = append(outs, report.OutputPath{From: "--chart", Path: report.PerExperimentPath(run.chart, e.spec.Key, len(run.experiments))})
 		}
 	}
 	return outs
@@ -45,6 +53,9 @@ func checkOutputs(run *analyzeRun, inputs []string) error {
 	}
 	if run.brief == "-" {
 		return usagef("analyze: --brief -: the brief readout is written next to the full one; name a file")
+	}
+	if run.chart == "-" {
+		return usagef("analyze: --chart -: the chart is an image, which is not written to standard output; name a file")
 	}
 	if run.jsonOut == "-" && (run.out == "" || run.out == "-") {
 		return usagef("analyze: %s -: the Markdown readout goes to standard output too; name a file for it with --out FILE (or --out %s)", run.outFrom[1], os.DevNull)
@@ -105,4 +116,45 @@ func removeStaleSpills(dir string, stderr io.Writer) {
 	for _, e := range errs {
 		fmt.Fprintf(stderr, "armtally: warning: %v\n", e)
 	}
+}
+
+// writeCharts adds each readout's chart to set, at run.chart or, with
+// several experiments, at run.chart with "-KEY" before the extension;
+// PNG when the name ends in .png, else SVG.
+func writeCharts(set *report.OutputSet, run *analyzeRun, readouts []experiment.Readout) error {
+	if run.chart == "" {
+		return nil
+	}
+	opts := chart.Options{Format: chart.FormatOf(run.chart)}
+	for i, e := range run.experiments {
+		if i >= len(readouts) {
+			return fmt.Errorf("writing the chart of experiment %q: the run has no readout of it", e.spec.Key)
+		}
+		r := readouts[i]
+		path := report.PerExperimentPath(run.chart, e.spec.Key, len(run.experiments))
+		if err := set.Add(path, func(w io.Writer) error { return chart.Write(w, r, opts) }); err != nil {
+			return fmt.Errorf("writing the chart of experiment %q: %w", e.spec.Key, err)
+		}
+	}
+	return nil
+}
+
+// chartLinkPath returns the chart's path as the Markdown readout links
+// it: relative to the Markdown file's folder, or as given when the
+// readout goes to standard output or the two share no relative path
+// (another volume); "" without --chart.
+func chartLinkPath(run *analyzeRun) string {
+	if run.chart == "" || run.out == "" || run.out == "-" {
+		return run.chart
+	}
+	abs, err1 := filepath.Abs(run.chart)
+	dir, err2 := filepath.Abs(filepath.Dir(run.out))
+	if err1 != nil || err2 != nil {
+		return run.chart
+	}
+	rel, err := filepath.Rel(dir, abs)
+	if err != nil {
+		return abs
+	}
+	return rel
 }
