@@ -48,7 +48,7 @@ func TestPanels(t *testing.T) {
 			want: []wantPanel{
 				{title: "reorder: 97.5% simultaneous interval (Bonferroni)", level: 0.975, rows: []wantRow{
 					{label: "email-reminder\n+1.10 pp (+0.48 to +1.72)", diff: 1.0988700944498928, lower: 0.48298401559486275, upper: 1.7151097364467866},
-					{label: "push-reminder\n+0.57 pp (-0.033 to +1.18)", diff: 0.57441861910770969, lower: -0.032844401833117317, upper: 1.181741125638253},
+					{label: "push-reminder\n+0.57 pp (-0.03 to +1.18)", diff: 0.57441861910770969, lower: -0.032844401833117317, upper: 1.181741125638253},
 				}},
 				{title: "repeat_visit (guardrail): 90% interval of the guardrail test, margin -1.20 pp", margin: ptr(-1.2), level: 0.9, rows: []wantRow{
 					{label: "email-reminder\n-0.20 pp (-0.94 to +0.54)", diff: -0.20108923334730133, lower: -0.93724135678010141, upper: 0.53510781645547756},
@@ -56,7 +56,7 @@ func TestPanels(t *testing.T) {
 				}},
 				{title: "unsubscribe (guardrail, lower is better): 90% interval of the guardrail test, margin +0.50 pp", margin: ptr(0.5), level: 0.9, rows: []wantRow{
 					{label: "email-reminder\n+0.72 pp (+0.50 to +0.95)", diff: 0.72391635450038509, lower: 0.4959647578032942, upper: 0.95295964395909587},
-					{label: "push-reminder\n+0.074 pp (-0.14 to +0.29)", diff: 0.073801477134665186, lower: -0.13819789486892095, upper: 0.28587191579032157},
+					{label: "push-reminder\n+0.07 pp (-0.14 to +0.29)", diff: 0.073801477134665186, lower: -0.13819789486892095, upper: 0.28587191579032157},
 				}},
 			},
 		},
@@ -67,7 +67,7 @@ func TestPanels(t *testing.T) {
 			want: []wantPanel{
 				{title: "reorder: 95% confidence interval", level: 0.95, rows: []wantRow{
 					{label: "email-reminder\n+1.10 pp (+0.56 to +1.64)", diff: 1.0988700944498928, lower: 0.56033119374663022, upper: 1.6376794301743838},
-					{label: "push-reminder\n+0.57 pp (+0.043 to +1.11)", diff: 0.57441861910770969, lower: 0.043437226979455533, upper: 1.1054455323376601},
+					{label: "push-reminder\n+0.57 pp (+0.04 to +1.11)", diff: 0.57441861910770969, lower: 0.043437226979455533, upper: 1.1054455323376601},
 				}},
 			},
 		},
