@@ -218,35 +218,6 @@ func (md *markdown) guardrails(r experiment.Readout, m experiment.MetricReadout,
 	n.flush(md)
 }
 
-// guardrailWarnings lists the guardrail tests that did not pass, for the
-// block of warnings.
-func guardrailWarnings(m experiment.MetricReadout) []string {
-	if m.Guardrail == nil {
-		return nil
-	}
-	var list []string
-	change, _ := worseWord(m)
-	for _, c := range m.Comparisons {
-		pair := pairName(c)
-		ni := c.NonInferiority
-		switch {
-		case ni == nil || ni.Z == nil:
-			list = append(list, fmt.Sprintf("**Guardrail not tested**: %s, %s could not be tested against its margin.", code(m.Name), pair))
-		case !ni.NonInferior:
-			s := fmt.Sprintf("**Guardrail not met**: %s, %s is not shown to be within the margin: a %s of %s pp or more is not ruled out (non-inferiority %s",
-				code(m.Name), pair, change, formatSize(ni.AbsoluteMargin), pAgainst(ni.Z.PValue, ni.Z.Alpha))
-			if chk, ok := checkInterval(m, ni); ok {
-				s += fmt.Sprintf("; the %s interval reaches %s pp", formatLevel(ni.Interval.Level), formatPoints(chk.bound))
-			}
-			list = append(list, s+").")
-		}
-		if ni != nil && ni.Z != nil && ni.Z.RejectByStatistic != ni.Z.RejectByPValue {
-			list = append(list, code(m.Name)+", "+pair+", guardrail: "+routesDisagree)
-		}
-	}
-	return list
-}
-
 // guardrailConclusion is the plain-language line of one guardrail test.
 func guardrailConclusion(m experiment.MetricReadout, c experiment.Comparison) string {
 	ni := c.NonInferiority
