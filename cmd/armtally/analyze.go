@@ -83,6 +83,8 @@ type analyzeFlags struct {
 	lowerIsBetter         []string
 	out, jsonOut          string
 	failOnSampleRatio     bool
+	failOnGuardrail       bool
+	exitOnDecision        bool
 	spec                  string
 	delimiter             string
 	maxBadRows            int64
@@ -124,6 +126,8 @@ func newAnalyzeFlagSet(f *analyzeFlags, stderr io.Writer) *pflag.FlagSet {
 	fs.StringVar(&f.jsonOut, "json", "", "also write the JSON readout to this file (- for stdout, with --out FILE)")
 	fs.StringVar(&f.audit, "audit", "", "also write the per-unit audit table (Parquet) to this file; with several experiments, one file each, named FILE-KEY.parquet")
 	fs.BoolVar(&f.failOnSampleRatio, "fail-on-sample-ratio", false, "exit with code 4 when the sample ratio check fails")
+	fs.BoolVar(&f.failOnGuardrail, "fail-on-guardrail", false, "exit with code 5 when a guardrail is not held for a treatment (not shown within its margin, worse, or not readable)")
+	fs.BoolVar(&f.exitOnDecision, "exit-on-decision", false, "exit with code 6 when the decision is ship and 7 when it is stop (wait and fix_data exit 0)")
 	fs.StringVar(&f.memoryLimit, "memory-limit", "", "keep the per-unit state of an event log under about this size (such as 800MB or 2GiB): the rows go to disk in hash partitions of the units, tallied a group at a time and merged; no --audit")
 	fs.StringVar(&f.spillDir, "spill-dir", "", "folder for the partition files of --memory-limit (default: the system's temporary folder)")
 	fs.BoolVar(&f.noProgress, "no-progress", false, "do not show the rows read, rate and elapsed time on stderr while reading (shown only when stderr is a terminal, and not for unit or counts tables)")
@@ -156,10 +160,13 @@ type analyzeRun struct {
 	// out, jsonOut and audit are the output paths ("" for none; "-" is
 	// standard output for out and jsonOut); outFrom says where each was
 	// named: "--out", "--json", "--audit" or the spec file's key.
-	out, jsonOut      string
-	audit             string
-	outFrom           [3]string
-	failOnSampleRatio bool
+	out, jsonOut string
+	audit        string
+	outFrom      [3]string
+	// checks are the opt-in exit codes: --fail-on-sample-ratio (or the
+	// spec file's output.fail_on_sample_ratio), --fail-on-guardrail and
+	// --exit-on-decision.
+	checks outcomeChecks
 	// progress says whether to show a progress line on stderr while
 	// reading: stderr is a terminal and --no-progress is not given.
 	progress bool
@@ -401,7 +408,7 @@ func applyOutputs(f *analyzeFlags, sf *specfile.File, override func(string) bool
 		run.out, run.jsonOut, run.audit = sf.Markdown, sf.JSON, sf.Audit
 		run.outFrom = [3]string{"output.markdown in " + sf.Name, "output.json in " + sf.Name, "output.audit in " + sf.Name}
 		if sf.FailOnSampleRatio != nil {
-			run.failOnSampleRatio = *sf.FailOnSampleRatio
+			run.checks.sampleRatio = *sf.FailOnSampleRatio
 		}
 	}
 	for i, o := range []struct {
@@ -418,8 +425,9 @@ func applyOutputs(f *analyzeFlags, sf *specfile.File, override func(string) bool
 		return usagef("analyze: an audit table lists units, and a counts table has none (output.audit or --audit)")
 	}
 	if override("fail-on-sample-ratio") {
-		run.failOnSampleRatio = f.failOnSampleRatio
+		run.checks.sampleRatio = f.failOnSampleRatio
 	}
+	run.checks.guardrail, run.checks.decision = f.failOnGuardrail, f.exitOnDecision
 	return nil
 }
 
@@ -538,7 +546,7 @@ func runAnalyze(args []string, stdout, stderr io.Writer) error {
 	if err := writeOutputs(ctx, run, res, stdout); err != nil {
 		return err
 	}
-	return checkSampleRatio(run, res.Readouts)
+	return checkOutcome(run.checks, res.Readouts)
 }
 
 // writeOutputs writes the readouts and audit tables of a run: the files
@@ -587,28 +595,6 @@ func addOutputs(set *report.OutputSet, run *analyzeRun, res *pipeline.Result, js
 	}
 	if run.audit != "" {
 		return writeAudits(set, run, res)
-	}
-	return nil
-}
-
-// checkSampleRatio returns errSampleRatio, with the experiments whose
-// sample ratio check failed, under --fail-on-sample-ratio.
-func checkSampleRatio(run *analyzeRun, readouts []experiment.Readout) error {
-	if !run.failOnSampleRatio {
-		return nil
-	}
-	var failed []string
-	for _, r := range readouts {
-		if sr := r.SampleRatio; sr.Checked && sr.Mismatch {
-			failed = append(failed, fmt.Sprintf("%s: p = %.3g < %g", r.Experiment, sr.PValue, sr.Threshold))
-		}
-	}
-	if len(failed) > 0 {
-		if len(readouts) == 1 {
-			_, detail, _ := strings.Cut(failed[0], ": ")
-			return fmt.Errorf("%w: %s (see the readout)", errSampleRatio, detail)
-		}
-		return fmt.Errorf("%w in %d of %d experiments (%s; see the readouts)", errSampleRatio, len(failed), len(readouts), strings.Join(failed, "; "))
 	}
 	return nil
 }
