@@ -197,6 +197,19 @@ func readoutVerdict(r experiment.Readout) experiment.Verdict {
 	return r.Verdict
 }
 
+// verdictComparison returns the comparison a verdict row points at; false
+// when the row's indexes do not fit the readout (a verdict set by hand).
+func verdictComparison(r experiment.Readout, row experiment.VerdictRow) (experiment.Comparison, bool) {
+	if row.MetricIndex < 0 || row.MetricIndex >= len(r.Metrics) {
+		return experiment.Comparison{}, false
+	}
+	cs := r.Metrics[row.MetricIndex].Comparisons
+	if row.ComparisonIndex < 0 || row.ComparisonIndex >= len(cs) {
+		return experiment.Comparison{}, false
+	}
+	return cs[row.ComparisonIndex], true
+}
+
 func toJSONStatus(r experiment.Readout) JSONStatus {
 	v := readoutVerdict(r)
 	reasons := func(rs []experiment.Reason) []string {
@@ -211,12 +224,13 @@ func toJSONStatus(r experiment.Readout) JSONStatus {
 		}),
 	}
 	st.Rows = convertAll(v.Rows, func(row experiment.VerdictRow) JSONStatusRow {
-		c := r.Metrics[row.MetricIndex].Comparisons[row.ComparisonIndex]
-		j := JSONStatusRow{
-			Metric: jsonText(row.Metric), Role: row.RoleName(), Treatment: jsonText(row.Treatment),
-			Outcome: row.Outcome.String(), Difference: c.Difference,
-			DifferenceInterval: toJSONInterval(c.DifferenceInterval), RelativeLift: c.RelativeLift,
+		j := JSONStatusRow{Metric: jsonText(row.Metric), Role: row.RoleName(), Treatment: jsonText(row.Treatment),
+			Outcome: row.Outcome.String()}
+		c, ok := verdictComparison(r, row)
+		if !ok {
+			return j
 		}
+		j.Difference, j.DifferenceInterval, j.RelativeLift = c.Difference, toJSONInterval(c.DifferenceInterval), c.RelativeLift
 		if c.Adjusted != nil {
 			p := c.Adjusted.PValue
 			j.AdjustedPValue = &p

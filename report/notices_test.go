@@ -9,6 +9,7 @@ import (
 	"time"
 
 	"github.com/armtally/armtally/experiment"
+	"github.com/armtally/armtally/experiment/stats"
 )
 
 // noticeCase is one analysis whose readout shows some warning kinds.
@@ -212,5 +213,34 @@ func TestEveryWarningInBothOutputs(t *testing.T) {
 		if !seen[code] {
 			t.Errorf("no case shows warning %s", code)
 		}
+	}
+}
+
+// The JSON status rows carry the numbers of the comparison each points at,
+// and a verdict whose rows point nowhere (set by hand) gives rows without
+// numbers rather than a panic.
+func TestJSONStatusRows(t *testing.T) {
+	r := familiesReadout(t, stats.Holm)
+	doc := NewDocument([]experiment.Readout{r})
+	st := doc.Readouts[0].Status
+	if len(st.Rows) != len(r.Verdict.Rows) || len(st.Rows) != 4 {
+		t.Fatalf("%d status rows, verdict has %d, want 4", len(st.Rows), len(r.Verdict.Rows))
+	}
+	for i, row := range r.Verdict.Rows {
+		c := r.Metrics[row.MetricIndex].Comparisons[row.ComparisonIndex]
+		got := st.Rows[i]
+		if got.Metric != row.Metric || got.Role != row.RoleName() || got.Outcome != row.Outcome.String() ||
+			*got.Difference != *c.Difference || (got.AdjustedPValue == nil) != (c.Adjusted == nil) {
+			t.Errorf("row %d: %+v for comparison %+v", i, got, c)
+		}
+	}
+	if roles := []string{st.Rows[0].Role, st.Rows[1].Role, st.Rows[2].Role, st.Rows[3].Role}; !slices.Equal(roles,
+		[]string{"primary", "secondary", "secondary", "guardrail"}) {
+		t.Errorf("roles in summary order %q", roles)
+	}
+	r.Verdict.Rows[0].MetricIndex, r.Verdict.Rows[1].ComparisonIndex = 9, -1
+	doc = NewDocument([]experiment.Readout{r})
+	if rows := doc.Readouts[0].Status.Rows; rows[0].Difference != nil || rows[1].Difference != nil || rows[2].Difference == nil {
+		t.Errorf("rows pointing nowhere: %+v", rows[:3])
 	}
 }
