@@ -204,7 +204,7 @@ func (spec Spec) validate(reserved ...string) error {
 	}
 	if !slices.ContainsFunc(spec.Metrics, Metric.isPrimary) {
 		return fmt.Errorf("experiment %q: no primary metric: every metric is secondary or a guardrail, "+
-			"and the primary metrics are the ones that decide (make at least one metric primary)", spec.Key)
+			"and only primary metrics decide: make at least one metric primary (--metric, or role = \"primary\" in a spec file)", spec.Key)
 	}
 	dims := make(map[string]bool, len(spec.Segments))
 	for i, d := range spec.Segments {

@@ -435,3 +435,17 @@ func treatmentNames(per []TreatmentVerdict) []string {
 	}
 	return names
 }
+
+// MostUrgent returns the most urgent of several readouts' decisions, the
+// one a run reports: fix_data, else stop, else ship, else wait (also for
+// no decisions at all). A run puts stop before ship, where a readout puts
+// ship first: one stopping experiment needs attention whatever the others
+// say.
+func MostUrgent(ds []Decision) Decision {
+	for _, want := range []Decision{DecisionFixData, DecisionStop, DecisionShip} {
+		if slices.Contains(ds, want) {
+			return want
+		}
+	}
+	return DecisionWait
+}

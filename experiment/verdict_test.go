@@ -429,3 +429,21 @@ func TestReadoutArmOrder(t *testing.T) {
 		t.Errorf("arms %q, want %q", names, want)
 	}
 }
+
+// A run reports its most urgent readout decision (issue 12: fix_data >
+// stop > ship > wait). Common practice.
+func TestMostUrgent(t *testing.T) {
+	for _, tc := range []struct {
+		in   []Decision
+		want Decision
+	}{
+		{nil, DecisionWait},
+		{[]Decision{DecisionWait, DecisionShip}, DecisionShip},
+		{[]Decision{DecisionShip, DecisionStop, DecisionWait}, DecisionStop},
+		{[]Decision{DecisionStop, DecisionFixData}, DecisionFixData},
+	} {
+		if got := MostUrgent(tc.in); got != tc.want {
+			t.Errorf("MostUrgent(%v) = %v, want %v", tc.in, got, tc.want)
+		}
+	}
+}

@@ -182,7 +182,7 @@ func (md *markdown) conclusion(r experiment.Readout, m experiment.MetricReadout)
 		return
 	}
 	intro := "**Conclusion:**"
-	if verdictOf(r).Decision == experiment.DecisionFixData {
+	if readoutVerdict(r).Decision == experiment.DecisionFixData {
 		intro += " not readable: the sample ratio check failed, so no decision is drawn from these numbers, which may be biased whatever they say. As computed:"
 	}
 	md.para(intro)

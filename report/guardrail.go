@@ -183,81 +183,6 @@ func (md *markdown) guardrails(r experiment.Readout, m experiment.MetricReadout,
 	n.flush(md)
 }
 
-// guardrailCells returns one comparison's column of the guardrail table.
-func guardrailCells(r experiment.Readout, m experiment.MetricReadout, c experiment.Comparison, n *notes) []string {
-	t, ctl, diff := pairRates(m, c)
-	ni := c.NonInferiority
-	if ni == nil {
-		return []string{diff, "n/a", "n/a", "not computed", "n/a", "n/a", "not tested", n.add()}
-	}
-	margin := formatSize(ni.AbsoluteMargin) + " pp"
-	if m.Guardrail != nil && m.Guardrail.Relative {
-		margin += " (" + formatShareOf(m.Guardrail.Margin) + " of the " + code(c.Control) + " rate)"
-	}
-	var hyp string
-	if m.LowerIsBetter {
-		b := formatPP(ni.AbsoluteMargin)
-		hyp = "H0: difference ≥ " + b + " (worse by the margin or more); H1: difference < " + b
-	} else {
-		b := formatPP(-ni.AbsoluteMargin)
-		hyp = "H0: difference ≤ " + b + " (worse by the margin or more); H1: difference > " + b
-	}
-	method, routes := zCells(ni.Z)
-	against := "n/a (no interval)"
-	if chk, ok := checkInterval(m, ni); ok {
-		iv := ni.Interval
-		against = fmt.Sprintf("%s CI %s: %s, ", formatLevel(iv.Level), formatPPRange(iv.Lower, iv.Upper), chk.text)
-		if iv.Method != r.Settings.DifferenceIntervalMethod {
-			against = fmt.Sprintf("%s CI %s (%s): %s, ", formatLevel(iv.Level), formatPPRange(iv.Lower, iv.Upper), iv.Method, chk.text)
-		}
-		if chk.within {
-			against += "inside the margin"
-		} else {
-			against += "at or past the margin"
-		}
-		if ni.Z != nil && chk.within != ni.NonInferior {
-			against += "; disagrees with the test, a borderline result"
-		}
-	}
-	verdict := "**" + guardrailVerdict(ni) + "**"
-	switch {
-	case ni.Z == nil:
-		verdict = "not tested (" + noUnits(t, ctl, c) + ")"
-	case checkFailed(verdictOf(r), m.Name, c.Treatment):
-		verdict = "**not readable**: a check failed (sample ratio), so no verdict is drawn from this test"
-	}
-	return []string{diff, margin, hyp, method, routes, against, verdict, n.addTest(ni.Z, ni.Warnings)}
-}
-
-// guardrailWarnings lists the guardrail tests that did not pass, for the
-// block of warnings.
-func guardrailWarnings(m experiment.MetricReadout) []string {
-	if m.Guardrail == nil {
-		return nil
-	}
-	var list []string
-	change, _ := worseWord(m)
-	for _, c := range m.Comparisons {
-		pair := pairName(c)
-		ni := c.NonInferiority
-		switch {
-		case ni == nil || ni.Z == nil:
-			list = append(list, fmt.Sprintf("**Guardrail not tested**: %s, %s could not be tested against its margin.", code(m.Name), pair))
-		case !ni.NonInferior:
-			s := fmt.Sprintf("**Guardrail not met**: %s, %s is not shown to be within the margin: a %s of %s pp or more is not ruled out (non-inferiority %s",
-				code(m.Name), pair, change, formatSize(ni.AbsoluteMargin), pAgainst(ni.Z.PValue, ni.Z.Alpha))
-			if chk, ok := checkInterval(m, ni); ok {
-				s += fmt.Sprintf("; the %s interval reaches %s pp", formatLevel(ni.Interval.Level), formatPoints(chk.bound))
-			}
-			list = append(list, s+").")
-		}
-		if ni != nil && ni.Z != nil && ni.Z.RejectByStatistic != ni.Z.RejectByPValue {
-			list = append(list, code(m.Name)+", "+pair+", guardrail: "+routesDisagree)
-		}
-	}
-	return list
-}
-
 // guardrailConclusion is the plain-language line of one guardrail test.
 func guardrailConclusion(m experiment.MetricReadout, c experiment.Comparison) string {
 	ni := c.NonInferiority
@@ -299,4 +224,50 @@ func directionNote(m experiment.MetricReadout, c experiment.Comparison) string {
 		return "a decrease, which is bad news for this metric (higher is better)"
 	}
 	return ""
+}
+
+// guardrailCells returns one comparison's column of the guardrail table.
+func guardrailCells(r experiment.Readout, m experiment.MetricReadout, c experiment.Comparison, n *notes) []string {
+	t, ctl, diff := pairRates(m, c)
+	ni := c.NonInferiority
+	if ni == nil {
+		return []string{diff, "n/a", "n/a", "not computed", "n/a", "n/a", "not tested", n.add()}
+	}
+	margin := formatSize(ni.AbsoluteMargin) + " pp"
+	if m.Guardrail != nil && m.Guardrail.Relative {
+		margin += " (" + formatShareOf(m.Guardrail.Margin) + " of the " + code(c.Control) + " rate)"
+	}
+	var hyp string
+	if m.LowerIsBetter {
+		b := formatPP(ni.AbsoluteMargin)
+		hyp = "H0: difference ≥ " + b + " (worse by the margin or more); H1: difference < " + b
+	} else {
+		b := formatPP(-ni.AbsoluteMargin)
+		hyp = "H0: difference ≤ " + b + " (worse by the margin or more); H1: difference > " + b
+	}
+	method, routes := zCells(ni.Z)
+	against := "n/a (no interval)"
+	if chk, ok := checkInterval(m, ni); ok {
+		iv := ni.Interval
+		against = fmt.Sprintf("%s CI %s: %s, ", formatLevel(iv.Level), formatPPRange(iv.Lower, iv.Upper), chk.text)
+		if iv.Method != r.Settings.DifferenceIntervalMethod {
+			against = fmt.Sprintf("%s CI %s (%s): %s, ", formatLevel(iv.Level), formatPPRange(iv.Lower, iv.Upper), iv.Method, chk.text)
+		}
+		if chk.within {
+			against += "inside the margin"
+		} else {
+			against += "at or past the margin"
+		}
+		if ni.Z != nil && chk.within != ni.NonInferior {
+			against += "; disagrees with the test, a borderline result"
+		}
+	}
+	verdict := "**" + guardrailVerdict(ni) + "**"
+	switch {
+	case ni.Z == nil:
+		verdict = "not tested (" + noUnits(t, ctl, c) + ")"
+	case checkFailed(readoutVerdict(r), m.Name, c.Treatment):
+		verdict = "**not readable**: a check failed (sample ratio), so no verdict is drawn from this test"
+	}
+	return []string{diff, margin, hyp, method, routes, against, verdict, n.addTest(ni.Z, ni.Warnings)}
 }

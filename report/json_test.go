@@ -506,7 +506,7 @@ func TestWritersRejectNonFinite(t *testing.T) {
 		{"observed share NaN", "", func(r *experiment.Readout) { r.Arms[0].ObservedShare = math.NaN() },
 			"$.readouts[0].arms[0].observed_share"},
 		{"adjusted p NaN", "", func(r *experiment.Readout) { r.Metrics[0].Comparisons[0].Adjusted.PValue = math.NaN() },
-			"$.readouts[0].metrics[0].comparisons[0].adjusted.p_value"},
+			"$.readouts[0].status.rows[0].adjusted_p_value"},
 		{"guardrail margin +Inf", "", func(r *experiment.Readout) {
 			r.Metrics[0].Guardrail = &experiment.Guardrail{Margin: math.Inf(1)}
 		}, "$.readouts[0].metrics[0].guardrail.margin"},

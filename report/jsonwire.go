@@ -4,7 +4,8 @@
 // and schema/readout.schema.json describes the same layout. Each JSONX
 // type is the JSON form of experiment.X (JSONMetric of MetricReadout,
 // JSONSegment of SegmentResult), with the same fields in the same order:
-// see there for what each field means. Warnings are their English text.
+// see there for what each field means. Warnings are {code, text} objects
+// (notices.go); the status objects are the verdict (experiment.Verdict).
 
 package report
 
@@ -21,7 +22,46 @@ import (
 type Document struct {
 	Schema        string        `json:"schema"`
 	SchemaVersion string        `json:"schema_version"`
+	Status        JSONRunStatus `json:"status"`
 	Readouts      []JSONReadout `json:"readouts"`
+}
+
+// JSONRunStatus is the status of a run for a scheduler: the most urgent
+// readout decision (experiment.MostUrgent: fix_data, stop, ship, wait)
+// and how many readouts took each decision.
+type JSONRunStatus struct {
+	Decision string             `json:"decision"`
+	Readouts int                `json:"readouts"`
+	Counts   JSONDecisionCounts `json:"decisions"`
+}
+
+// JSONDecisionCounts counts the readouts of a run by decision.
+type JSONDecisionCounts struct {
+	Ship    int `json:"ship"`
+	Stop    int `json:"stop"`
+	Wait    int `json:"wait"`
+	FixData int `json:"fix_data"`
+}
+
+func runStatus(readouts []experiment.Readout) JSONRunStatus {
+	st := JSONRunStatus{Readouts: len(readouts)}
+	var ds []experiment.Decision
+	for _, r := range readouts {
+		d := readoutVerdict(r).Decision
+		ds = append(ds, d)
+		switch d {
+		case experiment.DecisionShip:
+			st.Counts.Ship++
+		case experiment.DecisionStop:
+			st.Counts.Stop++
+		case experiment.DecisionFixData:
+			st.Counts.FixData++
+		default:
+			st.Counts.Wait++
+		}
+	}
+	st.Decision = experiment.MostUrgent(ds).String()
+	return st
 }
 
 // NewDocument converts readouts to their JSON form. The readouts are not
@@ -36,12 +76,14 @@ type Document struct {
 // byte that is not UTF-8 as \xNN, so that names that differ stay
 // different.
 func NewDocument(readouts []experiment.Readout) Document {
-	return Document{Schema: SchemaID, SchemaVersion: SchemaVersion, Readouts: convertAll(readouts, toJSONReadout)}
+	return Document{Schema: SchemaID, SchemaVersion: SchemaVersion, Status: runStatus(readouts),
+		Readouts: convertAll(readouts, toJSONReadout)}
 }
 
 // JSONReadout is the JSON form of experiment.Readout.
 type JSONReadout struct {
 	Experiment    string             `json:"experiment"`
+	Status        JSONStatus         `json:"status"`
 	ExposureEvent string             `json:"exposure_event"`
 	Control       string             `json:"control"`
 	WindowStart   *time.Time         `json:"window_start"`
@@ -54,7 +96,7 @@ type JSONReadout struct {
 	Segmentation  JSONSegmentation   `json:"segmentation"`
 	Metrics       []JSONMetric       `json:"metrics"`
 	Diagnostics   JSONDiagnostics    `json:"diagnostics"`
-	Warnings      []string           `json:"warnings"`
+	Warnings      []JSONNotice       `json:"warnings"`
 }
 
 func toJSONReadout(r experiment.Readout) JSONReadout {
@@ -65,6 +107,7 @@ func toJSONReadout(r experiment.Readout) JSONReadout {
 	}
 	return JSONReadout{
 		Experiment:    jsonText(r.Experiment),
+		Status:        toJSONStatus(r),
 		ExposureEvent: jsonText(r.ExposureEvent),
 		Control:       jsonText(r.Control),
 		WindowStart:   utc(r.WindowStart),
@@ -77,7 +120,7 @@ func toJSONReadout(r experiment.Readout) JSONReadout {
 		Segmentation:  seg,
 		Metrics:       convertAll(r.Metrics, toJSONMetric),
 		Diagnostics:   toJSONDiagnostics(r.Diagnostics),
-		Warnings:      jsonWarnings(r.Warnings),
+		Warnings:      jsonNotices(readoutNotices(r, plainNotices)),
 	}
 }
 
@@ -86,10 +129,115 @@ func toJSONReadout(r experiment.Readout) JSONReadout {
 // out as they are, and no two different names give the same text.
 func jsonText(s string) string { return safetext.Exact(s) }
 
-// jsonWarnings words warnings in their JSON form: a warning's text may
-// hold an arm name.
-func jsonWarnings(ws []experiment.Warning) []string {
-	return convertAll(warningTexts(ws), jsonText)
+// JSONNotice is one warning: its stable code, its text and, for a
+// warning about one metric, the metric's name.
+type JSONNotice struct {
+	Code   string  `json:"code"`
+	Text   string  `json:"text"`
+	Metric *string `json:"metric"`
+}
+
+// jsonNotices puts notices in their JSON form: a text may hold names
+// from the data.
+func jsonNotices(list []Notice) []JSONNotice {
+	return convertAll(list, func(n Notice) JSONNotice {
+		j := JSONNotice{Code: n.Code, Text: jsonText(oneLine(n.Text))}
+		if n.Metric != "" {
+			m := jsonText(n.Metric)
+			j.Metric = &m
+		}
+		return j
+	})
+}
+
+// jsonTestNotices is the JSON form of a test's notes (testNotices).
+func jsonTestNotices(z *experiment.Test, ws []experiment.Warning) []JSONNotice {
+	return jsonNotices(testNotices(z, ws))
+}
+
+// JSONStatus is the verdict of a readout (experiment.Verdict): the
+// decision, the treatments it names, the reason codes, each treatment's
+// decision, and one row per treatment and metric in summary order
+// (primary, secondary, guardrail) with the numbers that back it.
+type JSONStatus struct {
+	Decision     string                `json:"decision"`
+	Treatments   []string              `json:"treatments"`
+	Reasons      []string              `json:"reasons"`
+	PerTreatment []JSONTreatmentStatus `json:"treatment_decisions"`
+	Rows         []JSONStatusRow       `json:"rows"`
+}
+
+// JSONTreatmentStatus is experiment.TreatmentVerdict.
+type JSONTreatmentStatus struct {
+	Treatment string   `json:"treatment"`
+	Decision  string   `json:"decision"`
+	Reasons   []string `json:"reasons"`
+}
+
+// JSONStatusRow is one row of the summary: a treatment on a metric, its
+// outcome, and the numbers of its comparison (the adjusted p-value is
+// null outside the families).
+type JSONStatusRow struct {
+	Metric             string        `json:"metric"`
+	Role               string        `json:"role"`
+	Treatment          string        `json:"treatment"`
+	Outcome            string        `json:"outcome"`
+	Difference         *float64      `json:"difference"`
+	DifferenceInterval *JSONInterval `json:"difference_interval"`
+	RelativeLift       *float64      `json:"relative_lift"`
+	AdjustedPValue     *float64      `json:"adjusted_p_value"`
+}
+
+// readoutVerdict is the readout's verdict; a readout built by hand, whose
+// Verdict was never set (Analyze sets it), gets experiment.NewVerdict's.
+func readoutVerdict(r experiment.Readout) experiment.Verdict {
+	if r.Verdict.Decision == 0 {
+		return experiment.NewVerdict(r)
+	}
+	return r.Verdict
+}
+
+// verdictComparison returns the comparison a verdict row points at; false
+// when the row's indexes do not fit the readout (a verdict set by hand).
+func verdictComparison(r experiment.Readout, row experiment.VerdictRow) (experiment.Comparison, bool) {
+	if row.MetricIndex < 0 || row.MetricIndex >= len(r.Metrics) {
+		return experiment.Comparison{}, false
+	}
+	cs := r.Metrics[row.MetricIndex].Comparisons
+	if row.ComparisonIndex < 0 || row.ComparisonIndex >= len(cs) {
+		return experiment.Comparison{}, false
+	}
+	return cs[row.ComparisonIndex], true
+}
+
+func toJSONStatus(r experiment.Readout) JSONStatus {
+	v := readoutVerdict(r)
+	reasons := func(rs []experiment.Reason) []string {
+		return convertAll(rs, experiment.Reason.String)
+	}
+	st := JSONStatus{
+		Decision:   v.Decision.String(),
+		Treatments: convertAll(v.Treatments, jsonText),
+		Reasons:    reasons(v.Reasons),
+		PerTreatment: convertAll(v.PerTreatment, func(t experiment.TreatmentVerdict) JSONTreatmentStatus {
+			return JSONTreatmentStatus{Treatment: jsonText(t.Treatment), Decision: t.Decision.String(), Reasons: reasons(t.Reasons)}
+		}),
+	}
+	st.Rows = convertAll(v.Rows, func(row experiment.VerdictRow) JSONStatusRow {
+		j := JSONStatusRow{Metric: jsonText(row.Metric), Role: row.RoleName(), Treatment: jsonText(row.Treatment),
+			Outcome: row.Outcome.String()}
+		c, ok := verdictComparison(r, row)
+		if !ok {
+			return j
+		}
+		j.Difference, j.DifferenceInterval, j.RelativeLift = c.Difference, toJSONInterval(c.DifferenceInterval), c.RelativeLift
+		if c.Adjusted != nil {
+			p := c.Adjusted.PValue
+			j.AdjustedPValue = &p
+		}
+		return j
+	})
+	return st
 }
 
 // JSONSettings is the JSON form of experiment.Settings.
@@ -123,18 +271,17 @@ func toJSONMultiplicity(m experiment.Multiplicity) JSONMultiplicity {
 	return JSONMultiplicity{Family: m.Role.String(), Method: m.Method, ErrorRate: m.ErrorRate, Description: m.Family, Size: m.Size}
 }
 
-// JSONArmUnits is the JSON form of experiment.ArmUnits.
+// JSONArmUnits is the JSON form of experiment.ArmUnits; the arm's name
+// is "arm", as everywhere in the JSON.
 type JSONArmUnits struct {
-	Name          string  `json:"name"`
+	Arm           string  `json:"arm"`
 	Units         int64   `json:"units"`
 	PlannedShare  float64 `json:"planned_share"`
 	ObservedShare float64 `json:"observed_share"`
 }
 
 func toJSONArmUnits(a experiment.ArmUnits) JSONArmUnits {
-	j := JSONArmUnits(a)
-	j.Name = jsonText(a.Name)
-	return j
+	return JSONArmUnits{Arm: jsonText(a.Name), Units: a.Units, PlannedShare: a.PlannedShare, ObservedShare: a.ObservedShare}
 }
 
 // JSONSampleRatio is the JSON form of experiment.SampleRatio.
@@ -168,7 +315,7 @@ type JSONMetric struct {
 	Arms          []JSONArmRate    `json:"arms"`
 	Comparisons   []JSONComparison `json:"comparisons"`
 	Segments      []JSONSegment    `json:"segments"`
-	Warnings      []string         `json:"warnings"`
+	Warnings      []JSONNotice     `json:"warnings"`
 }
 
 func toJSONMetric(m experiment.MetricReadout) JSONMetric {
@@ -183,7 +330,7 @@ func toJSONMetric(m experiment.MetricReadout) JSONMetric {
 		Arms:          convertAll(m.Arms, toJSONArmRate),
 		Comparisons:   convertAll(m.Comparisons, toJSONComparison),
 		Segments:      convertAll(m.Segments, toJSONSegment),
-		Warnings:      jsonWarnings(m.Warnings),
+		Warnings:      jsonTestNotices(nil, m.Warnings),
 	}
 }
 
@@ -285,7 +432,7 @@ type JSONTargetTest struct {
 	Exact        *JSONExactTest `json:"exact_test"`
 	Significant  bool           `json:"significant"`
 	DecidedBy    string         `json:"decided_by"`
-	Warnings     []string       `json:"warnings"`
+	Warnings     []JSONNotice   `json:"warnings"`
 }
 
 func toJSONTargetTest(t experiment.TargetTest) JSONTargetTest {
@@ -296,7 +443,7 @@ func toJSONTargetTest(t experiment.TargetTest) JSONTargetTest {
 		Exact:        toJSONExactTest(t.Exact),
 		Significant:  t.Significant,
 		DecidedBy:    t.DecidedBy,
-		Warnings:     jsonWarnings(t.Warnings),
+		Warnings:     jsonTestNotices(t.Z, t.Warnings),
 	}
 }
 
@@ -317,7 +464,7 @@ type JSONComparison struct {
 	Adjusted              *JSONAdjusted           `json:"adjusted"`
 	IntervalAgrees        bool                    `json:"interval_agrees"`
 	NonInferiority        *JSONNonInferiorityTest `json:"non_inferiority"`
-	Warnings              []string                `json:"warnings"`
+	Warnings              []JSONNotice            `json:"warnings"`
 }
 
 func toJSONComparison(c experiment.Comparison) JSONComparison {
@@ -337,7 +484,7 @@ func toJSONComparison(c experiment.Comparison) JSONComparison {
 		Adjusted:              convertPtr(c.Adjusted, toJSONAdjusted),
 		IntervalAgrees:        c.IntervalAgrees,
 		NonInferiority:        convertPtr(c.NonInferiority, toJSONNonInferiority),
-		Warnings:              jsonWarnings(c.Warnings),
+		Warnings:              jsonTestNotices(c.Z, c.Warnings),
 	}
 }
 
@@ -368,7 +515,7 @@ type JSONNonInferiorityTest struct {
 	Z              *JSONTest     `json:"z_test"`
 	NonInferior    bool          `json:"non_inferior"`
 	Interval       *JSONInterval `json:"interval"`
-	Warnings       []string      `json:"warnings"`
+	Warnings       []JSONNotice  `json:"warnings"`
 }
 
 func toJSONNonInferiority(n experiment.NonInferiorityTest) JSONNonInferiorityTest {
@@ -377,7 +524,7 @@ func toJSONNonInferiority(n experiment.NonInferiorityTest) JSONNonInferiorityTes
 		Z:              toJSONTest(n.Z),
 		NonInferior:    n.NonInferior,
 		Interval:       toJSONInterval(n.Interval),
-		Warnings:       jsonWarnings(n.Warnings),
+		Warnings:       jsonTestNotices(n.Z, n.Warnings),
 	}
 }
 

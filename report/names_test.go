@@ -168,10 +168,10 @@ func TestJSONKeepsNamesApart(t *testing.T) {
 		t.Fatal(err)
 	}
 	ro := doc.Readouts[0]
-	if got, want := ro.Arms[0].Name, `tr\xe8at`; got != want {
+	if got, want := ro.Arms[0].Arm, `tr\xe8at`; got != want {
 		t.Errorf("arm 0 is %q, want %q", got, want)
 	}
-	if got, want := ro.Arms[1].Name, `tr\xe9at`; got != want {
+	if got, want := ro.Arms[1].Arm, `tr\xe9at`; got != want {
 		t.Errorf("arm 1 is %q, want %q", got, want)
 	}
 	c := ro.Metrics[0].Comparisons[0]
@@ -181,7 +181,7 @@ func TestJSONKeepsNamesApart(t *testing.T) {
 	// A valid name spelled like the escape stays apart from both.
 	r = renamed(twoArmReadout(), map[string]string{"control": `tr\xe9at`, "green-button": "tr\xe9at"})
 	doc = NewDocument([]experiment.Readout{r})
-	if a, b := doc.Readouts[0].Arms[0].Name, doc.Readouts[0].Arms[1].Name; a == b {
+	if a, b := doc.Readouts[0].Arms[0].Arm, doc.Readouts[0].Arms[1].Arm; a == b {
 		t.Errorf("the text %q and the bytes %q both became %q", `tr\xe9at`, "tr\xe9at", a)
 	}
 }

@@ -132,7 +132,7 @@ func alternativeName(a string) string {
 
 // warnings writes the block of readout-wide warnings (warningList).
 func (md *markdown) warnings(r experiment.Readout) {
-	list := warningList(r)
+	list := noticeTexts(readoutNotices(r, markdownNotices))
 	if len(list) == 0 {
 		return
 	}
@@ -142,83 +142,6 @@ func (md *markdown) warnings(r experiment.Readout) {
 		md.line(fmt.Sprintf("> %d. %s", i+1, oneLine(w)))
 	}
 	md.line("")
-}
-
-// warningList returns the readout-wide warnings: those the numbers show
-// (sample ratio, exclusions, conditions, interval and test disagreeing),
-// then the readout's own, without repeats.
-func warningList(r experiment.Readout) []string {
-	var list []string
-	sr := r.SampleRatio
-	switch {
-	case sr.Checked && sr.Mismatch:
-		list = append(list, fmt.Sprintf("**Sample ratio mismatch**: units per arm are off the planned split (%s). Assignment or logging may be broken; find the cause before trusting any result below.",
-			pAgainstStrict(sr.PValue, sr.Threshold)))
-	case !sr.Checked:
-		list = append(list, "Sample ratio not checked: fewer than two arms have units.")
-	}
-	for _, a := range r.Arms {
-		if a.Units == 0 {
-			list = append(list, fmt.Sprintf("Arm %s has no units.", code(a.Name)))
-		}
-	}
-	d := r.Diagnostics
-	if d.MultiArmUnits > 0 {
-		what := "left out of every metric (multi-arm policy exclude)"
-		if r.Settings.MultiArmPolicy == "first" {
-			what = "kept in the arm of their first exposure (multi-arm policy first)"
-		}
-		list = append(list, fmt.Sprintf("%s %s exposed to more than one arm and %s.", FormatCount(d.MultiArmUnits), unitsWere(d.MultiArmUnits), what))
-	}
-	if d.TiedUnits > 0 {
-		list = append(list, fmt.Sprintf("%s %s first exposed to two arms at the same instant and left out.", FormatCount(d.TiedUnits), unitsWere(d.TiedUnits)))
-	}
-	for _, im := range d.Immature {
-		if im.Units == 0 {
-			continue
-		}
-		if r.Settings.MaturityPolicy == "include" {
-			list = append(list, fmt.Sprintf("%s: %s %s counted before their attribution window closed; their conversions may still come.", code(im.Metric), FormatCount(im.Units), unitsWere(im.Units)))
-		} else {
-			list = append(list, fmt.Sprintf("%s: %s %s left out because their attribution window had not closed.", code(im.Metric), FormatCount(im.Units), unitsWere(im.Units)))
-		}
-	}
-	for _, m := range r.Metrics {
-		list = append(list, guardrailWarnings(m)...)
-		var notMet groups
-		var other []string
-		for _, c := range m.Comparisons {
-			pair := pairName(c)
-			if !c.ConditionMet && testRun(c.Z, c.Exact) {
-				notMet.add(exactFallback(c.Exact), pair)
-			}
-			if !c.IntervalAgrees {
-				other = append(other, code(m.Name)+", "+pair+": "+disagreement(c)+".")
-			}
-			if c.Z != nil && c.Z.RejectByStatistic != c.Z.RejectByPValue {
-				other = append(other, code(m.Name)+", "+pair+": "+routesDisagree)
-			}
-		}
-		for _, a := range m.Arms {
-			tt := a.TargetTest
-			if tt == nil {
-				continue
-			}
-			what := code(a.Arm) + " vs target " + formatPercent(tt.Target)
-			if !tt.ConditionMet && testRun(tt.Z, tt.Exact) {
-				notMet.add(exactFallback(tt.Exact), what)
-			}
-			if tt.Z != nil && tt.Z.RejectByStatistic != tt.Z.RejectByPValue {
-				other = append(other, code(m.Name)+", "+what+": "+routesDisagree)
-			}
-		}
-		for _, g := range notMet {
-			list = append(list, fmt.Sprintf("%s: normal approximation not justified for %s; %s.", code(m.Name), strings.Join(g.members, ", "), g.key))
-		}
-		list = append(list, other...)
-	}
-	list = append(list, warningTexts(r.Warnings)...)
-	return dedupe(list)
 }
 
 // groups collects members under keys, both in first-seen order.
@@ -290,20 +213,6 @@ func disagreement(c experiment.Comparison) string {
 		return test + " is significant but the " + level + " interval for the difference includes 0 (the interval is not pooled, the test is); a borderline result"
 	}
 	return "the " + level + " interval for the difference and the test disagree"
-}
-
-func dedupe(list []string) []string {
-	seen := make(map[string]bool, len(list))
-	out := list[:0:0]
-	for _, s := range list {
-		s = oneLine(s)
-		if s == "" || seen[s] {
-			continue
-		}
-		seen[s] = true
-		out = append(out, s)
-	}
-	return out
 }
 
 func (md *markdown) arms(r experiment.Readout) {
@@ -547,7 +456,7 @@ func (md *markdown) comparisons(r experiment.Readout, m experiment.MetricReadout
 		if hasSimultaneous(m) {
 			cells = append(cells, simultaneousRow(c))
 		}
-		cells = append(cells, decisionCell(verdictOf(r), m, c), n.addTest(c.Z, c.Warnings))
+		cells = append(cells, decisionCell(readoutVerdict(r), m, c), n.addTest(c.Z, c.Warnings))
 		for i := range rows {
 			rows[i].cells = append(rows[i].cells, cells[i])
 		}
@@ -589,7 +498,7 @@ func percentRange(lo, hi float64) string {
 }
 
 func (md *markdown) targetTests(r experiment.Readout, m experiment.MetricReadout, n *notes) {
-	unreadable := verdictOf(r).Decision == experiment.DecisionFixData
+	unreadable := readoutVerdict(r).Decision == experiment.DecisionFixData
 	rows := append([]detailRow{{label: "Rate"}, {label: "Difference from target"}},
 		testRows("expected under the target", "for every arm")...)
 	rows = append(rows, detailRow{label: "Decision"}, detailRow{label: "Notes", usual: "none", fold: sentence("No notes.")})

@@ -13,15 +13,6 @@ import (
 	"github.com/armtally/armtally/experiment"
 )
 
-// verdictOf returns the readout's verdict; a readout built without one
-// (its Decision is zero) gets experiment.NewVerdict's.
-func verdictOf(r experiment.Readout) experiment.Verdict {
-	if r.Verdict.Decision == 0 {
-		return experiment.NewVerdict(r)
-	}
-	return r.Verdict
-}
-
 // outcomeText is the summary's fixed vocabulary of outcomes.
 var outcomeText = map[experiment.Outcome]string{
 	experiment.OutcomeBetter:                 "better",
@@ -71,7 +62,7 @@ func checkFailed(v experiment.Verdict, metric, treatment string) bool {
 // summary writes the readout's summary: the overall line, the table of
 // outcomes and the line of top cautions.
 func (md *markdown) summary(r experiment.Readout) {
-	v := verdictOf(r)
+	v := readoutVerdict(r)
 	md.para(overallLine(r, v))
 	if len(v.Rows) > 0 {
 		rows := make([][]string, 0, len(v.Rows))
@@ -264,7 +255,7 @@ func summaryP(row experiment.VerdictRow, c experiment.Comparison) string {
 // the cautions that matter most where the reader decides.
 func topCautions(r experiment.Readout, v experiment.Verdict) string {
 	var parts []string
-	if n := len(warningList(r)); n > 0 {
+	if n := len(readoutNotices(r, markdownNotices)); n > 0 {
 		parts = append(parts, "read the "+Plural(int64(n), "warning", "warnings")+" below first")
 	}
 	if v.Decision == experiment.DecisionFixData {

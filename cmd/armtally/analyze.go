@@ -106,6 +106,8 @@ type analyzeFlags struct {
 	out, jsonOut          string
 	brief                 string
 	failOnSampleRatio     bool
+	failOnGuardrail       bool
+	exitOnDecision        bool
 	spec                  string
 	delimiter             string
 	maxBadRows            int64
@@ -152,6 +154,8 @@ func newAnalyzeFlagSet(f *analyzeFlags, stderr io.Writer) *pflag.FlagSet {
 	fs.StringVar(&f.audit, "audit", "", "also write the per-unit audit table (Parquet) to this file; with several experiments, one file each, named FILE-KEY.parquet")
 	fs.StringVar(&f.chart, "chart", "", "also write a chart of each treatment's difference from the control with its interval, per metric, to this file: SVG, or PNG when FILE ends in .png; linked from the Markdown readout; with several experiments, one file each, named FILE-KEY.svg")
 	fs.BoolVar(&f.failOnSampleRatio, "fail-on-sample-ratio", false, "exit with code 4 when the sample ratio check fails")
+	fs.BoolVar(&f.failOnGuardrail, "fail-on-guardrail", false, "exit with code 5 when a guardrail is not held for a treatment (not shown within its margin, worse, or not readable)")
+	fs.BoolVar(&f.exitOnDecision, "exit-on-decision", false, "exit with code 6 when the decision is ship and 7 when it is stop (wait and fix_data exit 0)")
 	fs.StringVar(&f.memoryLimit, "memory-limit", "", "keep the per-unit state of an event log under about this size (such as 800MB or 2GiB): the rows go to disk in hash partitions of the units, tallied a group at a time and merged; no --audit")
 	fs.StringVar(&f.spillDir, "spill-dir", "", "folder for the partition files of --memory-limit (default: the system's temporary folder)")
 	fs.BoolVar(&f.noProgress, "no-progress", false, "do not show the rows read, rate and elapsed time on stderr while reading (shown only when stderr is a terminal, and not for unit or counts tables)")
@@ -192,8 +196,11 @@ type analyzeRun struct {
 	// named by --brief.
 	brief string
 	// chart is the --chart file ("" for none).
-	chart             string
-	failOnSampleRatio bool
+	chart string
+	// checks are the opt-in exit codes: --fail-on-sample-ratio (or the
+	// spec file's output.fail_on_sample_ratio), --fail-on-guardrail and
+	// --exit-on-decision.
+	checks outcomeChecks
 	// progress says whether to show a progress line on stderr while
 	// reading: stderr is a terminal and --no-progress is not given.
 	progress bool
@@ -446,7 +453,7 @@ func applyOutputs(f *analyzeFlags, sf *specfile.File, override func(string) bool
 		run.out, run.jsonOut, run.audit = sf.Markdown, sf.JSON, sf.Audit
 		run.outFrom = [3]string{"output.markdown in " + sf.Name, "output.json in " + sf.Name, "output.audit in " + sf.Name}
 		if sf.FailOnSampleRatio != nil {
-			run.failOnSampleRatio = *sf.FailOnSampleRatio
+			run.checks.sampleRatio = *sf.FailOnSampleRatio
 		}
 	}
 	for i, o := range []struct {
@@ -464,11 +471,12 @@ func applyOutputs(f *analyzeFlags, sf *specfile.File, override func(string) bool
 		return usagef("analyze: an audit table lists units, and a counts table has none (output.audit or --audit)")
 	}
 	if override("fail-on-sample-ratio") {
-		run.failOnSampleRatio = f.failOnSampleRatio
+		run.checks.sampleRatio = f.failOnSampleRatio
 	}
 	if override("brief") {
 		run.brief = f.brief
 	}
+	run.checks.guardrail, run.checks.decision = f.failOnGuardrail, f.exitOnDecision
 	return nil
 }
 
@@ -593,7 +601,7 @@ func runAnalyze(args []string, stdout, stderr io.Writer) error {
 	if err := writeOutputs(ctx, run, res, stdout); err != nil {
 		return err
 	}
-	return checkSampleRatio(run, res.Readouts)
+	return checkOutcome(run.checks, res.Readouts)
 }
 
 // noteKeys says on stderr which experiment a run without a key analysed:
@@ -666,28 +674,6 @@ func addOutputs(set *report.OutputSet, run *analyzeRun, res *pipeline.Result, js
 	}
 	if run.audit != "" {
 		return writeAudits(set, run, res)
-	}
-	return nil
-}
-
-// checkSampleRatio returns errSampleRatio, with the experiments whose
-// sample ratio check failed, under --fail-on-sample-ratio.
-func checkSampleRatio(run *analyzeRun, readouts []experiment.Readout) error {
-	if !run.failOnSampleRatio {
-		return nil
-	}
-	var failed []string
-	for _, r := range readouts {
-		if sr := r.SampleRatio; sr.Checked && sr.Mismatch {
-			failed = append(failed, fmt.Sprintf("%s: p = %.3g < %g", r.Experiment, sr.PValue, sr.Threshold))
-		}
-	}
-	if len(failed) > 0 {
-		if len(readouts) == 1 {
-			_, detail, _ := strings.Cut(failed[0], ": ")
-			return fmt.Errorf("%w: %s (see the readout)", errSampleRatio, detail)
-		}
-		return fmt.Errorf("%w in %d of %d experiments (%s; see the readouts)", errSampleRatio, len(failed), len(readouts), strings.Join(failed, "; "))
 	}
 	return nil
 }

@@ -33,6 +33,18 @@
 //	     close name ("did you mean")
 //	4    the sample ratio check failed and --fail-on-sample-ratio was given
 //	     (the readout is still written)
+//	5    a guardrail is not held for a treatment (not shown within its
+//	     margin, worse, or not readable) and --fail-on-guardrail was given
+//	     (the readout is still written)
+//	6    the decision is ship and --exit-on-decision was given (the
+//	     readout is still written)
+//	7    the decision is stop and --exit-on-decision was given (the readout
+//	     is still written); wait and fix_data exit 0 unless code 4 applies
+//
+// When several of 4 to 7 apply, the first in the order 4, 5, 7, 6 is the
+// exit code. With several experiments the decision is the most urgent of
+// their readouts' (fix_data, then stop, then ship, then wait).
+//
 //	130  stopped by SIGINT (143: by SIGTERM)
 //
 // Outputs and signals: analyze writes every output file (--out, --json,
@@ -66,6 +78,9 @@ const (
 	exitUsage       = 2
 	exitData        = 3
 	exitSampleRatio = 4
+	exitGuardrail   = 5
+	exitShip        = 6
+	exitStop        = 7
 	exitInterrupted = 130 // 128 + SIGINT
 	exitTerminated  = 143 // 128 + SIGTERM
 )
@@ -110,10 +125,6 @@ func (e *signalError) code() int {
 	return exitInterrupted
 }
 
-// errSampleRatio reports a failed sample ratio check under
-// --fail-on-sample-ratio.
-var errSampleRatio = errors.New("sample ratio mismatch")
-
 // helpRequested is returned when --help was given: help went to stdout.
 var errHelp = errors.New("help requested")
 
@@ -138,6 +149,12 @@ Exit codes:
        a name the data does not hold: experiment key, exposure event, control or
        planned arm, event of a metric; the message lists what the log holds)
   4    sample ratio mismatch with --fail-on-sample-ratio (the readout is still written)
+  5    a guardrail not held with --fail-on-guardrail (not shown, worse or not
+       readable; the readout is still written)
+  6    the decision is ship, with --exit-on-decision (the readout is still written)
+  7    the decision is stop, with --exit-on-decision (the readout is still
+       written; wait and fix_data exit 0)
+       When several apply: 4, then 5, then 7, then 6.
   130  stopped by SIGINT; 143: by SIGTERM (no output replaced, temporary files removed)
 
 Run 'armtally help COMMAND' for the flags of analyze, gen, plan or inspect,
@@ -225,9 +242,15 @@ func exitCode(err error, stderr io.Writer) int {
 			fmt.Fprintln(stderr, notInDataHint(nd.Kind))
 		}
 		return exitData
-	case errors.Is(err, errSampleRatio):
-		fmt.Fprintf(stderr, "armtally: %v\n", err)
-		return exitSampleRatio
+	}
+	for _, o := range []struct {
+		err  error
+		code int
+	}{{errSampleRatio, exitSampleRatio}, {errGuardrail, exitGuardrail}, {errDecisionStop, exitStop}, {errDecisionShip, exitShip}} {
+		if errors.Is(err, o.err) {
+			fmt.Fprintf(stderr, "armtally: %v\n", err)
+			return o.code
+		}
 	}
 	fmt.Fprintf(stderr, "armtally: %v\n", err)
 	return exitFailure

@@ -128,8 +128,8 @@ func TestSpecOverrides(t *testing.T) {
 	if m := run.mapping; m.User != "member" || m.TS != "event_time" || m.EpochUnit != "ms" {
 		t.Errorf("mapping = %+v: want the flag's user column and the file's others", m)
 	}
-	if run.jsonOut != "" || run.out != filepath.Join(filepath.Dir(exampleSpec), "readout.md") || !run.failOnSampleRatio {
-		t.Errorf("outputs = %q, %q, %v", run.out, run.jsonOut, run.failOnSampleRatio)
+	if run.jsonOut != "" || run.out != filepath.Join(filepath.Dir(exampleSpec), "readout.md") || !run.checks.sampleRatio {
+		t.Errorf("outputs = %q, %q, %v", run.out, run.jsonOut, run.checks.sampleRatio)
 	}
 
 	// --experiment picks one; then --arms, --split and --metric apply to it.

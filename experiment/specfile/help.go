@@ -34,10 +34,10 @@ Rules:
         --alpha, --alternative, --adjust, --interval, --difference-interval,
         --non-inferiority-method, --min-count and --sample-ratio-threshold
         apply to every experiment of the run;
-      --metric and --guardrail together replace the metrics of every
-        experiment of the run; --lower-is-better marks a metric in every
-        experiment that has it; --allow-absent-event allows an event in
-        every experiment whose metrics count it;
+      --metric, --secondary-metric and --guardrail together replace the
+        metrics of every experiment of the run; --lower-is-better marks a
+        metric in every experiment that has it; --allow-absent-event allows
+        an event in every experiment whose metrics count it;
       --arms and --split apply to one experiment only: pick it with
         --experiment.
   - --experiment KEY runs only the experiment with that key. A file without
