@@ -36,7 +36,8 @@ func TestOutcomeExitCodes(t *testing.T) {
 	tight := []string{"--guardrail", "g=newsletter_signup:3d~0.01pp"}
 	loose := []string{"--guardrail", "g=newsletter_signup:3d~2pp"}
 	lower := []string{"--lower-is-better", "purchase"}
-	skewedGuard := []string{"--metric", "buy", "--guardrail", "g=buy~1pp"}
+	// buy occurs in no row: the skewed log holds exposures only.
+	skewedGuard := []string{"--metric", "buy", "--guardrail", "g=buy~1pp", "--allow-absent-event", "buy"}
 	cases := []struct {
 		name   string
 		args   []string
@@ -54,7 +55,7 @@ func TestOutcomeExitCodes(t *testing.T) {
 		{"5 before 7", append(append([]string{"--demo", "--fail-on-guardrail", "--exit-on-decision"}, tight...), lower...), exitGuardrail, "guardrail not held"},
 		{"5 before 6", append(append([]string{"--demo", "--fail-on-guardrail", "--exit-on-decision"}, tight...), "--metric", "purchase=purchase:7d"), exitGuardrail, "guardrail not held"},
 		{"6 when every guardrail held", append([]string{"--demo", "--fail-on-guardrail", "--exit-on-decision"}, loose...), exitShip, "decision: ship"},
-		{"fix_data exits 0", []string{skewed, "--metric", "buy", "--exit-on-decision"}, exitOK, ""},
+		{"fix_data exits 0", []string{skewed, "--metric", "buy", "--allow-absent-event", "buy", "--exit-on-decision"}, exitOK, ""},
 		{"4 before 5", append([]string{skewed, "--fail-on-sample-ratio", "--fail-on-guardrail", "--exit-on-decision"}, skewedGuard...), exitSampleRatio, "sample ratio mismatch"},
 		{"an unreadable guardrail is not held", append([]string{skewed, "--fail-on-guardrail"}, skewedGuard...), exitGuardrail, "g, treat: check_failed"},
 	}
