@@ -344,7 +344,7 @@ func (q *Query) unknownArm(key, arm expr) expr {
 		if len(s.Arms) == 0 {
 			continue
 		}
-		notPlanned := flag(notExpr{inList{arm, s.Arms}})
+		notPlanned := oneIf(notExpr{inList{arm, s.Arms}})
 		if s.Key == "" {
 			fallback = notPlanned
 			continue

@@ -45,8 +45,8 @@ func (q *Query) buildExperiment(k int) {
 		{x: xr("w_user"), as: "w_user"},
 		{x: tr("w_t0"), as: "w_t0"},
 		{x: minOf(xr("w_arm")), as: "w_arm"},
-		{x: flag(binary{tr("w_narms"), ">", numLit(1)}), as: "w_multi"},
-		{x: flag(binary{countDistinct{xr("w_arm")}, ">", numLit(1)}), as: "w_tied"},
+		{x: oneIf(binary{tr("w_narms"), ">", numLit(1)}), as: "w_multi"},
+		{x: oneIf(binary{countDistinct{xr("w_arm")}, ">", numLit(1)}), as: "w_tied"},
 	}, src: cteRef{name("w_x"), "x"},
 		joins:   []join{{"JOIN", cteRef{name("w_t"), "t"}, and(eq(xr("w_user"), tr("w_user")), eq(xr("w_ts"), tr("w_t0")))}},
 		groupBy: []expr{xr("w_user"), tr("w_t0"), tr("w_narms")}}
@@ -127,7 +127,7 @@ func (q *Query) buildEvents(k int, name func(string) string) {
 			e.items = append(e.items, item{x: sumIf(and(mine, binary{r("w_ts"), ">=", end})), as: "w_o" + strconv.Itoa(mi+1)})
 			conv = and(mine, binary{r("w_ts"), "<", end})
 		}
-		e.items = append(e.items, item{x: maxOf(flag(conv)), as: "w_c" + strconv.Itoa(mi+1)})
+		e.items = append(e.items, item{x: maxOf(oneIf(conv)), as: "w_c" + strconv.Itoa(mi+1)})
 	}
 	q.addCTE(name("w_e"), matDefault, e)
 }
@@ -163,7 +163,7 @@ func (q *Query) buildUnits(k int, name func(string) string, segIdx []int) {
 	ok := analysed(s, "f")
 	a := &selectStmt{items: []item{
 		{x: fr("w_arm"), as: "w_arm"},
-		{x: flag(ok), as: "w_ok"},
+		{x: oneIf(ok), as: "w_ok"},
 		{x: fr("w_multi"), as: "w_multi"},
 		{x: fr("w_tied"), as: "w_tied"},
 	}, src: cteRef{name("w_f"), "f"},
@@ -179,7 +179,7 @@ func (q *Query) buildUnits(k int, name func(string) string, segIdx []int) {
 			if horizon == nil {
 				horizon = q.horizon(s, a)
 			}
-			imm = flag(and(ok, binary{plusWindow{fr("w_t0"), w}, ">", horizon}))
+			imm = oneIf(and(ok, binary{plusWindow{fr("w_t0"), w}, ">", horizon}))
 		}
 		a.items = append(a.items, item{x: imm, as: "w_i" + strconv.Itoa(mi+1)})
 	}
