@@ -10,6 +10,7 @@
 //	armtally gen [flags]                      write a synthetic event log
 //	armtally plan [flags]                     size an experiment before it starts
 //	armtally inspect [flags] FILE|FOLDER...   show what an event log holds
+//	armtally sql --table NAME [flags]         write the SQL query of the counts
 //	armtally help [COMMAND]                   show help
 //
 // Exit codes:
@@ -118,6 +119,7 @@ Usage:
   armtally gen [flags]                      write a synthetic event log
   armtally plan [flags]                     size an experiment before it starts
   armtally inspect [flags] FILE|FOLDER...   show what an event log holds before a run
+  armtally sql --table NAME [flags]         write the SQL query of analyze's counts for a warehouse
   armtally help [COMMAND]                   show help for a command
   armtally help spec                        describe the experiment spec file (--spec)
 
@@ -150,6 +152,8 @@ func run(args []string, stdout, stderr io.Writer) int {
 		err = runPlan(args[1:], stdout, stderr)
 	case "inspect":
 		err = runInspect(args[1:], stdout, stderr)
+	case "sql":
+		err = runSQL(args[1:], stdout, stderr)
 	case "help", "-h", "--help":
 		if len(args) > 1 && cmd == "help" {
 			if args[1] == "spec" {

@@ -466,3 +466,7 @@ func (q *Query) keyMatch(s experiment.Spec, key expr) expr {
 // window returns the duration of a metric's attribution window, 0 when
 // unlimited.
 func window(m experiment.Metric) time.Duration { return max(m.Window, 0) }
+
+// Table returns the table's name as given, its parts joined by dots, for
+// messages.
+func (q *Query) Table() string { return strings.Join(q.def.Table, ".") }
