@@ -9,6 +9,7 @@ import (
 	"os/user"
 	"path/filepath"
 	"strconv"
+	"strings"
 	"syscall"
 	"testing"
 	"time"
@@ -159,7 +160,7 @@ func load(t testing.TB, c *pgx.Conn, table string, rows []logRow) {
 		}
 		return []any{r.User, ts, r.Event, r.Experiment, r.Arm, r.Platform, r.Country}, nil
 	})
-	n, err := c.CopyFrom(context.Background(), pgx.Identifier{table}, []string{"user_id", "ts", "event", "experiment", "arm", "platform", "country"}, src)
+	n, err := c.CopyFrom(context.Background(), pgx.Identifier(strings.Split(table, ".")), []string{"user_id", "ts", "event", "experiment", "arm", "platform", "country"}, src)
 	if err != nil {
 		t.Fatal(err)
 	}
