@@ -204,4 +204,3 @@ func partitionRows(t testing.TB, c *pgx.Conn) []int64 {
 	}
 	return out
 }
-

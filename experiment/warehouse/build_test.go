@@ -51,8 +51,8 @@ func hostileDefinition() Definition {
 		Columns: Columns{User: `u'ser"`, TS: "t`s", Event: `ev\ent`, Experiment: "exp;--", Arm: "a/*rm"},
 		Experiments: []experiment.Spec{{
 			Key: `k'ey"; DROP TABLE t; --`, ExposureEvent: `ex\'po`, Control: `c"on`, Arms: []string{`c"on`, "tr`t", "日本\n"},
-			Start: at("2026-11-02T00:00:00Z"),
-			Metrics: []experiment.Metric{{Name: `m'; --`, Events: []string{`e1\`, "e2`;", `e3"/*`}, Window: time.Hour}},
+			Start:    at("2026-11-02T00:00:00Z"),
+			Metrics:  []experiment.Metric{{Name: `m'; --`, Events: []string{`e1\`, "e2`;", `e3"/*`}, Window: time.Hour}},
 			Segments: []string{`s'eg"; DROP`},
 		}},
 	}

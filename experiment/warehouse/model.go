@@ -139,7 +139,7 @@ func and(xs ...expr) expr {
 }
 func or(a, b expr) expr       { return binary{a, "OR", b} }
 func eq(a, b expr) expr       { return binary{a, "=", b} }
-func oneIf(cond expr) expr     { return caseWhen{whens: []when{{cond, numLit(1)}}, els: numLit(0)} }
+func oneIf(cond expr) expr    { return caseWhen{whens: []when{{cond, numLit(1)}}, els: numLit(0)} }
 func sum(x expr) expr         { return call{"SUM", []expr{x}} }
 func sumIf(cond expr) expr    { return sum(oneIf(cond)) }
 func maxOf(x expr) expr       { return call{"MAX", []expr{x}} }

@@ -49,7 +49,7 @@ func doubled(q byte) lexer {
 // an escape: \\, \<quote>, \n-style letters and \uXXXX (Spark SQL
 // "Literals", GoogleSQL "Lexical structure", Snowflake "Escape sequences
 // in single-quoted string constants"); allowDoubled also reads a doubled
-// quote as one (PostgreSQL E'' strings, Snowflake).
+// quote as one (PostgreSQL E” strings, Snowflake).
 func backslashed(prefix string, q byte, allowDoubled bool) lexer {
 	return func(s string) (string, string, error) {
 		if !strings.HasPrefix(s, prefix+string(q)) {
