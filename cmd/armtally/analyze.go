@@ -16,6 +16,7 @@ import (
 	"github.com/armtally/armtally/experiment"
 	"github.com/armtally/armtally/experiment/pipeline"
 	"github.com/armtally/armtally/experiment/specfile"
+	"github.com/armtally/armtally/experiment/warehouse"
 	"github.com/armtally/armtally/ingest"
 	"github.com/armtally/armtally/report"
 	"github.com/armtally/armtally/sampledata"
@@ -117,6 +118,7 @@ type analyzeFlags struct {
 	noProgress            bool
 	memoryLimit, spillDir string
 	maxSpecSize           string
+	warehouse             warehouseFlags
 }
 
 func newAnalyzeFlagSet(f *analyzeFlags, stderr io.Writer) *pflag.FlagSet {
@@ -167,6 +169,7 @@ func newAnalyzeFlagSet(f *analyzeFlags, stderr io.Writer) *pflag.FlagSet {
 	fs.StringVar(&f.delimiter, "delimiter", ",", "field separator of CSV files: one character; tab or \\t for a tab")
 	fs.Int64Var(&f.maxBadRows, "max-bad-rows", 0, "skip and count up to this many bad rows (-1: any number); 0 stops at the first")
 	fs.Float64Var(&f.maxBadShare, "max-bad-share", 0, "skip and count bad rows up to this share of the rows read (0.001); checked at the end")
+	defineWarehouseFlags(fs, &f.warehouse)
 	return fs
 }
 
@@ -211,6 +214,10 @@ type analyzeRun struct {
 	// time (see analyzeSpilled).
 	memoryLimit int64
 	spillDir    string
+	// postgres and query, when set, make the run read a PostgreSQL
+	// table with the query instead of files (warehouse.go).
+	postgres string
+	query    *warehouse.Query
 }
 
 // builtExperiment is one experiment of a run, checked.
@@ -280,6 +287,9 @@ func parseAnalyzeRun(args []string, stdout, stderr io.Writer) (*analyzeRun, erro
 	}
 	if err := applyMemoryLimit(&f, run); err != nil {
 		return nil, err
+	}
+	if ok, err := applyWarehouse(fs, &f, run); ok || err != nil {
+		return run, err
 	}
 	if run.sources, err = analyzeSources(fs, &f, sf); err != nil {
 		return nil, err
@@ -593,7 +603,12 @@ func runAnalyze(args []string, stdout, stderr io.Writer) error {
 	if run.memoryLimit > 0 {
 		removeStaleSpills(run.spillDir, stderr)
 	}
-	res, err := analyze(ctx, run)
+	var res *pipeline.Result
+	if run.query != nil {
+		res, err = analyzePostgres(ctx, run)
+	} else {
+		res, err = analyze(ctx, run)
+	}
 	if err != nil {
 		return err
 	}

@@ -10,6 +10,7 @@
 //	armtally gen [flags]                      write a synthetic event log
 //	armtally plan [flags]                     size an experiment before it starts
 //	armtally inspect [flags] FILE|FOLDER...   show what an event log holds
+//	armtally sql --table NAME [flags]         write the SQL query of the counts
 //	armtally help [COMMAND]                   show help
 //	armtally version                          print the version (also --version)
 //
@@ -136,6 +137,7 @@ Usage:
   armtally gen [flags]                      write a synthetic event log
   armtally plan [flags]                     size an experiment before it starts
   armtally inspect [flags] FILE|FOLDER...   show what an event log holds before a run
+  armtally sql --table NAME [flags]         write the SQL query of analyze's counts for a warehouse
   armtally help [COMMAND]                   show help for a command
   armtally help spec                        describe the experiment spec file (--spec)
   armtally version                          print the version, revision and Go version (also --version)
@@ -179,6 +181,8 @@ func run(args []string, stdout, stderr io.Writer) int {
 		err = runInspect(args[1:], stdout, stderr)
 	case "version", "--version":
 		err = runVersion(args[1:], stdout)
+	case "sql":
+		err = runSQL(args[1:], stdout, stderr)
 	case "help", "-h", "--help":
 		if len(args) > 1 && cmd == "help" {
 			if args[1] == "spec" {

@@ -1,0 +1,164 @@
+package warehousecheck
+
+import (
+	"context"
+	"fmt"
+	"os"
+	"path/filepath"
+	"slices"
+	"strconv"
+	"testing"
+	"time"
+
+	"github.com/armtally/armtally/experiment"
+	"github.com/armtally/armtally/experiment/pipeline"
+	"github.com/armtally/armtally/experiment/warehouse"
+)
+
+// benchDefinition is the analysis of cmd/bench (duckdb.go,
+// defaultAnalysis) over a log of armtally's generator: three arms, one
+// metric with a 7-day window, a window that leaves out the first day of
+// exposures and ends before the last units' windows close.
+func benchDefinition() definition {
+	start := time.Date(2026, time.November, 3, 0, 0, 0, 0, time.UTC)
+	end := time.Date(2026, time.November, 19, 0, 0, 0, 0, time.UTC)
+	return definition{name: "bench", cols: warehouse.Columns{User: "user_id", TS: "ts", Event: "event", Experiment: "experiment", Arm: "arm"},
+		exps: []pipeline.Experiment{{Options: experiment.DefaultAnalysisOptions(), Spec: experiment.Spec{
+			Key: "checkout-flow-2026", ExposureEvent: "exposure", Control: "control",
+			Arms: []string{"control", "one-page", "saved-basket"}, Start: &start, End: &end,
+			Metrics: []experiment.Metric{metric("purchase", 7*24*time.Hour, "purchase")},
+		}}}}
+}
+
+func benchRounds() int {
+	if n, err := strconv.Atoi(os.Getenv("WAREHOUSE_BENCH_ROUNDS")); err == nil && n > 0 {
+		return n
+	}
+	return 3
+}
+
+func median(xs []float64) float64 {
+	s := slices.Clone(xs)
+	slices.Sort(s)
+	if len(s)%2 == 1 {
+		return s[len(s)/2]
+	}
+	return (s[len(s)/2-1] + s[len(s)/2]) / 2
+}
+
+// alternate runs a and b in turn for the given rounds, checks that they
+// give the same readouts each time, and reports the median seconds of
+// each and their ratio.
+func alternate(b *testing.B, rounds int, na, nb string, a, bb func() []byte) {
+	var ta, tb []float64
+	for r := 0; r < rounds; r++ {
+		t0 := time.Now()
+		ja := a()
+		ta = append(ta, time.Since(t0).Seconds())
+		t0 = time.Now()
+		jb := bb()
+		tb = append(tb, time.Since(t0).Seconds())
+		if string(ja) != string(jb) {
+			b.Fatalf("round %d: %s and %s give different readouts", r+1, na, nb)
+		}
+		b.Logf("round %d: %s %.2f s, %s %.2f s", r+1, na, ta[r], nb, tb[r])
+	}
+	b.ReportMetric(median(ta), na+"_s")
+	b.ReportMetric(median(tb), nb+"_s")
+	b.ReportMetric(median(tb)/median(ta), nb+"/"+na)
+}
+
+// BenchmarkDuckDBQueryVsArmtally times armtally analysing a generated
+// log and the emitted DuckDB query over the same file in embedded DuckDB
+// (two threads), alternated, with equal readouts checked each round.
+// WAREHOUSE_BENCH_PARQUET names the log (cmd/bench writes one:
+// events-u10000000-n7.9-s1.parquet); run with -benchtime 1x.
+func BenchmarkDuckDBQueryVsArmtally(b *testing.B) {
+	path := os.Getenv("WAREHOUSE_BENCH_PARQUET")
+	if path == "" {
+		b.Skip("set WAREHOUSE_BENCH_PARQUET to a log of armtally gen")
+	}
+	d := benchDefinition()
+	db := openDuckDB(b)
+	for _, s := range []string{"SET threads = 2", "CREATE VIEW events AS SELECT * FROM read_parquet(" + sqlString(path) + ")"} {
+		if _, err := db.Exec(s); err != nil {
+			b.Fatal(err)
+		}
+	}
+	q := d.query(b, "events")
+	text, err := q.SQL(warehouse.DuckDB)
+	if err != nil {
+		b.Fatal(err)
+	}
+	for i := 0; i < b.N; i++ {
+		alternate(b, benchRounds(), "armtally", "duckdb_query",
+			func() []byte { return d.armtallyJSON(b, path) },
+			func() []byte { return d.warehouseJSON(b, q, runQuery(b, db, q, text)) })
+	}
+}
+
+// BenchmarkPostgresSingleVsSharded loads a generated log into one
+// PostgreSQL server and into a coordinator with two postgres_fdw shards,
+// then times the same emitted query on each, alternated, with equal
+// readouts checked each round. WAREHOUSE_BENCH_PG_PARQUET names the log
+// (armtally gen --users 1000000 --parquet FILE); run with -benchtime 1x.
+func BenchmarkPostgresSingleVsSharded(b *testing.B) {
+	path := os.Getenv("WAREHOUSE_BENCH_PG_PARQUET")
+	if path == "" {
+		b.Skip("set WAREHOUSE_BENCH_PG_PARQUET to a log of armtally gen")
+	}
+	d := benchDefinition()
+	q := d.query(b, "events")
+	text, err := q.SQL(warehouse.PostgreSQL)
+	if err != nil {
+		b.Fatal(err)
+	}
+	single := startPostgres(b)
+	sc := single.connect(b)
+	exec1(b, sc, "CREATE TABLE events "+eventColumns)
+	_, cc := sharded(b)
+	// Both load the same CSV, written by DuckDB from the log, with COPY.
+	csvPath := filepath.Join(single.dir, "events.csv")
+	db := openDuckDB(b)
+	if _, err := db.Exec("COPY (SELECT user_id, strftime(ts, '%Y-%m-%d %H:%M:%S.%f+00') AS ts, event, experiment, arm, platform, NULL AS country FROM read_parquet(" +
+		sqlString(path) + ")) TO " + sqlString(csvPath) + " (HEADER, FORMAT CSV)"); err != nil {
+		b.Fatal(err)
+	}
+	if err := os.Chmod(csvPath, 0o644); err != nil {
+		b.Fatal(err)
+	}
+	for _, c := range []struct {
+		name string
+		exec func(...string)
+	}{{"single", func(s ...string) { exec1(b, sc, s...) }}, {"sharded", func(s ...string) { exec1(b, cc, s...) }}} {
+		t0 := time.Now()
+		f, err := os.Open(csvPath)
+		if err != nil {
+			b.Fatal(err)
+		}
+		conn := sc
+		if c.name == "sharded" {
+			conn = cc
+		}
+		if _, err := conn.PgConn().CopyFrom(context.Background(), f, "COPY events FROM STDIN (FORMAT csv, HEADER true)"); err != nil {
+			b.Fatal(err)
+		}
+		f.Close()
+		c.exec("ANALYZE events")
+		b.Logf("%s: loaded in %.1f s", c.name, time.Since(t0).Seconds())
+	}
+	want := d.armtallyJSON(b, path)
+	for i := 0; i < b.N; i++ {
+		alternate(b, benchRounds(), "single", "sharded",
+			func() []byte { return check(b, want, d.warehouseJSON(b, q, runPG(b, sc, q, text))) },
+			func() []byte { return check(b, want, d.warehouseJSON(b, q, runPG(b, cc, q, text))) })
+	}
+}
+
+// check fails the benchmark when got is not armtally's readout.
+func check(b *testing.B, want, got []byte) []byte {
+	if string(want) != string(got) {
+		b.Fatal(fmt.Errorf("the query's readout differs from armtally's"))
+	}
+	return got
+}
