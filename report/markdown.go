@@ -93,8 +93,45 @@ func (md *markdown) heading(depth int, text string) {
 
 // para writes one paragraph.
 func (md *markdown) para(text string) {
+	for _, s := range sentenceLines(text) {
+		md.line(s)
+	}
+	md.line("")
+}
+
+// paraLine writes one paragraph on one line, however long: the summary's
+// overall line and cautions, which a reader or a script takes as a line.
+func (md *markdown) paraLine(text string) {
 	md.line(text)
 	md.line("")
+}
+
+// longParagraph is the length above which a paragraph is written one
+// sentence a line, so that the readout's source stays readable in a
+// terminal, a diff or a ticket's plain-text view.
+const longParagraph = 160
+
+// sentenceLines splits a long paragraph after each sentence: at ". " when
+// what follows starts a sentence (a capital letter, a code span or bold
+// text). Markdown joins the lines again into one paragraph, so the
+// rendered readout is unchanged. A short paragraph stays one line.
+func sentenceLines(text string) []string {
+	if len(text) <= longParagraph {
+		return []string{text}
+	}
+	var lines []string
+	start := 0
+	for i := 0; i+2 < len(text); i++ {
+		if text[i] != '.' || text[i+1] != ' ' {
+			continue
+		}
+		c := text[i+2]
+		if c >= 'A' && c <= 'Z' || c == '`' || c == '*' && i+3 < len(text) && text[i+3] == '*' {
+			lines = append(lines, text[start:i+1])
+			start = i + 2
+		}
+	}
+	return append(lines, text[start:])
 }
 
 // table writes a table; align holds 'l' or 'r' per column.

@@ -2,6 +2,7 @@ package report
 
 import (
 	"bytes"
+	"slices"
 	"strings"
 	"testing"
 
@@ -421,6 +422,37 @@ func TestDirectionNote(t *testing.T) {
 		c := experiment.Comparison{Significant: tc.significant, Difference: tc.diff}
 		if got := directionNote(m, c); got != tc.want {
 			t.Errorf("lower %v, significant %v, diff %v: %q, want %q", tc.lower, tc.significant, tc.diff, got, tc.want)
+		}
+	}
+}
+
+// TestSentenceLines checks where long paragraphs are split: after a
+// sentence that a capital, a code span or bold text follows, never inside
+// numbers or before lower-case words, and not at all when short. Markdown
+// joins the lines again (CommonMark 0.31, 4.8 Paragraphs: the lines of a
+// paragraph are joined with soft line breaks).
+func TestSentenceLines(t *testing.T) {
+	long := strings.Repeat("x", longParagraph)
+	cases := []struct {
+		name string
+		in   string
+		want []string
+	}{
+		{"short", "One. Two.", []string{"One. Two."}},
+		{"capital", long + ". Next one.", []string{long + ".", "Next one."}},
+		{"code span", long + ". `arm` next.", []string{long + ".", "`arm` next."}},
+		{"bold", long + ". **Bold** next.", []string{long + ".", "**Bold** next."}},
+		{"single star stays", long + ". * not a list.", []string{long + ". * not a list."}},
+		{"number stays", long + " p = 0.05. then lower.", []string{long + " p = 0.05. then lower."}},
+		{"decimal stays", long + " 1.5 pp", []string{long + " 1.5 pp"}},
+	}
+	for _, c := range cases {
+		got := sentenceLines(c.in)
+		if !slices.Equal(got, c.want) {
+			t.Errorf("%s: got %q, want %q", c.name, got, c.want)
+		}
+		if strings.Join(got, " ") != c.in {
+			t.Errorf("%s: the lines do not join back to the paragraph", c.name)
 		}
 	}
 }

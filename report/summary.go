@@ -63,7 +63,7 @@ func checkFailed(v experiment.Verdict, metric, treatment string) bool {
 // outcomes and the line of top cautions.
 func (md *markdown) summary(r experiment.Readout) {
 	v := readoutVerdict(r)
-	md.para(overallLine(r, v))
+	md.paraLine(overallLine(r, v))
 	if len(v.Rows) > 0 {
 		rows := make([][]string, 0, len(v.Rows))
 		for _, row := range v.Rows {
@@ -71,7 +71,7 @@ func (md *markdown) summary(r experiment.Readout) {
 		}
 		md.table([]string{"Metric", "Role", "Treatment", "Difference (CI)", "Lift", "p (adjusted)", "Outcome"}, "lllrrrl", rows)
 	}
-	md.para(topCautions(r, v))
+	md.paraLine(topCautions(r, v))
 }
 
 // overallLine answers "ship, stop or wait, and why" in one line: the
