@@ -39,8 +39,8 @@ type Monitoring struct {
 	// the units so far (experiment/plan); nil when it cannot be computed.
 	DetectableMetric string
 	DetectableEffect *float64
-	Changes  []Change
-	Alerts   MonitoringAlerts
+	Changes          []Change
+	Alerts           MonitoringAlerts
 }
 
 // SequentialComparison is one treatment-versus-control comparison's

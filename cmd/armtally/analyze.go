@@ -117,6 +117,7 @@ type analyzeFlags struct {
 	noProgress            bool
 	memoryLimit, spillDir string
 	maxSpecSize           string
+	monitor               *monitorFlags
 }
 
 func newAnalyzeFlagSet(f *analyzeFlags, stderr io.Writer) *pflag.FlagSet {
@@ -161,6 +162,7 @@ func newAnalyzeFlagSet(f *analyzeFlags, stderr io.Writer) *pflag.FlagSet {
 	fs.BoolVar(&f.noProgress, "no-progress", false, "do not show the rows read, rate and elapsed time on stderr while reading (shown only when stderr is a terminal, and not for unit or counts tables)")
 	f.mapping = defineMappingFlags(fs)
 	f.tables = defineTableFlags(fs)
+	f.monitor = defineMonitorFlags(fs)
 	fs.StringArrayVar(&f.segments, "segment", nil, "column to break every metric down by (read from each unit's first exposure row); exploratory results (repeatable)")
 	fs.StringVar(&f.maxSpecSize, "max-spec-size", "4MiB", "largest --spec file to read (such as 16MiB); a larger one is refused before it is read")
 	fs.Int64Var(&f.exp.MaxSegmentValues, "max-segment-values", experiment.DefaultMaxSegmentValues, "most distinct values (null counts as one) a segment column may have, 1 to 100000; more stops the run with an error")
@@ -211,6 +213,9 @@ type analyzeRun struct {
 	// time (see analyzeSpilled).
 	memoryLimit int64
 	spillDir    string
+	// monitor is the nightly monitoring of --sequential, --history,
+	// --as-of and --max-staleness (monitor.go).
+	monitor *monitorRun
 }
 
 // builtExperiment is one experiment of a run, checked.
@@ -276,6 +281,9 @@ func parseAnalyzeRun(args []string, stdout, stderr io.Writer) (*analyzeRun, erro
 		return nil, err
 	}
 	if err := applyOutputs(&f, sf, override, run); err != nil {
+		return nil, err
+	}
+	if run.monitor, err = applyMonitor(fs, f.monitor, run); err != nil {
 		return nil, err
 	}
 	if err := applyMemoryLimit(&f, run); err != nil {
@@ -598,10 +606,13 @@ func runAnalyze(args []string, stdout, stderr io.Writer) error {
 		return err
 	}
 	noteKeys(run, res.Readouts, stderr)
+	if err := monitorLooks(ctx, run.monitor, res); err != nil {
+		return err
+	}
 	if err := writeOutputs(ctx, run, res, stdout); err != nil {
 		return err
 	}
-	return checkOutcome(run.checks, res.Readouts)
+	return monitorOutcome(run.monitor, run.checks, res.Readouts)
 }
 
 // noteKeys says on stderr which experiment a run without a key analysed:

@@ -41,8 +41,14 @@
 //	7    the decision is stop and --exit-on-decision was given (the readout
 //	     is still written); wait and fix_data exit 0 unless code 4 applies
 //
-// When several of 4 to 7 apply, the first in the order 4, 5, 7, 6 is the
-// exit code. With several experiments the decision is the most urgent of
+//	8    a comparison has crossed its sequential efficacy boundary (at
+//	     this look or an earlier one) and --exit-on-boundary was given;
+//	     only when none of 4 to 7 applies
+//	9    the newest row is older than --max-staleness at --as-of or now
+//	     (checked before 4 to 7; the readout is still written)
+//
+// When several of 4 to 9 apply, the first in the order 9, 4, 5, 7, 6, 8
+// is the exit code. With several experiments the decision is the most urgent of
 // their readouts' (fix_data, then stop, then ship, then wait).
 //
 //	130  stopped by SIGINT (143: by SIGTERM)
@@ -246,7 +252,8 @@ func exitCode(err error, stderr io.Writer) int {
 	for _, o := range []struct {
 		err  error
 		code int
-	}{{errSampleRatio, exitSampleRatio}, {errGuardrail, exitGuardrail}, {errDecisionStop, exitStop}, {errDecisionShip, exitShip}} {
+	}{{errSampleRatio, exitSampleRatio}, {errGuardrail, exitGuardrail}, {errDecisionStop, exitStop}, {errDecisionShip, exitShip},
+		{errBoundary, exitBoundary}, {errStale, exitStale}} {
 		if errors.Is(err, o.err) {
 			fmt.Fprintf(stderr, "armtally: %v\n", err)
 			return o.code
