@@ -246,4 +246,3 @@ func TestAsOfIgnoresLaterRows(t *testing.T) {
 		t.Errorf("--as-of: freshness %v, window end %v; want before and at %v", ra.Freshness, ra.WindowEnd, cut)
 	}
 }
-
