@@ -76,6 +76,13 @@ an event of a metric or guardrail (allow a genuinely rare one with
 rows carry one key is analysed under it (said on stderr); several keys
 stop the run with their list.
 
+Nightly monitoring: --sequential METRIC=obf|pocock|mixture adds a test that
+stays valid however often the experiment is read (obf and pocock need
+--planned-units); --history FILE keeps each night's look in SQLite, and the
+sequential tests read the earlier ones; --as-of INSTANT reruns a past night
+(later rows ignored, the instant the analysis end); --max-staleness and
+--exit-on-boundary give the exit codes 9 and 8.
+
 Examples:
   armtally analyze --demo
   armtally analyze --demo --json readout.json --out readout.md
@@ -89,6 +96,8 @@ Examples:
   armtally analyze exports/ --delimiter tab --max-bad-share 0.001 --metric purchase=purchase:7d
   armtally analyze units.csv --input-shape units --user-col visitor_id --ts-col exposed_at --metric purchase=purchased_flag:7d
   armtally analyze arm_counts.csv --input-shape counts --units-col n --conversions-col converted --metric purchase --metric signup
+  armtally analyze exports/ --experiment checkout-flow-2026 --metric purchase=purchase:7d --sequential purchase=obf --planned-units 15000 --history looks.db --max-staleness 36h --exit-on-boundary
+  armtally analyze events.parquet --experiment checkout-flow-2026 --metric purchase=purchase:7d --sequential mixture --history looks.db --as-of 2026-11-05
 
 Flags:
 `

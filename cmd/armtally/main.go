@@ -160,7 +160,11 @@ Exit codes:
   6    the decision is ship, with --exit-on-decision (the readout is still written)
   7    the decision is stop, with --exit-on-decision (the readout is still
        written; wait and fix_data exit 0)
-       When several apply: 4, then 5, then 7, then 6.
+  8    a sequential efficacy boundary crossed, with --exit-on-boundary (the
+       readout is still written)
+  9    stale data: the newest row older than --max-staleness (the readout is
+       still written)
+       When several apply: 9, then 4, 5, 7, 6, then 8.
   130  stopped by SIGINT; 143: by SIGTERM (no output replaced, temporary files removed)
 
 Run 'armtally help COMMAND' for the flags of analyze, gen, plan or inspect,
