@@ -82,7 +82,7 @@ func TestNightlyLooks(t *testing.T) {
 				genArgs = append(genArgs, "--arm", a)
 			}
 			gen(t, dir, genArgs...)
-			var fractions, zs []float64
+			var fractions []float64
 			var counts [][4]int64
 			wantCross := 0
 			for k := 1; k <= nights; k++ {
@@ -106,7 +106,6 @@ func TestNightlyLooks(t *testing.T) {
 					t.Errorf("night %d: comparison look %d", k, c.Look)
 				}
 				z := pooledZ(x1, n1, x2, n2)
-				zs = append(zs, z)
 				counts = append(counts, [4]int64{x1, n1, x2, n2})
 				if tc.method == "mixture" {
 					p := mixtureP(sequential.DefaultMixingVariance, counts)
