@@ -38,6 +38,7 @@ func (md *markdown) monitoring(r experiment.Readout) {
 	if notTested {
 		md.line("")
 	}
+	md.fileLink("Chart over the looks: each arm's rate, each treatment's statistic and boundary, new units per day", md.opts.LooksChartPath, r)
 	md.para(changesLine(m))
 	md.para(progressLine(m))
 	if a := m.Alerts; a.Stale {

@@ -643,7 +643,8 @@ func writeOutputs(ctx context.Context, run *analyzeRun, res *pipeline.Result, st
 	readouts := res.Readouts
 	jsonOut := func(w io.Writer) error { return report.WriteJSON(w, readouts) }
 	md := func(w io.Writer) error {
-		return report.WriteMarkdown(w, readouts, report.MarkdownOptions{ChartPath: chartLinkPath(run)})
+		return report.WriteMarkdown(w, readouts, report.MarkdownOptions{ChartPath: chartLinkPath(run),
+			LooksChartPath: looksChartLink(run.monitor, run.out)})
 	}
 	err := addOutputs(set, run, res, jsonOut, md)
 	if err == nil {
@@ -690,6 +691,9 @@ func addOutputs(set *report.OutputSet, run *analyzeRun, res *pipeline.Result, js
 		}
 	}
 	if err := writeCharts(set, run, res.Readouts); err != nil {
+		return err
+	}
+	if err := writeLooksCharts(set, run.monitor, res.Readouts); err != nil {
 		return err
 	}
 	if run.audit != "" {

@@ -4,6 +4,7 @@ import (
 	"context"
 	"errors"
 	"fmt"
+	"io"
 	"strings"
 	"time"
 
@@ -15,6 +16,8 @@ import (
 	"github.com/armtally/armtally/experiment/pipeline"
 	"github.com/armtally/armtally/experiment/sequential"
 	"github.com/armtally/armtally/experiment/specfile"
+	"github.com/armtally/armtally/report"
+	"github.com/armtally/armtally/report/chart"
 )
 
 // The opt-in exit codes of nightly monitoring: stale data (9,
@@ -39,6 +42,7 @@ type monitorFlags struct {
 	asOf           string
 	maxStaleness   string
 	exitOnBoundary bool
+	looksChart     string
 }
 
 func defineMonitorFlags(fs *pflag.FlagSet) *monitorFlags {
@@ -49,6 +53,7 @@ func defineMonitorFlags(fs *pflag.FlagSet) *monitorFlags {
 	fs.StringVar(&f.history, "history", "", "SQLite file of the experiment's looks: each run stores its look (keyed by --as-of, else the data's freshness; a rerun of the same key replaces it) and the sequential tests read the earlier ones")
 	fs.StringVar(&f.asOf, "as-of", "", "rerun a past night from a later export: rows at or after this instant (RFC 3339 or YYYY-MM-DD) are ignored (after_as_of) and it is the analysis end")
 	fs.StringVar(&f.maxStaleness, "max-staleness", "", "exit with code 9 when the newest row is older than this (36h, 2d) at --as-of or now")
+	fs.StringVar(&f.looksChart, "looks-chart", "", "also write a chart over the looks of --history to this file (SVG, or PNG when FILE ends in .png): each arm's cumulative rate with its interval, each treatment's statistic with its boundary (or difference with its confidence sequence), each arm's new units per day; linked from the Markdown readout; with several experiments, one file each, named FILE-KEY.svg")
 	fs.BoolVar(&f.exitOnBoundary, "exit-on-boundary", false, "exit with code 8 when a comparison has crossed its sequential efficacy boundary (when no code 4 to 7 applies)")
 	return f
 }
@@ -60,13 +65,17 @@ type monitorRun struct {
 	history  string
 	asOf     *time.Time
 	exitOn   bool
+	// looksChart is the --looks-chart file; looks[i] are readout i's
+	// looks, tonight's included, once monitorLooks has run.
+	looksChart string
+	looks      [][]history.Look
 }
 
 // applyMonitor checks the monitoring flags and applies --as-of to the
 // experiments: the instant becomes each one's analysis end when its end is
 // later or unset.
 func applyMonitor(fs *pflag.FlagSet, f *monitorFlags, run *analyzeRun) (*monitorRun, error) {
-	m := &monitorRun{history: f.history, exitOn: f.exitOnBoundary,
+	m := &monitorRun{history: f.history, exitOn: f.exitOnBoundary, looksChart: f.looksChart,
 		settings: monitor.Settings{Methods: map[string]monitor.Method{}, PlannedUnits: f.plannedUnits,
 			MixingVariance: f.mixingVariance, History: f.history != ""}}
 	m.on = len(f.sequential) > 0 || f.history != "" || f.maxStaleness != "" || fs.Changed("as-of") || f.exitOnBoundary
@@ -95,6 +104,9 @@ func applyMonitor(fs *pflag.FlagSet, f *monitorFlags, run *analyzeRun) (*monitor
 		if err := m.applyAsOf(f.asOf, run); err != nil {
 			return nil, err
 		}
+	}
+	if f.looksChart != "" && f.history == "" {
+		return nil, usagef("analyze: --looks-chart draws the looks of --history: give --history FILE")
 	}
 	if m.on && len(run.experiments) > 0 && run.shape != experiment.InputEventLog && f.history != "" {
 		return nil, usagef("analyze: --history reads the looks of an event log; a unit or counts table has no data freshness to key them by")
@@ -208,6 +220,11 @@ func monitorLooks(ctx context.Context, m *monitorRun, res *pipeline.Result) erro
 			if err := store.Put(ctx, look); err != nil {
 				return fmt.Errorf("analyze: --history: %w", err)
 			}
+			all, err := store.Looks(ctx, r.Experiment)
+			if err != nil {
+				return fmt.Errorf("analyze: --history: %w", err)
+			}
+			m.looks = append(m.looks, all)
 		}
 	}
 	return nil
@@ -267,4 +284,51 @@ func monitorOutcome(m *monitorRun, c outcomeChecks, readouts []experiment.Readou
 		return err
 	}
 	return checkMonitorBoundary(m, readouts)
+}
+
+// looksChartLink is the --looks-chart file as the Markdown at out links
+// it; "" without one.
+func looksChartLink(m *monitorRun, out string) string {
+	if m == nil || m.looksChart == "" {
+		return ""
+	}
+	return linkPath(out, m.looksChart)
+}
+
+// writeLooksCharts adds each readout's chart over its looks to set.
+func writeLooksCharts(set *report.OutputSet, m *monitorRun, readouts []experiment.Readout) error {
+	if m == nil || m.looksChart == "" {
+		return nil
+	}
+	opts := chart.Options{Format: chart.FormatOf(m.looksChart)}
+	for i, r := range readouts {
+		if i >= len(m.looks) {
+			return fmt.Errorf("writing the chart over the looks of experiment %q: no looks were read", r.Experiment)
+		}
+		looks := m.looks[i]
+		path := report.PerExperimentPath(m.looksChart, r.Experiment, len(readouts))
+		if err := set.Add(path, func(w io.Writer) error { return chart.WriteLooks(w, r, looks, opts) }); err != nil {
+			return fmt.Errorf("writing the chart over the looks of experiment %q: %w", r.Experiment, err)
+		}
+	}
+	return nil
+}
+
+// monitorOutputs are the files a monitored run writes, for checkOutputs:
+// the history file and the charts over the looks.
+func monitorOutputs(run *analyzeRun) []report.OutputPath {
+	m := run.monitor
+	if m == nil {
+		return nil
+	}
+	var outs []report.OutputPath
+	if m.history != "" {
+		outs = append(outs, report.OutputPath{From: "--history", Path: m.history})
+	}
+	if m.looksChart != "" {
+		for _, e := range run.experiments {
+			outs = append(outs, report.OutputPath{From: "--looks-chart", Path: report.PerExperimentPath(m.looksChart, e.spec.Key, len(run.experiments))})
+		}
+	}
+	return outs
 }

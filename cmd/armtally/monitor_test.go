@@ -186,6 +186,23 @@ func TestNightRerunReplaces(t *testing.T) {
 	if len(looks) != 3 {
 		t.Errorf("history holds %d looks after a rerun, want 3", len(looks))
 	}
+	// The chart over the looks: the same history gives the same bytes,
+	// and the Markdown links it relative to its folder.
+	var charts [2]string
+	for i := range charts {
+		svg := filepath.Join(dir, "looks.svg")
+		md := filepath.Join(dir, "n.md")
+		if code, _, stderr := runCmd(t, nightArgs(log, hist, 3, append(seq, "--looks-chart", svg)...)...); code != exitOK {
+			t.Fatalf("--looks-chart: exit %d: %s", code, stderr)
+		}
+		charts[i] = fileContent(t, svg)
+		if !strings.Contains(fileContent(t, md), "](looks.svg)") {
+			t.Error("the Markdown does not link looks.svg")
+		}
+	}
+	if charts[0] != charts[1] || !strings.HasPrefix(charts[0], "<?xml") {
+		t.Error("two runs of the same night give different charts over the looks")
+	}
 	// A 50-point effect (10% against 60%) at about 900 units per arm is
 	// far beyond any boundary by night 3 (z above 10 even with the
 	// immature units in: a hand calculation with the rates halved);
