@@ -150,3 +150,45 @@ func progressLine(m *experiment.Monitoring) string {
 	}
 	return s
 }
+
+// waitProgress is the "how long to wait" sentence of a monitored run
+// whose decision is wait: the smallest arm's units against the plan and
+// the days left at the observed rate; "" when not monitored.
+func waitProgress(m *experiment.Monitoring) string {
+	if m == nil || len(m.Progress) == 0 {
+		return ""
+	}
+	least := m.Progress[0]
+	for _, p := range m.Progress[1:] {
+		if p.Units < least.Units {
+			least = p
+		}
+	}
+	if m.PlannedUnits <= 0 {
+		return fmt.Sprintf(" Look %d; the smallest arm has %s units and no plan was given (--planned-units).", m.Look, FormatCount(least.Units))
+	}
+	s := fmt.Sprintf(" Look %d: the smallest arm has %s of the %s planned units", m.Look, FormatCount(least.Units), FormatCount(m.PlannedUnits))
+	if m.DaysLeft != nil {
+		s += fmt.Sprintf(", about %.1f days left at the observed rate", *m.DaysLeft)
+	}
+	return s + " (see Monitoring)."
+}
+
+// sequentialCaution names the sequential comparisons that have not
+// crossed their boundary, beside a fixed-horizon verdict that is read
+// every night; "" when there are none.
+func sequentialCaution(m *experiment.Monitoring) string {
+	if m == nil {
+		return ""
+	}
+	var open []string
+	for _, c := range m.Comparisons {
+		if c.CrossedAtLook == 0 {
+			open = append(open, code(c.Metric)+" "+code(c.Treatment))
+		}
+	}
+	if len(open) == 0 {
+		return ""
+	}
+	return " The sequential test has not crossed its boundary for " + joinAnd(open) + ": a fixed-horizon result read every night is not yet evidence on its own."
+}
