@@ -292,7 +292,7 @@ func parseAnalyzeRun(args []string, stdout, stderr io.Writer) (*analyzeRun, erro
 	if err := applyOutputs(&f, sf, override, run); err != nil {
 		return nil, err
 	}
-	if run.monitor, err = applyMonitor(fs, f.monitor, run); err != nil {
+	if run.monitor, err = applyMonitor(f.monitor, run); err != nil {
 		return nil, err
 	}
 	if err := applyMemoryLimit(&f, run); err != nil {

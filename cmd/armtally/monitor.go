@@ -74,11 +74,11 @@ type monitorRun struct {
 // applyMonitor checks the monitoring flags and applies --as-of to the
 // experiments: the instant becomes each one's analysis end when its end is
 // later or unset.
-func applyMonitor(fs *pflag.FlagSet, f *monitorFlags, run *analyzeRun) (*monitorRun, error) {
+func applyMonitor(f *monitorFlags, run *analyzeRun) (*monitorRun, error) {
 	m := &monitorRun{history: f.history, exitOn: f.exitOnBoundary, looksChart: f.looksChart,
 		settings: monitor.Settings{Methods: map[string]monitor.Method{}, PlannedUnits: f.plannedUnits,
 			MixingVariance: f.mixingVariance, History: f.history != ""}}
-	m.on = len(f.sequential) > 0 || f.history != "" || f.maxStaleness != "" || fs.Changed("as-of") || f.exitOnBoundary
+	m.on = len(f.sequential) > 0 || f.history != "" || f.maxStaleness != "" || f.exitOnBoundary
 	for _, v := range f.sequential {
 		if err := m.method(v, run); err != nil {
 			return nil, err
