@@ -17,6 +17,7 @@ const (
 	ReasonOtherExperiment   = "other_experiment"
 	ReasonExposureOutside   = "exposure_outside_window"
 	ReasonAfterWindowEnd    = "after_window_end"
+	ReasonAfterAsOf         = "after_as_of"
 	ReasonUnitNeverExposed  = "unit_never_exposed"
 	ReasonUnitExcluded      = "unit_excluded"
 	ReasonBeforeExposure    = "before_exposure"
@@ -459,6 +460,7 @@ func diagnostics(spec Spec, t Tally, arms []ArmTally, opts AnalysisOptions) Diag
 		{ReasonOtherExperiment, td.OtherExperimentRows},
 		{ReasonExposureOutside, td.ExposuresOutsideWindow},
 		{ReasonAfterWindowEnd, td.AfterWindowEnd},
+		{ReasonAfterAsOf, td.AfterAsOf},
 		{ReasonUnitNeverExposed, td.UnitNeverExposed},
 		{ReasonUnitExcluded, td.UnitExcluded},
 		{ReasonBeforeExposure, td.BeforeExposure},

@@ -37,6 +37,9 @@ type Readout struct {
 	// with no end); package report adds those the numbers show (sample
 	// ratio, exclusions, conditions) and words them all.
 	Warnings []Warning
+	// Monitoring is the sequential state of a monitored run (--sequential
+	// or --history); nil otherwise.
+	Monitoring *Monitoring
 }
 
 // Families returns the readout's multiple-comparison families: the

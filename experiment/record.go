@@ -493,6 +493,7 @@ func sumDiag(dst *TallyDiagnostics, d TallyDiagnostics, nm int) error {
 	dst.NotMetricEvents += d.NotMetricEvents
 	dst.MetricEvents += d.MetricEvents
 	dst.AfterWindowEnd += d.AfterWindowEnd
+	dst.AfterAsOf += d.AfterAsOf
 	dst.UnitNeverExposed += d.UnitNeverExposed
 	dst.UnitExcluded += d.UnitExcluded
 	dst.BeforeExposure += d.BeforeExposure

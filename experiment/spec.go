@@ -139,6 +139,11 @@ type Spec struct {
 	// Start and End bound the analysis window [Start, End); nil means
 	// unbounded on that side.
 	Start, End *time.Time
+	// AsOf, when set, reruns a past look: rows at or after it, of any
+	// event, are ignored (counted as after_as_of) and do not move the
+	// data's freshness. The caller also sets End to AsOf when End is
+	// later or unset, so that the instant is the analysis end.
+	AsOf *time.Time
 	// MultiArm and Maturity are the exclusion policies.
 	MultiArm MultiArmPolicy
 	Maturity MaturityPolicy

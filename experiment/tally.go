@@ -98,8 +98,11 @@ type TallyDiagnostics struct {
 	NotMetricEvents int64
 	// MetricEvents counts rows whose event is in some metric's event set;
 	// each is then exactly one of the next five or counted.
-	MetricEvents       int64
-	AfterWindowEnd     int64 // ts >= End
+	MetricEvents   int64
+	AfterWindowEnd int64 // ts >= End
+	// AfterAsOf counts rows at or after Spec.AsOf, of any event: they
+	// did not exist yet at the look being rerun.
+	AfterAsOf          int64
 	UnitNeverExposed   int64 // unit has no in-window exposure
 	UnitExcluded       int64 // unit excluded by the multi-arm policy or tied
 	BeforeExposure     int64 // ts < t0
@@ -140,6 +143,8 @@ type Tallier struct {
 	end      int64
 	hasStart bool
 	hasEnd   bool
+	asOf     int64
+	hasAsOf  bool
 	// names and kinds give each used event name its role: kindExposure,
 	// or an index into metricNames (>= 0).
 	names       []string
@@ -254,6 +259,9 @@ func newTallier(spec Spec, partitions int) (*Tallier, error) {
 	if spec.End != nil {
 		t.end, t.hasEnd = spec.End.UnixNano(), true
 	}
+	if spec.AsOf != nil {
+		t.asOf, t.hasAsOf = spec.AsOf.UnixNano(), true
+	}
 	t.diag.OutsideAttribution = make([]int64, len(spec.Metrics))
 	t.metricRows = make([]int64, len(t.metricNames))
 	return t, nil
@@ -339,10 +347,14 @@ func (t *Tallier) Add(rec arrow.RecordBatch) error {
 	// The first pass: the rules that do not depend on the unit.
 	for i := 0; i < n; i++ {
 		at := int64(ts[i])
+		t.rowKind[i] = rowSkip
+		if t.hasAsOf && at >= t.asOf {
+			t.diag.AfterAsOf++
+			continue
+		}
 		if !t.hasFresh || at > t.fresh {
 			t.fresh, t.hasFresh = at, true
 		}
-		t.rowKind[i] = rowSkip
 		kind, relevant := t.kind(events.Value(i))
 		if !relevant {
 			t.diag.NotMetricEvents++
@@ -473,6 +485,11 @@ func (t *Tallier) AddFiltered(rows, maxTS int64) {
 	t.fin = nil
 	t.diag.RowsRead += rows
 	t.diag.NotMetricEvents += rows
+	if t.hasAsOf && maxTS >= t.asOf {
+		// Their latest time is after the look being rerun: it cannot be
+		// that look's freshness (their count stays not_metric_event).
+		return
+	}
 	if !t.hasFresh || maxTS > t.fresh {
 		t.fresh, t.hasFresh = maxTS, true
 	}
@@ -484,6 +501,9 @@ func (t *Tallier) AddFiltered(rows, maxTS int64) {
 // whole input's freshness this way, so that their tallies merge exactly
 // (see MergeTallies).
 func (t *Tallier) SeeTime(ts int64) {
+	if t.hasAsOf && ts >= t.asOf {
+		return
+	}
 	if !t.hasFresh || ts > t.fresh {
 		t.fin = nil
 		t.fresh, t.hasFresh = ts, true

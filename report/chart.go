@@ -44,10 +44,16 @@ func PerExperimentPath(path, key string, experiments int) string {
 // file, each byte other than a letter, digit, '-', '.', '_', '~' or '/'
 // percent-encoded so that no path can end the link or read as a scheme.
 func (md *markdown) chartLink(r experiment.Readout) {
-	if md.opts.ChartPath == "" {
+	md.fileLink("Chart of each treatment's difference from the control with its interval, per metric", md.opts.ChartPath, r)
+}
+
+// fileLink writes a paragraph "caption: [name](path)" that links the
+// readout's file at chartPath (PerExperimentPath of it), when set.
+func (md *markdown) fileLink(caption, chartPath string, r experiment.Readout) {
+	if chartPath == "" {
 		return
 	}
-	path := filepath.ToSlash(PerExperimentPath(md.opts.ChartPath, r.Experiment, md.readouts))
+	path := filepath.ToSlash(PerExperimentPath(chartPath, r.Experiment, md.readouts))
 	var b strings.Builder
 	for i := 0; i < len(path); i++ {
 		switch c := path[i]; {
@@ -61,6 +67,6 @@ func (md *markdown) chartLink(r experiment.Readout) {
 	if i := strings.LastIndexByte(path, '/'); i >= 0 {
 		name = path[i+1:]
 	}
-	md.para(fmt.Sprintf("Chart of each treatment's difference from the control with its interval, per metric: [%s](%s)",
+	md.para(fmt.Sprintf("%s: [%s](%s)", caption,
 		strings.NewReplacer(`\`, `\\`, "[", `\[`, "]", `\]`, "*", `\*`, "_", `\_`, "`", "\\`", "<", `\<`).Replace(name), b.String()))
 }

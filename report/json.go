@@ -15,13 +15,13 @@ import (
 
 // SchemaID is the $id of the JSON Schema that describes a Document. It
 // names the schema; nothing is served at that address.
-const SchemaID = "https://armtally.invalid/schema/readout/2.0.0"
+const SchemaID = "https://armtally.invalid/schema/readout/2.1.0"
 
 // SchemaVersion is the semantic version of the JSON document layout (the
 // field names of jsonwire.go). A
 // consumer may rely on every key of a given major version; a minor version
 // only adds keys.
-const SchemaVersion = "2.0.0"
+const SchemaVersion = "2.1.0"
 
 // WriteJSON writes readouts to w as one indented JSON Document followed by a
 // newline. Keys come in struct declaration order and floats at full

@@ -97,6 +97,9 @@ type JSONReadout struct {
 	Metrics       []JSONMetric       `json:"metrics"`
 	Diagnostics   JSONDiagnostics    `json:"diagnostics"`
 	Warnings      []JSONNotice       `json:"warnings"`
+	// Monitoring is present only in a monitored run (--sequential,
+	// --history, --as-of, --max-staleness).
+	Monitoring *JSONMonitoring `json:"monitoring,omitempty"`
 }
 
 func toJSONReadout(r experiment.Readout) JSONReadout {
@@ -121,6 +124,7 @@ func toJSONReadout(r experiment.Readout) JSONReadout {
 		Metrics:       convertAll(r.Metrics, toJSONMetric),
 		Diagnostics:   toJSONDiagnostics(r.Diagnostics),
 		Warnings:      jsonNotices(readoutNotices(r, plainNotices)),
+		Monitoring:    toJSONMonitoring(r.Monitoring),
 	}
 }
 

@@ -27,6 +27,10 @@ type MarkdownOptions struct {
 	// folder; with several readouts, each links its own file,
 	// PerExperimentPath(ChartPath, experiment, number of readouts).
 	ChartPath string
+	// LooksChartPath, when set, is the chart over the looks of a
+	// monitored run (report/chart.WriteLooks), linked from the
+	// Monitoring section like ChartPath.
+	LooksChartPath string
 }
 
 // WriteMarkdown writes readouts to w as a Markdown readout for an

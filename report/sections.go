@@ -15,6 +15,7 @@ import (
 func (md *markdown) readout(r experiment.Readout) {
 	md.heading(0, readoutTitle(r))
 	md.summary(r)
+	md.monitoring(r)
 	if md.opts.Brief {
 		md.warnings(r)
 		if !md.opts.OmitCautions {

@@ -117,6 +117,12 @@ func overallLine(r experiment.Readout, v experiment.Verdict) string {
 		b.WriteString(" " + capitalize(strings.Join(clauses, "; ")) + ".")
 	}
 	b.WriteString(" " + checksSentence(r))
+	if v.Decision == experiment.DecisionWait {
+		b.WriteString(waitProgress(r.Monitoring))
+	}
+	if v.Decision == experiment.DecisionShip || v.Decision == experiment.DecisionStop {
+		b.WriteString(sequentialCaution(r.Monitoring))
+	}
 	return b.String()
 }
 

@@ -77,6 +77,13 @@ an event of a metric or guardrail (allow a genuinely rare one with
 rows carry one key is analysed under it (said on stderr); several keys
 stop the run with their list.
 
+Nightly monitoring: --sequential METRIC=obf|pocock|mixture adds a test that
+stays valid however often the experiment is read (obf and pocock need
+--planned-units); --history FILE keeps each night's look in SQLite, and the
+sequential tests read the earlier ones; --as-of INSTANT reruns a past night
+(later rows ignored, the instant the analysis end); --max-staleness and
+--exit-on-boundary give the exit codes 9 and 8.
+
 Examples:
   armtally analyze --demo
   armtally analyze --demo --json readout.json --out readout.md
@@ -90,6 +97,8 @@ Examples:
   armtally analyze exports/ --delimiter tab --max-bad-share 0.001 --metric purchase=purchase:7d
   armtally analyze units.csv --input-shape units --user-col visitor_id --ts-col exposed_at --metric purchase=purchased_flag:7d
   armtally analyze arm_counts.csv --input-shape counts --units-col n --conversions-col converted --metric purchase --metric signup
+  armtally analyze exports/ --experiment checkout-flow-2026 --metric purchase=purchase:7d --sequential purchase=obf --planned-units 15000 --history looks.db --max-staleness 36h --exit-on-boundary
+  armtally analyze events.parquet --experiment checkout-flow-2026 --metric purchase=purchase:7d --sequential mixture --history looks.db --as-of 2026-11-05
 
 Flags:
 `
@@ -119,6 +128,7 @@ type analyzeFlags struct {
 	memoryLimit, spillDir string
 	maxSpecSize           string
 	warehouse             warehouseFlags
+	monitor               *monitorFlags
 }
 
 func newAnalyzeFlagSet(f *analyzeFlags, stderr io.Writer) *pflag.FlagSet {
@@ -163,6 +173,7 @@ func newAnalyzeFlagSet(f *analyzeFlags, stderr io.Writer) *pflag.FlagSet {
 	fs.BoolVar(&f.noProgress, "no-progress", false, "do not show the rows read, rate and elapsed time on stderr while reading (shown only when stderr is a terminal, and not for unit or counts tables)")
 	f.mapping = defineMappingFlags(fs)
 	f.tables = defineTableFlags(fs)
+	f.monitor = defineMonitorFlags(fs)
 	fs.StringArrayVar(&f.segments, "segment", nil, "column to break every metric down by (read from each unit's first exposure row); exploratory results (repeatable)")
 	fs.StringVar(&f.maxSpecSize, "max-spec-size", "4MiB", "largest --spec file to read (such as 16MiB); a larger one is refused before it is read")
 	fs.Int64Var(&f.exp.MaxSegmentValues, "max-segment-values", experiment.DefaultMaxSegmentValues, "most distinct values (null counts as one) a segment column may have, 1 to 100000; more stops the run with an error")
@@ -218,6 +229,9 @@ type analyzeRun struct {
 	// table with the query instead of files (warehouse.go).
 	postgres string
 	query    *warehouse.Query
+	// monitor is the nightly monitoring of --sequential, --history,
+	// --as-of and --max-staleness (monitor.go).
+	monitor *monitorRun
 }
 
 // builtExperiment is one experiment of a run, checked.
@@ -283,6 +297,9 @@ func parseAnalyzeRun(args []string, stdout, stderr io.Writer) (*analyzeRun, erro
 		return nil, err
 	}
 	if err := applyOutputs(&f, sf, override, run); err != nil {
+		return nil, err
+	}
+	if run.monitor, err = applyMonitor(f.monitor, run); err != nil {
 		return nil, err
 	}
 	if err := applyMemoryLimit(&f, run); err != nil {
@@ -613,10 +630,13 @@ func runAnalyze(args []string, stdout, stderr io.Writer) error {
 		return err
 	}
 	noteKeys(run, res.Readouts, stderr)
+	if err := monitorLooks(ctx, run.monitor, res); err != nil {
+		return err
+	}
 	if err := writeOutputs(ctx, run, res, stdout); err != nil {
 		return err
 	}
-	return checkOutcome(run.checks, res.Readouts)
+	return monitorOutcome(run.monitor, run.checks, res.Readouts)
 }
 
 // noteKeys says on stderr which experiment a run without a key analysed:
@@ -638,7 +658,8 @@ func writeOutputs(ctx context.Context, run *analyzeRun, res *pipeline.Result, st
 	readouts := res.Readouts
 	jsonOut := func(w io.Writer) error { return report.WriteJSON(w, readouts) }
 	md := func(w io.Writer) error {
-		return report.WriteMarkdown(w, readouts, report.MarkdownOptions{ChartPath: chartLinkPath(run)})
+		return report.WriteMarkdown(w, readouts, report.MarkdownOptions{ChartPath: chartLinkPath(run),
+			LooksChartPath: looksChartLink(run.monitor, run.out)})
 	}
 	err := addOutputs(set, run, res, jsonOut, md)
 	if err == nil {
@@ -685,6 +706,9 @@ func addOutputs(set *report.OutputSet, run *analyzeRun, res *pipeline.Result, js
 		}
 	}
 	if err := writeCharts(set, run, res.Readouts); err != nil {
+		return err
+	}
+	if err := writeLooksCharts(set, run.monitor, res.Readouts); err != nil {
 		return err
 	}
 	if run.audit != "" {

@@ -42,8 +42,14 @@
 //	7    the decision is stop and --exit-on-decision was given (the readout
 //	     is still written); wait and fix_data exit 0 unless code 4 applies
 //
-// When several of 4 to 7 apply, the first in the order 4, 5, 7, 6 is the
-// exit code. With several experiments the decision is the most urgent of
+//	8    a comparison has crossed its sequential efficacy boundary (at
+//	     this look or an earlier one) and --exit-on-boundary was given;
+//	     only when none of 4 to 7 applies
+//	9    the newest row is older than --max-staleness at --as-of or now
+//	     (checked before 4 to 7; the readout is still written)
+//
+// When several of 4 to 9 apply, the first in the order 9, 4, 5, 7, 6, 8
+// is the exit code. With several experiments the decision is the most urgent of
 // their readouts' (fix_data, then stop, then ship, then wait).
 //
 //	130  stopped by SIGINT (143: by SIGTERM)
@@ -156,7 +162,11 @@ Exit codes:
   6    the decision is ship, with --exit-on-decision (the readout is still written)
   7    the decision is stop, with --exit-on-decision (the readout is still
        written; wait and fix_data exit 0)
-       When several apply: 4, then 5, then 7, then 6.
+  8    a sequential efficacy boundary crossed, with --exit-on-boundary (the
+       readout is still written)
+  9    stale data: the newest row older than --max-staleness (the readout is
+       still written)
+       When several apply: 9, then 4, 5, 7, 6, then 8.
   130  stopped by SIGINT; 143: by SIGTERM (no output replaced, temporary files removed)
 
 Run 'armtally help COMMAND' for the flags of analyze, gen, plan or inspect,
@@ -250,7 +260,8 @@ func exitCode(err error, stderr io.Writer) int {
 	for _, o := range []struct {
 		err  error
 		code int
-	}{{errSampleRatio, exitSampleRatio}, {errGuardrail, exitGuardrail}, {errDecisionStop, exitStop}, {errDecisionShip, exitShip}} {
+	}{{errSampleRatio, exitSampleRatio}, {errGuardrail, exitGuardrail}, {errDecisionStop, exitStop}, {errDecisionShip, exitShip},
+		{errBoundary, exitBoundary}, {errStale, exitStale}} {
 		if errors.Is(err, o.err) {
 			fmt.Fprintf(stderr, "armtally: %v\n", err)
 			return o.code

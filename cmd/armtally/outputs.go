@@ -38,7 +38,7 @@ func outputFiles(run *analyzeRun) []report.OutputPath {
 			outs = append(outs, report.OutputPath{From: "--chart", Path: report.PerExperimentPath(run.chart, e.spec.Key, len(run.experiments))})
 		}
 	}
-	return outs
+	return append(outs, monitorOutputs(run)...)
 }
 
 // checkOutputs refuses, before any input is read, the outputs that would
@@ -144,13 +144,18 @@ func writeCharts(set *report.OutputSet, run *analyzeRun, readouts []experiment.R
 // readout goes to standard output or the two share no relative path
 // (another volume); "" without --chart.
 func chartLinkPath(run *analyzeRun) string {
-	if run.chart == "" || run.out == "" || run.out == "-" {
-		return run.chart
+	return linkPath(run.out, run.chart)
+}
+
+// linkPath returns path as the Markdown readout at out links it.
+func linkPath(out, path string) string {
+	if path == "" || out == "" || out == "-" {
+		return path
 	}
-	abs, err1 := filepath.Abs(run.chart)
-	dir, err2 := filepath.Abs(filepath.Dir(run.out))
+	abs, err1 := filepath.Abs(path)
+	dir, err2 := filepath.Abs(filepath.Dir(out))
 	if err1 != nil || err2 != nil {
-		return run.chart
+		return path
 	}
 	rel, err := filepath.Rel(dir, abs)
 	if err != nil {

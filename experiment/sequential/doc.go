@@ -5,7 +5,7 @@
 // probability ratio test for a difference of two proportions ([Mixture],
 // [ProportionsDifference], [TunedMixingVariance]). It imports only gonum.
 //
-// # How analyze will use it (design note, not wired yet)
+// # How analyze uses it (experiment/monitor, cmd/armtally/monitor.go)
 //
 // A metric chooses its method in the spec or by flag, say
 // --sequential METRIC=obf|pocock|mixture (fixed-horizon stays the
