@@ -140,6 +140,9 @@ func (r *parquetReader) stopPipeline() {
 	}
 }
 
+// batched reports whether the file is read by the bulk path.
+func (r *parquetReader) batched() bool { return r.bulk }
+
 // nextBatch returns the next record batch of the file in order, or io.EOF
 // after the last. It counts rows and bad rows in a as the row-by-row
 // reader does: a bad row that stops the reader stops it at the same row.
