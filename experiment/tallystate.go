@@ -1,0 +1,539 @@
+package experiment
+
+import (
+	"bufio"
+	"encoding/binary"
+	"errors"
+	"fmt"
+	"hash/maphash"
+	"io"
+	"math"
+)
+
+// A Tallier's state can be saved after a run (WriteState) and resumed by a
+// later run over more rows of the same log (ReadState before the first
+// Add): the later tally equals the tally of all the rows at once, or
+// Tally says it cannot (a *StaleStateError) and the caller tallies all the
+// rows again.
+//
+// What a unit keeps. The metric events of a unit are attributed against
+// its t0, its arm and the multi-arm policy, so the saved state keeps, per
+// unit, the outcome of that attribution rather than the events:
+//
+//   - an exposed unit: t0, the arm at t0, the tied and multi-arm flags, its
+//     segment values, one converted flag per metric, and how many of its
+//     metric events fell before t0, how many at or after it, and, per
+//     metric, how many of those were past the attribution window (the
+//     diagnostics those events fed);
+//   - a unit with metric events but no in-window exposure: the number of
+//     those events and the latest of their times.
+//
+// The merge is exact when the new rows leave each saved unit's t0 and arm
+// at t0 as they were: new metric events are attributed against the saved
+// t0, and a unit that now meets a second arm moves its events' counts to
+// "unit excluded" when the policy leaves it out. It is not exact, and
+// Tally returns a *StaleStateError, when a new exposure is earlier than a
+// saved unit's t0 (its earlier metric events were not kept), ties with it
+// in another arm, or a unit with only metric events so far is exposed at
+// or before the latest of them. The maturity horizon is not saved per
+// unit: it is recomputed from t0 and the freshness of all rows.
+
+// StaleStateError is a resumed tally that the saved state cannot give
+// exactly: the rows read since it was saved change what it summarised.
+type StaleStateError struct {
+	// Reason says what changed, for the run's warning.
+	Reason string
+}
+
+func (e *StaleStateError) Error() string {
+	return "the saved tally state cannot absorb the new rows: " + e.Reason
+}
+
+// baseUnit is what a saved state holds for one unit beyond its exposure
+// state (unitState, segment values), which is loaded into the tally's own.
+type baseUnit struct {
+	before int32 // metric events before t0 (exposed) or all of them (never exposed)
+	in     int32 // metric events at or after t0 (exposed)
+	latest int64 // never exposed: the latest of its metric events
+	flags  uint8
+}
+
+const (
+	baseExposed = 1 << iota
+	baseTied
+	baseMulti
+)
+
+// stateMagic starts every saved tally state; stateVersion is the layout.
+const (
+	stateMagic   = "armtally-tally\n"
+	stateVersion = 1
+)
+
+// checkBaseExposure checks an in-window exposure of saved unit u of the
+// partition, in arm a at time at, before it is applied.
+func (pt *tallyPart) checkBaseExposure(u, a int32, at int64) {
+	if pt.stale != "" || pt.base[u].flags&baseExposed == 0 {
+		return
+	}
+	s := pt.state.at(int(u))
+	switch {
+	case at < s.t0:
+		pt.stale = "an exposure earlier than a unit's saved first exposure (a late row)"
+	case at == s.t0 && a != s.armAtT0:
+		pt.stale = "an exposure in another arm at a unit's saved first exposure (a new tie)"
+	}
+}
+
+// finishBase merges the saved units of partition p into the attribution:
+// their conversions, and the diagnostics of their saved events when the
+// new rows changed what the policy makes of them.
+func (t *Tallier) finishBase(p int, converted []bool, d *TallyDiagnostics) error {
+	pt := t.parts[p]
+	if pt.stale != "" {
+		return &StaleStateError{Reason: pt.stale}
+	}
+	nm := len(t.spec.Metrics)
+	for u := range pt.base {
+		b := &pt.base[u]
+		for m := 0; m < nm; m++ {
+			converted[u*nm+m] = converted[u*nm+m] || pt.baseConv[u*nm+m]
+		}
+		s := pt.state.at(u)
+		now := status(s, t.spec.MultiArm)
+		if b.flags&baseExposed == 0 {
+			if s.armAtT0 < 0 {
+				continue
+			}
+			d.UnitNeverExposed -= int64(b.before)
+			switch {
+			case now != StatusAnalysed:
+				d.UnitExcluded += int64(b.before)
+			case b.latest < s.t0:
+				d.BeforeExposure += int64(b.before)
+			default:
+				return &StaleStateError{Reason: "a unit with saved metric events was exposed at or before the latest of them"}
+			}
+			continue
+		}
+		was := status(&unitState{tied: b.flags&baseTied != 0, multi: b.flags&baseMulti != 0}, t.spec.MultiArm)
+		if was == StatusAnalysed && now != StatusAnalysed {
+			d.BeforeExposure -= int64(b.before)
+			d.MetricEventsInUnit -= int64(b.in)
+			d.UnitExcluded += int64(b.before) + int64(b.in)
+			for m := 0; m < nm; m++ {
+				d.OutsideAttribution[m] -= int64(pt.baseOut[u*nm+m])
+			}
+		}
+	}
+	return nil
+}
+
+// unitCounts are the per-unit diagnostics of one partition's units, for
+// the saved state: the saved ones plus the new events'.
+type unitCounts struct {
+	before, in []int32
+	latest     []int64
+	out        []int32 // per unit and metric
+}
+
+// counts attributes partition p's events to its units as finish does and
+// returns the per-unit counts.
+func (t *Tallier) counts(p int) unitCounts {
+	pt := t.parts[p]
+	n, nm := pt.state.len(), len(t.spec.Metrics)
+	c := unitCounts{before: make([]int32, n), in: make([]int32, n), latest: make([]int64, n), out: make([]int32, n*nm)}
+	for u := range c.latest {
+		c.latest[u] = math.MinInt64
+	}
+	for u, b := range pt.base {
+		c.before[u], c.in[u] = b.before, b.in
+		if b.flags&baseExposed == 0 {
+			c.latest[u] = b.latest
+		}
+		copy(c.out[u*nm:(u+1)*nm], pt.baseOut[u*nm:(u+1)*nm])
+	}
+	for j := range pt.events.len() {
+		e := pt.events.at(j)
+		u := int(e.unit)
+		s := pt.state.at(u)
+		if s.armAtT0 < 0 {
+			c.before[u]++
+			c.latest[u] = max(c.latest[u], e.ts)
+			continue
+		}
+		if e.ts < s.t0 {
+			c.before[u]++
+			continue
+		}
+		c.in[u]++
+		for _, m := range t.metricsOf[e.event] {
+			if w := int64(t.spec.Metrics[m].Window); w > 0 && e.ts-s.t0 >= w {
+				c.out[u*nm+m]++
+			}
+		}
+	}
+	return c
+}
+
+// WriteState writes the tallier's state after its last Add, for ReadState
+// in a later run: the counters of the rows read, the arms, experiment keys
+// and segment values seen, and one record per unit (see above). It fails
+// as Tally does, and with a *StaleStateError on a resumed tally that
+// cannot be exact.
+func (t *Tallier) WriteState(w io.Writer) error {
+	if err := t.checkKeys(); err != nil {
+		return err
+	}
+	f := t.finish()
+	if f.stale != nil {
+		return f.stale
+	}
+	sw := &stateWriter{w: bufio.NewWriterSize(w, 1<<16)}
+	sw.str(stateMagic)
+	sw.uint(stateVersion)
+	nm := len(t.spec.Metrics)
+	sw.uint(uint64(nm))
+	sw.uint(uint64(len(t.spec.Segments)))
+	// The arms, with their earliest exposure over all partitions.
+	sw.uint(uint64(len(t.arms)))
+	for a, name := range t.arms {
+		first := int64(math.MaxInt64)
+		for _, pt := range t.parts {
+			first = min(first, pt.armFirst[a])
+		}
+		sw.str(name)
+		sw.int(first)
+	}
+	keys := t.experimentKeys()
+	sw.uint(uint64(len(keys)))
+	for _, k := range keys {
+		sw.str(k)
+	}
+	for _, v := range diagCounters(&f.diag) {
+		sw.int(*v)
+	}
+	for _, v := range f.diag.OutsideAttribution {
+		sw.int(v)
+	}
+	sw.bool(t.hasFresh)
+	sw.int(t.fresh)
+	var units uint64
+	for _, pt := range t.parts {
+		units += uint64(pt.state.len())
+	}
+	sw.uint(units)
+	for p := range t.parts {
+		t.writeUnits(sw, p, f.converted[p], t.counts(p))
+	}
+	sw.str(stateMagic) // the end: a cut file is refused
+	return sw.flush()
+}
+
+// writeUnits writes the unit records of partition p.
+func (t *Tallier) writeUnits(sw *stateWriter, p int, converted []bool, c unitCounts) {
+	pt := t.parts[p]
+	nm := len(t.spec.Metrics)
+	policy := t.spec.MultiArm
+	for u := range pt.state.len() {
+		s := pt.state.at(u)
+		sw.bytes(pt.units.key(int32(u)))
+		if s.armAtT0 < 0 {
+			sw.byte(0)
+			sw.uint(uint64(c.before[u]))
+			sw.int(c.latest[u])
+			continue
+		}
+		flags := byte(baseExposed)
+		if s.tied {
+			flags |= baseTied
+		}
+		if s.multi {
+			flags |= baseMulti
+		}
+		sw.byte(flags)
+		sw.int(s.t0)
+		sw.uint(uint64(s.armAtT0))
+		for d := range pt.dims {
+			// 0 for null, else the length plus one and the bytes.
+			if v := pt.segs[u*pt.dims+d]; v == segNull {
+				sw.uint(0)
+			} else {
+				sw.uint(uint64(len(pt.segVals[d][v])) + 1)
+				sw.write([]byte(pt.segVals[d][v]))
+			}
+		}
+		if status(s, policy) != StatusAnalysed {
+			// Its events all count as "unit excluded", whatever
+			// comes: no conversions or counts to keep.
+			sw.bytes(nil)
+			continue
+		}
+		var conv []byte
+		for m := 0; m < nm; m++ {
+			if m%8 == 0 {
+				conv = append(conv, 0)
+			}
+			if converted[u*nm+m] {
+				conv[m/8] |= 1 << (m % 8)
+			}
+		}
+		sw.bytes(conv)
+		sw.uint(uint64(c.before[u]))
+		sw.uint(uint64(c.in[u]))
+		for m := 0; m < nm; m++ {
+			sw.uint(uint64(c.out[u*nm+m]))
+		}
+	}
+}
+
+// diagCounters lists the counters of d that a saved state keeps, in the
+// order it keeps them.
+func diagCounters(d *TallyDiagnostics) []*int64 {
+	return []*int64{&d.RowsRead, &d.ExposureRows, &d.ExposuresOutsideWindow, &d.OtherExperimentRows,
+		&d.NotMetricEvents, &d.MetricEvents, &d.AfterWindowEnd, &d.UnitNeverExposed, &d.UnitExcluded,
+		&d.BeforeExposure, &d.MetricEventsInUnit}
+}
+
+// ErrStateFormat is a saved tally state that cannot be read: another
+// layout version, another number of metrics or segment dimensions, a cut
+// or damaged file.
+var ErrStateFormat = errors.New("not a usable saved tally state")
+
+// ReadState loads a state written by WriteState for the same spec into a
+// new Tallier, before its first Add: the rows it summarises then count as
+// read. Errors wrap ErrStateFormat.
+func (t *Tallier) ReadState(r io.Reader) error {
+	if t.diag.RowsRead > 0 || t.hasFresh {
+		return errors.New("ReadState: the tallier has read rows already")
+	}
+	sr := &stateReader{r: bufio.NewReaderSize(r, 1<<16)}
+	if err := t.readState(sr); err != nil {
+		return fmt.Errorf("%w: %w", ErrStateFormat, err)
+	}
+	return nil
+}
+
+func (t *Tallier) readState(sr *stateReader) error {
+	if sr.str() != stateMagic || sr.uint() != stateVersion {
+		return errors.New("unknown layout")
+	}
+	nm := len(t.spec.Metrics)
+	if sr.uint() != uint64(nm) || sr.uint() != uint64(len(t.spec.Segments)) {
+		return errors.New("another number of metrics or segment dimensions")
+	}
+	narms := sr.uint()
+	if narms > math.MaxInt32 || sr.err != nil {
+		return sr.fail()
+	}
+	arms := make([]int32, narms)
+	for i := range arms {
+		name, first := sr.str(), sr.int()
+		arms[i] = t.arm(name)
+		pt := t.parts[0]
+		pt.armFirst[arms[i]] = min(pt.armFirst[arms[i]], first)
+	}
+	for n := sr.uint(); n > 0 && sr.err == nil; n-- {
+		t.expKeys[sr.str()] = struct{}{}
+	}
+	for _, v := range diagCounters(&t.diag) {
+		*v = sr.int()
+	}
+	for m := range t.diag.OutsideAttribution {
+		t.diag.OutsideAttribution[m] = sr.int()
+	}
+	t.hasFresh, t.fresh = sr.bool(), sr.int()
+	units := sr.uint()
+	for i := uint64(0); i < units && sr.err == nil; i++ {
+		if err := t.readUnit(sr, arms); err != nil {
+			return err
+		}
+	}
+	if sr.str() != stateMagic {
+		return sr.fail()
+	}
+	for _, pt := range t.parts {
+		if err := pt.segmentLimit(t.spec); err != nil {
+			return err
+		}
+	}
+	return sr.err
+}
+
+// readUnit loads one unit record.
+func (t *Tallier) readUnit(sr *stateReader, arms []int32) error {
+	nm := len(t.spec.Metrics)
+	key := sr.bytes()
+	h := maphash.Bytes(t.seed, key)
+	pt := t.parts[t.partOf(h)]
+	u, ok := pt.units.lookupHashed(string(key), h)
+	if ok || int(u) != len(pt.base) {
+		return fmt.Errorf("unit %q twice", key)
+	}
+	pt.addUnit()
+	flags := sr.byte()
+	var b baseUnit
+	b.flags = flags
+	if flags&baseExposed == 0 {
+		b.before, b.latest = int32(sr.uint()), sr.int()
+		pt.base = append(pt.base, b)
+		pt.baseConv = append(pt.baseConv, make([]bool, nm)...)
+		pt.baseOut = append(pt.baseOut, make([]int32, nm)...)
+		return sr.err
+	}
+	t0, arm := sr.int(), sr.uint()
+	if arm >= uint64(len(arms)) {
+		return sr.fail()
+	}
+	a := arms[arm]
+	*pt.state.at(int(u)) = unitState{t0: t0, armAtT0: a, firstArm: a, tied: flags&baseTied != 0, multi: flags&baseMulti != 0}
+	for d := range pt.dims {
+		if n := sr.uint(); n > 0 {
+			pt.segs[int(u)*pt.dims+d] = pt.internSeg(d, string(sr.fixed(n-1)))
+		}
+	}
+	conv := sr.bytes()
+	for m := 0; m < nm; m++ {
+		pt.baseConv = append(pt.baseConv, len(conv) > m/8 && conv[m/8]&(1<<(m%8)) != 0)
+	}
+	if len(conv) > 0 {
+		b.before, b.in = int32(sr.uint()), int32(sr.uint())
+		for m := 0; m < nm; m++ {
+			pt.baseOut = append(pt.baseOut, int32(sr.uint()))
+		}
+	} else {
+		pt.baseOut = append(pt.baseOut, make([]int32, nm)...)
+	}
+	pt.base = append(pt.base, b)
+	return sr.err
+}
+
+// stateWriter writes the fields of a saved state: unsigned and signed
+// varints, and length-prefixed bytes.
+type stateWriter struct {
+	w   *bufio.Writer
+	buf [binary.MaxVarintLen64]byte
+	err error
+}
+
+func (s *stateWriter) uint(v uint64) {
+	n := binary.PutUvarint(s.buf[:], v)
+	s.write(s.buf[:n])
+}
+
+func (s *stateWriter) int(v int64) {
+	n := binary.PutVarint(s.buf[:], v)
+	s.write(s.buf[:n])
+}
+
+func (s *stateWriter) byte(b byte) { s.write([]byte{b}) }
+
+func (s *stateWriter) bool(b bool) {
+	if b {
+		s.byte(1)
+	} else {
+		s.byte(0)
+	}
+}
+
+func (s *stateWriter) bytes(b []byte) {
+	s.uint(uint64(len(b)))
+	s.write(b)
+}
+
+func (s *stateWriter) str(v string) {
+	s.uint(uint64(len(v)))
+	if s.err == nil {
+		_, s.err = s.w.WriteString(v)
+	}
+}
+
+func (s *stateWriter) write(b []byte) {
+	if s.err == nil {
+		_, s.err = s.w.Write(b)
+	}
+}
+
+func (s *stateWriter) flush() error {
+	if s.err != nil {
+		return s.err
+	}
+	return s.w.Flush()
+}
+
+// stateReader reads what a stateWriter wrote; the first error sticks and
+// later reads return zero values.
+type stateReader struct {
+	r   *bufio.Reader
+	err error
+	buf []byte
+}
+
+// maxStateString bounds a string or byte field of a saved state, so that
+// a damaged length cannot ask for gigabytes.
+const maxStateString = 1 << 24
+
+func (s *stateReader) fail() error {
+	if s.err == nil {
+		s.err = errors.New("damaged data")
+	}
+	return s.err
+}
+
+func (s *stateReader) uint() uint64 {
+	if s.err != nil {
+		return 0
+	}
+	v, err := binary.ReadUvarint(s.r)
+	if err != nil {
+		s.err = fmt.Errorf("cut short or damaged: %w", err)
+	}
+	return v
+}
+
+func (s *stateReader) int() int64 {
+	if s.err != nil {
+		return 0
+	}
+	v, err := binary.ReadVarint(s.r)
+	if err != nil {
+		s.err = fmt.Errorf("cut short or damaged: %w", err)
+	}
+	return v
+}
+
+func (s *stateReader) byte() byte {
+	if s.err != nil {
+		return 0
+	}
+	b, err := s.r.ReadByte()
+	if err != nil {
+		s.err = fmt.Errorf("cut short: %w", err)
+	}
+	return b
+}
+
+func (s *stateReader) bool() bool { return s.byte() == 1 }
+
+// bytes returns the next length-prefixed field, in a buffer the next call
+// reuses.
+func (s *stateReader) bytes() []byte { return s.fixed(s.uint()) }
+
+// fixed returns the next n bytes, in a buffer the next call reuses.
+func (s *stateReader) fixed(n uint64) []byte {
+	if s.err != nil {
+		return nil
+	}
+	if n > maxStateString {
+		s.fail()
+		return nil
+	}
+	s.buf = append(s.buf[:0], make([]byte, n)...)
+	if _, err := io.ReadFull(s.r, s.buf); err != nil {
+		s.err = fmt.Errorf("cut short: %w", err)
+		return nil
+	}
+	return s.buf
+}
+
+func (s *stateReader) str() string { return string(s.bytes()) }
