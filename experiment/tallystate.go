@@ -287,6 +287,15 @@ func (t *Tallier) writeUnits(sw *stateWriter, p int, converted []bool, c unitCou
 	}
 }
 
+// StateUnits returns the number of unit records WriteState writes.
+func (t *Tallier) StateUnits() int {
+	n := 0
+	for _, pt := range t.parts {
+		n += pt.state.len()
+	}
+	return n
+}
+
 // diagCounters lists the counters of d that a saved state keeps, in the
 // order it keeps them.
 func diagCounters(d *TallyDiagnostics) []*int64 {

@@ -764,3 +764,37 @@ func (pc *partitionCols) fill(r *row) {
 		r.ts, r.tsErr = pc.ts, pc.tsErr
 	}
 }
+
+// MergeStats returns the counts of two reads of different sources
+// together (a resumed run's saved counts and its new files'): every count
+// summed, the larger FilteredMaxTS, bad rows by reason in the order of
+// the reasons, and the first example of each reason from a when it has
+// one, else from b.
+func MergeStats(a, b Stats) Stats {
+	out := Stats{Files: a.Files + b.Files, RowsRead: a.RowsRead + b.RowsRead, Rows: a.Rows + b.Rows,
+		Filtered: a.Filtered + b.Filtered}
+	var fc filterCount
+	fc.merge(filterCount{n: a.Filtered, maxTS: a.FilteredMaxTS})
+	fc.merge(filterCount{n: b.Filtered, maxTS: b.FilteredMaxTS})
+	out.FilteredMaxTS = fc.maxTS
+	for i := 0; i < numReasons; i++ {
+		reason, _ := reasonOf(i)
+		var n int64
+		var ex *RowError
+		for _, s := range []Stats{b, a} {
+			for j, c := range s.BadRows {
+				if c.Reason == reason {
+					n += c.Count
+					if j < len(s.BadRowExamples) {
+						ex = s.BadRowExamples[j]
+					}
+				}
+			}
+		}
+		if n > 0 {
+			out.BadRows = append(out.BadRows, BadRowCount{Reason: reason, Count: n})
+			out.BadRowExamples = append(out.BadRowExamples, ex)
+		}
+	}
+	return out
+}

@@ -109,6 +109,14 @@ type Options struct {
 	// function it returns is called once reading ends. Inputs that cannot
 	// count as they go (unit and counts tables) do not call it.
 	Progress func(rows func() int64) (stop func())
+	// State, when set, is the path of the state file of an incremental
+	// run over an event log that grows by new files (a nightly job over
+	// dt=YYYY-MM-DD/ folders): the run reads only the files the state
+	// file does not list, merges them into its saved tallies and writes
+	// it anew; the readouts are those of a run over every file (see
+	// state.go for when it reads every file instead). It rules out a
+	// memory limit and Arrow record streams.
+	State string
 }
 
 // Result is what a run gives back.
@@ -117,7 +125,10 @@ type Result struct {
 	Readouts []experiment.Readout
 	// Stats are the reader's counts: files, rows read, bad rows by
 	// reason, rows left out by the event filter.
-	Stats    ingest.Stats
+	Stats ingest.Stats
+	// State says what a run with Options.State did with its state file;
+	// nil without one.
+	State    *StateReport
 	talliers []tallier
 }
 
@@ -209,21 +220,12 @@ func Run(ctx context.Context, in Input, exps []Experiment, opts Options) (*Resul
 	if err := checkOptions(in, exps, opts); err != nil {
 		return nil, err
 	}
-	talliers := make([]tallier, len(exps))
-	var events []string // the events the experiments use (event logs only)
-	for i, e := range exps {
-		tl, err := newTallier(in.Shape, e.Spec)
-		if err != nil {
-			return nil, &ConfigError{err}
-		}
-		talliers[i] = tl
-		if tl, ok := tl.(*experiment.Tallier); ok {
-			for _, ev := range tl.Events() {
-				if !slices.Contains(events, ev) {
-					events = append(events, ev)
-				}
-			}
-		}
+	if opts.State != "" {
+		return runWithState(ctx, in, exps, opts)
+	}
+	talliers, events, err := makeTalliers(in.Shape, exps)
+	if err != nil {
+		return nil, err
 	}
 	r, err := openReader(in, exps, events, opts.Workers)
 	if err != nil {
@@ -239,7 +241,33 @@ func Run(ctx context.Context, in Input, exps []Experiment, opts Options) (*Resul
 	if err != nil {
 		return nil, err
 	}
-	st := r.Stats()
+	return analyse(exps, tallies, r.Stats(), talliers, opts)
+}
+
+// makeTalliers returns a tallier per experiment and, for an event log,
+// the events they use.
+func makeTalliers(shape experiment.InputShape, exps []Experiment) ([]tallier, []string, error) {
+	talliers := make([]tallier, len(exps))
+	var events []string // the events the experiments use (event logs only)
+	for i, e := range exps {
+		tl, err := newTallier(shape, e.Spec)
+		if err != nil {
+			return nil, nil, &ConfigError{err}
+		}
+		talliers[i] = tl
+		if tl, ok := tl.(*experiment.Tallier); ok {
+			for _, ev := range tl.Events() {
+				if !slices.Contains(events, ev) {
+					events = append(events, ev)
+				}
+			}
+		}
+	}
+	return talliers, events, nil
+}
+
+// analyse analyses each tally with the reader's counts st.
+func analyse(exps []Experiment, tallies []experiment.Tally, st ingest.Stats, talliers []tallier, opts Options) (*Result, error) {
 	res := &Result{Readouts: make([]experiment.Readout, len(exps)), Stats: st}
 	if opts.KeepUnits {
 		res.talliers = talliers
@@ -247,11 +275,52 @@ func Run(ctx context.Context, in Input, exps []Experiment, opts Options) (*Resul
 	for i, e := range exps {
 		o := e.Options
 		o.RowsRead, o.BadRows = st.RowsRead, reasonCounts(st.BadRows)
+		var err error
 		if res.Readouts[i], err = experiment.Analyze(e.Spec, tallies[i], o); err != nil {
 			return nil, &DataError{err}
 		}
 	}
 	return res, nil
+}
+
+// runTalliers tallies the event log of in on top of the saved tallies of
+// sf (when not nil), whose reader counts were saved, and analyses the
+// tallies; it also returns the talliers, for the next state.
+func runTalliers(ctx context.Context, in Input, exps []Experiment, opts Options, sf *stateFile, saved ingest.Stats) (*Result, []*experiment.Tallier, error) {
+	talliers, events, err := makeTalliers(in.Shape, exps)
+	if err != nil {
+		return nil, nil, err
+	}
+	tls := make([]*experiment.Tallier, len(talliers))
+	for i, tl := range talliers {
+		tls[i] = tl.(*experiment.Tallier)
+		if sf != nil {
+			if err := tls[i].ReadState(sf.r); err != nil {
+				return nil, nil, err
+			}
+		}
+	}
+	var st ingest.Stats
+	tallies := make([]experiment.Tally, len(exps))
+	if len(in.Sources) > 0 {
+		r, err := openReader(in, exps, events, opts.Workers)
+		if err != nil {
+			return nil, nil, err
+		}
+		defer r.Close()
+		if tallies, err = readInMemory(ctx, r, talliers, opts); err != nil {
+			return nil, nil, err
+		}
+		st = r.Stats()
+	} else {
+		for i, tl := range tls {
+			if tallies[i], err = tl.Tally(); err != nil {
+				return nil, nil, &DataError{err}
+			}
+		}
+	}
+	res, err := analyse(exps, tallies, ingest.MergeStats(saved, st), talliers, opts)
+	return res, tls, err
 }
 
 // checkOptions rejects option sets that cannot work, before anything is
