@@ -87,6 +87,7 @@ type analyzeFlags struct {
 	audit                 string
 	noProgress            bool
 	memoryLimit, spillDir string
+	state                 string
 	maxSpecSize           string
 }
 
@@ -122,6 +123,7 @@ func newAnalyzeFlagSet(f *analyzeFlags, stderr io.Writer) *pflag.FlagSet {
 	fs.BoolVar(&f.failOnSampleRatio, "fail-on-sample-ratio", false, "exit with code 4 when the sample ratio check fails")
 	fs.StringVar(&f.memoryLimit, "memory-limit", "", "keep the per-unit state of an event log under about this size (such as 800MB or 2GiB): the rows go to disk in hash partitions of the units, tallied a group at a time and merged; no --audit")
 	fs.StringVar(&f.spillDir, "spill-dir", "", "folder for the partition files of --memory-limit (default: the system's temporary folder)")
+	fs.StringVar(&f.state, "state", "", "keep the tally of an event log in this state file: the next run with it reads only the files not read before and gives the readout of reading them all; it reads every file again, and says why, when one read before changed or is gone, the run's definition changed, or new rows are older than the state can take")
 	fs.BoolVar(&f.noProgress, "no-progress", false, "do not show the rows read, rate and elapsed time on stderr while reading (shown only when stderr is a terminal, and not for unit or counts tables)")
 	f.mapping = defineMappingFlags(fs)
 	fs.StringArrayVar(&f.segments, "segment", nil, "column to break every metric down by (read from each unit's first exposure row); exploratory results (repeatable)")
@@ -166,6 +168,8 @@ type analyzeRun struct {
 	// time (see analyzeSpilled).
 	memoryLimit int64
 	spillDir    string
+	// state is the state file of an incremental run (--state), or "".
+	state string
 }
 
 // builtExperiment is one experiment of a run, checked.
@@ -230,6 +234,7 @@ func parseAnalyzeRun(args []string, stdout, stderr io.Writer) (*analyzeRun, erro
 	if err := applyMemoryLimit(&f, run); err != nil {
 		return nil, err
 	}
+	run.state = f.state
 	if run.sources, err = analyzeSources(fs, &f, sf); err != nil {
 		return nil, err
 	}
@@ -628,7 +633,7 @@ func pipelineInput(run *analyzeRun) (pipeline.Input, []pipeline.Experiment) {
 // analyze runs the pipeline over the run's input and experiments.
 func analyze(ctx context.Context, run *analyzeRun) (*pipeline.Result, error) {
 	in, exps := pipelineInput(run)
-	opts := pipeline.Options{MemoryLimit: run.memoryLimit, SpillDir: run.spillDir, KeepUnits: run.audit != ""}
+	opts := pipeline.Options{MemoryLimit: run.memoryLimit, SpillDir: run.spillDir, KeepUnits: run.audit != "", State: run.state}
 	if run.progress && run.stderr != nil {
 		opts.Progress = func(rows func() int64) func() {
 			return startProgress(run.stderr, rows, progressInterval, time.Now)
@@ -657,6 +662,9 @@ func analyze(ctx context.Context, run *analyzeRun) (*pipeline.Result, error) {
 		return nil, fmt.Errorf("analyze: --memory-limit: %w", se.Err)
 	case err != nil:
 		return nil, fmt.Errorf("analyze: %w", err)
+	}
+	if st := res.State; st != nil && st.Recomputed && run.stderr != nil {
+		fmt.Fprintf(run.stderr, "armtally: --state: read every file again: %s\n", st.Reason)
 	}
 	return res, nil
 }
