@@ -489,22 +489,17 @@ func (s *stateReader) fail() error {
 	return s.err
 }
 
-func (s *stateReader) uint() uint64 {
-	if s.err != nil {
-		return 0
-	}
-	v, err := binary.ReadUvarint(s.r)
-	if err != nil {
-		s.err = fmt.Errorf("cut short or damaged: %w", err)
-	}
-	return v
-}
+func (s *stateReader) uint() uint64 { return readVarint(s, binary.ReadUvarint) }
 
-func (s *stateReader) int() int64 {
+func (s *stateReader) int() int64 { return readVarint(s, binary.ReadVarint) }
+
+// readVarint reads one varint with read, unless an error came before.
+func readVarint[T any](s *stateReader, read func(io.ByteReader) (T, error)) T {
+	var v T
 	if s.err != nil {
-		return 0
+		return v
 	}
-	v, err := binary.ReadVarint(s.r)
+	v, err := read(s.r)
 	if err != nil {
 		s.err = fmt.Errorf("cut short or damaged: %w", err)
 	}

@@ -5,7 +5,6 @@ import (
 	"encoding/csv"
 	"io"
 	"strconv"
-	"sync"
 	"unicode/utf8"
 	"unsafe"
 
@@ -220,56 +219,23 @@ func (res *csvResult) release() {
 
 // csvPipeline runs the chunk workers of one CSV file.
 type csvPipeline struct {
-	futures chan chan csvResult // one per chunk, in file order
-	stop    chan struct{}
-	wg      sync.WaitGroup
-	cur     csvResult
-}
-
-type csvTask struct {
-	chunk csvChunk
-	out   chan csvResult
+	o   *ordered[csvResult] // a task per chunk
+	cur csvResult           // the chunk being handed on
 }
 
 // start starts the splitter and workers; first is the chunk that held the
 // header, from the header's end on.
 func (c *csvReader) start(workers int, budget bool, first csvChunk) {
-	pl := &csvPipeline{futures: make(chan chan csvResult, 2*workers), stop: make(chan struct{})}
-	c.pl = pl
-	tasks := make(chan csvTask)
-	pl.wg.Add(1 + workers)
-	go func() {
-		defer pl.wg.Done()
-		defer close(tasks)
-		defer close(pl.futures)
-		for ch, ok := first, true; ok; ch, ok = c.split.next() {
-			t := csvTask{chunk: ch, out: make(chan csvResult, 1)}
-			select {
-			case pl.futures <- t.out:
-			case <-pl.stop:
-				return
+	c.pl = &csvPipeline{o: startOrdered(workers,
+		func(emit func(csvChunk) bool) {
+			for ch, ok := first, true; ok && emit(ch) && ch.err == nil; ch, ok = c.split.next() {
 			}
-			select {
-			case tasks <- t:
-			case <-pl.stop:
-				return
-			}
-			if ch.err != nil {
-				return
-			}
-		}
-	}()
-	for w := 0; w < workers; w++ {
-		go func() {
-			defer pl.wg.Done()
+		},
+		func(<-chan struct{}) (func(csvChunk) csvResult, func()) {
 			bld := newBatchBuilder(c.mem, c.p)
-			defer bld.release()
-			row := row{cells: make([]cell, len(c.p.physical))}
-			for t := range tasks {
-				t.out <- c.parseChunk(t.chunk, bld, &row, budget)
-			}
-		}()
-	}
+			r := row{cells: make([]cell, len(c.p.physical))}
+			return func(ch csvChunk) csvResult { return c.parseChunk(ch, bld, &r, budget) }, bld.release
+		})}
 }
 
 // parseChunk applies the row rules to the records of a chunk, as read
@@ -354,32 +320,44 @@ func (c *csvReader) nextBatch(workers int, a *accounting) (arrow.RecordBatch, er
 	}
 	pl := c.pl
 	for len(pl.cur.recs) == 0 {
-		out, ok := <-pl.futures
+		res, ok := pl.next()
 		if !ok {
 			c.plDone = true
 			c.stop()
 			return nil, io.EOF
 		}
-		res := <-out
-		pl.cur = res
-		base := a.rowsRead
-		for i, b := range res.bad {
-			a.rowsRead = base + res.badRead[i]
-			if err := a.bad(b); err != nil {
-				a.filtered.merge(res.badFilt[i])
-				return nil, err
-			}
-		}
-		a.rowsRead = base + res.rows
-		a.filtered.merge(res.filtered)
-		if res.err != nil {
-			return nil, res.err
+		if err := res.account(a); err != nil {
+			return nil, err
 		}
 	}
 	rec := pl.cur.recs[0]
 	pl.cur.recs[0] = nil
 	pl.cur.recs = pl.cur.recs[1:]
 	return rec, nil
+}
+
+// next waits for the next chunk's result and makes it the current one;
+// false after the last.
+func (pl *csvPipeline) next() (csvResult, bool) {
+	res, ok := pl.o.next()
+	pl.cur = res
+	return res, ok
+}
+
+// account counts the chunk's rows and bad rows in a, as the sequential
+// reader counts them, and returns the error that stops the reader.
+func (res *csvResult) account(a *accounting) error {
+	base := a.rowsRead
+	for i, b := range res.bad {
+		a.rowsRead = base + res.badRead[i]
+		if err := a.bad(b); err != nil {
+			a.filtered.merge(res.badFilt[i])
+			return err
+		}
+	}
+	a.rowsRead = base + res.rows
+	a.filtered.merge(res.filtered)
+	return res.err
 }
 
 // stop stops the splitter and the workers and releases what they made.
@@ -389,13 +367,6 @@ func (c *csvReader) stop() {
 		return
 	}
 	c.pl = nil
-	close(pl.stop)
-	pl.wg.Wait() // the workers never block: each result channel holds one
+	pl.o.close(func(res csvResult) { res.release() })
 	pl.cur.release()
-	for out := range pl.futures {
-		if len(out) > 0 {
-			res := <-out
-			res.release()
-		}
-	}
 }
