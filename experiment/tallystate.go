@@ -8,6 +8,8 @@ import (
 	"hash/maphash"
 	"io"
 	"math"
+	"slices"
+	"unsafe"
 )
 
 // A Tallier's state can be saved after a run (WriteState) and resumed by a
@@ -189,7 +191,7 @@ func (t *Tallier) WriteState(w io.Writer) error {
 	if f.stale != nil {
 		return f.stale
 	}
-	sw := &stateWriter{w: bufio.NewWriterSize(w, 1<<16)}
+	sw := &stateWriter{w: w, buf: make([]byte, 0, 2*stateBlock)}
 	sw.str(stateMagic)
 	sw.uint(stateVersion)
 	nm := len(t.spec.Metrics)
@@ -218,11 +220,13 @@ func (t *Tallier) WriteState(w io.Writer) error {
 	}
 	sw.bool(t.hasFresh)
 	sw.int(t.fresh)
-	var units uint64
+	var units, keyBytes uint64
 	for _, pt := range t.parts {
 		units += uint64(pt.state.len())
+		keyBytes += uint64(len(pt.units.arena))
 	}
 	sw.uint(units)
+	sw.uint(keyBytes)
 	for p := range t.parts {
 		t.writeUnits(sw, p, f.converted[p], t.counts(p))
 	}
@@ -316,8 +320,10 @@ func (t *Tallier) ReadState(r io.Reader) error {
 	if t.diag.RowsRead > 0 || t.hasFresh {
 		return errors.New("ReadState: the tallier has read rows already")
 	}
-	sr := &stateReader{r: bufio.NewReaderSize(r, 1<<16)}
-	if err := t.readState(sr); err != nil {
+	sr := &stateReader{r: bufio.NewReaderSize(r, stateBlock)}
+	err := t.readState(sr)
+	sr.done()
+	if err != nil {
 		return fmt.Errorf("%w: %w", ErrStateFormat, err)
 	}
 	return nil
@@ -352,7 +358,19 @@ func (t *Tallier) readState(sr *stateReader) error {
 		t.diag.OutsideAttribution[m] = sr.int()
 	}
 	t.hasFresh, t.fresh = sr.bool(), sr.int()
-	units := sr.uint()
+	units, keyBytes := sr.uint(), sr.uint()
+	if sr.err == nil && units < math.MaxInt32 && keyBytes < math.MaxInt32 {
+		// Room for a share of the units a little over the even one.
+		per, bytes := int(units)/len(t.parts)*9/8, int(keyBytes)/len(t.parts)*9/8
+		nm := len(t.spec.Metrics)
+		for _, pt := range t.parts {
+			pt.units.reserve(per)
+			pt.units.arena = slices.Grow(pt.units.arena, bytes)
+			pt.base = slices.Grow(pt.base, per)
+			pt.baseConv = slices.Grow(pt.baseConv, per*nm)
+			pt.baseOut = slices.Grow(pt.baseOut, per*nm)
+		}
+	}
 	for i := uint64(0); i < units && sr.err == nil; i++ {
 		if err := t.readUnit(sr, arms); err != nil {
 			return err
@@ -375,7 +393,7 @@ func (t *Tallier) readUnit(sr *stateReader, arms []int32) error {
 	key := sr.bytes()
 	h := maphash.Bytes(t.seed, key)
 	pt := t.parts[t.partOf(h)]
-	u, ok := pt.units.lookupHashed(string(key), h)
+	u, ok := pt.units.lookupHashed(unsafe.String(unsafe.SliceData(key), len(key)), h) // the index copies a new key
 	if ok || int(u) != len(pt.base) {
 		return fmt.Errorf("unit %q twice", key)
 	}
@@ -398,7 +416,8 @@ func (t *Tallier) readUnit(sr *stateReader, arms []int32) error {
 	*pt.state.at(int(u)) = unitState{t0: t0, armAtT0: a, firstArm: a, tied: flags&baseTied != 0, multi: flags&baseMulti != 0}
 	for d := range pt.dims {
 		if n := sr.uint(); n > 0 {
-			pt.segs[int(u)*pt.dims+d] = pt.internSeg(d, string(sr.fixed(n-1)))
+			v := sr.fixed(n - 1)
+			pt.segs[int(u)*pt.dims+d] = pt.internSeg(d, unsafe.String(unsafe.SliceData(v), len(v))) // interned as a copy
 		}
 	}
 	conv := sr.bytes()
@@ -418,24 +437,44 @@ func (t *Tallier) readUnit(sr *stateReader, arms []int32) error {
 }
 
 // stateWriter writes the fields of a saved state: unsigned and signed
-// varints, and length-prefixed bytes.
+// varints, and length-prefixed bytes, gathered in a buffer written out a
+// block at a time.
 type stateWriter struct {
-	w   *bufio.Writer
-	buf [binary.MaxVarintLen64]byte
+	w   io.Writer
+	buf []byte
 	err error
 }
 
+// stateBlock is the size of the blocks a stateWriter writes.
+const stateBlock = 1 << 16
+
+func (s *stateWriter) spill() {
+	if len(s.buf) >= stateBlock {
+		s.flushBuf()
+	}
+}
+
+func (s *stateWriter) flushBuf() {
+	if s.err == nil && len(s.buf) > 0 {
+		_, s.err = s.w.Write(s.buf)
+	}
+	s.buf = s.buf[:0]
+}
+
 func (s *stateWriter) uint(v uint64) {
-	n := binary.PutUvarint(s.buf[:], v)
-	s.write(s.buf[:n])
+	s.buf = binary.AppendUvarint(s.buf, v)
+	s.spill()
 }
 
 func (s *stateWriter) int(v int64) {
-	n := binary.PutVarint(s.buf[:], v)
-	s.write(s.buf[:n])
+	s.buf = binary.AppendVarint(s.buf, v)
+	s.spill()
 }
 
-func (s *stateWriter) byte(b byte) { s.write([]byte{b}) }
+func (s *stateWriter) byte(b byte) {
+	s.buf = append(s.buf, b)
+	s.spill()
+}
 
 func (s *stateWriter) bool(b bool) {
 	if b {
@@ -446,36 +485,36 @@ func (s *stateWriter) bool(b bool) {
 }
 
 func (s *stateWriter) bytes(b []byte) {
-	s.uint(uint64(len(b)))
+	s.buf = binary.AppendUvarint(s.buf, uint64(len(b)))
 	s.write(b)
 }
 
 func (s *stateWriter) str(v string) {
-	s.uint(uint64(len(v)))
-	if s.err == nil {
-		_, s.err = s.w.WriteString(v)
-	}
+	s.buf = binary.AppendUvarint(s.buf, uint64(len(v)))
+	s.buf = append(s.buf, v...)
+	s.spill()
 }
 
 func (s *stateWriter) write(b []byte) {
-	if s.err == nil {
-		_, s.err = s.w.Write(b)
-	}
+	s.buf = append(s.buf, b...)
+	s.spill()
 }
 
 func (s *stateWriter) flush() error {
-	if s.err != nil {
-		return s.err
-	}
-	return s.w.Flush()
+	s.flushBuf()
+	return s.err
 }
 
-// stateReader reads what a stateWriter wrote; the first error sticks and
-// later reads return zero values.
+// stateReader reads what a stateWriter wrote from a window of a
+// bufio.Reader's buffer (Peek), consuming (Discard) only what it decoded,
+// so that what follows a saved state stays for the next reader. The first
+// error sticks and later reads return zero values.
 type stateReader struct {
 	r   *bufio.Reader
+	win []byte // peeked; pos bytes of it decoded
+	pos int
 	err error
-	buf []byte
+	buf []byte // a field longer than the window
 }
 
 // maxStateString bounds a string or byte field of a saved state, so that
@@ -489,41 +528,64 @@ func (s *stateReader) fail() error {
 	return s.err
 }
 
-func (s *stateReader) uint() uint64 { return readVarint(s, binary.ReadUvarint) }
+// avail makes up to n bytes available at s.win[s.pos:] and returns how
+// many are.
+func (s *stateReader) avail(n int) int {
+	if len(s.win)-s.pos < n {
+		s.r.Discard(s.pos)
+		s.win, _ = s.r.Peek(s.r.Size())
+		if len(s.win) < n {
+			s.win, _ = s.r.Peek(len(s.win)) // all that is left
+		}
+		s.pos = 0
+	}
+	return len(s.win) - s.pos
+}
 
-func (s *stateReader) int() int64 { return readVarint(s, binary.ReadVarint) }
+// done consumes the decoded bytes from the underlying reader.
+func (s *stateReader) done() {
+	s.r.Discard(s.pos)
+	s.win, s.pos = nil, 0
+}
 
-// readVarint reads one varint with read, unless an error came before.
-func readVarint[T any](s *stateReader, read func(io.ByteReader) (T, error)) T {
-	var v T
+func (s *stateReader) uint() uint64 {
 	if s.err != nil {
-		return v
+		return 0
 	}
-	v, err := read(s.r)
-	if err != nil {
-		s.err = fmt.Errorf("cut short or damaged: %w", err)
+	s.avail(binary.MaxVarintLen64)
+	v, n := binary.Uvarint(s.win[s.pos:])
+	if n <= 0 {
+		s.err = errors.New("cut short or damaged")
+		return 0
 	}
+	s.pos += n
 	return v
+}
+
+func (s *stateReader) int() int64 {
+	u := s.uint()
+	return int64(u>>1) ^ -int64(u&1) // zigzag, as binary.PutVarint
 }
 
 func (s *stateReader) byte() byte {
 	if s.err != nil {
 		return 0
 	}
-	b, err := s.r.ReadByte()
-	if err != nil {
-		s.err = fmt.Errorf("cut short: %w", err)
+	if s.avail(1) < 1 {
+		s.err = errors.New("cut short")
+		return 0
 	}
-	return b
+	s.pos++
+	return s.win[s.pos-1]
 }
 
 func (s *stateReader) bool() bool { return s.byte() == 1 }
 
-// bytes returns the next length-prefixed field, in a buffer the next call
-// reuses.
+// bytes returns the next length-prefixed field; it is valid until the
+// next read.
 func (s *stateReader) bytes() []byte { return s.fixed(s.uint()) }
 
-// fixed returns the next n bytes, in a buffer the next call reuses.
+// fixed returns the next n bytes; they are valid until the next read.
 func (s *stateReader) fixed(n uint64) []byte {
 	if s.err != nil {
 		return nil
@@ -532,6 +594,15 @@ func (s *stateReader) fixed(n uint64) []byte {
 		s.fail()
 		return nil
 	}
+	if int(n) <= s.r.Size() {
+		if s.avail(int(n)) < int(n) {
+			s.err = errors.New("cut short")
+			return nil
+		}
+		s.pos += int(n)
+		return s.win[s.pos-int(n) : s.pos]
+	}
+	s.done()
 	s.buf = append(s.buf[:0], make([]byte, n)...)
 	if _, err := io.ReadFull(s.r, s.buf); err != nil {
 		s.err = fmt.Errorf("cut short: %w", err)

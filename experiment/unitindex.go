@@ -128,3 +128,11 @@ func (x *unitIndex) grow() {
 		}
 	}
 }
+
+// reserve sizes the table for n units in all, so that loading them
+// (a saved tally state) does not grow it step by step.
+func (x *unitIndex) reserve(n int) {
+	for 4*n > 3*len(x.slots) {
+		x.grow()
+	}
+}

@@ -36,12 +36,7 @@ func sources(in Input) ([]ingest.Source, error) {
 // lists the events the talliers use: the reader leaves out the rows of
 // other events and counts them (see ingest.Options.Events).
 func openReader(in Input, exps []Experiment, events []string, workers int) (recordReader, error) {
-	m := in.Mapping
-	if m.User == "" && m.TS == "" && m.Event == "" && m.Experiment == "" && m.Arm == "" {
-		def := ingest.DefaultMapping()
-		def.Segments, def.EpochUnit = m.Segments, m.EpochUnit
-		m = def
-	}
+	m := mapping(in)
 	if in.Records != nil {
 		name := in.RecordsName
 		if name == "" {
@@ -68,6 +63,18 @@ func openReader(in Input, exps []Experiment, events []string, workers int) (reco
 		return nil, &ConfigError{err}
 	}
 	return r, nil
+}
+
+// mapping returns the input's column mapping, ingest.DefaultMapping's
+// names when it names none of the five columns.
+func mapping(in Input) ingest.Mapping {
+	m := in.Mapping
+	if m.User == "" && m.TS == "" && m.Event == "" && m.Experiment == "" && m.Arm == "" {
+		def := ingest.DefaultMapping()
+		def.Segments, def.EpochUnit = m.Segments, m.EpochUnit
+		m = def
+	}
+	return m
 }
 
 // eventOptions are the reader options of an event log.

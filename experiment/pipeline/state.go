@@ -81,7 +81,7 @@ func definitionHash(in Input, exps []Experiment) (string, error) {
 		Delimiter   rune
 		MaxBadRows  int64
 		MaxBadShare float64
-	}{specs, in.Mapping, in.Delimiter, in.MaxBadRows, in.MaxBadShare})
+	}{specs, mapping(in), in.Delimiter, in.MaxBadRows, in.MaxBadShare})
 	if err != nil {
 		return "", err
 	}
@@ -105,10 +105,17 @@ func buildVersion() string {
 	return v
 }
 
-// manifest describes the sources as the state file records them.
-func manifest(srcs []ingest.Source) ([]fileEntry, error) {
+// manifest describes the sources as the state file records them: files
+// on disk by absolute path, so that a run from another folder finds them.
+func manifest(srcs []ingest.Source, onDisk bool) ([]fileEntry, error) {
 	out := make([]fileEntry, len(srcs))
 	for i, s := range srcs {
+		path := s.Name
+		if onDisk {
+			if abs, err := filepath.Abs(path); err == nil {
+				path = abs
+			}
+		}
 		size, mod, err := s.Stat()
 		if err != nil {
 			return nil, &DataError{err}
@@ -117,7 +124,7 @@ func manifest(srcs []ingest.Source) ([]fileEntry, error) {
 		if err != nil {
 			return nil, &DataError{err}
 		}
-		out[i] = fileEntry{path: s.Name, size: size, modTime: mod.UnixNano(), hash: h}
+		out[i] = fileEntry{path: path, size: size, modTime: mod.UnixNano(), hash: h}
 	}
 	return out, nil
 }
@@ -172,8 +179,8 @@ func planResume(path, def string, files []fileEntry, srcs []ingest.Source) (*sta
 		seen[fe.path] = true
 	}
 	var fresh []ingest.Source
-	for _, s := range srcs {
-		if !seen[s.Name] {
+	for i, s := range srcs {
+		if !seen[files[i].path] {
 			fresh = append(fresh, s)
 		}
 	}
@@ -371,7 +378,7 @@ func runWithState(ctx context.Context, in Input, exps []Experiment, opts Options
 	if err != nil {
 		return nil, err
 	}
-	files, err := manifest(srcs)
+	files, err := manifest(srcs, in.FS == nil)
 	if err != nil {
 		return nil, err
 	}
