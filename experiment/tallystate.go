@@ -9,6 +9,7 @@ import (
 	"io"
 	"math"
 	"slices"
+	"sync"
 	"unsafe"
 )
 
@@ -371,10 +372,13 @@ func (t *Tallier) readState(sr *stateReader) error {
 			pt.baseOut = slices.Grow(pt.baseOut, per*nm)
 		}
 	}
-	for i := uint64(0); i < units && sr.err == nil; i++ {
-		if err := t.readUnit(sr, arms); err != nil {
+	var g loadGroup
+	for i := uint64(0); i < units && sr.err == nil; {
+		n := int(min(units-i, loadGroupUnits))
+		if err := t.loadGroup(sr, &g, n, arms); err != nil {
 			return err
 		}
+		i += uint64(n)
 	}
 	if sr.str() != stateMagic {
 		return sr.fail()
@@ -387,53 +391,141 @@ func (t *Tallier) readState(sr *stateReader) error {
 	return sr.err
 }
 
-// readUnit loads one unit record.
-func (t *Tallier) readUnit(sr *stateReader, arms []int32) error {
-	nm := len(t.spec.Metrics)
-	key := sr.bytes()
-	h := maphash.Bytes(t.seed, key)
-	pt := t.parts[t.partOf(h)]
-	u, ok := pt.units.lookupHashed(unsafe.String(unsafe.SliceData(key), len(key)), h) // the index copies a new key
-	if ok || int(u) != len(pt.base) {
-		return fmt.Errorf("unit %q twice", key)
+// loadGroupUnits is the number of unit records decoded before they are
+// loaded, each partition's on its own goroutine.
+const loadGroupUnits = 8192
+
+// loadGroup holds decoded unit records until they are loaded; the bytes
+// of their keys and segment values are copied into data.
+type loadGroup struct {
+	units []pendingUnit
+	data  []byte
+	segs  [][]byte // dims per unit; nil for null
+	conv  []bool   // nm per unit
+	out   []int32  // nm per unit
+	byPt  [][]int32
+}
+
+// pendingUnit is one decoded unit record.
+type pendingUnit struct {
+	key    []byte // in a loadGroup's data (an earlier array of it when data grew)
+	h      uint64
+	t0     int64
+	arm    int32
+	b      baseUnit
+	hasOut bool
+	// Where its segment values, conversions and counts start in the
+	// group's segs, conv and out.
+	segAt, convAt, outAt int
+}
+
+// loadGroup decodes the next n unit records, then loads each partition's
+// share of them on its own goroutine.
+func (t *Tallier) loadGroup(sr *stateReader, g *loadGroup, n int, arms []int32) error {
+	nm, dims := len(t.spec.Metrics), len(t.spec.Segments)
+	g.units, g.data, g.segs, g.conv, g.out = g.units[:0], g.data[:0], g.segs[:0], g.conv[:0], g.out[:0]
+	if len(g.byPt) != len(t.parts) {
+		g.byPt = make([][]int32, len(t.parts))
 	}
-	pt.addUnit()
-	flags := sr.byte()
-	var b baseUnit
-	b.flags = flags
-	if flags&baseExposed == 0 {
-		b.before, b.latest = int32(sr.uint()), sr.int()
-		pt.base = append(pt.base, b)
-		pt.baseConv = append(pt.baseConv, make([]bool, nm)...)
-		pt.baseOut = append(pt.baseOut, make([]int32, nm)...)
+	for p := range g.byPt {
+		g.byPt[p] = g.byPt[p][:0]
+	}
+	for i := 0; i < n && sr.err == nil; i++ {
+		pu := pendingUnit{segAt: len(g.segs), convAt: len(g.conv), outAt: len(g.out)}
+		key := sr.bytes()
+		at := len(g.data)
+		g.data = append(g.data, key...)
+		pu.key = g.data[at:len(g.data):len(g.data)]
+		pu.h = maphash.Bytes(t.seed, key)
+		pu.b.flags = sr.byte()
+		if pu.b.flags&baseExposed == 0 {
+			pu.b.before, pu.b.latest = int32(sr.uint()), sr.int()
+		} else {
+			pu.t0 = sr.int()
+			arm := sr.uint()
+			if arm >= uint64(len(arms)) {
+				return sr.fail()
+			}
+			pu.arm = arms[arm]
+			for range dims {
+				var v []byte
+				if l := sr.uint(); l > 0 {
+					at := len(g.data)
+					g.data = append(g.data, sr.fixed(l-1)...)
+					v = g.data[at:len(g.data):len(g.data)]
+				}
+				g.segs = append(g.segs, v)
+			}
+			conv := sr.bytes()
+			for m := 0; m < nm; m++ {
+				g.conv = append(g.conv, len(conv) > m/8 && conv[m/8]&(1<<(m%8)) != 0)
+			}
+			if pu.hasOut = len(conv) > 0; pu.hasOut {
+				pu.b.before, pu.b.in = int32(sr.uint()), int32(sr.uint())
+				for m := 0; m < nm; m++ {
+					g.out = append(g.out, int32(sr.uint()))
+				}
+			}
+		}
+		p := t.partOf(pu.h)
+		g.byPt[p] = append(g.byPt[p], int32(len(g.units)))
+		g.units = append(g.units, pu)
+	}
+	if sr.err != nil {
 		return sr.err
 	}
-	t0, arm := sr.int(), sr.uint()
-	if arm >= uint64(len(arms)) {
-		return sr.fail()
-	}
-	a := arms[arm]
-	*pt.state.at(int(u)) = unitState{t0: t0, armAtT0: a, firstArm: a, tied: flags&baseTied != 0, multi: flags&baseMulti != 0}
-	for d := range pt.dims {
-		if n := sr.uint(); n > 0 {
-			v := sr.fixed(n - 1)
-			pt.segs[int(u)*pt.dims+d] = pt.internSeg(d, unsafe.String(unsafe.SliceData(v), len(v))) // interned as a copy
+	errs := make([]error, len(t.parts))
+	var wg sync.WaitGroup
+	for p := range t.parts {
+		if len(g.byPt[p]) > 0 {
+			wg.Go(func() { errs[p] = t.loadPart(p, g) })
 		}
 	}
-	conv := sr.bytes()
-	for m := 0; m < nm; m++ {
-		pt.baseConv = append(pt.baseConv, len(conv) > m/8 && conv[m/8]&(1<<(m%8)) != 0)
+	wg.Wait()
+	return errors.Join(errs...)
+}
+
+// loadPart loads the units of a group that fall in partition p.
+func (t *Tallier) loadPart(p int, g *loadGroup) error {
+	pt := t.parts[p]
+	nm := len(t.spec.Metrics)
+	idx := g.byPt[p]
+	var sink uint64
+	for _, i := range idx {
+		sink += pt.units.touch(g.units[i].h)
 	}
-	if len(conv) > 0 {
-		b.before, b.in = int32(sr.uint()), int32(sr.uint())
-		for m := 0; m < nm; m++ {
-			pt.baseOut = append(pt.baseOut, int32(sr.uint()))
+	pt.sink += sink
+	for _, i := range idx {
+		pu := &g.units[i]
+		u, ok := pt.units.lookupHashed(unsafe.String(unsafe.SliceData(pu.key), len(pu.key)), pu.h) // the index copies a new key
+		if ok || int(u) != len(pt.base) {
+			return fmt.Errorf("unit %q twice", pu.key)
 		}
-	} else {
-		pt.baseOut = append(pt.baseOut, make([]int32, nm)...)
+		pt.addUnit()
+		segAt, convAt, outAt := pu.segAt, pu.convAt, pu.outAt
+		b := pu.b
+		if b.flags&baseExposed == 0 {
+			pt.base = append(pt.base, b)
+			pt.baseConv = append(pt.baseConv, make([]bool, nm)...)
+			pt.baseOut = append(pt.baseOut, make([]int32, nm)...)
+			continue
+		}
+		*pt.state.at(int(u)) = unitState{t0: pu.t0, armAtT0: pu.arm, firstArm: pu.arm,
+			tied: b.flags&baseTied != 0, multi: b.flags&baseMulti != 0}
+		for d := 0; d < pt.dims; d++ {
+			if v := g.segs[segAt+d]; v != nil {
+				pt.segs[int(u)*pt.dims+d] = pt.internSeg(d, unsafe.String(unsafe.SliceData(v), len(v))) // interned as a copy
+			}
+		}
+		pt.baseConv = append(pt.baseConv, g.conv[convAt:convAt+nm]...)
+		if pu.hasOut {
+			pt.baseOut = append(pt.baseOut, g.out[outAt:outAt+nm]...)
+		} else {
+			pt.baseOut = append(pt.baseOut, make([]int32, nm)...)
+		}
+		pt.base = append(pt.base, b)
 	}
-	pt.base = append(pt.base, b)
-	return sr.err
+	return nil
 }
 
 // stateWriter writes the fields of a saved state: unsigned and signed
