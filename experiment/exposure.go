@@ -105,7 +105,11 @@ func (x *exposures) segValue(d int, col *array.String, i int) int32 {
 	if !col.IsValid(i) {
 		return segNull
 	}
-	s := col.Value(i)
+	return x.internSeg(d, col.Value(i))
+}
+
+// internSeg interns value s of dimension d.
+func (x *exposures) internSeg(d int, s string) int32 {
 	if v, ok := x.segIndex[d][s]; ok {
 		return v
 	}

@@ -181,6 +181,15 @@ type tallyPart struct {
 	exposures
 	events chunked[metricEvent]
 	sink   uint64 // see unitIndex.touch
+
+	// A resumed tally (tallystate.go): units 0 to len(base)-1 come from
+	// the saved state, with their conversions (baseConv) and counts
+	// past the attribution window (baseOut), nm per unit. stale says
+	// why the new rows cannot be merged exactly, or "".
+	base     []baseUnit
+	baseConv []bool
+	baseOut  []int32
+	stale    string
 }
 
 // finished is the result of attributing the metric events to units.
@@ -189,6 +198,8 @@ type finished struct {
 	// metric m.
 	converted [][]bool
 	diag      TallyDiagnostics
+	// stale is a resumed tally that cannot be exact (*StaleStateError).
+	stale error
 }
 
 const (
@@ -426,6 +437,9 @@ func (t *Tallier) addPart(p int, users *array.String, ts []arrow.Timestamp, segs
 			i := int(r)
 			u := pt.unitHashed(users.Value(i), t.rowHash[i])
 			if kind := t.rowKind[i]; kind == kindExposure {
+				if int(u) < len(pt.base) {
+					pt.checkBaseExposure(u, t.rowArm[i], int64(ts[i]))
+				}
 				pt.expose(u, t.rowArm[i], int64(ts[i]), segs, i)
 			} else {
 				pt.events.add(metricEvent{unit: u, event: kind, ts: int64(ts[i])})
@@ -545,7 +559,7 @@ func (t *Tallier) finish() *finished {
 	f := &finished{diag: t.diag}
 	d := &f.diag
 	d.OutsideAttribution = append([]int64(nil), t.diag.OutsideAttribution...)
-	for _, pt := range t.parts {
+	for p, pt := range t.parts {
 		converted := make([]bool, pt.state.len()*nm)
 		f.converted = append(f.converted, converted)
 		for j := range pt.events.len() {
@@ -570,6 +584,11 @@ func (t *Tallier) finish() *finished {
 					continue
 				}
 				converted[int(e.unit)*nm+m] = true
+			}
+		}
+		if len(pt.base) > 0 || pt.stale != "" {
+			if err := t.finishBase(p, converted, d); err != nil && f.stale == nil {
+				f.stale = err
 			}
 		}
 	}
@@ -607,6 +626,9 @@ func (t *Tallier) Units() (iter.Seq[UnitRecord], error) {
 		return nil, err
 	}
 	f := t.finish()
+	if f.stale != nil {
+		return nil, f.stale
+	}
 	// Each partition's units sorted, then merged: keys are unique
 	// across partitions.
 	type cursor struct {
@@ -651,6 +673,9 @@ func (t *Tallier) Tally() (Tally, error) {
 		return Tally{}, err
 	}
 	f := t.finish()
+	if f.stale != nil {
+		return Tally{}, f.stale
+	}
 	acc, err := NewAccumulator(t.spec)
 	if err != nil {
 		return Tally{}, err

@@ -116,15 +116,31 @@ func (x *unitIndex) place(s uint64) {
 	x.slots[i] = s
 }
 
-// grow doubles the table; the stored hash bits place each slot again
-// without reading its key.
-func (x *unitIndex) grow() {
+// grow doubles the table.
+func (x *unitIndex) grow() { x.resize(2 * len(x.slots)) }
+
+// resize makes the table size slots long (a power of two, more than
+// the units); the stored hash bits place each slot again without reading
+// its key.
+func (x *unitIndex) resize(size int) {
 	old := x.slots
-	x.slots = make([]uint64, 2*len(old))
-	x.mask = uint32(len(x.slots) - 1)
+	x.slots = make([]uint64, size)
+	x.mask = uint32(size - 1)
 	for _, s := range old {
 		if s != 0 {
 			x.place(s)
 		}
+	}
+}
+
+// reserve sizes the table for n units in all, so that loading them
+// (a saved tally state) does not grow it step by step.
+func (x *unitIndex) reserve(n int) {
+	size := len(x.slots)
+	for 4*n > 3*size {
+		size *= 2
+	}
+	if size != len(x.slots) {
+		x.resize(size)
 	}
 }

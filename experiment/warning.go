@@ -45,6 +45,10 @@ const (
 	// guardrail test is not justified, and it has no exact fallback
 	// [MinCount].
 	WarnNonInferiorityNoFallback
+	// WarnStateRecomputed: the run was to add new files to a saved tally
+	// state, which could not be used, so every file was read again
+	// [Reason].
+	WarnStateRecomputed
 	// warnEnd is one past the last code.
 	warnEnd
 )
@@ -64,6 +68,8 @@ type Warning struct {
 	Expected float64
 	// MinCount is the minimum count of the normal-approximation rule.
 	MinCount int64
+	// Reason says why a saved state was not used.
+	Reason string
 }
 
 // openWindowWarnings returns the readout-wide warnings about an analysis

@@ -49,19 +49,11 @@ func OpenCSV(src Source, delimiter rune) (*CSVFile, error) {
 // (a gzip.Reader holds nothing else to close).
 func openCSV(name string, o *openedSource, delimiter rune) (*CSVFile, error) {
 	f := &CSVFile{name: name, src: o}
-	var in io.Reader = io.NewSectionReader(o.r, 0, o.size)
-	var magic [2]byte
-	if n, _ := o.r.ReadAt(magic[:], 0); n == len(magic) && magic == gzipMagic {
-		gz, err := gzip.NewReader(in)
-		if err != nil {
-			return nil, fmt.Errorf("%s: gzip: %w", name, err)
-		}
-		f.gz, in = gz, gz
+	br, gz, err := openCSVStream(name, o)
+	if err != nil {
+		return nil, err
 	}
-	br := bufio.NewReaderSize(in, 64<<10)
-	if b, err := br.Peek(len(utf8BOM)); err == nil && string(b) == string(utf8BOM) {
-		br.Discard(len(utf8BOM))
-	}
+	f.gz = gz
 	f.cr = csv.NewReader(br)
 	if delimiter != 0 {
 		f.cr.Comma = delimiter
@@ -77,6 +69,26 @@ func openCSV(name string, o *openedSource, delimiter rune) (*CSVFile, error) {
 	f.header = header
 	f.cr.ReuseRecord = true // after the header, which is kept
 	return f, nil
+}
+
+// openCSVStream returns the bytes of an opened CSV source: decompressed
+// when they start with gzip's magic number, without a leading UTF-8
+// byte-order mark. gz is the gzip reader, or nil.
+func openCSVStream(name string, o *openedSource) (br *bufio.Reader, gz *gzip.Reader, err error) {
+	var in io.Reader = io.NewSectionReader(o.r, 0, o.size)
+	var magic [2]byte
+	if n, _ := o.r.ReadAt(magic[:], 0); n == len(magic) && magic == gzipMagic {
+		gz, err = gzip.NewReader(in)
+		if err != nil {
+			return nil, nil, fmt.Errorf("%s: gzip: %w", name, err)
+		}
+		in = gz
+	}
+	br = bufio.NewReaderSize(in, 64<<10)
+	if b, err := br.Peek(len(utf8BOM)); err == nil && string(b) == string(utf8BOM) {
+		br.Discard(len(utf8BOM))
+	}
+	return br, gz, nil
 }
 
 // Header returns the header row; the slice is the file's.
@@ -106,14 +118,18 @@ func (f *CSVFile) Line(i int) int {
 
 // column returns the position of name in the header, or -1 when it is not
 // there, and a *ColumnError when the header names it twice.
-func (f *CSVFile) column(name string) (int, error) {
+func (f *CSVFile) column(name string) (int, error) { return headerColumn(f.name, f.header, name) }
+
+// headerColumn returns the position of name in the header of file, or -1
+// when it is not there, and a *ColumnError when the header names it twice.
+func headerColumn(file string, header []string, name string) (int, error) {
 	at := -1
-	for j, h := range f.header {
+	for j, h := range header {
 		if h != name {
 			continue
 		}
 		if at >= 0 {
-			return -1, &ColumnError{File: f.name, Column: name, Err: ErrColumnType,
+			return -1, &ColumnError{File: file, Column: name, Err: ErrColumnType,
 				Detail: "the header names it more than once"}
 		}
 		at = j

@@ -12,7 +12,9 @@ import (
 // properties: it never panics or hangs (each input must finish within 10 s);
 // every error names the file and is a *RowError, a *ColumnError, a
 // *csv.ParseError or the empty-file error; without an error (and with the
-// budget) every row read is either delivered or counted as bad; and no
+// budget) every row read is either delivered or counted as bad; the
+// parallel path gives the same rows, counts and errors as one encoding/csv
+// reader; and no
 // Arrow buffer is left allocated (readAll's checked allocator).
 func FuzzCSVReader(f *testing.F) {
 	// Seeds: testdata/fuzz/FuzzCSVReader, which go test runs too.
@@ -43,6 +45,9 @@ func FuzzCSVReader(f *testing.F) {
 				t.Fatalf("strict read ended cleanly with %d bad rows", bad)
 			}
 		}
+		// The parallel path agrees with one encoding/csv reader.
+		compareCSVPathsWith(t, "f.csv", data, Options{Mapping: m, ExposureEvent: "exposure", Delimiter: delim, MaxBadRows: NoLimit, BatchSize: 7},
+			[]int{3}, []int{1, 13})
 	})
 }
 

@@ -4,7 +4,6 @@ import (
 	"errors"
 	"fmt"
 	"io"
-	"sync"
 	"unsafe"
 
 	"github.com/apache/arrow-go/v18/arrow"
@@ -70,55 +69,25 @@ func (res *rgResult) release() {
 
 // pipeline runs the workers of one file.
 type pipeline struct {
-	futures chan chan rgResult // one per row group, in file order
-	stop    chan struct{}
-	wg      sync.WaitGroup
-	cur     rgResult // the row group being handed on
-	base    int64    // accounting.rowsRead when the file's first batch was asked for
+	o       *ordered[rgResult] // a task per row group
+	cur     rgResult           // the row group being handed on
+	base    int64              // accounting.rowsRead when the file's first batch was asked for
 	baseSet bool
-}
-
-type rgTask struct {
-	rg  int
-	out chan rgResult
 }
 
 // startPipeline starts the dispatcher and the workers.
 func (r *parquetReader) startPipeline(workers int, budget bool) {
 	n := len(r.rowGroups)
 	workers = max(1, min(workers, n))
-	pl := &pipeline{futures: make(chan chan rgResult, 2*workers), stop: make(chan struct{})}
-	r.pl = pl
-	tasks := make(chan rgTask)
-	pl.wg.Add(1 + workers)
-	go func() {
-		defer pl.wg.Done()
-		defer close(tasks)
-		defer close(pl.futures)
-		for rg := 0; rg < n; rg++ {
-			out := make(chan rgResult, 1)
-			select {
-			case pl.futures <- out:
-			case <-pl.stop:
-				return
+	r.pl = &pipeline{o: startOrdered(workers,
+		func(emit func(int) bool) {
+			for rg := 0; rg < n && emit(rg); rg++ {
 			}
-			select {
-			case tasks <- rgTask{rg: rg, out: out}:
-			case <-pl.stop:
-				return
-			}
-		}
-	}()
-	for w := 0; w < workers; w++ {
-		go func() {
-			defer pl.wg.Done()
-			wk := r.newWorker(budget, pl.stop)
-			defer wk.close()
-			for t := range tasks {
-				t.out <- wk.run(t.rg)
-			}
-		}()
-	}
+		},
+		func(stop <-chan struct{}) (func(int) rgResult, func()) {
+			wk := r.newWorker(budget, stop)
+			return wk.run, wk.close
+		})}
 }
 
 // stopPipeline stops the workers and releases what they made.
@@ -128,17 +97,12 @@ func (r *parquetReader) stopPipeline() {
 		return
 	}
 	r.pl = nil
-	close(pl.stop)
-	pl.wg.Wait()
+	pl.o.close(func(res rgResult) { res.release() })
 	pl.cur.release()
-	for out := range pl.futures {
-		select {
-		case res := <-out:
-			res.release()
-		default:
-		}
-	}
 }
+
+// batched reports whether the file is read by the bulk path.
+func (r *parquetReader) batched() bool { return r.bulk }
 
 // nextBatch returns the next record batch of the file in order, or io.EOF
 // after the last. It counts rows and bad rows in a as the row-by-row
@@ -157,13 +121,12 @@ func (r *parquetReader) nextBatch(workers int, a *accounting) (rec arrow.RecordB
 		pl.base, pl.baseSet = a.rowsRead, true
 	}
 	for len(pl.cur.recs) == 0 {
-		out, ok := <-pl.futures
+		res, ok := pl.o.next()
 		if !ok {
 			r.plDone = true
 			r.stopPipeline()
 			return nil, io.EOF
 		}
-		res := <-out
 		pl.cur = res
 		for _, b := range res.bad {
 			a.rowsRead = pl.base + b.row

@@ -99,9 +99,13 @@ type Options struct {
 	MaxBadRows  int64
 	MaxBadShare float64
 
-	// rowByRow makes Parquet files be read row by row on one goroutine,
-	// for tests that compare the two paths.
+	// rowByRow makes Parquet files be read row by row and CSV files by
+	// one encoding/csv reader, on one goroutine, for tests that compare
+	// the paths.
 	rowByRow bool
+	// csvChunk is the size of the chunks of the parallel CSV path; 0
+	// means defaultCSVChunk. Tests make it small.
+	csvChunk int
 }
 
 // DefaultBatchSize is the number of rows per record batch when
@@ -169,6 +173,16 @@ type Reader struct {
 	// readAhead), each with the error opening it, reported when the
 	// reader reaches it.
 	ahead []openedFile
+}
+
+// workerBatches is a fileReader whose workers make the record batches
+// (the Parquet bulk path, the parallel CSV path).
+type workerBatches interface {
+	// batched reports whether this file is read so, by nextBatch.
+	batched() bool
+	// nextBatch returns the file's next batch in order, or io.EOF
+	// after the last, counting its rows and bad rows in a.
+	nextBatch(workers int, a *accounting) (arrow.RecordBatch, error)
 }
 
 // openedFile is a source opened ahead, or the error opening it.
@@ -267,8 +281,8 @@ func (r *Reader) Next() bool {
 			r.acct.files++
 			r.cur = fr
 		}
-		if pr, ok := r.cur.(*parquetReader); ok && pr.bulk {
-			rec, err := pr.nextBatch(r.workers, &r.acct)
+		if br, ok := r.cur.(workerBatches); ok && br.batched() {
+			rec, err := br.nextBatch(r.workers, &r.acct)
 			if err == nil || err == io.EOF {
 				r.readAhead()
 			}
@@ -370,6 +384,9 @@ func (r *Reader) open(src Source) (fileReader, error) {
 	fr, err := openFile(src, r.plan)
 	if pr, ok := fr.(*parquetReader); ok && err == nil {
 		pr.mem, pr.batchSize = r.mem, r.batchSize
+	}
+	if cr, ok := fr.(*csvReader); ok && err == nil {
+		cr.mem, cr.batchSize = r.mem, r.batchSize
 	}
 	return fr, err
 }
@@ -539,8 +556,9 @@ type plan struct {
 	planned *plannedArms
 	// events is the set of Options.Events; nil keeps every event.
 	events *nameSet
-	// rowByRow is Options.rowByRow.
+	// rowByRow and csvChunk are Options.rowByRow and csvChunk.
 	rowByRow bool
+	csvChunk int
 }
 
 // keep reports whether a valid row goes into the batches: its event is
@@ -556,7 +574,11 @@ func newPlan(opts Options) (*plan, error) {
 			return nil, fmt.Errorf("column mapping: no column named for %s", c.name)
 		}
 	}
-	p := &plan{expCol: -1, armCol: -1, exposure: opts.ExposureEvent, delimiter: ',', rowByRow: opts.rowByRow}
+	p := &plan{expCol: -1, armCol: -1, exposure: opts.ExposureEvent, delimiter: ',', rowByRow: opts.rowByRow,
+		csvChunk: opts.csvChunk}
+	if p.csvChunk <= 0 {
+		p.csvChunk = defaultCSVChunk
+	}
 	if len(opts.PlannedArms) > 0 {
 		if p.exposure == "" {
 			return nil, errors.New("planned arms need the exposure event")
@@ -741,4 +763,38 @@ func (pc *partitionCols) fill(r *row) {
 	if pc.from[colTS] {
 		r.ts, r.tsErr = pc.ts, pc.tsErr
 	}
+}
+
+// MergeStats returns the counts of two reads of different sources
+// together (a resumed run's saved counts and its new files'): every count
+// summed, the larger FilteredMaxTS, bad rows by reason in the order of
+// the reasons, and the first example of each reason from a when it has
+// one, else from b.
+func MergeStats(a, b Stats) Stats {
+	out := Stats{Files: a.Files + b.Files, RowsRead: a.RowsRead + b.RowsRead, Rows: a.Rows + b.Rows,
+		Filtered: a.Filtered + b.Filtered}
+	var fc filterCount
+	fc.merge(filterCount{n: a.Filtered, maxTS: a.FilteredMaxTS})
+	fc.merge(filterCount{n: b.Filtered, maxTS: b.FilteredMaxTS})
+	out.FilteredMaxTS = fc.maxTS
+	for i := 0; i < numReasons; i++ {
+		reason, _ := reasonOf(i)
+		var n int64
+		var ex *RowError
+		for _, s := range []Stats{b, a} {
+			for j, c := range s.BadRows {
+				if c.Reason == reason {
+					n += c.Count
+					if j < len(s.BadRowExamples) {
+						ex = s.BadRowExamples[j]
+					}
+				}
+			}
+		}
+		if n > 0 {
+			out.BadRows = append(out.BadRows, BadRowCount{Reason: reason, Count: n})
+			out.BadRowExamples = append(out.BadRowExamples, ex)
+		}
+	}
+	return out
 }

@@ -12,6 +12,7 @@ import (
 	"path/filepath"
 	"sort"
 	"strings"
+	"time"
 	"unicode/utf8"
 )
 
@@ -381,6 +382,25 @@ func (s Source) partitionKeys() []string {
 		keys[i] = p.Key
 	}
 	return keys
+}
+
+// Stat returns the size and modification time of the source: of the file
+// on disk or in its fs.FS; in-memory data has a zero time. Errors name the
+// file.
+func (s Source) Stat() (size int64, modTime time.Time, err error) {
+	if s.inMem {
+		return int64(len(s.data)), time.Time{}, nil
+	}
+	var info fs.FileInfo
+	if s.fsys != nil {
+		info, err = fs.Stat(s.fsys, s.Name)
+	} else {
+		info, err = os.Stat(s.Name)
+	}
+	if err != nil {
+		return 0, time.Time{}, err // *fs.PathError names the file
+	}
+	return info.Size(), info.ModTime(), nil
 }
 
 // Open opens the source for reading: r reads its bytes, of which there are

@@ -39,6 +39,8 @@ func warningText(w experiment.Warning) string {
 		return "non-inferiority z statistic undefined: the estimated variance is 0; reported as z = 0, p = 1"
 	case experiment.WarnNonInferiorityNoFallback:
 		return fmt.Sprintf("normal approximation not justified (fewer than %d conversions or non-conversions in an arm); the non-inferiority test has no exact fallback", w.MinCount)
+	case experiment.WarnStateRecomputed:
+		return "every file was read again instead of only the new ones: " + w.Reason
 	}
 	return fmt.Sprintf("warning %d", int(w.Code))
 }

@@ -45,6 +45,8 @@ func TestWarningTexts(t *testing.T) {
 			"non-inferiority z statistic undefined: the estimated variance is 0; reported as z = 0, p = 1"},
 		{experiment.Warning{Code: experiment.WarnNonInferiorityNoFallback, MinCount: 5},
 			"normal approximation not justified (fewer than 5 conversions or non-conversions in an arm); the non-inferiority test has no exact fallback"},
+		{experiment.Warning{Code: experiment.WarnStateRecomputed, Reason: "file dt=2026-11-03/part-0.parquet changed since it was read"},
+			"every file was read again instead of only the new ones: file dt=2026-11-03/part-0.parquet changed since it was read"},
 	}
 	seen := map[experiment.WarningCode]bool{}
 	for _, tc := range tests {

@@ -126,6 +126,7 @@ type analyzeFlags struct {
 	chart                 string
 	noProgress            bool
 	memoryLimit, spillDir string
+	state                 string
 	maxSpecSize           string
 	warehouse             warehouseFlags
 	monitor               *monitorFlags
@@ -170,6 +171,7 @@ func newAnalyzeFlagSet(f *analyzeFlags, stderr io.Writer) *pflag.FlagSet {
 	fs.BoolVar(&f.exitOnDecision, "exit-on-decision", false, "exit with code 6 when the decision is ship and 7 when it is stop (wait and fix_data exit 0)")
 	fs.StringVar(&f.memoryLimit, "memory-limit", "", "keep the per-unit state of an event log under about this size (such as 800MB or 2GiB): the rows go to disk in hash partitions of the units, tallied a group at a time and merged; no --audit")
 	fs.StringVar(&f.spillDir, "spill-dir", "", "folder for the partition files of --memory-limit (default: the system's temporary folder)")
+	fs.StringVar(&f.state, "state", "", "keep the tally of an event log in this state file: the next run with it reads only the files not read before and gives the readout of reading them all; it reads every file again, and says why, when one read before changed or is gone, the run's definition changed, or new rows are older than the state can take")
 	fs.BoolVar(&f.noProgress, "no-progress", false, "do not show the rows read, rate and elapsed time on stderr while reading (shown only when stderr is a terminal, and not for unit or counts tables)")
 	f.mapping = defineMappingFlags(fs)
 	f.tables = defineTableFlags(fs)
@@ -232,6 +234,8 @@ type analyzeRun struct {
 	// monitor is the nightly monitoring of --sequential, --history,
 	// --as-of and --max-staleness (monitor.go).
 	monitor *monitorRun
+	// state is the state file of an incremental run (--state), or "".
+	state string
 }
 
 // builtExperiment is one experiment of a run, checked.
@@ -305,6 +309,7 @@ func parseAnalyzeRun(args []string, stdout, stderr io.Writer) (*analyzeRun, erro
 	if err := applyMemoryLimit(&f, run); err != nil {
 		return nil, err
 	}
+	run.state = f.state
 	if ok, err := applyWarehouse(fs, &f, run); ok || err != nil {
 		return run, err
 	}
@@ -737,7 +742,7 @@ func pipelineInput(run *analyzeRun) (pipeline.Input, []pipeline.Experiment) {
 // analyze runs the pipeline over the run's input and experiments.
 func analyze(ctx context.Context, run *analyzeRun) (*pipeline.Result, error) {
 	in, exps := pipelineInput(run)
-	opts := pipeline.Options{MemoryLimit: run.memoryLimit, SpillDir: run.spillDir, KeepUnits: run.audit != ""}
+	opts := pipeline.Options{MemoryLimit: run.memoryLimit, SpillDir: run.spillDir, KeepUnits: run.audit != "", State: run.state}
 	if run.progress && run.stderr != nil {
 		opts.Progress = func(rows func() int64) func() {
 			return startProgress(run.stderr, rows, progressInterval, time.Now)
@@ -766,6 +771,9 @@ func analyze(ctx context.Context, run *analyzeRun) (*pipeline.Result, error) {
 		return nil, fmt.Errorf("analyze: --memory-limit: %w", se.Err)
 	case err != nil:
 		return nil, fmt.Errorf("analyze: %w", err)
+	}
+	if st := res.State; st != nil && st.Recomputed && run.stderr != nil {
+		fmt.Fprintf(run.stderr, "armtally: --state: read every file again: %s\n", st.Reason)
 	}
 	return res, nil
 }

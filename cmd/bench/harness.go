@@ -34,6 +34,12 @@ type harnessFlags struct {
 	out         string
 	armtallySrc string
 	rev         string
+	// incremental runs the nightly case over a partitioned export of
+	// incrementalUsers units; csvLargeUsers, when positive, adds a second
+	// CSV log of that many units.
+	incremental      bool
+	incrementalUsers int
+	csvLargeUsers    int
 }
 
 // scenario is one log that armtally and DuckDB both analyse.
@@ -82,6 +88,7 @@ type benchReport struct {
 	ProfileTop  string
 	ProfileCum  string
 	ProfileNote string
+	Incremental *incrementalResult
 	DecodeLoad  [2]string // load averages before and after the decode runs
 	BenchCmd    string
 	Started     time.Time
@@ -110,6 +117,9 @@ func runHarness(args []string, stdout, stderr io.Writer) error {
 	fs.BoolVar(&f.scaling, "scaling", true, "also run the 2x-events and 1/10-size logs")
 	fs.BoolVar(&f.decode, "decode", true, "also compare the Parquet decode paths on the main log")
 	fs.BoolVar(&f.profile, "profile", true, "also profile armtally's analysis of the main log")
+	fs.BoolVar(&f.incremental, "incremental", true, "also time the nightly run of the last day of a partitioned export against a full run")
+	fs.IntVar(&f.incrementalUsers, "incremental-users", 0, "exposed units of the partitioned export (0: --users)")
+	fs.IntVar(&f.csvLargeUsers, "csv-large-users", 0, "exposed units of a second, larger CSV log (0: none)")
 	fs.StringVar(&f.out, "out", "BENCHMARKS.md", "Markdown file whose generated part is rewritten (created when missing)")
 	fs.StringVar(&f.armtallySrc, "repo", "../..", "armtally's repository, where ./cmd/armtally is built")
 	fs.StringVar(&f.rev, "rev", "HEAD", "commit of --repo to build armtally from (exported with git archive); \"\" builds the working tree")
@@ -121,6 +131,9 @@ func runHarness(args []string, stdout, stderr io.Writer) error {
 	}
 	if f.decodeRuns == 0 {
 		f.decodeRuns = f.runs
+	}
+	if f.incrementalUsers == 0 {
+		f.incrementalUsers = f.users
 	}
 	if f.runs < 1 || f.users < 10 || f.csvUsers < 10 {
 		return fmt.Errorf("run: --runs must be at least 1 and --users, --csv-users at least 10")
@@ -154,6 +167,9 @@ func runHarness(args []string, stdout, stderr io.Writer) error {
 		{Name: "parquet", Desc: "main log, snappy Parquet", Spec: logSpec{Users: f.users, Noise: f.noise, Seed: f.seed, Format: "parquet"}, Runs: f.runs, Scan: true},
 		{Name: "csv", Desc: "CSV log", Spec: logSpec{Users: f.csvUsers, Noise: f.noise, Seed: f.seed, Format: "csv"}, Runs: f.runs, Scan: true},
 	}
+	if f.csvLargeUsers > 0 {
+		scenarios = append(scenarios, &scenario{Name: "csv-large", Desc: "larger CSV log", Spec: logSpec{Users: f.csvLargeUsers, Noise: f.noise, Seed: f.seed, Format: "csv"}, Runs: f.runs})
+	}
 	if f.scaling {
 		scenarios = append(scenarios,
 			&scenario{Name: "parquet-2x-events", Desc: "same units, about 2x the events", Spec: logSpec{Users: f.users, Noise: f.noise2x, Seed: f.seed, Format: "parquet"}, Runs: f.scalingRuns},
@@ -175,6 +191,15 @@ func runHarness(args []string, stdout, stderr io.Writer) error {
 		rep.Scenarios = append(rep.Scenarios, sc)
 	}
 
+	if f.incremental {
+		folder, info, err := ensurePartitioned(f.dir, logSpec{Users: f.incrementalUsers, Noise: f.noise, Seed: f.seed, Format: "parquet"}, stderr)
+		if err != nil {
+			return fmt.Errorf("run: %w", err)
+		}
+		if rep.Incremental, err = measureIncremental(folder, info, bin, self, f, a, logf); err != nil {
+			return fmt.Errorf("run: incremental: %w", err)
+		}
+	}
 	mainLog := scenarios[0]
 	if f.decode {
 		rep.DecodeFile = mainLog.path
@@ -213,7 +238,7 @@ func measureScenario(sc *scenario, bin, self string, f harnessFlags, a analysis,
 	jsonPath := filepath.Join(f.dir, "readout.json")
 	mdPath := filepath.Join(f.dir, "readout.md")
 	armArgs := a.armtallyArgs(sc.path, jsonPath, mdPath)
-	duckArgs := []string{"duckdb-query", "--file", sc.path, "--format", sc.Spec.Format, "--query", "analyze", "--threads", fmt.Sprint(f.threads)}
+	duckArgs := []string{"duckdb-query", "--file", sc.path, "--format", sc.Spec.Format, "--query", "analyze-1pass", "--threads", fmt.Sprint(f.threads)}
 	scanArgs := []string{"duckdb-query", "--file", sc.path, "--format", sc.Spec.Format, "--query", "scan", "--threads", fmt.Sprint(f.threads)}
 
 	runArmtally := func() (sample, counts, error) {

@@ -81,7 +81,7 @@ func renderReport(rep *benchReport) string {
 	p("**What runs.** Each timed command is a child process; run under GNU time (`/usr/bin/time -f '%%M %%U %%S'`), which gives its peak resident memory (the child's `ru_maxrss`) and CPU time; the wall time is measured around it. ")
 	p("The tables show medians over the runs (the runs of armtally and DuckDB interleaved), ratios of medians, and the range of wall times.\n\n")
 	p("- armtally: `armtally %s` (the JSON readout is read back for the check; the Markdown goes to a file).\n", strings.Join(rep.ArmtallyCmd, " "))
-	p("- DuckDB: `bench duckdb-query --file FILE --format parquet|csv --query analyze --threads %d`: an in-memory DuckDB with `SET threads = %d` runs the SQL of `cmd/armtally/testdata/crosscheck/crosscheck.mjs` (ported to Go, `duckdb.go`): a unit table (t0, arm at t0, distinct arms) from the in-window exposures, then the per-arm join of single-arm units with the metric's events.\n", f.threads, f.threads)
+	p("- DuckDB: `bench duckdb-query --file FILE --format parquet|csv --query analyze-1pass --threads %d`: an in-memory DuckDB with `SET threads = %d` runs the fastest SQL known for these counts (`duckdbAnalyzeOnePass` in `duckdb.go`): one scan of the exposure and metric rows, one aggregation per unit (t0, the arm at t0, the distinct arms, the list of metric-event times), then per arm the units with a time in [t0, t0 + W). (`--query analyze`, the statement-by-statement port of `cmd/armtally/testdata/crosscheck/crosscheck.mjs`, is slower and no longer timed.)\n", f.threads, f.threads)
 	p("- DuckDB scan floor: `bench duckdb-query ... --query scan`: `SELECT count(*), min(ts), max(ts), sum(hash(user_id, event, experiment, arm))`, the least DuckDB does to read the five needed columns.\n")
 	p("- The analysis: experiment `%s`, arms %s (control `%s`), window [%s, %s), metric `%s` = `%s` within %s, multi-arm units excluded, immature units excluded.\n\n",
 		a.Experiment, strings.Join(a.Arms, ", "), a.Control, a.Start.Format(time.RFC3339), a.End.Format(time.RFC3339), a.Metric, strings.Join(a.Events, ","), windowText(a.Window))
@@ -112,17 +112,17 @@ func renderReport(rep *benchReport) string {
 	p("%s.\n\n", strings.Join(parts, "; "))
 
 	p("### armtally against DuckDB (%d threads)\n\n", f.threads)
-	p("| Log | Rows | Runs | armtally wall | DuckDB wall | armtally / DuckDB | DuckDB scan floor | armtally / scan | armtally peak RSS | DuckDB peak RSS | armtally / DuckDB RSS |\n")
-	p("|:--|--:|--:|--:|--:|--:|--:|--:|--:|--:|--:|\n")
+	p("| Log | Rows | Runs | armtally wall | DuckDB wall | armtally / DuckDB | armtally CPU / DuckDB CPU | DuckDB scan floor | armtally / scan | armtally peak RSS | DuckDB peak RSS | armtally / DuckDB RSS |\n")
+	p("|:--|--:|--:|--:|--:|--:|--:|--:|--:|--:|--:|--:|\n")
 	for _, sc := range rep.Scenarios {
 		scan, scanRatio := "not run", "n/a"
 		if sc.DuckDBScan.Runs > 0 {
 			scan = secs(sc.DuckDBScan.Wall)
 			scanRatio = ratio(sc.Armtally.Wall.Seconds(), sc.DuckDBScan.Wall.Seconds())
 		}
-		p("| %s | %s | %d | %s | %s | %s | %s | %s | %s | %s | %s |\n", sc.Name, report.FormatCount(sc.Info.Rows), sc.Armtally.Runs,
+		p("| %s | %s | %d | %s | %s | %s | %s | %s | %s | %s | %s | %s |\n", sc.Name, report.FormatCount(sc.Info.Rows), sc.Armtally.Runs,
 			secs(sc.Armtally.Wall), secs(sc.DuckDB.Wall), ratio(sc.Armtally.Wall.Seconds(), sc.DuckDB.Wall.Seconds()),
-			scan, scanRatio, mbs(sc.Armtally.MaxRSS), mbs(sc.DuckDB.MaxRSS), ratio(float64(sc.Armtally.MaxRSS), float64(sc.DuckDB.MaxRSS)))
+			ratio(sc.Armtally.CPU.Seconds(), sc.DuckDB.CPU.Seconds()), scan, scanRatio, mbs(sc.Armtally.MaxRSS), mbs(sc.DuckDB.MaxRSS), ratio(float64(sc.Armtally.MaxRSS), float64(sc.DuckDB.MaxRSS)))
 	}
 	p("\nRanges of wall times, CPU time (user + system, median), scan-floor memory, and the machine's 1-minute load average when the timed runs of the log began and ended (the machine is shared; a load above 2 means other work competed for the two cores):\n\n")
 	p("| Log | armtally wall range | armtally CPU | DuckDB wall range | DuckDB CPU | DuckDB query only (in-process) | scan wall range | scan peak RSS | load average |\n|:--|--:|--:|--:|--:|--:|--:|--:|--:|\n")
@@ -156,6 +156,10 @@ func renderReport(rep *benchReport) string {
 		p("\n")
 	}
 
+	if inc := rep.Incremental; inc != nil {
+		renderIncremental(p, inc, f)
+	}
+
 	if len(rep.Decode) > 0 {
 		p("\n### Decode paths (the five needed columns, %d goroutines)\n\n", f.threads)
 		p("Each path reads `user_id`, `ts`, `event`, `experiment` and `arm` of `%s` (%d row groups), every row group handed to the next free goroutine, and folds every value into a checksum (rows, sum of ts, nulls, total string length); all paths must return the same checksum (%s rows, %s nulls, %s string bytes). ",
@@ -182,6 +186,26 @@ func renderReport(rep *benchReport) string {
 	p("Single measurements: `/usr/bin/time -f '%%e s %%M KB' DIR/armtally %s`; `go run . duckdb-query --file FILE --query analyze`; `go run . decode --file FILE --method 'parquet-go pages'`.\n\n", strings.Join(rep.ArmtallyCmd, " "))
 	p("%s", endMarker)
 	return b.String()
+}
+
+// renderIncremental writes the section of the nightly case.
+func renderIncremental(p func(string, ...any), inc *incrementalResult, f harnessFlags) {
+	in := inc.Info
+	p("\n### Incremental nightly run\n\n")
+	p("The same generator and analysis, written as a partitioned export: one snappy Parquet file per UTC day (`dt=YYYY-MM-DD/part-0.parquet`, %s rows per row group), %d days, %s rows, %s units (exposed and never exposed), %s. ",
+		report.FormatCount(partRowGroupRows), len(in.Days), report.FormatCount(in.Rows), report.FormatCount(in.Units), mbs(in.Bytes))
+	p("The state file of the first %d days is made once (untimed, `armtally analyze ... --state FILE`); each timed nightly run starts from a copy of it and reads the last day (`%s`) on top. ", inc.DaysInState, in.Days[len(in.Days)-1])
+	p("The nightly JSON readout was checked byte for byte against a full run's (equal: %v), and the full run's counts against DuckDB's. ", inc.FullJSONEqualsNightly)
+	p("Runs interleaved (nightly, full, DuckDB), %d each; load average %s when they began, %s when they ended.\n\n", inc.Night.Runs, inc.LoadBefore, inc.LoadAfter)
+	p("| Run | Median wall | Range | CPU | Peak RSS | wall / full armtally | wall / DuckDB |\n|:--|--:|--:|--:|--:|--:|--:|\n")
+	for _, r := range []struct {
+		name string
+		st   stats
+	}{{"armtally nightly (state + last day)", inc.Night}, {"armtally full (every day)", inc.Full}, {"DuckDB one-scan SQL (every day)", inc.DuckDB}} {
+		p("| %s | %s | %s to %s | %s | %s | %s | %s |\n", r.name, secs(r.st.Wall), secs(r.st.WallMin), secs(r.st.WallMax), secs(r.st.CPU), mbs(r.st.MaxRSS),
+			ratio(r.st.Wall.Seconds(), inc.Full.Wall.Seconds()), ratio(r.st.Wall.Seconds(), inc.DuckDB.Wall.Seconds()))
+	}
+	p("\nState file: %s, %.1f bytes per unit of the log.\n\n", mbs(inc.StateBytes), float64(inc.StateBytes)/float64(in.Units))
 }
 
 func findScenario(rep *benchReport, name string) *scenario {

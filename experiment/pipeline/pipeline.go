@@ -120,6 +120,14 @@ type Options struct {
 	// function it returns is called once reading ends. Inputs that cannot
 	// count as they go (unit and counts tables) do not call it.
 	Progress func(rows func() int64) (stop func())
+	// State, when set, is the path of the state file of an incremental
+	// run over an event log that grows by new files (a nightly job over
+	// dt=YYYY-MM-DD/ folders): the run reads only the files the state
+	// file does not list, merges them into its saved tallies and writes
+	// it anew; the readouts are those of a run over every file (see
+	// state.go for when it reads every file instead). It rules out a
+	// memory limit and Arrow record streams.
+	State string
 }
 
 // Result is what a run gives back.
@@ -128,7 +136,10 @@ type Result struct {
 	Readouts []experiment.Readout
 	// Stats are the reader's counts: files, rows read, bad rows by
 	// reason, rows left out by the event filter.
-	Stats    ingest.Stats
+	Stats ingest.Stats
+	// State says what a run with Options.State did with its state file;
+	// nil without one.
+	State    *StateReport
 	talliers []tallier
 }
 
@@ -220,21 +231,12 @@ func Run(ctx context.Context, in Input, exps []Experiment, opts Options) (*Resul
 	if err := checkOptions(in, exps, opts); err != nil {
 		return nil, err
 	}
-	talliers := make([]tallier, len(exps))
-	var events []string // the events the experiments use (event logs only)
-	for i, e := range exps {
-		tl, err := newTallier(in.Shape, e.Spec)
-		if err != nil {
-			return nil, &ConfigError{err}
-		}
-		talliers[i] = tl
-		if tl, ok := tl.(*experiment.Tallier); ok {
-			for _, ev := range tl.Events() {
-				if !slices.Contains(events, ev) {
-					events = append(events, ev)
-				}
-			}
-		}
+	if opts.State != "" {
+		return runWithState(ctx, in, exps, opts)
+	}
+	talliers, events, err := makeTalliers(in.Shape, exps)
+	if err != nil {
+		return nil, err
 	}
 	r, err := openReader(in, exps, events, opts.Workers)
 	if err != nil {
@@ -257,13 +259,45 @@ func Run(ctx context.Context, in Input, exps []Experiment, opts Options) (*Resul
 	if err != nil {
 		return nil, asDataError(err)
 	}
-	st := r.Stats()
+	return analyse(in, inv, exps, tallies, rows, r.Stats(), talliers, opts)
+}
+
+// makeTalliers returns a tallier per experiment and, for an event log,
+// the events they use.
+func makeTalliers(shape experiment.InputShape, exps []Experiment) ([]tallier, []string, error) {
+	talliers := make([]tallier, len(exps))
+	var events []string // the events the experiments use (event logs only)
+	for i, e := range exps {
+		tl, err := newTallier(shape, e.Spec)
+		if err != nil {
+			return nil, nil, &ConfigError{err}
+		}
+		talliers[i] = tl
+		if tl, ok := tl.(*experiment.Tallier); ok {
+			for _, ev := range tl.Events() {
+				if !slices.Contains(events, ev) {
+					events = append(events, ev)
+				}
+			}
+		}
+	}
+	return talliers, events, nil
+}
+
+// analyse checks each tally against the names the data holds (inv; rows
+// holds, per experiment, the rows of each metric event, or nil to skip
+// that check) and analyses it with the reader's counts st.
+func analyse(in Input, inv *inventory, exps []Experiment, tallies []experiment.Tally, rows [][]experiment.NameCount, st ingest.Stats, talliers []tallier, opts Options) (*Result, error) {
 	res := &Result{Readouts: make([]experiment.Readout, len(exps)), Stats: st}
 	if opts.KeepUnits {
 		res.talliers = talliers
 	}
 	for i, e := range exps {
-		if err := inv.check(i, tallies[i], rows[i]); err != nil {
+		var r []experiment.NameCount
+		if rows != nil {
+			r = rows[i]
+		}
+		if err := inv.check(i, tallies[i], r); err != nil {
 			return nil, asDataError(err)
 		}
 		o := e.Options
@@ -273,6 +307,7 @@ func Run(ctx context.Context, in Input, exps []Experiment, opts Options) (*Resul
 			// The one experiment of the log: the readout names it.
 			spec.Key = keys[0]
 		}
+		var err error
 		if res.Readouts[i], err = experiment.Analyze(spec, tallies[i], o); err != nil {
 			return nil, &DataError{err}
 		}
@@ -288,6 +323,60 @@ func asDataError(err error) error {
 		return &DataError{err}
 	}
 	return err
+}
+
+// runTalliers tallies the event log of in on top of the saved tallies of
+// sf (when not nil), whose reader counts were saved, and analyses the
+// tallies; it also returns the talliers, for the next state. A resumed run
+// counts the rows of each metric event in the new files only, so it leaves
+// the check that every metric event occurs to the full run that wrote the
+// state (a changed definition forces a full run).
+func runTalliers(ctx context.Context, in Input, exps []Experiment, opts Options, sf *stateFile, saved ingest.Stats) (*Result, []*experiment.Tallier, error) {
+	talliers, events, err := makeTalliers(in.Shape, exps)
+	if err != nil {
+		return nil, nil, err
+	}
+	tls := make([]*experiment.Tallier, len(talliers))
+	for i, tl := range talliers {
+		tls[i] = tl.(*experiment.Tallier)
+		if sf != nil {
+			if err := tls[i].ReadState(sf.r); err != nil {
+				return nil, nil, err
+			}
+		}
+	}
+	var (
+		st   ingest.Stats
+		rows [][]experiment.NameCount
+	)
+	inv := &inventory{ctx: ctx, in: in, exps: exps, workers: opts.Workers}
+	tallies := make([]experiment.Tally, len(exps))
+	if len(in.Sources) > 0 {
+		r, err := openReader(in, exps, events, opts.Workers)
+		if err != nil {
+			return nil, nil, err
+		}
+		defer r.Close()
+		tallies, rows, err = readInMemory(ctx, r, talliers, opts)
+		if sk := (*severalKeys)(nil); errors.As(err, &sk) {
+			err = inv.severalKeys(sk.keys)
+		}
+		if err != nil {
+			return nil, nil, asDataError(err)
+		}
+		st = r.Stats()
+	} else {
+		for i, tl := range tls {
+			if tallies[i], err = tl.Tally(); err != nil {
+				return nil, nil, &DataError{err}
+			}
+		}
+	}
+	if sf != nil {
+		rows = nil
+	}
+	res, err := analyse(in, inv, exps, tallies, rows, ingest.MergeStats(saved, st), talliers, opts)
+	return res, tls, err
 }
 
 // checkOptions rejects option sets that cannot work, before anything is

@@ -1,0 +1,470 @@
+package pipeline
+
+import (
+	"bufio"
+	"context"
+	"crypto/sha256"
+	"encoding/binary"
+	"encoding/hex"
+	"encoding/json"
+	"errors"
+	"fmt"
+	"hash/crc32"
+	"io"
+	"io/fs"
+	"os"
+	"path/filepath"
+	"runtime/debug"
+
+	"github.com/armtally/armtally/experiment"
+	"github.com/armtally/armtally/ingest"
+)
+
+// An incremental run (Options.State) keeps a state file beside its
+// readouts: the manifest of the files read (path, size, modification time,
+// a hash of the first and last 64 KiB), the reader's counts, and each
+// experiment's saved tally (experiment.Tallier.WriteState). The next run
+// with the same file reads only the files that are not in the manifest,
+// resumes each tally from its saved state and gives the readouts a run
+// over all the files would give, byte for byte. It reads every file again
+// (a full recompute, said by a WarnStateRecomputed warning in each readout
+// and in StateReport) when a file of the manifest changed or is gone, the
+// definition of the run (experiments, column mapping, reader settings) or
+// the armtally build differs, the state file is damaged, or the new rows
+// change what the saved tally summarised (see experiment.StaleStateError).
+//
+// Layout (all integers varints): the magic line, the layout version, the
+// build, the definition hash, the manifest, the reader's counts, each
+// experiment's saved tally, and a CRC-32C of everything before it.
+
+const (
+	stateFileMagic   = "armtally-state\n"
+	stateFileVersion = 1
+	// stateHashBlock is how much of each end of a file its content hash
+	// covers: a Parquet file's footer, a CSV file's last rows.
+	stateHashBlock = 64 << 10
+)
+
+// StateReport says what an incremental run did with its state file.
+type StateReport struct {
+	// Resumed: the saved state was used and only new files were read.
+	Resumed bool
+	// Recomputed: a saved state existed but could not be used (Reason
+	// says why); every file was read again.
+	Recomputed bool
+	Reason     string
+	// FilesRead of FilesTotal files were read in this run.
+	FilesRead, FilesTotal int
+	// Bytes is the size of the state file written, Units the unit
+	// records in it (summed over the experiments).
+	Bytes int64
+	Units int64
+}
+
+// fileEntry is one file of the manifest.
+type fileEntry struct {
+	path    string
+	size    int64
+	modTime int64
+	hash    string
+}
+
+// definitionHash fingerprints what the saved tallies depend on.
+func definitionHash(in Input, exps []Experiment) (string, error) {
+	specs := make([]experiment.Spec, len(exps))
+	for i, e := range exps {
+		specs[i] = e.Spec
+	}
+	b, err := json.Marshal(struct {
+		Specs       []experiment.Spec
+		Mapping     ingest.Mapping
+		Delimiter   rune
+		MaxBadRows  int64
+		MaxBadShare float64
+	}{specs, mappingOf(in), in.Delimiter, in.MaxBadRows, in.MaxBadShare})
+	if err != nil {
+		return "", err
+	}
+	sum := sha256.Sum256(b)
+	return hex.EncodeToString(sum[:]), nil
+}
+
+// buildVersion names the armtally build: its module version and, when the
+// build recorded them, its commit and whether the tree was modified.
+func buildVersion() string {
+	bi, ok := debug.ReadBuildInfo()
+	if !ok {
+		return "unknown"
+	}
+	v := bi.Main.Version
+	for _, s := range bi.Settings {
+		if s.Key == "vcs.revision" || s.Key == "vcs.modified" {
+			v += " " + s.Key + "=" + s.Value
+		}
+	}
+	return v
+}
+
+// manifest describes the sources as the state file records them: files
+// on disk by absolute path, so that a run from another folder finds them.
+func manifest(srcs []ingest.Source, onDisk bool) ([]fileEntry, error) {
+	out := make([]fileEntry, len(srcs))
+	for i, s := range srcs {
+		path := s.Name
+		if onDisk {
+			if abs, err := filepath.Abs(path); err == nil {
+				path = abs
+			}
+		}
+		size, mod, err := s.Stat()
+		if err != nil {
+			return nil, &DataError{err}
+		}
+		h, err := contentHash(s)
+		if err != nil {
+			return nil, &DataError{err}
+		}
+		out[i] = fileEntry{path: path, size: size, modTime: mod.UnixNano(), hash: h}
+	}
+	return out, nil
+}
+
+// contentHash hashes the size and the first and last stateHashBlock bytes
+// of a source.
+func contentHash(s ingest.Source) (string, error) {
+	r, size, c, err := s.Open()
+	if err != nil {
+		return "", err
+	}
+	defer c.Close()
+	h := sha256.New()
+	binary.Write(h, binary.LittleEndian, size)
+	for _, off := range []int64{0, max(0, size-stateHashBlock)} {
+		buf := make([]byte, min(size, stateHashBlock))
+		if _, err := r.ReadAt(buf, off); err != nil && err != io.EOF {
+			return "", fmt.Errorf("%s: %w", s.Name, err)
+		}
+		h.Write(buf)
+	}
+	return hex.EncodeToString(h.Sum(nil)), nil
+}
+
+// planResume decides what an incremental run reads: it returns the opened
+// state file (positioned at the first saved tally), its saved counts and
+// the sources not in its manifest; or nil and a reason to read everything
+// ("" when there is no state file).
+func planResume(path, def string, files []fileEntry, srcs []ingest.Source) (*stateFile, []ingest.Source, string) {
+	sf, why := openStateFile(path)
+	if sf == nil {
+		return nil, nil, why
+	}
+	if why = sf.readHeader(def); why != "" {
+		sf.close()
+		return nil, nil, why
+	}
+	current := make(map[string]fileEntry, len(files))
+	for _, fe := range files {
+		current[fe.path] = fe
+	}
+	seen := make(map[string]bool, len(sf.files))
+	for _, fe := range sf.files {
+		now, ok := current[fe.path]
+		if !ok || now != fe {
+			sf.close()
+			if !ok {
+				return nil, nil, fmt.Sprintf("file %s was read before and is gone", fe.path)
+			}
+			return nil, nil, fmt.Sprintf("file %s changed since it was read", fe.path)
+		}
+		seen[fe.path] = true
+	}
+	var fresh []ingest.Source
+	for i, s := range srcs {
+		if !seen[files[i].path] {
+			fresh = append(fresh, s)
+		}
+	}
+	return sf, fresh, ""
+}
+
+// stateFile is a state file being read.
+type stateFile struct {
+	f     *os.File
+	r     *bufio.Reader
+	files []fileEntry
+	stats ingest.Stats
+}
+
+// openStateFile opens the state file and checks its checksum; it returns
+// nil and a reason when it cannot be used ("" when there is none).
+func openStateFile(path string) (*stateFile, string) {
+	f, err := os.Open(path)
+	if errors.Is(err, fs.ErrNotExist) {
+		return nil, ""
+	}
+	if err != nil {
+		return nil, fmt.Sprintf("the state file cannot be read: %v", err)
+	}
+	why := checkSum(f)
+	if why == "" {
+		if _, err := f.Seek(0, io.SeekStart); err != nil {
+			why = fmt.Sprintf("the state file cannot be read: %v", err)
+		}
+	}
+	if why != "" {
+		f.Close()
+		return nil, why
+	}
+	return &stateFile{f: f, r: bufio.NewReaderSize(f, 1<<16)}, ""
+}
+
+// checkSum compares the CRC-32C of a state file with the one it ends with.
+func checkSum(f *os.File) string {
+	info, err := f.Stat()
+	if err != nil {
+		return fmt.Sprintf("the state file cannot be read: %v", err)
+	}
+	if info.Size() < 4 {
+		return "the state file is damaged (its checksum does not match)"
+	}
+	h := crc32.New(crc32.MakeTable(crc32.Castagnoli))
+	if _, err := io.Copy(h, io.NewSectionReader(f, 0, info.Size()-4)); err != nil {
+		return fmt.Sprintf("the state file cannot be read: %v", err)
+	}
+	var tail [4]byte
+	if _, err := f.ReadAt(tail[:], info.Size()-4); err != nil || binary.LittleEndian.Uint32(tail[:]) != h.Sum32() {
+		return "the state file is damaged (its checksum does not match)"
+	}
+	return ""
+}
+
+func (sf *stateFile) close() { sf.f.Close() }
+
+// readHeader reads up to the experiments' tallies; it returns a reason
+// when the state cannot be used.
+func (sf *stateFile) readHeader(def string) string {
+	r := sf.r
+	bad := false
+	num := func() int64 {
+		v, err := binary.ReadVarint(r)
+		bad = bad || err != nil
+		return v
+	}
+	str := func() string {
+		n := num()
+		if bad || n < 0 || n > 1<<20 {
+			bad = true
+			return ""
+		}
+		b := make([]byte, n)
+		_, err := io.ReadFull(r, b)
+		bad = bad || err != nil
+		return string(b)
+	}
+	if str() != stateFileMagic || bad {
+		return "the state file is not one armtally wrote"
+	}
+	if v := num(); v != stateFileVersion {
+		return fmt.Sprintf("the state file has layout %d, this armtally reads %d", v, stateFileVersion)
+	}
+	if str() != buildVersion() {
+		return "the state file was written by another armtally build"
+	}
+	if str() != def {
+		return "the definition of the run changed (experiments, column mapping or reader settings)"
+	}
+	for n := num(); n > 0 && !bad; n-- {
+		sf.files = append(sf.files, fileEntry{path: str(), size: num(), modTime: num(), hash: str()})
+	}
+	st := &sf.stats
+	st.Files, st.RowsRead, st.Rows, st.Filtered, st.FilteredMaxTS = int(num()), num(), num(), num(), num()
+	for n := num(); n > 0 && !bad; n-- {
+		reason := ingest.BadRowReason(str())
+		st.BadRows = append(st.BadRows, ingest.BadRowCount{Reason: reason, Count: num()})
+		st.BadRowExamples = append(st.BadRowExamples, nil) // counts only
+	}
+	if bad {
+		return "the state file is damaged"
+	}
+	return ""
+}
+
+// writeState writes the state file atomically: a temporary file in the
+// same folder, synced, then renamed over path. It returns the file's size.
+func writeState(path, def string, files []fileEntry, st ingest.Stats, talliers []*experiment.Tallier) (int64, error) {
+	tmp, err := os.CreateTemp(filepath.Dir(path), "."+filepath.Base(path)+".*.tmp")
+	if err != nil {
+		return 0, err
+	}
+	defer os.Remove(tmp.Name()) // after the rename, a no-op
+	n, err := writeStateTo(tmp, def, files, st, talliers)
+	if err == nil {
+		err = tmp.Sync()
+	}
+	if cerr := tmp.Close(); err == nil {
+		err = cerr
+	}
+	if err == nil {
+		err = os.Rename(tmp.Name(), path)
+	}
+	if err != nil {
+		return 0, fmt.Errorf("state file %s: %w", path, err)
+	}
+	return n, nil
+}
+
+// writeStateTo writes the layout described at the top of this file.
+func writeStateTo(out io.Writer, def string, files []fileEntry, st ingest.Stats, talliers []*experiment.Tallier) (int64, error) {
+	h := crc32.New(crc32.MakeTable(crc32.Castagnoli))
+	cw := &countWriter{w: io.MultiWriter(out, h)}
+	w := bufio.NewWriterSize(cw, 1<<16)
+	num := func(v int64) { w.Write(binary.AppendVarint(nil, v)) }
+	str := func(s string) {
+		num(int64(len(s)))
+		w.WriteString(s)
+	}
+	str(stateFileMagic)
+	num(stateFileVersion)
+	str(buildVersion())
+	str(def)
+	num(int64(len(files)))
+	for _, fe := range files {
+		str(fe.path)
+		num(fe.size)
+		num(fe.modTime)
+		str(fe.hash)
+	}
+	for _, v := range []int64{int64(st.Files), st.RowsRead, st.Rows, st.Filtered, st.FilteredMaxTS} {
+		num(v)
+	}
+	num(int64(len(st.BadRows)))
+	for _, b := range st.BadRows {
+		str(b.Reason.String())
+		num(b.Count)
+	}
+	for _, tl := range talliers {
+		if err := tl.WriteState(w); err != nil {
+			return 0, err
+		}
+	}
+	if err := w.Flush(); err != nil {
+		return 0, err
+	}
+	if _, err := out.Write(binary.LittleEndian.AppendUint32(nil, h.Sum32())); err != nil {
+		return 0, err
+	}
+	return cw.n + 4, nil
+}
+
+// countWriter counts the bytes written through it.
+type countWriter struct {
+	w io.Writer
+	n int64
+}
+
+func (c *countWriter) Write(p []byte) (int, error) {
+	n, err := c.w.Write(p)
+	c.n += int64(n)
+	return n, err
+}
+
+// runWithState is Run with Options.State: it resumes from the state file
+// when it can, reads every file otherwise, and saves the new state.
+func runWithState(ctx context.Context, in Input, exps []Experiment, opts Options) (*Result, error) {
+	if in.Shape != experiment.InputEventLog || in.Records != nil || opts.MemoryLimit > 0 {
+		return nil, &ConfigError{errors.New("a state file applies to event logs read from files, without a memory limit")}
+	}
+	srcs, err := sources(in)
+	if err != nil {
+		return nil, err
+	}
+	files, err := manifest(srcs, in.FS == nil)
+	if err != nil {
+		return nil, err
+	}
+	def, err := definitionHash(in, exps)
+	if err != nil {
+		return nil, &ConfigError{err}
+	}
+	rep := StateReport{FilesTotal: len(srcs)}
+	sf, fresh, why := planResume(opts.State, def, files, srcs)
+	var res *Result
+	var talliers []*experiment.Tallier
+	if sf != nil {
+		res, talliers, why, err = resumeRun(ctx, in, exps, opts, sf, fresh)
+		sf.close()
+		if err != nil {
+			return nil, err
+		}
+		rep.Resumed, rep.FilesRead = res != nil, len(fresh)
+	}
+	if res == nil {
+		rep.Recomputed, rep.Reason, rep.FilesRead = why != "", why, len(srcs)
+		full := in
+		full.Paths, full.FS, full.Sources = nil, nil, srcs
+		if res, talliers, err = runTalliers(ctx, full, exps, opts, nil, ingest.Stats{}); err != nil {
+			return nil, err
+		}
+		if why != "" {
+			for i := range res.Readouts {
+				r := &res.Readouts[i]
+				r.Warnings = append(r.Warnings, experiment.Warning{Code: experiment.WarnStateRecomputed, Reason: why})
+			}
+		}
+	}
+	if rep.Bytes, err = writeState(opts.State, def, files, res.Stats, talliers); err != nil {
+		return nil, &StateError{err}
+	}
+	for _, tl := range talliers {
+		rep.Units += int64(tl.StateUnits())
+	}
+	res.State = &rep
+	return res, nil
+}
+
+// resumeRun reads the new files on top of the saved tallies. It returns
+// a nil Result and the reason when the run must read every file instead.
+func resumeRun(ctx context.Context, in Input, exps []Experiment, opts Options, sf *stateFile, fresh []ingest.Source) (*Result, []*experiment.Tallier, string, error) {
+	var bad int64
+	for _, b := range sf.stats.BadRows {
+		bad += b.Count
+	}
+	sub := in
+	sub.Paths, sub.FS, sub.Sources = nil, nil, fresh
+	if in.MaxBadRows > 0 {
+		if sub.MaxBadRows = in.MaxBadRows - bad; sub.MaxBadRows <= 0 {
+			return nil, nil, "the saved rows used up the bad-row budget", nil
+		}
+	}
+	res, talliers, err := runTalliers(ctx, sub, exps, opts, sf, sf.stats)
+	var stale *experiment.StaleStateError
+	switch {
+	case errors.As(err, &stale):
+		return nil, nil, stale.Reason, nil
+	case errors.Is(err, experiment.ErrStateFormat):
+		return nil, nil, fmt.Sprintf("the state file is damaged: %v", err), nil
+	case err != nil:
+		var de *DataError
+		if errors.As(err, &de) {
+			// Reading every file gives the error a full run gives.
+			return nil, nil, "reading the new files failed", nil
+		}
+		return nil, nil, "", err
+	}
+	if s := in.MaxBadShare; s > 0 {
+		var total int64
+		for _, b := range res.Stats.BadRows {
+			total += b.Count
+		}
+		if total > 0 && float64(total) > s*float64(res.Stats.RowsRead) {
+			return nil, nil, "the bad-row share is judged over every file", nil
+		}
+	}
+	return res, talliers, "", nil
+}
+
+// StateError is a failure to write the state file of an incremental run.
+type StateError struct{ Err error }
+
+func (e *StateError) Error() string { return e.Err.Error() }
+func (e *StateError) Unwrap() error { return e.Err }

@@ -1,0 +1,198 @@
+package experiment
+
+import (
+	"bytes"
+	"errors"
+	"fmt"
+	"math/rand/v2"
+	"reflect"
+	"slices"
+	"sort"
+	"testing"
+	"time"
+)
+
+// stateSpec is the spec of the resumed-tally tests: two metrics sharing an
+// event, a segment dimension, a window that ends before the last day.
+func stateSpec(policy MultiArmPolicy) Spec {
+	return Spec{
+		Key:           "exp",
+		ExposureEvent: "seen",
+		Control:       "control",
+		Arms:          []string{"control", "treat"},
+		Start:         ptrTime(base.Add(day)),
+		End:           ptrTime(base.Add(10 * day)),
+		Metrics: []Metric{{Name: "buy", Events: []string{"buy"}, Window: 36 * hour},
+			{Name: "engaged", Events: []string{"cart", "buy"}, Window: 3 * day}},
+		MultiArm: policy,
+		Segments: []string{"country"},
+	}
+}
+
+// randomDays returns rows of days 0 to n-1, in time order within a day,
+// of a small population: exposures in two arms (and another experiment's),
+// metric and other events, a few units exposed to both arms.
+func randomDays(seed uint64, n int) [][]row {
+	rng := rand.New(rand.NewPCG(seed, 3))
+	days := make([][]row, n)
+	for d := range days {
+		for k := 0; k < 60; k++ {
+			u := fmt.Sprintf("u%02d", rng.IntN(40))
+			at := time.Duration(d)*day + time.Duration(rng.IntN(int(day/time.Minute)))*time.Minute
+			var r row
+			switch x := rng.IntN(10); {
+			case x < 3:
+				arm := []string{"control", "treat"}[int(u[2]-'0')%2]
+				if rng.IntN(15) == 0 {
+					arm = "treat" // a second arm for some units
+				}
+				r = seen(u, at, arm)
+				r.segs = []string{[]string{"DE", "FR", nullSeg}[rng.IntN(3)]}
+			case x < 4:
+				r = row{user: u, at: at, event: "seen", exp: "other", arm: "a"}
+			case x < 6:
+				r = ev(u, at, "buy")
+			case x < 8:
+				r = ev(u, at, "cart")
+			default:
+				r = ev(u, at, "view")
+			}
+			days[d] = append(days[d], r)
+		}
+		sort.SliceStable(days[d], func(i, j int) bool { return days[d][i].at < days[d][j].at })
+	}
+	return days
+}
+
+// resume tallies rows on top of a saved state (none when state is nil) and
+// returns the tally, the unit records and the new state, or the error of
+// Tally.
+func resume(t *testing.T, spec Spec, state []byte, rows []row, parts int) (Tally, []UnitRecord, []byte, error) {
+	t.Helper()
+	tl, err := newTallier(spec, parts)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if state != nil {
+		if err := tl.ReadState(bytes.NewReader(state)); err != nil {
+			t.Fatalf("ReadState: %v", err)
+		}
+	}
+	if len(rows) > 0 {
+		rec := batch(t, rows, spec.Segments...)
+		err = tl.Add(rec)
+		rec.Release()
+		if err != nil {
+			t.Fatal(err)
+		}
+	}
+	out, err := tl.Tally()
+	if err != nil {
+		return Tally{}, nil, nil, err
+	}
+	seq, err := tl.Units()
+	if err != nil {
+		t.Fatal(err)
+	}
+	var buf bytes.Buffer
+	if err := tl.WriteState(&buf); err != nil {
+		t.Fatalf("WriteState: %v", err)
+	}
+	return out, slices.Collect(seq), buf.Bytes(), nil
+}
+
+// Adding the days one at a time on top of the saved state gives the tally
+// and unit records of all the days at once (common practice: an
+// incremental aggregate must equal the batch one), for both multi-arm
+// policies and any number of partitions; days in time order never need a
+// recompute.
+func TestResumedTallyEqualsFull(t *testing.T) {
+	for _, policy := range []MultiArmPolicy{MultiArmExclude, MultiArmFirst} {
+		for seed := uint64(1); seed <= 8; seed++ {
+			spec := stateSpec(policy)
+			days := randomDays(seed, 12)
+			var state []byte
+			var all []row
+			for d, rows := range days {
+				all = append(all, rows...)
+				want, wantUnits, _, err := resume(t, spec, nil, all, 1)
+				if err != nil {
+					t.Fatal(err)
+				}
+				parts := 1 + d%4
+				got, gotUnits, next, err := resume(t, spec, state, rows, parts)
+				if err != nil {
+					t.Fatalf("policy %v, seed %d, day %d: %v", policy, seed, d, err)
+				}
+				if !reflect.DeepEqual(got, want) {
+					t.Fatalf("policy %v, seed %d, day %d: resumed tally\n%+v\nfull\n%+v", policy, seed, d, got, want)
+				}
+				if !reflect.DeepEqual(gotUnits, wantUnits) {
+					t.Fatalf("policy %v, seed %d, day %d: unit records differ", policy, seed, d)
+				}
+				state = next
+			}
+		}
+	}
+}
+
+// Rows the state cannot absorb give a *StaleStateError, never a wrong
+// tally; a late day that happens to be absorbable gives the full tally.
+func TestResumedTallyStale(t *testing.T) {
+	spec := stateSpec(MultiArmExclude)
+	first := []row{seen("a", 2*day, "control"), ev("a", 2*day+hour, "buy"), ev("b", 2*day, "buy"),
+		seen("c", 3*day, "treat")}
+	_, _, state, err := resume(t, spec, nil, first, 2)
+	if err != nil {
+		t.Fatal(err)
+	}
+	tests := []struct {
+		name  string
+		rows  []row
+		stale bool
+	}{
+		{"later rows", []row{seen("a", 4*day, "control"), ev("a", 4*day, "buy"), seen("d", 4*day, "treat")}, false},
+		{"second arm later", []row{seen("a", 4*day, "treat")}, false},
+		{"exposed after its events", []row{seen("b", 2*day+time.Minute, "treat")}, false},
+		{"earlier exposure", []row{seen("a", 2*day-time.Minute, "control")}, true},
+		{"tie at t0", []row{seen("c", 3*day, "control")}, true},
+		{"exposed before its events", []row{seen("b", 2*day-time.Minute, "treat")}, true},
+		{"exposed at its event", []row{seen("b", 2*day, "treat")}, true},
+	}
+	for _, tc := range tests {
+		t.Run(tc.name, func(t *testing.T) {
+			want, _, _, err := resume(t, spec, nil, append(slices.Clone(first), tc.rows...), 1)
+			if err != nil {
+				t.Fatal(err)
+			}
+			got, _, _, err := resume(t, spec, state, tc.rows, 3)
+			var se *StaleStateError
+			if errors.As(err, &se) != tc.stale {
+				t.Fatalf("error %v, want stale %v", err, tc.stale)
+			}
+			if err == nil && !reflect.DeepEqual(got, want) {
+				t.Fatalf("resumed tally\n%+v\nfull\n%+v", got, want)
+			}
+		})
+	}
+}
+
+func TestReadStateDamaged(t *testing.T) {
+	spec := stateSpec(MultiArmFirst)
+	_, _, state, err := resume(t, spec, nil, randomDays(1, 3)[1], 2)
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, cut := range []int{0, 1, len(state) / 2, len(state) - 1} {
+		tl, _ := newTallier(spec, 2)
+		if err := tl.ReadState(bytes.NewReader(state[:cut])); !errors.Is(err, ErrStateFormat) {
+			t.Errorf("cut at %d: error %v, want ErrStateFormat", cut, err)
+		}
+	}
+	other := spec
+	other.Metrics = other.Metrics[:1]
+	tl, _ := newTallier(other, 2)
+	if err := tl.ReadState(bytes.NewReader(state)); !errors.Is(err, ErrStateFormat) {
+		t.Errorf("other metrics: error %v, want ErrStateFormat", err)
+	}
+}
