@@ -51,6 +51,7 @@ var warningCodes = map[experiment.WarningCode]string{
 	experiment.WarnRelativeMarginZero:        "relative_margin_zero",
 	experiment.WarnNonInferiorityUndefined:   "non_inferiority_undefined",
 	experiment.WarnNonInferiorityNoFallback:  "non_inferiority_no_fallback",
+	experiment.WarnStateRecomputed:           "state_recomputed",
 }
 
 // warningCode is the code of one of the analysis's warnings.

@@ -96,6 +96,15 @@ func noticeCases() []noticeCase {
 			spec:  func(s *experiment.Spec) { s.End = nil },
 			tally: experiment.Tally{Input: experiment.InputCounts, Arms: []experiment.ArmTally{
 				armTally("control", 1000, [3]int64{100, 1000, 0}), armTally("treat", 1000, [3]int64{110, 1000, 0})}}},
+		// An incremental run that read every file again (set by the
+		// pipeline, not by Analyze).
+		{name: "a saved state recomputed",
+			codes: []string{"state_recomputed"},
+			tally: experiment.Tally{Arms: []experiment.ArmTally{
+				armTally("control", 1000, [3]int64{100, 1000, 0}), armTally("treat", 1000, [3]int64{110, 1000, 0})}},
+			edit: func(r *experiment.Readout) {
+				r.Warnings = append(r.Warnings, experiment.Warning{Code: experiment.WarnStateRecomputed, Reason: "file dt=2026-05-19/part-0.csv changed since it was read"})
+			}},
 		// No analysis gives these (they would be bugs): made by hand.
 		{name: "an interval and a test that disagree; routes that disagree",
 			codes: []string{NoticeIntervalTestDisagree, NoticeRoutesDisagree},

@@ -38,6 +38,19 @@ func exportDays(t *testing.T) (days []string, files map[string][]byte) {
 	if err != nil {
 		t.Fatal(err)
 	}
+	// The days before the first exposure hold only events of units not
+	// yet exposed; a run over them alone stops (the log holds no row of
+	// the exposure event), so they go into the first day with exposures.
+	var ordered []string
+	for d := range byDay {
+		ordered = append(ordered, d)
+	}
+	slices.Sort(ordered)
+	for len(ordered) > 1 && !slices.ContainsFunc(byDay[ordered[0]], func(r []string) bool { return r[2] == cfg.ExposureEvent }) {
+		byDay[ordered[1]] = append(byDay[ordered[0]], byDay[ordered[1]]...)
+		delete(byDay, ordered[0])
+		ordered = ordered[1:]
+	}
 	files = map[string][]byte{}
 	for d, rows := range byDay {
 		var buf bytes.Buffer
