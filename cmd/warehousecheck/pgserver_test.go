@@ -59,6 +59,18 @@ func freePort(t testing.TB) int {
 	return l.Addr().(*net.TCPAddr).Port
 }
 
+// analyticSettings are what a server for one analytical query at a time
+// would be given in place of the defaults (work_mem 4MB, shared_buffers
+// 128MB): sorts and hashes of a million units in memory, two workers per
+// parallel scan (the machines here have two cores). Every server of the
+// tests and benchmarks starts with them.
+var analyticSettings = []string{
+	"work_mem=256MB",
+	"hash_mem_multiplier=2",
+	"max_parallel_workers_per_gather=2",
+	"shared_buffers=1GB",
+}
+
 // startPostgres initialises a data folder and starts a server on it; the
 // test's cleanup stops it and removes the folder.
 func startPostgres(t testing.TB) *pgServer {
@@ -85,8 +97,12 @@ func startPostgres(t testing.TB) *pgServer {
 		t.Fatalf("initdb: %v\n%s", err, out)
 	}
 	s := &pgServer{port: freePort(t), dir: dir}
-	s.cmd = runAs("postgres", "-D", data, "-p", strconv.Itoa(s.port), "-k", dir,
-		"-c", "listen_addresses=127.0.0.1", "-c", "fsync=off", "-c", "synchronous_commit=off", "-c", "full_page_writes=off")
+	args := []string{"-D", data, "-p", strconv.Itoa(s.port), "-k", dir,
+		"-c", "listen_addresses=127.0.0.1", "-c", "fsync=off", "-c", "synchronous_commit=off", "-c", "full_page_writes=off"}
+	for _, kv := range analyticSettings {
+		args = append(args, "-c", kv)
+	}
+	s.cmd = runAs("postgres", args...)
 	logf, err := os.Create(filepath.Join(dir, "server.log"))
 	if err != nil {
 		t.Fatal(err)
@@ -171,23 +187,28 @@ func load(t testing.TB, c *pgx.Conn, table string, rows []logRow) {
 
 // sharded starts a coordinator and two shard servers: on the
 // coordinator, the table events is hash-partitioned by user_id, and each
-// of its two partitions is a postgres_fdw foreign table on a shard.
-func sharded(t testing.TB) (coord *pgServer, conn *pgx.Conn) {
+// of its two partitions is a postgres_fdw foreign table on a shard. The
+// foreign servers are async_capable, so an Append over both partitions
+// waits on the two shards at once, and fetch rows in batches of 50,000.
+// It returns the coordinator's connection and each shard's.
+func sharded(t testing.TB) (conn *pgx.Conn, shards []*pgx.Conn) {
 	t.Helper()
-	coord = startPostgres(t)
+	coord := startPostgres(t)
 	conn = coord.connect(t)
 	exec1(t, conn, "CREATE EXTENSION postgres_fdw",
 		"CREATE TABLE events "+eventColumns+" PARTITION BY HASH (user_id)")
 	for i := 0; i < 2; i++ {
 		shard := startPostgres(t)
+		sc := shard.connect(t)
+		shards = append(shards, sc)
 		part := fmt.Sprintf("events_p%d", i)
-		exec1(t, shard.connect(t), "CREATE TABLE "+part+" "+eventColumns)
+		exec1(t, sc, "CREATE TABLE "+part+" "+eventColumns)
 		exec1(t, conn,
-			fmt.Sprintf("CREATE SERVER shard%d FOREIGN DATA WRAPPER postgres_fdw OPTIONS (host '127.0.0.1', port '%d', dbname 'postgres', fetch_size '10000', batch_size '1000')", i, shard.port),
+			fmt.Sprintf("CREATE SERVER shard%d FOREIGN DATA WRAPPER postgres_fdw OPTIONS (host '127.0.0.1', port '%d', dbname 'postgres', fetch_size '50000', batch_size '1000', async_capable 'true')", i, shard.port),
 			fmt.Sprintf("CREATE USER MAPPING FOR postgres SERVER shard%d OPTIONS (user 'postgres')", i),
 			fmt.Sprintf("CREATE FOREIGN TABLE %s PARTITION OF events FOR VALUES WITH (MODULUS 2, REMAINDER %d) SERVER shard%d OPTIONS (table_name '%s')", part, i, i, part))
 	}
-	return coord, conn
+	return conn, shards
 }
 
 // partitionRows returns the number of rows on each shard, through the

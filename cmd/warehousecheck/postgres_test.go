@@ -66,7 +66,7 @@ func TestPostgresEqualsArmtally(t *testing.T) {
 // partitions): the counts are armtally's again, so the query needs
 // nothing of one machine.
 func TestShardedPostgresEqualsArmtally(t *testing.T) {
-	_, c := sharded(t)
+	c, _ := sharded(t)
 	rows := genRows(6, 1500)
 	path := writeLog(t, t.TempDir(), rows)
 	load(t, c, "events", rows)

@@ -9,8 +9,9 @@ import (
 // buildExperiment adds the CTEs and result rows of experiment k:
 //
 //	w_x   its in-window exposure rows
-//	w_t   per unit: t0 and the number of arms in the window
-//	w_f   per unit: the rows at t0 give the arm (the smallest name when
+//	w_t   the exposure rows, each with its unit's t0 (a window minimum)
+//	w_f   per unit: t0, multi-arm when the window holds several arms;
+//	      the rows at t0 give the arm (the smallest name when
 //	      they disagree), the segment values (the smallest; MIN skips a
 //	      null, so a value beats a null) and the tie flag
 //	w_e   per unit with metric events: each event's fate, counted, and
@@ -33,25 +34,33 @@ func (q *Query) buildExperiment(k int) {
 	}
 	q.addCTE(name("w_x"), matDefault, x)
 
+	// t0 comes from a window over each unit's rows rather than a join of
+	// the rows with their own per-unit minimum: one sort by unit, and no
+	// join whose size the engine must guess (PostgreSQL, guessing one
+	// row, chose a nested loop that was quadratic in the units).
 	xr := func(c string) expr { return ref{"x", c} }
-	q.addCTE(name("w_t"), matDefault, &selectStmt{items: []item{
+	t := &selectStmt{items: []item{
 		{x: xr("w_user"), as: "w_user"},
-		{x: minOf(xr("w_ts")), as: "w_t0"},
-		{x: countDistinct{xr("w_arm")}, as: "w_narms"},
-	}, src: cteRef{name("w_x"), "x"}, groupBy: []expr{xr("w_user")}})
+		{x: xr("w_ts"), as: "w_ts"},
+		{x: xr("w_arm"), as: "w_arm"},
+		{x: minOver{xr("w_ts"), xr("w_user")}, as: "w_t0"},
+	}, src: cteRef{name("w_x"), "x"}}
+	for _, i := range segIdx {
+		t.items = append(t.items, item{x: xr(segAlias(i)), as: segAlias(i)})
+	}
+	q.addCTE(name("w_t"), matDefault, t)
 
 	tr := func(c string) expr { return ref{"t", c} }
+	atT0 := func(x expr) expr { return caseWhen{whens: []when{{eq(tr("w_ts"), tr("w_t0")), x}}} }
 	f := &selectStmt{items: []item{
-		{x: xr("w_user"), as: "w_user"},
-		{x: tr("w_t0"), as: "w_t0"},
-		{x: minOf(xr("w_arm")), as: "w_arm"},
-		{x: oneIf(binary{tr("w_narms"), ">", numLit(1)}), as: "w_multi"},
-		{x: oneIf(binary{countDistinct{xr("w_arm")}, ">", numLit(1)}), as: "w_tied"},
-	}, src: cteRef{name("w_x"), "x"},
-		joins:   []join{{"JOIN", cteRef{name("w_t"), "t"}, and(eq(xr("w_user"), tr("w_user")), eq(xr("w_ts"), tr("w_t0")))}},
-		groupBy: []expr{xr("w_user"), tr("w_t0"), tr("w_narms")}}
+		{x: tr("w_user"), as: "w_user"},
+		{x: minOf(tr("w_t0")), as: "w_t0"},
+		{x: minOf(atT0(tr("w_arm"))), as: "w_arm"},
+		{x: oneIf(binary{countDistinct{tr("w_arm")}, ">", numLit(1)}), as: "w_multi"},
+		{x: oneIf(binary{countDistinct{atT0(tr("w_arm"))}, ">", numLit(1)}), as: "w_tied"},
+	}, src: cteRef{name("w_t"), "t"}, groupBy: []expr{tr("w_user")}}
 	for _, i := range segIdx {
-		f.items = append(f.items, item{x: minOf(xr(segAlias(i))), as: segAlias(i)})
+		f.items = append(f.items, item{x: minOf(atT0(tr(segAlias(i)))), as: segAlias(i)})
 	}
 	q.addCTE(name("w_f"), matDefault, f)
 

@@ -55,6 +55,8 @@ type (
 	}
 	countDistinct struct{ x expr }
 	countStar     struct{}
+	// minOver is MIN(x) over the rows of the same part (a window).
+	minOver struct{ x, part expr }
 	// collated is text that compares and sorts by its bytes.
 	collated struct{ x expr }
 )
@@ -120,7 +122,10 @@ func (c call) sql(d Dialect) string {
 }
 func (c countDistinct) sql(d Dialect) string { return "COUNT(DISTINCT " + c.x.sql(d) + ")" }
 func (countStar) sql(Dialect) string         { return "COUNT(*)" }
-func (c collated) sql(d Dialect) string      { return d.bytewise(c.x.sql(d)) }
+func (m minOver) sql(d Dialect) string {
+	return "MIN(" + m.x.sql(d) + ") OVER (PARTITION BY " + m.part.sql(d) + ")"
+}
+func (c collated) sql(d Dialect) string { return d.bytewise(c.x.sql(d)) }
 
 // Helpers that keep the builder readable.
 func and(xs ...expr) expr {

@@ -58,21 +58,21 @@ w_x_1 AS (
 ),
 w_t_1 AS (
   SELECT x.w_user AS w_user,
-    MIN(x.w_ts) AS w_t0,
-    COUNT(DISTINCT x.w_arm) AS w_narms
+    x.w_ts AS w_ts,
+    x.w_arm AS w_arm,
+    MIN(x.w_ts) OVER (PARTITION BY x.w_user) AS w_t0,
+    x.w_s1 AS w_s1
   FROM w_x_1 x
-  GROUP BY x.w_user
 ),
 w_f_1 AS (
-  SELECT x.w_user AS w_user,
-    t.w_t0 AS w_t0,
-    MIN(x.w_arm) AS w_arm,
-    CASE WHEN (t.w_narms > 1) THEN 1 ELSE 0 END AS w_multi,
-    CASE WHEN (COUNT(DISTINCT x.w_arm) > 1) THEN 1 ELSE 0 END AS w_tied,
-    MIN(x.w_s1) AS w_s1
-  FROM w_x_1 x
-  JOIN w_t_1 t ON ((x.w_user = t.w_user) AND (x.w_ts = t.w_t0))
-  GROUP BY x.w_user, t.w_t0, t.w_narms
+  SELECT t.w_user AS w_user,
+    MIN(t.w_t0) AS w_t0,
+    MIN(CASE WHEN (t.w_ts = t.w_t0) THEN t.w_arm END) AS w_arm,
+    CASE WHEN (COUNT(DISTINCT t.w_arm) > 1) THEN 1 ELSE 0 END AS w_multi,
+    CASE WHEN (COUNT(DISTINCT CASE WHEN (t.w_ts = t.w_t0) THEN t.w_arm END) > 1) THEN 1 ELSE 0 END AS w_tied,
+    MIN(CASE WHEN (t.w_ts = t.w_t0) THEN t.w_s1 END) AS w_s1
+  FROM w_t_1 t
+  GROUP BY t.w_user
 ),
 w_e_1 AS (
   SELECT r.w_user AS w_user,
@@ -150,20 +150,19 @@ w_x_2 AS (
 ),
 w_t_2 AS (
   SELECT x.w_user AS w_user,
-    MIN(x.w_ts) AS w_t0,
-    COUNT(DISTINCT x.w_arm) AS w_narms
+    x.w_ts AS w_ts,
+    x.w_arm AS w_arm,
+    MIN(x.w_ts) OVER (PARTITION BY x.w_user) AS w_t0
   FROM w_x_2 x
-  GROUP BY x.w_user
 ),
 w_f_2 AS (
-  SELECT x.w_user AS w_user,
-    t.w_t0 AS w_t0,
-    MIN(x.w_arm) AS w_arm,
-    CASE WHEN (t.w_narms > 1) THEN 1 ELSE 0 END AS w_multi,
-    CASE WHEN (COUNT(DISTINCT x.w_arm) > 1) THEN 1 ELSE 0 END AS w_tied
-  FROM w_x_2 x
-  JOIN w_t_2 t ON ((x.w_user = t.w_user) AND (x.w_ts = t.w_t0))
-  GROUP BY x.w_user, t.w_t0, t.w_narms
+  SELECT t.w_user AS w_user,
+    MIN(t.w_t0) AS w_t0,
+    MIN(CASE WHEN (t.w_ts = t.w_t0) THEN t.w_arm END) AS w_arm,
+    CASE WHEN (COUNT(DISTINCT t.w_arm) > 1) THEN 1 ELSE 0 END AS w_multi,
+    CASE WHEN (COUNT(DISTINCT CASE WHEN (t.w_ts = t.w_t0) THEN t.w_arm END) > 1) THEN 1 ELSE 0 END AS w_tied
+  FROM w_t_2 t
+  GROUP BY t.w_user
 ),
 w_e_2 AS (
   SELECT r.w_user AS w_user,
