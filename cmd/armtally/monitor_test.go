@@ -11,6 +11,7 @@ import (
 
 	"github.com/armtally/armtally/experiment/history"
 	"github.com/armtally/armtally/experiment/sequential"
+	"github.com/armtally/armtally/report"
 )
 
 // nightArgs are the analyze flags of night k (1-based) of a generated
@@ -49,6 +50,44 @@ func mixtureP(tau2 float64, counts [][4]int64) float64 {
 	return p
 }
 
+// directGS is the group-sequential decision at the last of the looks,
+// computed from the caller's own counts: the boundary experiment/sequential
+// gives for the information fractions of the looks so far (checked against
+// rpact in TestRpactTable) and the first look whose pooled z statistic in
+// zs crossed it (0: none). method is "obf" or "pocock".
+func directGS(t *testing.T, method string, fractions, zs []float64) (sequential.Look, int) {
+	t.Helper()
+	kind := sequential.OBrienFleming
+	if method == "pocock" {
+		kind = sequential.Pocock
+	}
+	b, err := sequential.Boundaries(sequential.Spending{Kind: kind, Alpha: 0.05}, sequential.TwoSided, fractions)
+	if err != nil {
+		t.Fatal(err)
+	}
+	return b.Looks[len(b.Looks)-1], b.FirstCrossing(zs)
+}
+
+// checkGSLook compares the group-sequential comparison c of night k with
+// the direct computation: fraction f, pooled z, tonight's boundary look lk
+// and the first crossing wantCross (0: none).
+func checkGSLook(t *testing.T, k int, c report.JSONSequential, f, z float64, lk sequential.Look, wantCross int) {
+	t.Helper()
+	if c.InformationFraction == nil || math.Abs(*c.InformationFraction-f) > 1e-15 ||
+		c.Boundary == nil || math.Abs(*c.Boundary-lk.Critical) > 1e-12 ||
+		c.AlphaSpent == nil || math.Abs(*c.AlphaSpent-lk.Spent) > 1e-15 ||
+		c.Statistic == nil || math.Abs(*c.Statistic-z) > 1e-9 {
+		t.Errorf("night %d: fraction %v boundary %v spent %v z %v; want %v %v %v %v", k,
+			c.InformationFraction, c.Boundary, c.AlphaSpent, c.Statistic, f, lk.Critical, lk.Spent, z)
+	}
+	if c.Crossed != (math.Abs(z) >= lk.Critical) {
+		t.Errorf("night %d: crossed %v with |z| %v against boundary %v", k, c.Crossed, math.Abs(z), lk.Critical)
+	}
+	if got := c.CrossedAtLook; (got == nil) != (wantCross == 0) || got != nil && *got != wantCross {
+		t.Errorf("night %d: crossed at look %v, want %d", k, got, wantCross)
+	}
+}
+
 // TestNightlyLooks runs generated logs night by night with --as-of into a
 // history and checks each look's sequential readout against a direct
 // computation: the information fraction from the arm counts, the
@@ -82,7 +121,7 @@ func TestNightlyLooks(t *testing.T) {
 				genArgs = append(genArgs, "--arm", a)
 			}
 			gen(t, dir, genArgs...)
-			var fractions []float64
+			var fractions, zs []float64
 			var counts [][4]int64
 			wantCross := 0
 			for k := 1; k <= nights; k++ {
@@ -121,29 +160,10 @@ func TestNightlyLooks(t *testing.T) {
 					continue
 				}
 				f := float64(min(n1, n2)) / planned
-				fractions = append(fractions, f)
-				kind := sequential.OBrienFleming
-				if tc.method == "pocock" {
-					kind = sequential.Pocock
-				}
-				b, err := sequential.Boundaries(sequential.Spending{Kind: kind, Alpha: 0.05}, sequential.TwoSided, fractions)
-				if err != nil {
-					t.Fatal(err)
-				}
-				lk := b.Looks[k-1]
-				if c.InformationFraction == nil || math.Abs(*c.InformationFraction-f) > 1e-15 ||
-					c.Boundary == nil || math.Abs(*c.Boundary-lk.Critical) > 1e-12 ||
-					c.AlphaSpent == nil || math.Abs(*c.AlphaSpent-lk.Spent) > 1e-15 ||
-					c.Statistic == nil || math.Abs(*c.Statistic-z) > 1e-9 {
-					t.Errorf("night %d: fraction %v boundary %v spent %v z %v; want %v %v %v %v", k,
-						c.InformationFraction, c.Boundary, c.AlphaSpent, c.Statistic, f, lk.Critical, lk.Spent, z)
-				}
-				if wantCross == 0 && math.Abs(z) >= lk.Critical {
-					wantCross = k
-				}
-				if got := c.CrossedAtLook; (got == nil) != (wantCross == 0) || got != nil && *got != wantCross {
-					t.Errorf("night %d: crossed at look %v, want %d", k, got, wantCross)
-				}
+				fractions, zs = append(fractions, f), append(zs, z)
+				var lk sequential.Look
+				lk, wantCross = directGS(t, tc.method, fractions, zs)
+				checkGSLook(t, k, c, f, z, lk, wantCross)
 			}
 			if tc.cross != (wantCross > 0) {
 				t.Errorf("the direct computation finds a crossing at look %d; want a crossing: %v", wantCross, tc.cross)
