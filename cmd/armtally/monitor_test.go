@@ -2,9 +2,13 @@ package main
 
 import (
 	"context"
+	"encoding/csv"
 	"fmt"
 	"math"
+	"os"
 	"path/filepath"
+	"regexp"
+	"slices"
 	"strings"
 	"testing"
 	"time"
@@ -282,3 +286,178 @@ func TestAsOfIgnoresLaterRows(t *testing.T) {
 		t.Errorf("--as-of: freshness %v, window end %v; want before and at %v", ra.Freshness, ra.WindowEnd, cut)
 	}
 }
+
+// unitLog is one unit of a clean generated CSV log (one arm, no repeat
+// exposure): its first exposure, arm and purchase times.
+type unitLog struct {
+	arm       string
+	exposed   time.Time
+	purchases []time.Time
+}
+
+// readUnits reads a generated CSV log (user_id,ts,event,experiment,arm,...)
+// into its units, apart from armtally's readers.
+func readUnits(t *testing.T, path string) map[string]*unitLog {
+	t.Helper()
+	f, err := os.Open(path)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer f.Close()
+	rows, err := csv.NewReader(f).ReadAll()
+	if err != nil {
+		t.Fatal(err)
+	}
+	units := map[string]*unitLog{}
+	for i, r := range rows[1:] {
+		ts, err := time.Parse(time.RFC3339Nano, r[1])
+		if err != nil {
+			t.Fatalf("row %d: %v", i+2, err)
+		}
+		u := units[r[0]]
+		if u == nil {
+			u = &unitLog{}
+			units[r[0]] = u
+		}
+		switch r[2] {
+		case "exposure":
+			if u.arm != "" {
+				t.Fatalf("row %d: unit %s exposed twice; the log is meant to be clean", i+2, r[0])
+			}
+			u.arm, u.exposed = r[4], ts
+		case "purchase":
+			u.purchases = append(u.purchases, ts)
+		}
+	}
+	return units
+}
+
+// countAsOf counts, per arm, the units exposed before asOf and those with
+// a purchase in [exposure, exposure + 7 days) before asOf: the event
+// semantics of experiment/DESIGN.md ("Conversion"), immature units
+// included.
+func countAsOf(units map[string]*unitLog, asOf time.Time) (n, x map[string]int64) {
+	n, x = map[string]int64{}, map[string]int64{}
+	for _, u := range units {
+		if u.arm == "" || !u.exposed.Before(asOf) {
+			continue
+		}
+		n[u.arm]++
+		end := u.exposed.Add(7 * 24 * time.Hour)
+		for _, p := range u.purchases {
+			if p.Before(u.exposed) || !p.Before(end) || !p.Before(asOf) {
+				continue
+			}
+			x[u.arm]++
+			break
+		}
+	}
+	return n, x
+}
+
+// TestThirtyNights analyses a 30-day generated log (one arm per unit, no
+// noise) night by night with --as-of into a history, with
+// O'Brien-Fleming-type monitoring. Each night's arm counts must equal the
+// counts this test takes from the CSV itself; the last readout's
+// sequential decision (fraction, z, boundary, alpha spent, crossed, first
+// crossing) must equal directGS on those counts; the chart over the looks
+// must draw 30 points per arm for the rate, 30 for the statistic and 29
+// per arm for the new units per day (which needs a previous look), plus
+// one per legend entry; and rerunning night 30 must leave 30 looks.
+func TestThirtyNights(t *testing.T) {
+	const nights, planned = 30, 3000
+	dir := t.TempDir()
+	log, hist := filepath.Join(dir, "ev.csv"), filepath.Join(dir, "h.db")
+	gen(t, dir, "--users", "6000", "--days", "30", "--seed", "7", "--cross-arm", "0", "--repeat-exposure", "0",
+		"--pre-exposure-conversion", "0", "--never-exposed", "0", "--noise", "0",
+		"--arm", "control=1:0.10,0.04", "--arm", "fast=1:0.15,0.04", "--csv", log)
+	units := readUnits(t, log)
+	var fractions, zs []float64
+	seq := []string{"--sequential", "purchase=obf", "--planned-units", fmt.Sprint(planned), "--allow-absent-event", "purchase", "-o", filepath.Join(dir, "n.md")}
+	out, svg := filepath.Join(dir, "n30.json"), filepath.Join(dir, "looks.svg")
+	for k := 1; k <= nights; k++ {
+		n, x := countAsOf(units, time.Date(2026, 11, 2+k, 0, 0, 0, 0, time.UTC))
+		fractions = append(fractions, float64(min(n["fast"], n["control"]))/planned)
+		zs = append(zs, pooledZ(x["fast"], n["fast"], x["control"], n["control"]))
+		args := seq
+		if k == nights {
+			args = append(slices.Clone(seq), "--json", out, "--looks-chart", svg)
+		}
+		if code, _, stderr := runCmd(t, nightArgs(log, hist, k, args...)...); code != exitOK {
+			t.Fatalf("night %d: exit %d: %s", k, code, stderr)
+		}
+		if k < nights {
+			continue
+		}
+		raw, doc := readDoc(t, out)
+		validate(t, raw)
+		r := doc.Readouts[0]
+		for _, a := range r.Metrics[0].Arms {
+			if a.Units != n[a.Arm] || a.Conversions != x[a.Arm] {
+				t.Errorf("night %d, %s: %d of %d converted; counted here %d of %d", k, a.Arm, a.Conversions, a.Units, x[a.Arm], n[a.Arm])
+			}
+		}
+		if r.Monitoring == nil || r.Monitoring.Look != nights || len(r.Monitoring.Comparisons) != 1 {
+			t.Fatalf("night %d: monitoring %+v, want look %d with one comparison", k, r.Monitoring, nights)
+		}
+		lk, first := directGS(t, "obf", fractions, zs)
+		checkGSLook(t, k, r.Monitoring.Comparisons[0], fractions[k-1], zs[k-1], lk, first)
+		t.Logf("night %d: fraction %.4f, z %.3f, boundary %.3f, first crossing at look %d (0: none)", k, fractions[k-1], zs[k-1], lk.Critical, first)
+	}
+	checkLooksChart(t, fileContent(t, svg), nights)
+	if code, _, stderr := runCmd(t, nightArgs(log, hist, nights, seq...)...); code != exitOK {
+		t.Fatalf("rerun of night %d: exit %d: %s", nights, code, stderr)
+	}
+	store, err := history.Open(context.Background(), hist)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer store.Close()
+	looks, err := store.Looks(context.Background(), "checkout-flow-2026")
+	if err != nil {
+		t.Fatal(err)
+	}
+	if len(looks) != nights {
+		t.Errorf("history holds %d looks after rerunning night %d, want %d", len(looks), nights, nights)
+	}
+}
+
+// checkLooksChart counts the points of the chart over the looks of a run
+// with one treatment: gonum/plot draws each series' points as consecutive
+// circle paths right after its line, and one circle per legend entry. The
+// runs of two or more circles must be, in order, the rate of each arm
+// (nights points each), the statistic (nights) and the new units per day
+// of each arm (nights - 1, from the second look on); the lone circles are
+// the five legend glyphs.
+func checkLooksChart(t *testing.T, svg string, nights int) {
+	t.Helper()
+	var runs []int
+	legend, cur := 0, 0
+	flush := func() {
+		switch {
+		case cur == 1:
+			legend++
+		case cur > 1:
+			runs = append(runs, cur)
+		}
+		cur = 0
+	}
+	for _, line := range strings.Split(svg, "\n") {
+		if !strings.HasPrefix(line, "<path ") {
+			continue
+		}
+		if circle.MatchString(line) {
+			cur++
+			continue
+		}
+		flush()
+	}
+	flush()
+	want := []int{nights, nights, nights, nights - 1, nights - 1}
+	if !slices.Equal(runs, want) || legend != 5 {
+		t.Errorf("chart over the looks: series of %v points and %d legend glyphs; want %v and 5", runs, legend, want)
+	}
+}
+
+// circle matches the start of a circle glyph in gonum/plot's SVG.
+var circle = regexp.MustCompile(`^<path d="M[-0-9.]+,[-0-9.]+A`)
