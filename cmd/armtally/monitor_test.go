@@ -357,7 +357,7 @@ func countAsOf(units map[string]*unitLog, asOf time.Time) (n, x map[string]int64
 
 // TestThirtyNights analyses a 30-day generated log (one arm per unit, no
 // noise) night by night with --as-of into a history, with
-// O'Brien-Fleming-type monitoring. Each night's arm counts must equal the
+// O'Brien-Fleming-type monitoring. The last night's arm counts must equal the
 // counts this test takes from the CSV itself; the last readout's
 // sequential decision (fraction, z, boundary, alpha spent, crossed, first
 // crossing) must equal directGS on those counts; the chart over the looks
