@@ -177,6 +177,21 @@ func TestNightlyLooks(t *testing.T) {
 	}
 }
 
+// storedLooks reads the looks of checkout-flow-2026 from the history file.
+func storedLooks(t *testing.T, hist string) []history.Look {
+	t.Helper()
+	store, err := history.Open(context.Background(), hist)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer store.Close()
+	looks, err := store.Looks(context.Background(), "checkout-flow-2026")
+	if err != nil {
+		t.Fatal(err)
+	}
+	return looks
+}
+
 // TestNightRerunReplaces reruns a past night into a history of three: the
 // history keeps three looks, the rerun is look 2 again, and the exit codes
 // 8 and 9 come when asked for.
@@ -198,16 +213,7 @@ func TestNightRerunReplaces(t *testing.T) {
 	if m := doc.Readouts[0].Monitoring; m == nil || m.Look != 2 || m.PreviousAt == nil {
 		t.Errorf("rerun of night 2: %+v, want look 2 with a previous look", m)
 	}
-	store, err := history.Open(context.Background(), hist)
-	if err != nil {
-		t.Fatal(err)
-	}
-	defer store.Close()
-	looks, err := store.Looks(context.Background(), "checkout-flow-2026")
-	if err != nil {
-		t.Fatal(err)
-	}
-	if len(looks) != 3 {
+	if looks := storedLooks(t, hist); len(looks) != 3 {
 		t.Errorf("history holds %d looks after a rerun, want 3", len(looks))
 	}
 	// The chart over the looks: the same history gives the same bytes,
@@ -408,16 +414,7 @@ func TestThirtyNights(t *testing.T) {
 	if code, _, stderr := runCmd(t, nightArgs(log, hist, nights, seq...)...); code != exitOK {
 		t.Fatalf("rerun of night %d: exit %d: %s", nights, code, stderr)
 	}
-	store, err := history.Open(context.Background(), hist)
-	if err != nil {
-		t.Fatal(err)
-	}
-	defer store.Close()
-	looks, err := store.Looks(context.Background(), "checkout-flow-2026")
-	if err != nil {
-		t.Fatal(err)
-	}
-	if len(looks) != nights {
+	if looks := storedLooks(t, hist); len(looks) != nights {
 		t.Errorf("history holds %d looks after rerunning night %d, want %d", len(looks), nights, nights)
 	}
 }
