@@ -95,7 +95,9 @@ type ArmProgress struct {
 
 // Change is one thing that changed since the previous look.
 type Change struct {
-	// Kind is "decision_flipped" or "estimate_moved".
+	// Kind is "decision_flipped", "estimate_moved" or "new_warning" (a
+	// warning code the previous look did not have, in Details; Metric
+	// and Treatment empty).
 	Kind                       string
 	Metric, Treatment, Details string
 }

@@ -117,10 +117,14 @@ func changesLine(m *experiment.Monitoring) string {
 		return "Changes since the previous look: none to compare (first look)."
 	}
 	if len(m.Changes) == 0 {
-		return "Changes since the previous look: no decision flipped and no estimate moved outside tonight's interval."
+		return "Changes since the previous look: no decision flipped, no estimate moved outside tonight's interval and no new warning."
 	}
 	var parts []string
 	for _, c := range m.Changes {
+		if c.Kind == "new_warning" {
+			parts = append(parts, "new warning "+code(c.Details))
+			continue
+		}
 		parts = append(parts, fmt.Sprintf("%s, %s: %s (%s)", code(c.Metric), code(c.Treatment), strings.ReplaceAll(c.Kind, "_", " "), c.Details))
 	}
 	return "Changes since the previous look: " + strings.Join(parts, "; ") + "."

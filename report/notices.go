@@ -54,6 +54,12 @@ var warningCodes = map[experiment.WarningCode]string{
 	experiment.WarnStateRecomputed:           "state_recomputed",
 }
 
+// WarningCode returns the stable code of one of the analysis's warnings,
+// as the JSON readout writes it (the history stores it too).
+func WarningCode(c experiment.WarningCode) string {
+	return warningCode(c)
+}
+
 // warningCode is the code of one of the analysis's warnings.
 func warningCode(c experiment.WarningCode) string {
 	if s, ok := warningCodes[c]; ok {

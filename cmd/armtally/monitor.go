@@ -76,7 +76,7 @@ type monitorRun struct {
 // later or unset.
 func applyMonitor(f *monitorFlags, run *analyzeRun) (*monitorRun, error) {
 	m := &monitorRun{history: f.history, exitOn: f.exitOnBoundary, looksChart: f.looksChart,
-		settings: monitor.Settings{Methods: map[string]monitor.Method{}, PlannedUnits: f.plannedUnits,
+		settings: monitor.Settings{Methods: map[string]monitor.Method{}, PlannedUnits: f.plannedUnits, WarningName: report.WarningCode,
 			MixingVariance: f.mixingVariance, History: f.history != ""}}
 	m.on = len(f.sequential) > 0 || f.history != "" || f.maxStaleness != "" || f.exitOnBoundary
 	for _, v := range f.sequential {

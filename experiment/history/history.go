@@ -7,6 +7,7 @@ import (
 	"fmt"
 	"math"
 	"net/url"
+	"slices"
 	"sort"
 	"time"
 
@@ -82,6 +83,13 @@ type Look struct {
 	Arms        []ArmLook
 	Comparisons []ComparisonLook
 	Exposures   []DailyExposure
+	// Warnings are the codes of the readout's warnings at the look
+	// (readout-wide, per metric and per comparison), each once; Put
+	// stores them sorted. WarningsRecorded is false for a look written
+	// before schema version 3, whose warnings are unknown (Put always
+	// records them).
+	Warnings         []string
+	WarningsRecorded bool
 }
 
 // ArmLook is one arm's counts for one metric at the look.
@@ -175,9 +183,16 @@ func writeLook(ctx context.Context, tx *sql.Tx, l Look, key string) error {
 	if _, err := tx.ExecContext(ctx, `DELETE FROM looks WHERE experiment = ? AND look_at = ?`, l.Experiment, key); err != nil {
 		return err
 	}
-	if _, err := tx.ExecContext(ctx, `INSERT INTO looks (experiment, look_at, key_kind, written_at) VALUES (?, ?, ?, ?)`,
+	if _, err := tx.ExecContext(ctx, `INSERT INTO looks (experiment, look_at, key_kind, written_at, warnings_recorded) VALUES (?, ?, ?, ?, 1)`,
 		l.Experiment, key, string(l.KeyKind), l.WrittenAt.UTC().Format(keyLayout)); err != nil {
 		return err
+	}
+	codes := slices.Clone(l.Warnings)
+	slices.Sort(codes)
+	for _, code := range slices.Compact(codes) {
+		if _, err := tx.ExecContext(ctx, `INSERT INTO look_warnings (experiment, look_at, code) VALUES (?, ?, ?)`, l.Experiment, key, code); err != nil {
+			return fmt.Errorf("warning %q: %w", code, err)
+		}
 	}
 	for _, a := range l.Arms {
 		if _, err := tx.ExecContext(ctx, `INSERT INTO arm_looks (experiment, look_at, metric, arm, units, conversions) VALUES (?, ?, ?, ?, ?, ?)`,
@@ -237,7 +252,7 @@ func (s *Store) Looks(ctx context.Context, experiment string) ([]Look, error) {
 }
 
 func readLooks(ctx context.Context, tx *sql.Tx, experiment string) ([]Look, error) {
-	rows, err := tx.QueryContext(ctx, `SELECT look_at, key_kind, written_at FROM looks WHERE experiment = ? ORDER BY look_at`, experiment)
+	rows, err := tx.QueryContext(ctx, `SELECT look_at, key_kind, written_at, warnings_recorded FROM looks WHERE experiment = ? ORDER BY look_at`, experiment)
 	if err != nil {
 		return nil, err
 	}
@@ -245,11 +260,12 @@ func readLooks(ctx context.Context, tx *sql.Tx, experiment string) ([]Look, erro
 	index := map[string]int{}
 	for rows.Next() {
 		var at, kind, written string
-		if err := rows.Scan(&at, &kind, &written); err != nil {
+		var recorded bool
+		if err := rows.Scan(&at, &kind, &written, &recorded); err != nil {
 			rows.Close()
 			return nil, err
 		}
-		l := Look{Experiment: experiment, KeyKind: KeyKind(kind)}
+		l := Look{Experiment: experiment, KeyKind: KeyKind(kind), WarningsRecorded: recorded}
 		if l.At, err = time.Parse(keyLayout, at); err != nil {
 			rows.Close()
 			return nil, fmt.Errorf("look_at %q: %w", at, err)
@@ -270,7 +286,43 @@ func readLooks(ctx context.Context, tx *sql.Tx, experiment string) ([]Look, erro
 	if err := readComparisons(ctx, tx, experiment, looks, index); err != nil {
 		return nil, err
 	}
-	return looks, readExposures(ctx, tx, experiment, looks, index)
+	if err := readExposures(ctx, tx, experiment, looks, index); err != nil {
+		return nil, err
+	}
+	return looks, readWarnings(ctx, tx, experiment, looks, index)
+}
+
+func readWarnings(ctx context.Context, tx *sql.Tx, experiment string, looks []Look, index map[string]int) error {
+	rows, err := tx.QueryContext(ctx, `SELECT look_at, code FROM look_warnings WHERE experiment = ? ORDER BY look_at, code`, experiment)
+	if err != nil {
+		return err
+	}
+	defer rows.Close()
+	for rows.Next() {
+		var at, code string
+		if err := rows.Scan(&at, &code); err != nil {
+			return err
+		}
+		looks[index[at]].Warnings = append(looks[index[at]].Warnings, code)
+	}
+	return rows.Err()
+}
+
+// NewWarnings returns the warning codes of now that prev did not have, in
+// order; nil when prev's warnings were not recorded (a look written before
+// schema version 3), since then nothing can be called new.
+func NewWarnings(prev, now Look) []string {
+	if !prev.WarningsRecorded {
+		return nil
+	}
+	var out []string
+	for _, c := range now.Warnings {
+		if !slices.Contains(prev.Warnings, c) && !slices.Contains(out, c) {
+			out = append(out, c)
+		}
+	}
+	slices.Sort(out)
+	return out
 }
 
 func readArms(ctx context.Context, tx *sql.Tx, experiment string, looks []Look, index map[string]int) error {

@@ -9,6 +9,7 @@ import (
 	"os/exec"
 	"path/filepath"
 	"reflect"
+	"slices"
 	"sync"
 	"testing"
 	"time"
@@ -25,6 +26,8 @@ func night(day int, units int64) Look {
 		At:         at,
 		KeyKind:    AsOf,
 		WrittenAt:  at.Add(time.Hour),
+		// Put always records the warnings, so a look read back has this set.
+		WarningsRecorded: true,
 		Arms: []ArmLook{
 			{Metric: "purchase", Arm: "control", Units: units, Conversions: units / 10},
 			{Metric: "purchase", Arm: "one-page", Units: units + 7, Conversions: units/10 + 3},
@@ -287,5 +290,60 @@ func TestMigrateFromVersion1(t *testing.T) {
 	}
 	if _, err := Open(ctx, path); err == nil {
 		t.Error("a newer schema was opened")
+	}
+}
+
+// TestMigrateFromVersion2 makes a version-2 file with one look, opens it
+// with Open (version 3 adds the looks' warning codes): the old look reads
+// back with its warnings not recorded, so NewWarnings calls nothing new
+// against it; a look written now stores its codes sorted and once; a
+// rerun of the same night replaces them; NewWarnings lists the codes the
+// later look has and the earlier did not.
+func TestMigrateFromVersion2(t *testing.T) {
+	path := filepath.Join(t.TempDir(), "v2.sqlite")
+	ctx := context.Background()
+	old, err := open(ctx, path, 2)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if _, err := old.db.Exec(`INSERT INTO looks VALUES ('checkout-flow-2026', '2026-11-03T06:00:00.000000000Z', 'as-of', '2026-11-03T07:00:00.000000000Z')`); err != nil {
+		t.Fatal(err)
+	}
+	old.Close()
+	s := openT(t, path)
+	l2 := night(2, 200)
+	l2.Warnings = []string{"few_conversions", "open_window_event_log", "few_conversions"}
+	if err := s.Put(ctx, l2); err != nil {
+		t.Fatal(err)
+	}
+	got, err := s.Looks(ctx, "checkout-flow-2026")
+	if err != nil {
+		t.Fatal(err)
+	}
+	if len(got) != 2 || got[0].WarningsRecorded || got[0].Warnings != nil || !got[1].WarningsRecorded ||
+		!slices.Equal(got[1].Warnings, []string{"few_conversions", "open_window_event_log"}) {
+		t.Fatalf("looks after migration: %+v", got)
+	}
+	if n := NewWarnings(got[0], got[1]); n != nil {
+		t.Errorf("new warnings against a look whose warnings were not recorded: %v", n)
+	}
+	l3 := night(3, 300)
+	l3.Warnings = []string{"state_recomputed", "few_conversions"}
+	if err := s.Put(ctx, l3); err != nil {
+		t.Fatal(err)
+	}
+	if n := NewWarnings(got[1], l3); !slices.Equal(n, []string{"state_recomputed"}) {
+		t.Errorf("new warnings %v, want [state_recomputed]", n)
+	}
+	l3.Warnings = nil
+	if err := s.Put(ctx, l3); err != nil {
+		t.Fatal(err)
+	}
+	got, err = s.Looks(ctx, "checkout-flow-2026")
+	if err != nil {
+		t.Fatal(err)
+	}
+	if len(got) != 3 || got[2].Warnings != nil || !got[2].WarningsRecorded {
+		t.Errorf("the rerun of night 3 kept warnings %v (recorded %v)", got[2].Warnings, got[2].WarningsRecorded)
 	}
 }

@@ -62,10 +62,24 @@ var migrations = [][]string{
 		)`,
 		`ALTER TABLE comparison_looks ADD COLUMN boundary_nominal_p REAL`,
 	},
+	// Version 3: the readout's warning codes at each look, so a run can
+	// say which warnings are new since the previous look. A look written
+	// before version 3 has warnings_recorded 0: its warnings are unknown,
+	// not absent.
+	{
+		`CREATE TABLE look_warnings (
+			experiment TEXT NOT NULL,
+			look_at TEXT NOT NULL,
+			code TEXT NOT NULL,          -- the JSON readout's warning code
+			PRIMARY KEY (experiment, look_at, code),
+			FOREIGN KEY (experiment, look_at) REFERENCES looks (experiment, look_at) ON DELETE CASCADE
+		)`,
+		`ALTER TABLE looks ADD COLUMN warnings_recorded INTEGER NOT NULL DEFAULT 0`,
+	},
 }
 
 // SchemaVersion is the schema version this package writes: len(migrations).
-const SchemaVersion = 2
+const SchemaVersion = 3
 
 // migrate brings the file to version upTo (at most SchemaVersion) in one
 // immediate transaction, so two runs opening the same new file at once

@@ -73,6 +73,10 @@ type Settings struct {
 	// MaxStaleness, when positive, raises the stale alert when the data's
 	// freshness is older than this at At.
 	MaxStaleness time.Duration
+	// WarningName gives a warning's stable code (the JSON readout's), the
+	// form the history stores; nil stores no warnings, and then no
+	// warning is reported as new.
+	WarningName func(experiment.WarningCode) string
 }
 
 func (s Settings) method(metric string) Method {
@@ -116,6 +120,7 @@ func Compute(r experiment.Readout, s Settings, looks []history.Look) (*experimen
 			m.Alerts.BoundaryCrossed = m.Alerts.BoundaryCrossed || sc.CrossedAtLook > 0
 		}
 	}
+	look.Warnings = warningNames(r, s.WarningName)
 	progress(r, s, m)
 	m.Changes = changes(r, s, earlier, look)
 	stale(r, s, m)
@@ -236,4 +241,29 @@ func firstRejected(rejected []bool) int {
 		return i + 1
 	}
 	return 0
+}
+
+// warningNames returns the names of the readout's warnings (readout-wide,
+// per metric, per comparison and per non-inferiority test), each once,
+// sorted; nil when name is nil.
+func warningNames(r experiment.Readout, name func(experiment.WarningCode) string) []string {
+	if name == nil {
+		return nil
+	}
+	ws := slices.Clone(r.Warnings)
+	for _, mr := range r.Metrics {
+		ws = append(ws, mr.Warnings...)
+		for _, c := range mr.Comparisons {
+			ws = append(ws, c.Warnings...)
+			if c.NonInferiority != nil {
+				ws = append(ws, c.NonInferiority.Warnings...)
+			}
+		}
+	}
+	out := []string{}
+	for _, w := range ws {
+		out = append(out, name(w.Code))
+	}
+	slices.Sort(out)
+	return slices.Compact(out)
 }

@@ -2,6 +2,7 @@ package monitor
 
 import (
 	"math"
+	"slices"
 	"testing"
 	"time"
 
@@ -132,5 +133,51 @@ func TestParseMethod(t *testing.T) {
 		if got != tc.want || (err == nil) != tc.ok {
 			t.Errorf("ParseMethod(%q) = %v, %v", tc.in, got, err)
 		}
+	}
+}
+
+// TestNewWarnings stores tonight's warning codes with the look and lists,
+// as new_warning changes, the codes the previous look did not have; a
+// previous look whose warnings were not recorded (written before history
+// schema version 3) gives none.
+func TestNewWarnings(t *testing.T) {
+	name := func(c experiment.WarningCode) string {
+		return map[experiment.WarningCode]string{1: "one", 2: "two", 3: "three"}[c]
+	}
+	r := readout(1000, 120, 1.4, 0.0, 0.05, 1)
+	r.Warnings = []experiment.Warning{{Code: 2}}
+	r.Metrics[0].Comparisons[0].Warnings = []experiment.Warning{{Code: 3}, {Code: 1}, {Code: 3}}
+	settings := Settings{Default: OBrienFleming, PlannedUnits: 2000, At: night, KeyKind: history.AsOf, Now: night, WarningName: name}
+	cases := []struct {
+		name     string
+		recorded bool
+		prev     []string
+		want     []string
+	}{
+		{"previous look had one of them", true, []string{"two"}, []string{"one", "three"}},
+		{"previous look had all", true, []string{"one", "three", "two"}, nil},
+		{"previous look's warnings unknown", false, nil, nil},
+	}
+	for _, tc := range cases {
+		t.Run(tc.name, func(t *testing.T) {
+			prev := earlier(0.4, 1, false, 900, 90)
+			prev.Warnings, prev.WarningsRecorded = tc.prev, tc.recorded
+			m, look, err := Compute(r, settings, []history.Look{prev})
+			if err != nil {
+				t.Fatal(err)
+			}
+			if got := look.Warnings; !slices.Equal(got, []string{"one", "three", "two"}) {
+				t.Errorf("stored warnings %v, want [one three two]", got)
+			}
+			var got []string
+			for _, c := range m.Changes {
+				if c.Kind == "new_warning" {
+					got = append(got, c.Details)
+				}
+			}
+			if !slices.Equal(got, tc.want) {
+				t.Errorf("new warnings %v, want %v", got, tc.want)
+			}
+		})
 	}
 }

@@ -89,14 +89,18 @@ func primaryMetrics(r experiment.Readout) int {
 
 // changes lists what changed since the previous look: a comparison whose
 // decision (fixed-horizon significance, or the sequential crossing)
-// flipped, and an estimate whose previous value lies outside tonight's
-// difference interval.
+// flipped, an estimate whose previous value lies outside tonight's
+// difference interval, and each warning code tonight has that the
+// previous look did not (history.NewWarnings).
 func changes(r experiment.Readout, s Settings, earlier []history.Look, now history.Look) []experiment.Change {
 	if len(earlier) == 0 {
 		return nil
 	}
 	prev := earlier[len(earlier)-1]
 	var out []experiment.Change
+	for _, code := range history.NewWarnings(prev, now) {
+		out = append(out, experiment.Change{Kind: "new_warning", Details: code})
+	}
 	for _, mr := range r.Metrics {
 		for _, c := range mr.Comparisons {
 			before, ok1 := lookComparison(prev, mr.Name, c.Treatment)
