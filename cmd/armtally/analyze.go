@@ -246,6 +246,9 @@ type builtExperiment struct {
 	metricColumns []ingest.ColumnMap
 	// allowAbsent lists the events that may occur in no row.
 	allowAbsent []string
+	// monitoring is the spec file's monitoring settings of the
+	// experiment (empty without a file).
+	monitoring specfile.Monitoring
 }
 
 // parseAnalyze parses the analyze command line, and the spec file it
@@ -286,7 +289,7 @@ func parseAnalyzeRun(args []string, stdout, stderr io.Writer) (*analyzeRun, erro
 			return nil, err
 		}
 		run.experiments = append(run.experiments, builtExperiment{spec: spec, opts: opts, metricColumns: e.MetricColumns(),
-			allowAbsent: e.AllowAbsentEvents()})
+			allowAbsent: e.AllowAbsentEvents(), monitoring: e.Monitoring()})
 	}
 	// Flags the user set override the file's values; without a file,
 	// every flag applies.
@@ -303,7 +306,7 @@ func parseAnalyzeRun(args []string, stdout, stderr io.Writer) (*analyzeRun, erro
 	if err := applyOutputs(&f, sf, override, run); err != nil {
 		return nil, err
 	}
-	if run.monitor, err = applyMonitor(f.monitor, run); err != nil {
+	if run.monitor, err = applyMonitor(specMonitorFlags(f.monitor, sf, override), run); err != nil {
 		return nil, err
 	}
 	if err := applyMemoryLimit(&f, run); err != nil {

@@ -5,6 +5,7 @@ import (
 	"errors"
 	"fmt"
 	"io"
+	"slices"
 	"strings"
 	"time"
 
@@ -43,6 +44,15 @@ type monitorFlags struct {
 	maxStaleness   string
 	exitOnBoundary bool
 	looksChart     string
+	// given says whether a flag was given (every flag, without a spec
+	// file); nil means none was.
+	given func(string) bool
+	// historyFrom and chartFrom say where the history file and the chart
+	// over the looks were named: the flag or the spec file's key.
+	historyFrom, chartFrom string
+	// fileStaleness is the spec file's output.max_staleness when
+	// --max-staleness is not given.
+	fileStaleness time.Duration
 }
 
 func defineMonitorFlags(fs *pflag.FlagSet) *monitorFlags {
@@ -58,13 +68,45 @@ func defineMonitorFlags(fs *pflag.FlagSet) *monitorFlags {
 	return f
 }
 
+// specMonitorFlags returns the monitoring flags with the spec file's
+// output.history, output.looks_chart, output.max_staleness and
+// output.exit_on_boundary in place of the flags not given; override says
+// whether a flag was given (always, without a file).
+func specMonitorFlags(f *monitorFlags, sf *specfile.File, override func(string) bool) *monitorFlags {
+	g := *f
+	g.given, g.historyFrom, g.chartFrom = override, "--history", "--looks-chart"
+	if sf == nil {
+		return &g
+	}
+	if !override("history") && sf.History != "" {
+		g.history, g.historyFrom = sf.History, "output.history in "+sf.Name
+	}
+	if !override("looks-chart") && sf.LooksChart != "" {
+		g.looksChart, g.chartFrom = sf.LooksChart, "output.looks_chart in "+sf.Name
+	}
+	if !override("max-staleness") && sf.MaxStaleness > 0 {
+		g.fileStaleness = sf.MaxStaleness
+	}
+	if !override("exit-on-boundary") && sf.ExitOnBoundary != nil {
+		g.exitOnBoundary = *sf.ExitOnBoundary
+	}
+	return &g
+}
+
 // monitorRun is the run's monitoring settings, checked.
 type monitorRun struct {
 	on       bool
 	settings monitor.Settings
-	history  string
-	asOf     *time.Time
-	exitOn   bool
+	// perExp[i] is the settings of experiment i: settings with the spec
+	// file's methods, planned units and mixing variance where the flags
+	// leave them.
+	perExp  []monitor.Settings
+	history string
+	// historyFrom and chartFrom name where the history file and the
+	// chart over the looks were named, for messages.
+	historyFrom, chartFrom string
+	asOf                   *time.Time
+	exitOn                 bool
 	// looksChart is the --looks-chart file; looks[i] are readout i's
 	// looks, tonight's included, once monitorLooks has run.
 	looksChart string
@@ -78,7 +120,8 @@ func applyMonitor(f *monitorFlags, run *analyzeRun) (*monitorRun, error) {
 	m := &monitorRun{history: f.history, exitOn: f.exitOnBoundary, looksChart: f.looksChart,
 		settings: monitor.Settings{Methods: map[string]monitor.Method{}, PlannedUnits: f.plannedUnits, WarningName: report.WarningCode,
 			MixingVariance: f.mixingVariance, History: f.history != ""}}
-	m.on = len(f.sequential) > 0 || f.history != "" || f.maxStaleness != "" || f.exitOnBoundary
+	m.on = len(f.sequential) > 0 || f.history != "" || f.maxStaleness != "" || f.exitOnBoundary || f.fileStaleness > 0
+	m.settings.MaxStaleness = f.fileStaleness
 	for _, v := range f.sequential {
 		if err := m.method(v, run); err != nil {
 			return nil, err
@@ -90,8 +133,8 @@ func applyMonitor(f *monitorFlags, run *analyzeRun) (*monitorRun, error) {
 	if !(f.mixingVariance > 0) {
 		return nil, usagef("analyze: --mixing-variance %v: want a positive number", f.mixingVariance)
 	}
-	if f.plannedUnits == 0 && m.needsPlan() {
-		return nil, usagef("analyze: --sequential obf or pocock needs --planned-units N (the planned units per arm, from 'armtally plan')")
+	if err := m.applySpec(f, run); err != nil {
+		return nil, err
 	}
 	if f.maxStaleness != "" {
 		d, err := specfile.ParseWindow(f.maxStaleness)
@@ -106,11 +149,12 @@ func applyMonitor(f *monitorFlags, run *analyzeRun) (*monitorRun, error) {
 		}
 	}
 	if f.looksChart != "" && f.history == "" {
-		return nil, usagef("analyze: --looks-chart draws the looks of --history: give --history FILE")
+		return nil, usagef("analyze: %s draws the looks of --history: give --history FILE (or output.history)", f.chartFrom)
 	}
 	if m.on && len(run.experiments) > 0 && run.shape != experiment.InputEventLog && f.history != "" {
-		return nil, usagef("analyze: --history reads the looks of an event log; a unit or counts table has no data freshness to key them by")
+		return nil, usagef("analyze: %s reads the looks of an event log; a unit or counts table has no data freshness to key them by", f.historyFrom)
 	}
+	m.historyFrom, m.chartFrom = f.historyFrom, f.chartFrom
 	return m, nil
 }
 
@@ -138,17 +182,66 @@ func (m *monitorRun) method(v string, run *analyzeRun) error {
 	return usagef("analyze: --sequential %q: no metric named %q", v, name)
 }
 
-func (m *monitorRun) needsPlan() bool {
-	gs := func(x monitor.Method) bool { return x == monitor.OBrienFleming || x == monitor.Pocock }
-	if gs(m.settings.Default) {
-		return true
+// applySpec sets each experiment's settings: the --sequential flags
+// replace the spec file's experiment.metric.sequential keys when given;
+// --planned-units and --mixing-variance, when given, replace
+// experiment.planned_units and experiment.mixing_variance.
+func (m *monitorRun) applySpec(f *monitorFlags, run *analyzeRun) error {
+	given := func(name string) bool { return f.given == nil || f.given(name) }
+	for _, e := range run.experiments {
+		s := m.settings
+		fm := e.monitoring
+		if len(f.sequential) == 0 && len(fm.Sequential) > 0 {
+			m.on = true
+			s.Methods = map[string]monitor.Method{}
+			for name, v := range fm.Sequential {
+				meth, err := monitor.ParseMethod(v)
+				if err != nil {
+					return err // the spec file checked it
+				}
+				s.Methods[name] = meth
+			}
+		}
+		if !given("planned-units") && fm.PlannedUnits > 0 {
+			s.PlannedUnits = fm.PlannedUnits
+		}
+		if !given("mixing-variance") && fm.MixingVariance > 0 {
+			s.MixingVariance = fm.MixingVariance
+		}
+		if s.PlannedUnits > 0 {
+			m.perExp = append(m.perExp, s)
+			continue
+		}
+		if name, ok := needsPlan(s); ok {
+			if o, fromFile := fm.From[name]; fromFile && len(f.sequential) == 0 {
+				return &specfile.Error{File: o.File, Line: o.Line, Key: o.Key,
+					Msg: fmt.Sprintf("%q needs the planned units per arm: set experiment.planned_units or give --planned-units", fm.Sequential[name])}
+			}
+			return usagef("analyze: --sequential obf or pocock needs --planned-units N (the planned units per arm, from 'armtally plan')")
+		}
+		m.perExp = append(m.perExp, s)
 	}
-	for _, x := range m.settings.Methods {
+	return nil
+}
+
+// needsPlan returns a metric whose method needs the planned units ("" for
+// the default method), if any.
+func needsPlan(s monitor.Settings) (string, bool) {
+	gs := func(x monitor.Method) bool { return x == monitor.OBrienFleming || x == monitor.Pocock }
+	if gs(s.Default) {
+		return "", true
+	}
+	var names []string
+	for name, x := range s.Methods {
 		if gs(x) {
-			return true
+			names = append(names, name)
 		}
 	}
-	return false
+	if len(names) == 0 {
+		return "", false
+	}
+	slices.Sort(names)
+	return names[0], true
 }
 
 func (m *monitorRun) applyAsOf(v string, run *analyzeRun) error {
@@ -192,6 +285,9 @@ func monitorLooks(ctx context.Context, m *monitorRun, res *pipeline.Result) erro
 	for i := range res.Readouts {
 		r := &res.Readouts[i]
 		s := m.settings
+		if i < len(m.perExp) {
+			s = m.perExp[i]
+		}
 		s.Now = time.Now()
 		switch {
 		case m.asOf != nil:
@@ -323,11 +419,11 @@ func monitorOutputs(run *analyzeRun) []report.OutputPath {
 	}
 	var outs []report.OutputPath
 	if m.history != "" {
-		outs = append(outs, report.OutputPath{From: "--history", Path: m.history})
+		outs = append(outs, report.OutputPath{From: m.historyFrom, Path: m.history})
 	}
 	if m.looksChart != "" {
 		for _, e := range run.experiments {
-			outs = append(outs, report.OutputPath{From: "--looks-chart", Path: report.PerExperimentPath(m.looksChart, e.spec.Key, len(run.experiments))})
+			outs = append(outs, report.OutputPath{From: m.chartFrom, Path: report.PerExperimentPath(m.looksChart, e.spec.Key, len(run.experiments))})
 		}
 	}
 	return outs

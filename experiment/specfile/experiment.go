@@ -32,6 +32,9 @@ func (sf *File) parseExperiment(l *locator, i int, fe fileExperiment) (*Settings
 	if err := parseAnalysis(e, at, fe); err != nil {
 		return nil, err
 	}
+	if err := parseMonitoring(e, at, fe); err != nil {
+		return nil, err
+	}
 	if fe.Segments != nil {
 		seen := map[string]bool{}
 		for j, s := range fe.Segments {

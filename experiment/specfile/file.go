@@ -5,6 +5,7 @@ import (
 	"fmt"
 	"path/filepath"
 	"strings"
+	"time"
 
 	"github.com/armtally/armtally/experiment"
 	"github.com/armtally/armtally/ingest"
@@ -44,6 +45,14 @@ type File struct {
 	Markdown, JSON, Audit string
 	// FailOnSampleRatio is output.fail_on_sample_ratio, nil when not set.
 	FailOnSampleRatio *bool
+	// History and LooksChart are output.history and output.looks_chart,
+	// "" when not set: the SQLite file of the looks of nightly monitoring
+	// and the chart over them. They apply to the run.
+	History, LooksChart string
+	// MaxStaleness is output.max_staleness, 0 when not set.
+	MaxStaleness time.Duration
+	// ExitOnBoundary is output.exit_on_boundary, nil when not set.
+	ExitOnBoundary *bool
 
 	// Experiments are the [[experiment]] tables, in the file's order.
 	Experiments []*Settings

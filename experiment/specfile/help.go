@@ -39,7 +39,14 @@ Rules:
         metric in every experiment that has it; --allow-absent-event allows
         an event in every experiment whose metrics count it;
       --arms and --split apply to one experiment only: pick it with
-        --experiment.
+        --experiment;
+      --history, --looks-chart, --max-staleness and --exit-on-boundary
+        replace output.history, output.looks_chart, output.max_staleness
+        and output.exit_on_boundary, which apply to the whole run;
+      any --sequential flag replaces the experiment.metric.sequential key
+        of every metric; --planned-units and --mixing-variance replace
+        experiment.planned_units and experiment.mixing_variance of every
+        experiment of the run.
   - --experiment KEY runs only the experiment with that key. A file without
     [[experiment]] tables takes its one experiment from the flags, as
     without --spec.

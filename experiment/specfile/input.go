@@ -149,7 +149,8 @@ func (sf *File) parseOutput(l *locator, o fileOutput) error {
 		key string
 		v   *string
 		dst *string
-	}{{"markdown", o.Markdown, &sf.Markdown}, {"json", o.JSON, &sf.JSON}, {"audit", o.Audit, &sf.Audit}} {
+	}{{"markdown", o.Markdown, &sf.Markdown}, {"json", o.JSON, &sf.JSON}, {"audit", o.Audit, &sf.Audit},
+		{"history", o.History, &sf.History}, {"looks_chart", o.LooksChart, &sf.LooksChart}} {
 		if out.v == nil {
 			continue
 		}
@@ -161,7 +162,17 @@ func (sf *File) parseOutput(l *locator, o fileOutput) error {
 	if sf.Audit != "" && sf.Shape == experiment.InputCounts {
 		return l.at("output.audit").errorf("an audit table lists units, and a counts table (input.shape = \"counts\") has none")
 	}
-	sf.FailOnSampleRatio = o.FailOnSampleRatio
+	if sf.History != "" && sf.Shape != experiment.InputEventLog {
+		return l.at("output.history").errorf("the history keys each look by the data's freshness, and a %s table has none (input.shape = %q)", shapeName(sf.Shape), shapeName(sf.Shape))
+	}
+	if o.MaxStaleness != nil {
+		d, err := ParseWindow(*o.MaxStaleness)
+		if err != nil || d <= 0 {
+			return l.at("output.max_staleness").errorf("%q: want a positive duration such as \"36h\" or \"2d\"", *o.MaxStaleness)
+		}
+		sf.MaxStaleness = d
+	}
+	sf.FailOnSampleRatio, sf.ExitOnBoundary = o.FailOnSampleRatio, o.ExitOnBoundary
 	return nil
 }
 

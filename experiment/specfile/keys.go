@@ -34,6 +34,10 @@ var specKeys = map[string]string{
 	"output.json":                       "a string",
 	"output.audit":                      "a string",
 	"output.fail_on_sample_ratio":       "true or false",
+	"output.history":                    "a string",
+	"output.looks_chart":                "a string",
+	"output.max_staleness":              "a string",
+	"output.exit_on_boundary":           "true or false",
 	"experiment":                        "an array of tables ([[experiment]])",
 	"experiment.key":                    "a string",
 	"experiment.exposure_event":         "a string",
@@ -54,6 +58,8 @@ var specKeys = map[string]string{
 	"experiment.sample_ratio_threshold": "a number",
 	"experiment.segments":               "a list of strings",
 	"experiment.allow_absent_events":    "a list of strings",
+	"experiment.planned_units":          "an integer",
+	"experiment.mixing_variance":        "a number",
 	"experiment.metric":                 "an array of tables ([[experiment.metric]])",
 	"experiment.metric.name":            "a string",
 	"experiment.metric.events":          "a list of strings",
@@ -63,6 +69,7 @@ var specKeys = map[string]string{
 	"experiment.metric.margin":          "a string",
 	"experiment.metric.target":          "a number or a string",
 	"experiment.metric.column":          "a string",
+	"experiment.metric.sequential":      "a string",
 }
 
 // documentedKeys returns the keys of a spec file, sorted: the entries of

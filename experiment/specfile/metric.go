@@ -2,6 +2,7 @@ package specfile
 
 import (
 	"fmt"
+	"slices"
 
 	"github.com/armtally/armtally/experiment"
 )
@@ -77,6 +78,11 @@ func (sf *File) parseMetric(l *locator, p string, fm fileMetric, exposure string
 	}
 	if err := parseMarginKey(at, p, fm, &ms); err != nil {
 		return ms, err
+	}
+	if fm.Sequential != nil {
+		if err := parseSequential(at, *fm.Sequential, &ms); err != nil {
+			return ms, err
+		}
 	}
 	if fm.Target != nil {
 		v, err := fileTarget(fm.Target)
@@ -156,4 +162,21 @@ func fileTarget(v any) (float64, error) {
 		return ParseRate(t)
 	}
 	return 0, fmt.Errorf("wrong type: want a number or a string (the file has %s)", tomlKind(v))
+}
+
+// SequentialMethods are the values of experiment.metric.sequential, as
+// the --sequential flag spells them: O'Brien-Fleming-type and Pocock-type
+// alpha spending, the mixture test, and fixed (no sequential test).
+var SequentialMethods = []string{"obf", "pocock", "mixture", "fixed"}
+
+// parseSequential checks a metric's sequential method against its role.
+func parseSequential(at func(string) Origin, v string, ms *Metric) error {
+	if !slices.Contains(SequentialMethods, v) {
+		return at("sequential").errorf("%q: want obf, pocock, mixture or fixed", v)
+	}
+	if ms.Role == Guardrail {
+		return at("sequential").errorf("guardrail metric %q is tested for non-inferiority at every look, never sequentially (remove the key)", ms.Metric.Name)
+	}
+	ms.Sequential, ms.SequentialFrom = v, at("sequential")
+	return nil
 }

@@ -50,6 +50,10 @@ type fileOutput struct {
 	JSON              *string `toml:"json"`
 	Audit             *string `toml:"audit"`
 	FailOnSampleRatio *bool   `toml:"fail_on_sample_ratio"`
+	History           *string `toml:"history"`
+	LooksChart        *string `toml:"looks_chart"`
+	MaxStaleness      *string `toml:"max_staleness"`
+	ExitOnBoundary    *bool   `toml:"exit_on_boundary"`
 }
 
 type fileExperiment struct {
@@ -72,6 +76,8 @@ type fileExperiment struct {
 	SampleRatioThreshold *float64     `toml:"sample_ratio_threshold"`
 	Segments             []string     `toml:"segments"`
 	AllowAbsentEvents    []string     `toml:"allow_absent_events"`
+	PlannedUnits         *int64       `toml:"planned_units"`
+	MixingVariance       *float64     `toml:"mixing_variance"`
 	Metric               []fileMetric `toml:"metric"`
 }
 
@@ -84,6 +90,8 @@ type fileMetric struct {
 	Margin *string  `toml:"margin"`
 	Target any      `toml:"target"`
 	Column *string  `toml:"column"`
+	// Sequential is the metric's sequential method.
+	Sequential *string `toml:"sequential"`
 }
 
 // decodeSpec decodes data strictly into fsp and locates its keys.

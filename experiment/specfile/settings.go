@@ -35,6 +35,11 @@ type Settings struct {
 	opts           experiment.AnalysisOptions
 	// allowAbsent lists events that may occur in no row of the log.
 	allowAbsent []string
+	// plannedUnits and mixingVariance are the monitoring settings of
+	// experiment.planned_units and experiment.mixing_variance, 0 when not
+	// set.
+	plannedUnits   int64
+	mixingVariance float64
 
 	// from says where a setting came from, by its spec-file key name
 	// ("split", "arms", "metrics", ...); absent means the default.
@@ -50,6 +55,11 @@ type Metric struct {
 	// metric's name.
 	Column string
 	From   Origin
+	// Sequential is the metric's sequential method from
+	// experiment.metric.sequential (one of SequentialMethods), "" when
+	// not set; SequentialFrom is where it was set.
+	Sequential     string
+	SequentialFrom Origin
 }
 
 // experimentMetric returns the metric with its role: a secondary metric
