@@ -82,7 +82,9 @@ stays valid however often the experiment is read (obf and pocock need
 --planned-units); --history FILE keeps each night's look in SQLite, and the
 sequential tests read the earlier ones; --as-of INSTANT reruns a past night
 (later rows ignored, the instant the analysis end); --max-staleness and
---exit-on-boundary give the exit codes 9 and 8.
+--exit-on-boundary give the exit codes 9 and 8. A spec file can hold them
+all but --as-of (experiment.metric.sequential, experiment.planned_units,
+experiment.mixing_variance, output.history, ...: see 'armtally help spec').
 
 Examples:
   armtally analyze --demo
