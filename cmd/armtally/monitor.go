@@ -133,9 +133,6 @@ func applyMonitor(f *monitorFlags, run *analyzeRun) (*monitorRun, error) {
 	if !(f.mixingVariance > 0) {
 		return nil, usagef("analyze: --mixing-variance %v: want a positive number", f.mixingVariance)
 	}
-	if err := m.applySpec(f, run); err != nil {
-		return nil, err
-	}
 	if f.maxStaleness != "" {
 		d, err := specfile.ParseWindow(f.maxStaleness)
 		if err != nil || d <= 0 {
@@ -155,6 +152,11 @@ func applyMonitor(f *monitorFlags, run *analyzeRun) (*monitorRun, error) {
 		return nil, usagef("analyze: %s reads the looks of an event log; a unit or counts table has no data freshness to key them by", f.historyFrom)
 	}
 	m.historyFrom, m.chartFrom = f.historyFrom, f.chartFrom
+	// Last: each experiment's settings start from m.settings as the
+	// flags left it.
+	if err := m.applySpec(f, run); err != nil {
+		return nil, err
+	}
 	return m, nil
 }
 
