@@ -164,14 +164,14 @@ func fileTarget(v any) (float64, error) {
 	return 0, fmt.Errorf("wrong type: want a number or a string (the file has %s)", tomlKind(v))
 }
 
-// SequentialMethods are the values of experiment.metric.sequential, as
+// sequentialMethods are the values of experiment.metric.sequential, as
 // the --sequential flag spells them: O'Brien-Fleming-type and Pocock-type
 // alpha spending, the mixture test, and fixed (no sequential test).
-var SequentialMethods = []string{"obf", "pocock", "mixture", "fixed"}
+var sequentialMethods = []string{"obf", "pocock", "mixture", "fixed"}
 
 // parseSequential checks a metric's sequential method against its role.
 func parseSequential(at func(string) Origin, v string, ms *Metric) error {
-	if !slices.Contains(SequentialMethods, v) {
+	if !slices.Contains(sequentialMethods, v) {
 		return at("sequential").errorf("%q: want obf, pocock, mixture or fixed", v)
 	}
 	if ms.Role == Guardrail {
