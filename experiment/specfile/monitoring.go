@@ -8,7 +8,7 @@ import "math"
 // --mixing-variance override them.
 type Monitoring struct {
 	// Sequential maps a metric's name to its method, one of
-	// sequentialMethods, for the metrics whose experiment.metric.sequential
+	// "obf", "pocock", "mixture" or "fixed", for the metrics whose experiment.metric.sequential
 	// is set; From says where each was set.
 	Sequential map[string]string
 	From       map[string]Origin

@@ -56,7 +56,7 @@ type Metric struct {
 	Column string
 	From   Origin
 	// Sequential is the metric's sequential method from
-	// experiment.metric.sequential (one of sequentialMethods), "" when
+	// experiment.metric.sequential ("obf", "pocock", "mixture" or "fixed"), "" when
 	// not set; SequentialFrom is where it was set.
 	Sequential     string
 	SequentialFrom Origin
