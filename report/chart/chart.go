@@ -116,19 +116,26 @@ func Write(w io.Writer, r experiment.Readout, opts Options) error {
 			height += panelBase + rowHeight*vg.Length(max(len(p.rows), 1))
 		}
 	}
-	var canvas vg.CanvasWriterTo
-	switch opts.Format {
-	case SVG:
-		canvas = vgsvg.NewWith(vgsvg.UseWH(pageWidth, height))
-	case PNG:
-		canvas = vgimg.PngCanvas{Canvas: vgimg.NewWith(vgimg.UseWH(pageWidth, height), vgimg.UseDPI(pngDPI))}
-	default:
-		return fmt.Errorf("chart format %d unknown", opts.Format)
+	canvas, err := newCanvas(opts.Format, height)
+	if err != nil {
+		return err
 	}
 	dc := draw.New(canvas)
 	drawPage(dc, r, panels)
-	_, err := canvas.WriteTo(w)
+	_, err = canvas.WriteTo(w)
 	return err
+}
+
+// newCanvas returns a page of the chart's width and the given height in
+// the format asked for.
+func newCanvas(f Format, height vg.Length) (vg.CanvasWriterTo, error) {
+	switch f {
+	case SVG:
+		return vgsvg.NewWith(vgsvg.UseWH(pageWidth, height)), nil
+	case PNG:
+		return vgimg.PngCanvas{Canvas: vgimg.NewWith(vgimg.UseWH(pageWidth, height), vgimg.UseDPI(pngDPI))}, nil
+	}
+	return nil, fmt.Errorf("chart format %d unknown", f)
 }
 
 // drawPage draws the title, the key and the panels on dc.

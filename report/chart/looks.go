@@ -12,8 +12,6 @@ import (
 	"gonum.org/v1/plot/plotter"
 	"gonum.org/v1/plot/vg"
 	"gonum.org/v1/plot/vg/draw"
-	"gonum.org/v1/plot/vg/vgimg"
-	"gonum.org/v1/plot/vg/vgsvg"
 
 	"github.com/armtally/armtally/experiment"
 	"github.com/armtally/armtally/experiment/history"
@@ -151,14 +149,9 @@ func WriteLooks(w io.Writer, r experiment.Readout, looks []history.Look, opts Op
 	slices.SortStableFunc(looks, func(a, b history.Look) int { return a.At.Compare(b.At) })
 	s := lookSeries(r, LooksMetric(r), looks)
 	height := titleSpace + 3*looksPanelHeight
-	var canvas vg.CanvasWriterTo
-	switch opts.Format {
-	case SVG:
-		canvas = vgsvg.NewWith(vgsvg.UseWH(pageWidth, height))
-	case PNG:
-		canvas = vgimg.PngCanvas{Canvas: vgimg.NewWith(vgimg.UseWH(pageWidth, height), vgimg.UseDPI(pngDPI))}
-	default:
-		return fmt.Errorf("chart format %d unknown", opts.Format)
+	canvas, err := newCanvas(opts.Format, height)
+	if err != nil {
+		return err
 	}
 	dc := draw.New(canvas)
 	title := "Experiment " + shownName(r.Experiment) + ": " + shownName(s.metric) + " over " + fmt.Sprint(len(looks)) + " looks"
@@ -172,7 +165,7 @@ func WriteLooks(w io.Writer, r experiment.Readout, looks []history.Look, opts Op
 		top := height - titleSpace - vg.Length(i)*looksPanelHeight
 		p.Draw(draw.Crop(dc, 0, 0, top-looksPanelHeight, -(height - top)))
 	}
-	_, err := canvas.WriteTo(w)
+	_, err = canvas.WriteTo(w)
 	return err
 }
 
