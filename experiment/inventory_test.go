@@ -13,7 +13,7 @@ func TestOSADistance(t *testing.T) {
 		a, b string
 		want int
 	}{
-		// The textbook Levenshtein example: k->s, e->i, insert g (from
+		// The usual Levenshtein example: k->s, e->i, insert g (from
 		// memory; no swap helps, so OSA gives the same 3).
 		{"kitten", "sitting", 3},
 		// "ca" to "abc": OSA cannot edit the swapped pair again, so 3,
