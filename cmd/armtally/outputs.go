@@ -38,6 +38,10 @@ func outputFiles(run *analyzeRun) []report.OutputPath {
 			outs = append(outs, report.OutputPath{From: "--chart", Path: report.PerExperimentPath(run.chart, e.spec.Key, len(run.experiments))})
 		}
 	}
+	if run.state != "" {
+		// The state file is read and then replaced: an output too.
+		outs = append(outs, report.OutputPath{From: "--state", Path: run.state})
+	}
 	return append(outs, monitorOutputs(run)...)
 }
 
@@ -53,6 +57,9 @@ func checkOutputs(run *analyzeRun, inputs []string) error {
 	}
 	if run.brief == "-" {
 		return usagef("analyze: --brief -: the brief readout is written next to the full one; name a file")
+	}
+	if run.state == "-" {
+		return usagef("analyze: --state -: the state file is read back on the next run; name a file")
 	}
 	if run.chart == "-" {
 		return usagef("analyze: --chart -: the chart is an image, which is not written to standard output; name a file")

@@ -92,6 +92,9 @@ func TestOutputPathsRefused(t *testing.T) {
 		{"--brief is the input", []string{good, "--brief", good}, "--brief " + good + " is an input"},
 		{"--brief and --out the same file", []string{bad, "--brief", filepath.Join(dir, "r.out"), "--out", filepath.Join(dir, "r.out")}, "are the same file"},
 		{"--brief -", []string{bad, "--brief", "-"}, "--brief -"},
+		{"--state is the input", []string{good, "--state", good}, "--state " + good + " is an input"},
+		{"--state and --out the same file", []string{bad, "--state", filepath.Join(dir, "r.out"), "--out", filepath.Join(dir, "r.out")}, "are the same file"},
+		{"--state -", []string{bad, "--state", "-"}, "--state -"},
 	}
 	if err := os.Symlink(okJSON, filepath.Join(dir, "ok-link.json")); err != nil {
 		t.Fatal(err)
