@@ -24,11 +24,14 @@ type csvReader struct {
 	row   row
 
 	// The parallel path (csvpar.go): chunks from split, the first from
-	// the header's end, parsed by the workers of pl.
+	// the header's end, parsed by the workers of pl; or, for a file that
+	// is not compressed, the blocks after the header, which the workers
+	// read themselves (csvblocks.go).
 	src       *openedSource
 	gz        io.Closer
 	split     *csvSplitter
 	first     csvChunk
+	blocks    *csvBlocks
 	pl        *csvPipeline
 	plDone    bool
 	mem       memory.Allocator
@@ -65,22 +68,30 @@ func newCSVReader(src Source, o *openedSource, p *plan) (*csvReader, error) {
 	return c, nil
 }
 
-// openChunks starts cutting the file into chunks and reads the header from
-// the first.
+// openChunks reads the header and sets up the chunks of the rest: cut by
+// split from the decompressed stream of a gzip file, by offset into the
+// blocks of any other (the header is read through split, in small chunks).
 func (c *csvReader) openChunks(o *openedSource) ([]string, error) {
 	br, gz, err := openCSVStream(c.file, o)
 	if err != nil {
 		return nil, err
 	}
 	c.src = o
+	size := c.p.csvChunk
 	if gz != nil {
 		c.gz = gz
+	} else {
+		size = min(size, csvHeaderChunk)
 	}
-	c.split = &csvSplitter{in: br, size: c.p.csvChunk, line: 1}
+	c.split = &csvSplitter{in: br, size: size, line: 1}
 	var recs *csvRecords
 	var header []string
+	var before int64 // bytes of the chunks before the header's
 	for err = io.EOF; err == io.EOF; {
 		// Chunks of empty lines come before the header's.
+		if recs != nil {
+			before += int64(len(recs.data))
+		}
 		ch, ok := c.split.next()
 		if !ok {
 			return nil, fmt.Errorf("%s: empty file: want a header row", c.file)
@@ -93,8 +104,21 @@ func (c *csvReader) openChunks(o *openedSource) ([]string, error) {
 	}
 	header = slices.Clone(header)
 	c.first = csvChunk{data: recs.data[recs.pos:], line: recs.line, err: recs.err}
+	if gz == nil && recs.err == nil {
+		var bom int64
+		var head [3]byte // utf8BOM
+		if n, _ := o.r.ReadAt(head[:], 0); n == len(head) && string(head[:]) == string(utf8BOM) {
+			bom = int64(len(utf8BOM))
+		}
+		c.blocks = &csvBlocks{r: o.r, start: bom + before + int64(recs.pos), size: o.size, line: recs.line, block: int64(c.p.csvChunk)}
+		c.split, c.first = nil, csvChunk{}
+	}
 	return header, nil
 }
+
+// csvHeaderChunk is the chunk size in which the header of a file that is
+// not compressed is read.
+const csvHeaderChunk = 64 << 10
 
 // fill sets the cells of r from a record of the header's length.
 func (c *csvReader) fill(r *row, rec []string) {

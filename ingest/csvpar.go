@@ -2,8 +2,10 @@ package ingest
 
 import (
 	"bytes"
+	"encoding/binary"
 	"encoding/csv"
 	"io"
+	"math/bits"
 	"strconv"
 	"unicode/utf8"
 	"unsafe"
@@ -29,9 +31,13 @@ type csvRecords struct {
 	comma rune
 	delim []byte
 	rec   []string
-	lines []int // the line of each field of rec
-	buf   []byte
-	err   error // after data (see csvChunk)
+	// recLine is the line of the last record, all on one line unless
+	// fieldLines, when lines holds the line of each field of rec.
+	recLine    int
+	fieldLines bool
+	lines      []int
+	buf        []byte
+	err        error // after data (see csvChunk)
 }
 
 func newCSVRecords(file string, c csvChunk, comma rune) *csvRecords {
@@ -50,19 +56,27 @@ func (p *csvRecords) next() ([]string, error) {
 	}
 	for p.pos < len(p.data) {
 		rest := p.data[p.pos:]
+		if len(p.delim) == 1 {
+			if adv := p.splitPlain(rest, p.delim[0]); adv > 0 {
+				p.recLine, p.fieldLines = p.line, false
+				p.pos += adv
+				p.line++
+				if len(p.rec) == 1 && p.rec[0] == "" { // encoding/csv skips empty lines
+					continue
+				}
+				return p.rec, nil
+			}
+		}
 		nl := bytes.IndexByte(rest, '\n')
 		var line []byte
 		adv := len(rest)
 		if nl >= 0 {
 			line, adv = rest[:nl], nl+1
-			if len(line) > 0 && line[len(line)-1] == '\r' {
-				line = line[:len(line)-1]
-			}
 		} else {
-			line = rest
-			if len(line) > 0 && line[len(line)-1] == '\r' {
-				line = line[:len(line)-1] // as encoding/csv before the end
-			}
+			line = rest // as encoding/csv before the end, too:
+		}
+		if len(line) > 0 && line[len(line)-1] == '\r' {
+			line = line[:len(line)-1]
 		}
 		if len(line) == 0 { // encoding/csv skips empty lines
 			p.pos += adv
@@ -72,15 +86,82 @@ func (p *csvRecords) next() ([]string, error) {
 		if !p.split(line) {
 			return p.slow()
 		}
-		p.lines = p.lines[:0]
-		for range p.rec {
-			p.lines = append(p.lines, p.line)
-		}
+		p.recLine, p.fieldLines = p.line, false
 		p.pos += adv
 		p.line++
 		return p.rec, nil
 	}
 	return nil, io.EOF
+}
+
+// lineOf returns the line on which field i of the last record starts.
+func (p *csvRecords) lineOf(i int) int {
+	if p.fieldLines {
+		return p.lines[i]
+	}
+	return p.recLine
+}
+
+// SWAR constants: every byte 0x01, every byte 0x7f.
+const (
+	bytesOnes = 0x0101010101010101
+	bytesLow7 = 0x7f7f7f7f7f7f7f7f
+)
+
+// zeroBytes returns v with the high bit set in exactly the bytes of v that
+// are zero (the exact form of the test, without the borrow that makes the
+// shorter one flag bytes above a zero byte).
+func zeroBytes(v uint64) uint64 { return ^(((v & bytesLow7) + bytesLow7) | v | bytesLow7) }
+
+// splitPlain splits the line at the start of rest, with the one-byte
+// delimiter d, into p.rec, reading eight bytes at a time for d, line
+// feeds and quotes. It returns the bytes the line takes with its line feed,
+// or 0 when the line holds a quote (split reads it then). A line that ends
+// in CR LF loses the CR; an empty line gives one empty field.
+func (p *csvRecords) splitPlain(rest []byte, d byte) int {
+	p.rec = p.rec[:0]
+	dm := bytesOnes * uint64(d)
+	start, i := 0, 0
+	for ; i+8 <= len(rest); i += 8 {
+		w := binary.LittleEndian.Uint64(rest[i:])
+		m := zeroBytes(w^dm) | zeroBytes(w^(bytesOnes*'\n')) | zeroBytes(w^(bytesOnes*'"'))
+		for m != 0 {
+			j := i + bits.TrailingZeros64(m)>>3
+			m &= m - 1
+			switch rest[j] {
+			case d:
+				p.rec = append(p.rec, bstr(rest[start:j]))
+				start = j + 1
+			case '\n':
+				p.rec = append(p.rec, bstr(trimCR(rest[start:j])))
+				return j + 1
+			default:
+				return 0
+			}
+		}
+	}
+	for ; i < len(rest); i++ {
+		switch rest[i] {
+		case d:
+			p.rec = append(p.rec, bstr(rest[start:i]))
+			start = i + 1
+		case '\n':
+			p.rec = append(p.rec, bstr(trimCR(rest[start:i])))
+			return i + 1
+		case '"':
+			return 0
+		}
+	}
+	p.rec = append(p.rec, bstr(trimCR(rest[start:])))
+	return len(rest)
+}
+
+// trimCR drops one CR at the end of b.
+func trimCR(b []byte) []byte {
+	if len(b) > 0 && b[len(b)-1] == '\r' {
+		return b[:len(b)-1]
+	}
+	return b
 }
 
 // split splits one line into p.rec and reports whether it could.
@@ -175,7 +256,7 @@ func (p *csvRecords) slow() ([]string, error) {
 		}
 		return nil, csvErrorAt(p.file, p.line, err)
 	}
-	p.lines = p.lines[:0]
+	p.lines, p.fieldLines = p.lines[:0], true
 	for i := range rec {
 		l, _ := cr.FieldPos(i)
 		p.lines = append(p.lines, p.line+l-1)
@@ -224,17 +305,35 @@ type csvPipeline struct {
 }
 
 // start starts the splitter and workers; first is the chunk that held the
-// header, from the header's end on.
+// header, from the header's end on. A file cut into blocks has no
+// splitter: each worker reads its blocks.
 func (c *csvReader) start(workers int, budget bool, first csvChunk) {
+	newWorker := func() (*batchBuilder, *row) {
+		return newBatchBuilder(c.mem, c.p), &row{cells: make([]cell, len(c.p.physical))}
+	}
+	if bs := c.blocks; bs != nil {
+		c.pl = &csvPipeline{o: startOrdered(workers, bs.produce,
+			func(stop <-chan struct{}) (func(csvBlock) csvResult, func()) {
+				bld, r := newWorker()
+				w := &csvBlockReader{bs: bs}
+				return func(b csvBlock) csvResult {
+					ch, ok := w.chunk(b, stop)
+					if !ok {
+						return csvResult{}
+					}
+					return c.parseChunk(ch, bld, r, budget)
+				}, bld.release
+			})}
+		return
+	}
 	c.pl = &csvPipeline{o: startOrdered(workers,
 		func(emit func(csvChunk) bool) {
 			for ch, ok := first, true; ok && emit(ch) && ch.err == nil; ch, ok = c.split.next() {
 			}
 		},
 		func(<-chan struct{}) (func(csvChunk) csvResult, func()) {
-			bld := newBatchBuilder(c.mem, c.p)
-			r := row{cells: make([]cell, len(c.p.physical))}
-			return func(ch csvChunk) csvResult { return c.parseChunk(ch, bld, &r, budget) }, bld.release
+			bld, r := newWorker()
+			return func(ch csvChunk) csvResult { return c.parseChunk(ch, bld, r, budget) }, bld.release
 		})}
 }
 
@@ -261,7 +360,7 @@ func (c *csvReader) parseChunk(ch csvChunk, bld *batchBuilder, r *row, budget bo
 		var b badRow
 		var bad bool
 		if len(rec) != c.nhead {
-			b = badRow{file: c.file, row: int64(p.lines[0]), rowGroup: -1, reason: ErrFieldCount,
+			b = badRow{file: c.file, row: int64(p.lineOf(0)), rowGroup: -1, reason: ErrFieldCount,
 				value: strconv.Itoa(len(rec)), wantFields: c.nhead}
 			bad = true
 		} else {
@@ -302,11 +401,11 @@ type csvSite struct {
 }
 
 func (s *csvSite) badAt(r *row, col int, reason error) badRow {
-	return s.c.p.badRow(s.c.file, int64(s.recs.lines[max(s.c.field[col], 0)]), -1, r, col, reason)
+	return s.c.p.badRow(s.c.file, int64(s.recs.lineOf(max(s.c.field[col], 0))), -1, r, col, reason)
 }
 
 // batched reports whether the file is read by the parallel path.
-func (c *csvReader) batched() bool { return c.split != nil }
+func (c *csvReader) batched() bool { return c.split != nil || c.blocks != nil }
 
 // nextBatch returns the next record batch of the file in order, or io.EOF
 // after the last, counting rows and bad rows in a as read does.

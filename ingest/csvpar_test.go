@@ -2,6 +2,7 @@ package ingest
 
 import (
 	"bytes"
+	"compress/gzip"
 	"encoding/csv"
 	"fmt"
 	"math/rand/v2"
@@ -68,7 +69,25 @@ func compareCSVPaths(t *testing.T, name string, data []byte, opts Options) {
 // chunk sizes.
 func compareCSVPathsWith(t *testing.T, name string, data []byte, opts Options, workerCounts, chunks []int) {
 	t.Helper()
-	read := func(o Options) readOutcome {
+	read := outcomeOf(t, name, data)
+	seq := opts
+	seq.rowByRow = true
+	want := read(seq)
+	compareParallel(t, name, want, read, opts, workerCounts, chunks)
+	// A gzip-compressed file is cut by one splitter from the decompressed
+	// stream, not read in blocks by the workers: the same again for it.
+	var zb bytes.Buffer
+	zw := gzip.NewWriter(&zb)
+	zw.Write(data)
+	zw.Close()
+	readGz := outcomeOf(t, name, zb.Bytes())
+	compareParallel(t, name+" (gzip)", readGz(seq), readGz, opts, workerCounts[len(workerCounts)-1:], chunks)
+}
+
+// outcomeOf returns a function that reads data, named name, with the
+// options it is given.
+func outcomeOf(t *testing.T, name string, data []byte) func(Options) readOutcome {
+	return func(o Options) readOutcome {
 		rows, st, err := readAll(t, []Source{BytesSource(name, data)}, o)
 		out := readOutcome{rows: rows, st: st}
 		if err != nil {
@@ -76,9 +95,12 @@ func compareCSVPathsWith(t *testing.T, name string, data []byte, opts Options, w
 		}
 		return out
 	}
-	seq := opts
-	seq.rowByRow = true
-	want := read(seq)
+}
+
+// compareParallel reads with the parallel path (the given worker counts
+// and chunk sizes) and fails unless each read gives want.
+func compareParallel(t *testing.T, name string, want readOutcome, read func(Options) readOutcome, opts Options, workerCounts, chunks []int) {
+	t.Helper()
 	for _, workers := range workerCounts {
 		for _, chunk := range chunks {
 			par := opts

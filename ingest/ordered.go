@@ -22,7 +22,7 @@ func startOrdered[T, R any](workers int, produce func(emit func(T) bool),
 		t   T
 		out chan R
 	}
-	tasks := make(chan task)
+	tasks := make(chan task, workers)
 	o.wg.Add(1 + workers)
 	go func() {
 		defer o.wg.Done()

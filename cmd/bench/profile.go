@@ -6,6 +6,7 @@ import (
 	"io"
 	"os"
 	"runtime/pprof"
+	"runtime/trace"
 	"time"
 
 	"github.com/spf13/pflag"
@@ -51,6 +52,7 @@ func runProfile(args []string, stdout, stderr io.Writer) error {
 	file := fs.String("file", "", "event log to analyse")
 	cpu := fs.String("cpuprofile", "cpu.prof", "write the CPU profile here")
 	mem := fs.String("memprofile", "", "write a heap profile (after the analysis) here")
+	tr := fs.String("trace", "", "also write an execution trace (go tool trace) here")
 	if err := fs.Parse(args); err != nil {
 		return err
 	}
@@ -64,6 +66,17 @@ func runProfile(args []string, stdout, stderr io.Writer) error {
 	defer f.Close()
 	if err := pprof.StartCPUProfile(f); err != nil {
 		return fmt.Errorf("profile: %w", err)
+	}
+	if *tr != "" {
+		tf, err := os.Create(*tr)
+		if err != nil {
+			return fmt.Errorf("profile: %w", err)
+		}
+		defer tf.Close()
+		if err := trace.Start(tf); err != nil {
+			return fmt.Errorf("profile: %w", err)
+		}
+		defer trace.Stop()
 	}
 	start := time.Now()
 	ro, err := analyzeInProcess(defaultAnalysis(), []string{*file})
