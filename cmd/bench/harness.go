@@ -20,6 +20,7 @@ import (
 type harnessFlags struct {
 	dir         string
 	users       int
+	smallUsers  int
 	noise       float64
 	noise2x     float64
 	csvUsers    int
@@ -40,18 +41,34 @@ type harnessFlags struct {
 	incremental      bool
 	incrementalUsers int
 	csvLargeUsers    int
+	// only and skip select the parts to run (see harnessParts); quick
+	// is the small configuration.
+	only, skip string
+	quick      bool
+	parts      map[string]bool
 }
+
+// harnessParts are the parts of the run mode, in the order they run: the
+// names --only and --skip take.
+var harnessParts = []string{"parquet", "parquet-small", "csv", "csv-large", "scaling", "incremental", "decode", "profile"}
+
+// harnessPartsHelp describes the parts for --help.
+const harnessPartsHelp = `parts: parquet (the --users log), parquet-small (--small-users: the Parquet 1M target at the default sizes, and the 10x scaling pair), csv (--csv-users), csv-large (--csv-large-users: the CSV 10M target), scaling (the 2x-events log; needs parquet and parquet-small, which it adds), incremental (--incremental-users), decode, profile`
 
 // scenario is one log that armtally and DuckDB both analyse.
 type scenario struct {
-	Name   string
-	Desc   string
-	Spec   logSpec
-	Runs   int
-	Scan   bool // also time DuckDB's scan floor
-	path   string
-	Info   logInfo
-	Counts counts // the agreed counts
+	Name string
+	Part string // the part of the run it belongs to
+	Desc string
+	Spec logSpec
+	Runs int
+	Scan bool // also time DuckDB's scan floor
+	// measure is false for a log that is only written (the main log,
+	// for the decode or profile part alone).
+	measure bool
+	path    string
+	Info    logInfo
+	Counts  counts // the agreed counts
 	// Medians over Runs runs.
 	Armtally, DuckDB, DuckDBScan stats
 	DuckDBQuery                  float64 // median in-process query seconds
@@ -79,21 +96,23 @@ type decodeRow struct {
 
 // benchReport is everything BENCHMARKS.md shows.
 type benchReport struct {
-	Flags       harnessFlags
-	Machine     machine
-	Analysis    analysis
-	Scenarios   []*scenario
-	Decode      []decodeRow
-	DecodeFile  string
-	ProfileTop  string
-	ProfileCum  string
-	ProfileNote string
-	Incremental *incrementalResult
-	DecodeLoad  [2]string // load averages before and after the decode runs
-	BenchCmd    string
-	Started     time.Time
-	Elapsed     time.Duration
-	ArmtallyCmd []string
+	Flags      harnessFlags
+	Machine    machine
+	Analysis   analysis
+	Scenarios  []*scenario
+	Decode     []decodeRow
+	DecodeFile string
+	// DecodeRowGroups is the row groups of DecodeFile.
+	DecodeRowGroups int
+	ProfileTop      string
+	ProfileCum      string
+	ProfileNote     string
+	Incremental     *incrementalResult
+	DecodeLoad      [2]string // load averages before and after the decode runs
+	BenchCmd        string
+	Started         time.Time
+	Elapsed         time.Duration
+	ArmtallyCmd     []string
 	// ArmtallySource says which source the armtally binary was built from.
 	ArmtallySource string
 }
@@ -105,38 +124,33 @@ func runHarness(args []string, stdout, stderr io.Writer) error {
 	fs.SetOutput(stderr)
 	fs.SortFlags = false
 	fs.StringVar(&f.dir, "dir", defaultDataDir(), "folder for the generated logs and outputs (reused across runs)")
-	fs.IntVar(&f.users, "users", 10_000_000, "exposed units of the main log")
+	fs.IntVar(&f.users, "users", 10_000_000, "exposed units of the main Parquet log")
+	fs.IntVar(&f.smallUsers, "small-users", 0, "exposed units of the small Parquet log (0: --users / 10)")
 	fs.Float64Var(&f.noise, "noise", 7.9, "mean noise events per unit (7.9 gives about 10 rows per unit)")
 	fs.Float64Var(&f.noise2x, "noise-2x", 17.7, "noise events per unit of the 2x-events log (17.7 gives about 20 rows per unit)")
 	fs.IntVar(&f.csvUsers, "csv-users", 1_000_000, "exposed units of the CSV log")
+	fs.IntVar(&f.csvLargeUsers, "csv-large-users", 10_000_000, "exposed units of the large CSV log (10M units: about 5.7 GB, written only when the part csv-large runs and the disk has room)")
+	fs.IntVar(&f.incrementalUsers, "incremental-users", 0, "exposed units of the partitioned export (0: --users)")
 	fs.Uint64Var(&f.seed, "seed", 1, "random seed of every log")
-	fs.IntVar(&f.runs, "runs", 5, "timed runs per measurement (after one untimed check run)")
-	fs.IntVar(&f.scalingRuns, "scaling-runs", 0, "timed runs of the scaling logs (0: --runs)")
+	fs.IntVar(&f.runs, "runs", 3, "timed runs per measurement, armtally and DuckDB alternated (after one untimed check run)")
+	fs.IntVar(&f.scalingRuns, "scaling-runs", 0, "timed runs of the 2x-events log (0: --runs)")
 	fs.IntVar(&f.decodeRuns, "decode-runs", 0, "timed runs per decode path (0: --runs)")
 	fs.IntVar(&f.threads, "threads", 2, "DuckDB threads (and decode goroutines)")
-	fs.BoolVar(&f.scaling, "scaling", true, "also run the 2x-events and 1/10-size logs")
-	fs.BoolVar(&f.decode, "decode", true, "also compare the Parquet decode paths on the main log")
-	fs.BoolVar(&f.profile, "profile", true, "also profile armtally's analysis of the main log")
-	fs.BoolVar(&f.incremental, "incremental", true, "also time the nightly run of the last day of a partitioned export against a full run")
-	fs.IntVar(&f.incrementalUsers, "incremental-users", 0, "exposed units of the partitioned export (0: --users)")
-	fs.IntVar(&f.csvLargeUsers, "csv-large-users", 0, "exposed units of a second, larger CSV log (0: none)")
+	fs.StringVar(&f.only, "only", "", "run only these parts, comma-separated ("+harnessPartsHelp+")")
+	fs.StringVar(&f.skip, "skip", "", "run every part but these, comma-separated")
+	fs.BoolVar(&f.quick, "quick", false, "a small configuration that finishes in a few minutes: --users 200000 --csv-users 200000 --incremental-users 200000 --skip csv-large,decode,profile unless given")
+	fs.BoolVar(&f.scaling, "scaling", true, "the part scaling (--skip scaling is the same as false)")
+	fs.BoolVar(&f.decode, "decode", true, "the part decode")
+	fs.BoolVar(&f.profile, "profile", true, "the part profile")
+	fs.BoolVar(&f.incremental, "incremental", true, "the part incremental")
 	fs.StringVar(&f.out, "out", "BENCHMARKS.md", "Markdown file whose generated part is rewritten (created when missing)")
 	fs.StringVar(&f.armtallySrc, "repo", "../..", "armtally's repository, where ./cmd/armtally is built")
 	fs.StringVar(&f.rev, "rev", "HEAD", "commit of --repo to build armtally from (exported with git archive); \"\" builds the working tree")
 	if err := fs.Parse(args); err != nil {
 		return err
 	}
-	if f.scalingRuns == 0 {
-		f.scalingRuns = f.runs
-	}
-	if f.decodeRuns == 0 {
-		f.decodeRuns = f.runs
-	}
-	if f.incrementalUsers == 0 {
-		f.incrementalUsers = f.users
-	}
-	if f.runs < 1 || f.users < 10 || f.csvUsers < 10 {
-		return fmt.Errorf("run: --runs must be at least 1 and --users, --csv-users at least 10")
+	if err := f.settle(fs); err != nil {
+		return fmt.Errorf("run: %w", err)
 	}
 	logf := func(format string, a ...any) { fmt.Fprintf(stderr, format+"\n", a...) }
 	rep := &benchReport{Flags: f, Analysis: defaultAnalysis(), Started: time.Now()}
@@ -163,18 +177,9 @@ func runHarness(args []string, stdout, stderr io.Writer) error {
 	}
 	rep.ArmtallySource = desc
 
-	scenarios := []*scenario{
-		{Name: "parquet", Desc: "main log, snappy Parquet", Spec: logSpec{Users: f.users, Noise: f.noise, Seed: f.seed, Format: "parquet"}, Runs: f.runs, Scan: true},
-		{Name: "csv", Desc: "CSV log", Spec: logSpec{Users: f.csvUsers, Noise: f.noise, Seed: f.seed, Format: "csv"}, Runs: f.runs, Scan: true},
-	}
-	if f.csvLargeUsers > 0 {
-		scenarios = append(scenarios, &scenario{Name: "csv-large", Desc: "larger CSV log", Spec: logSpec{Users: f.csvLargeUsers, Noise: f.noise, Seed: f.seed, Format: "csv"}, Runs: f.runs})
-	}
-	if f.scaling {
-		scenarios = append(scenarios,
-			&scenario{Name: "parquet-2x-events", Desc: "same units, about 2x the events", Spec: logSpec{Users: f.users, Noise: f.noise2x, Seed: f.seed, Format: "parquet"}, Runs: f.scalingRuns},
-			&scenario{Name: "parquet-1/10", Desc: "a tenth of the units and events", Spec: logSpec{Users: f.users / 10, Noise: f.noise, Seed: f.seed, Format: "parquet"}, Runs: f.scalingRuns, Scan: true},
-		)
+	scenarios := f.scenarios()
+	if err := checkDisk(f.dir, scenarios, f, logf); err != nil {
+		return fmt.Errorf("run: %w", err)
 	}
 	for _, sc := range scenarios {
 		sc.path, sc.Info, err = ensureLog(f.dir, sc.Spec, stderr)
@@ -185,13 +190,16 @@ func runHarness(args []string, stdout, stderr io.Writer) error {
 	a := rep.Analysis
 	rep.ArmtallyCmd = a.armtallyArgs("FILE", "readout.json", "readout.md")
 	for _, sc := range scenarios {
+		if !sc.measure {
+			continue
+		}
 		if err := measureScenario(sc, bin, self, f, a, logf); err != nil {
 			return fmt.Errorf("run: %s: %w", sc.Name, err)
 		}
 		rep.Scenarios = append(rep.Scenarios, sc)
 	}
 
-	if f.incremental {
+	if f.parts["incremental"] {
 		folder, info, err := ensurePartitioned(f.dir, logSpec{Users: f.incrementalUsers, Noise: f.noise, Seed: f.seed, Format: "parquet"}, stderr)
 		if err != nil {
 			return fmt.Errorf("run: %w", err)
@@ -200,9 +208,12 @@ func runHarness(args []string, stdout, stderr io.Writer) error {
 			return fmt.Errorf("run: incremental: %w", err)
 		}
 	}
-	mainLog := scenarios[0]
-	if f.decode {
-		rep.DecodeFile = mainLog.path
+	var mainLog *scenario // the --users Parquet log, written when decode or profile runs
+	if len(scenarios) > 0 && scenarios[0].Name == "parquet" {
+		mainLog = scenarios[0]
+	}
+	if f.parts["decode"] {
+		rep.DecodeFile, rep.DecodeRowGroups = mainLog.path, mainLog.Info.RowGroups
 		rep.DecodeLoad[0] = loadAvg()
 		rows, err := measureDecode(self, mainLog.path, f.threads, f.decodeRuns, logf)
 		if err != nil {
@@ -211,7 +222,7 @@ func runHarness(args []string, stdout, stderr io.Writer) error {
 		rep.Decode = rows
 		rep.DecodeLoad[1] = loadAvg()
 	}
-	if f.profile {
+	if f.parts["profile"] {
 		if err := profileMain(rep, self, mainLog.path, f.dir, logf); err != nil {
 			return fmt.Errorf("run: %w", err)
 		}

@@ -86,6 +86,8 @@ func renderReport(rep *benchReport) string {
 	p("- The analysis: experiment `%s`, arms %s (control `%s`), window [%s, %s), metric `%s` = `%s` within %s, multi-arm units excluded, immature units excluded.\n\n",
 		a.Experiment, strings.Join(a.Arms, ", "), a.Control, a.Start.Format(time.RFC3339), a.End.Format(time.RFC3339), a.Metric, strings.Join(a.Events, ","), windowText(a.Window))
 
+	renderTargets(p, rep)
+
 	p("### Logs\n\n")
 	p("| Log | Format | Exposed units | Never exposed | Rows | Rows per unit | File size | Generated in |\n|:--|:--|--:|--:|--:|--:|--:|--:|\n")
 	for _, sc := range rep.Scenarios {
@@ -163,7 +165,7 @@ func renderReport(rep *benchReport) string {
 	if len(rep.Decode) > 0 {
 		p("\n### Decode paths (the five needed columns, %d goroutines)\n\n", f.threads)
 		p("Each path reads `user_id`, `ts`, `event`, `experiment` and `arm` of `%s` (%d row groups), every row group handed to the next free goroutine, and folds every value into a checksum (rows, sum of ts, nulls, total string length); all paths must return the same checksum (%s rows, %s nulls, %s string bytes). ",
-			shortPath(rep.DecodeFile), findScenario(rep, "parquet").Info.RowGroups, report.FormatCount(rep.Decode[0].Sum.Rows), report.FormatCount(rep.Decode[0].Sum.Nulls), report.FormatCount(rep.Decode[0].Sum.StrBytes))
+			shortPath(rep.DecodeFile), rep.DecodeRowGroups, report.FormatCount(rep.Decode[0].Sum.Rows), report.FormatCount(rep.Decode[0].Sum.Nulls), report.FormatCount(rep.Decode[0].Sum.StrBytes))
 		p("Command: `bench decode --file FILE --method NAME --workers %d`, a child process per run; %d runs each, interleaved; load average %s when they began, %s when they ended.\n\n", f.threads, rep.Decode[0].Stats.Runs, rep.DecodeLoad[0], rep.DecodeLoad[1])
 		p("| Path | Median wall | Range | In-process median | Peak RSS | vs parquet-go pages | What it does |\n|:--|--:|--:|--:|--:|--:|:--|\n")
 		base := rep.Decode[0].Stats.Wall.Seconds()
