@@ -8,6 +8,7 @@ import (
 	"os"
 	"path/filepath"
 	"testing"
+	"time"
 
 	"github.com/armtally/armtally/experiment"
 	"github.com/armtally/armtally/report"
@@ -210,6 +211,65 @@ func BenchmarkAnalyzeInProcess(b *testing.B) {
 	for b.Loop() {
 		if _, err := analyzeInProcess(defaultAnalysis(), []string{file}); err != nil {
 			b.Fatal(err)
+		}
+	}
+}
+
+// The parts of the run mode: --only and --skip select from harnessParts,
+// and an unknown name is refused (common practice).
+func TestSelectParts(t *testing.T) {
+	for _, c := range []struct {
+		only, skip string
+		want       []string
+		err        bool
+	}{
+		{"", "", harnessParts, false},
+		{"csv", "", []string{"csv"}, false},
+		{"csv,csv-large", "csv-large", []string{"csv"}, false},
+		{"", "csv-large,decode,profile", []string{"parquet", "parquet-small", "csv", "scaling", "incremental"}, false},
+		{"csvv", "", nil, true},
+		{"", "nope", nil, true},
+	} {
+		got, err := selectParts(c.only, c.skip)
+		if (err != nil) != c.err {
+			t.Fatalf("only %q skip %q: error %v, want error %v", c.only, c.skip, err, c.err)
+		}
+		if err != nil {
+			continue
+		}
+		if len(got) != len(c.want) {
+			t.Fatalf("only %q skip %q: %v, want %v", c.only, c.skip, got, c.want)
+		}
+		for _, p := range c.want {
+			if !got[p] {
+				t.Fatalf("only %q skip %q: %v lacks %s", c.only, c.skip, got, p)
+			}
+		}
+	}
+}
+
+// The targets table judges each bound from the medians it is given: the
+// bounds are the (0.4 of DuckDB's wall for CSV), the medians here
+// made up around them.
+func TestTargetsJudgeBounds(t *testing.T) {
+	sc := func(name string, users int, arm, duck float64) *scenario {
+		return &scenario{Name: name, Spec: logSpec{Users: users}, Info: logInfo{Rows: int64(users) * 10},
+			Armtally: stats{Wall: time.Duration(arm * float64(time.Second)), CPU: time.Duration(1.8 * arm * float64(time.Second))},
+			DuckDB:   stats{Wall: time.Duration(duck * float64(time.Second)), CPU: time.Duration(duck * float64(time.Second))}}
+	}
+	rep := &benchReport{Scenarios: []*scenario{sc("csv", 1_000_000, 1.9, 5), sc("csv-large", 10_000_000, 2.1, 5)}}
+	got := map[string]string{}
+	for _, r := range targets(rep) {
+		got[r.Target] = r.Status
+	}
+	for target, want := range map[string]string{
+		"CSV, 1M units: wall at most 0.4 of DuckDB's":                                                                                    "met",
+		"CSV, 10M units: wall at most 0.4 of DuckDB's":                                                                                   "**missed**",
+		"CSV, 1M units: both cores busy (read as CPU time at least 1.6 times the wall)":                                                  "met",
+		"Incremental, 10M units over 30 days: night 30 at most 0.1 of a full run, byte-identical JSON, state at most 100 bytes per unit": "not measured",
+	} {
+		if got[target] != want {
+			t.Errorf("%s: %q, want %q (all: %v)", target, got[target], want, got)
 		}
 	}
 }
