@@ -392,7 +392,7 @@ func runDuckDBQuery(args []string, stdout, stderr io.Writer) error {
 type readoutJSON struct {
 	Readouts []struct {
 		Arms []struct {
-			Name  string `json:"name"`
+			Name  string `json:"arm"` // "name" before schema 2.1.0
 			Units int64  `json:"units"`
 		} `json:"arms"`
 		Metrics []struct {
