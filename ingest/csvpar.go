@@ -121,9 +121,18 @@ func zeroBytes(v uint64) uint64 { return ^(((v & bytesLow7) + bytesLow7) | v | b
 func (p *csvRecords) splitPlain(rest []byte, d byte) int {
 	p.rec = p.rec[:0]
 	dm := bytesOnes * uint64(d)
-	start, i := 0, 0
-	for ; i+8 <= len(rest); i += 8 {
-		w := binary.LittleEndian.Uint64(rest[i:])
+	start := 0
+	for i := 0; i < len(rest); i += 8 {
+		var w uint64
+		if i+8 <= len(rest) {
+			w = binary.LittleEndian.Uint64(rest[i:])
+		} else {
+			// The last bytes, padded with zeros, which match none of
+			// the three (the delimiter is never NUL, see newPlan).
+			var pad [8]byte
+			copy(pad[:], rest[i:])
+			w = binary.LittleEndian.Uint64(pad[:])
+		}
 		m := zeroBytes(w^dm) | zeroBytes(w^(bytesOnes*'\n')) | zeroBytes(w^(bytesOnes*'"'))
 		for m != 0 {
 			j := i + bits.TrailingZeros64(m)>>3
@@ -138,18 +147,6 @@ func (p *csvRecords) splitPlain(rest []byte, d byte) int {
 			default:
 				return 0
 			}
-		}
-	}
-	for ; i < len(rest); i++ {
-		switch rest[i] {
-		case d:
-			p.rec = append(p.rec, bstr(rest[start:i]))
-			start = i + 1
-		case '\n':
-			p.rec = append(p.rec, bstr(trimCR(rest[start:i])))
-			return i + 1
-		case '"':
-			return 0
 		}
 	}
 	p.rec = append(p.rec, bstr(trimCR(rest[start:])))

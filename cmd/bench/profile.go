@@ -59,23 +59,18 @@ func runProfile(args []string, stdout, stderr io.Writer) error {
 	if *file == "" {
 		return fmt.Errorf("profile: --file is required")
 	}
-	f, err := os.Create(*cpu)
+	f, err := createStarted(*cpu, pprof.StartCPUProfile)
 	if err != nil {
 		return fmt.Errorf("profile: %w", err)
 	}
 	defer f.Close()
-	if err := pprof.StartCPUProfile(f); err != nil {
-		return fmt.Errorf("profile: %w", err)
-	}
 	if *tr != "" {
-		tf, err := os.Create(*tr)
+		tf, err := createStarted(*tr, trace.Start)
 		if err != nil {
+			pprof.StopCPUProfile()
 			return fmt.Errorf("profile: %w", err)
 		}
 		defer tf.Close()
-		if err := trace.Start(tf); err != nil {
-			return fmt.Errorf("profile: %w", err)
-		}
 		defer trace.Stop()
 	}
 	start := time.Now()
@@ -103,4 +98,18 @@ func runProfile(args []string, stdout, stderr io.Writer) error {
 	}
 	fmt.Fprintf(stdout, "analysed %s in %.2f s: %d rows read\n", *file, elapsed.Seconds(), ro.Diagnostics.RowsRead)
 	return nil
+}
+
+// createStarted creates the file at path and starts start (a profile or
+// trace) writing to it.
+func createStarted(path string, start func(io.Writer) error) (*os.File, error) {
+	f, err := os.Create(path)
+	if err != nil {
+		return nil, err
+	}
+	if err := start(f); err != nil {
+		f.Close()
+		return nil, err
+	}
+	return f, nil
 }
