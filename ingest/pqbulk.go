@@ -297,23 +297,21 @@ func (w *rgWorker) openChunks(rg int) (int64, error) {
 // w.failed is the column at fault.
 func (w *rgWorker) fillWindow(n int) error {
 	var need []bool
+	decided := false
 	for i, c := range w.cols {
+		if i > colEvent && !decided {
+			need, decided = w.rowsNeeded(n), true
+		}
 		if c == nil {
 			continue
 		}
-		if i > colEvent && need == nil {
-			need = w.rowsNeeded(n)
-		}
-		var err error
-		if i > colEvent {
-			err = c.fillNeeded(n, need)
-		} else {
-			err = c.fill(n)
-		}
-		if err != nil {
+		if err := c.fill(n, need); err != nil { // need is nil for user, ts and event
 			w.failed = i
 			return err
 		}
+	}
+	if !decided {
+		need = w.rowsNeeded(n)
 	}
 	w.need = need
 	return nil
@@ -445,8 +443,12 @@ func (c *bulkColumn) open(pages parquet.Pages) {
 	c.pages = pages
 }
 
-// fill decodes the next n rows into c.cells or c.times (and c.keep).
-func (c *bulkColumn) fill(n int) error {
+// fill decodes the next n rows into c.cells or c.times (and c.keep). A
+// text column that only the rows marked in need use (nil: every row)
+// leaves the cells of the other rows as they were; their dictionary
+// indices are checked all the same, so that a damaged page fails where it
+// would without need.
+func (c *bulkColumn) fill(n int, need []bool) error {
 	for k := 0; k < n; {
 		if c.pos >= c.nrows {
 			if err := c.nextPage(); err != nil {
@@ -459,6 +461,10 @@ func (c *bulkColumn) fill(n int) error {
 			if err := c.fillTS(c.times[k : k+m]); err != nil {
 				return err
 			}
+		} else if need != nil {
+			if err := c.fillTextNeeded(k, m, need[k:k+m]); err != nil {
+				return err
+			}
 		} else if err := c.fillText(k, m); err != nil {
 			return err
 		}
@@ -467,50 +473,40 @@ func (c *bulkColumn) fill(n int) error {
 	return nil
 }
 
-// fillNeeded is fill for a column that only the rows marked in need use
-// (nil: every row). The cells of the other rows are left as they were;
-// their dictionary indices are checked all the same, so that a damaged
-// page fails where fill would fail.
-func (c *bulkColumn) fillNeeded(n int, need []bool) error {
-	if need == nil || c.times != nil {
-		return c.fill(n)
-	}
-	for k := 0; k < n; {
-		if c.pos >= c.nrows {
-			if err := c.nextPage(); err != nil {
+// fillTextNeeded is fillText for the rows marked in need; it skips the
+// values of the others (skip).
+func (c *bulkColumn) fillTextNeeded(k, m int, need []bool) error {
+	for j := 0; j < m; {
+		e := j
+		for e < m && need[e] {
+			e++
+		}
+		if e > j {
+			if err := c.fillText(k+j, e-j); err != nil {
 				return err
 			}
+			j = e
 			continue
 		}
-		m := min(n-k, c.nrows-c.pos)
-		if err := c.fillTextNeeded(k, m, need[k:k+m]); err != nil {
+		for e < m && !need[e] {
+			e++
+		}
+		if err := c.skip(e - j); err != nil {
 			return err
 		}
-		k += m
+		j = e
 	}
 	return nil
 }
 
-// fillTextNeeded is fillText for the rows marked in need; it skips the
-// values of the others.
-func (c *bulkColumn) fillTextNeeded(k, m int, need []bool) error {
-	cells := c.cells[k : k+m]
-	for j := range cells {
-		v := c.value()
-		switch {
-		case v < 0:
-			cells[j] = cell{null: true}
-		case c.idx != nil:
-			x, err := dictIndex(c.idx[v], len(c.dictStr))
-			if err != nil {
+// skip moves past the page's next n rows without decoding their values;
+// their dictionary indices are checked as fillText checks them.
+func (c *bulkColumn) skip(n int) error {
+	for range n {
+		if v := c.value(); v >= 0 && c.idx != nil {
+			if _, err := dictIndex(c.idx[v], len(c.dictStr)); err != nil {
 				return err
 			}
-			if need[j] {
-				cells[j] = cell{s: c.dictStr[x]}
-			}
-		case need[j]:
-			b := c.data[c.offs[v]:c.offs[v+1]]
-			cells[j] = cell{s: unsafe.String(unsafe.SliceData(b), len(b))}
 		}
 	}
 	return nil
