@@ -3,6 +3,7 @@ package experiment
 import (
 	"bytes"
 	"hash/maphash"
+	"slices"
 )
 
 // unitIndex numbers unit keys densely (0, 1, ...) in order of first
@@ -79,6 +80,12 @@ func (x *unitIndex) lookupHashed(key string, hash uint64) (int32, bool) {
 		}
 	}
 	u := int32(x.ends.len())
+	if len(x.arena)+len(key) > cap(x.arena) {
+		// Double the arena: append grows a large slice by about a
+		// quarter, which copied the keys about four times over and left
+		// that much garbage for the collector's headroom.
+		x.arena = slices.Grow(x.arena, max(len(key), cap(x.arena)))
+	}
 	x.arena = append(x.arena, key...)
 	x.ends.add(uint64(len(x.arena)))
 	// Keep the load at most three quarters: with the hash bits in the

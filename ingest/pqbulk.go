@@ -157,6 +157,11 @@ type rgWorker struct {
 	bld    *batchBuilder
 	batch  int // rows in the batch being built
 	row    row
+	// need is the window's rowsNeeded (nil: every row), in needBuf;
+	// failed is the column fillWindow stopped at.
+	need    []bool
+	needBuf []bool
+	failed  int
 }
 
 func (r *parquetReader) newWorker(budget bool, stop <-chan struct{}) *rgWorker {
@@ -227,15 +232,10 @@ func (w *rgWorker) run(rg int) (res rgResult) {
 		default:
 		}
 		n := int(min(int64(bulkWindow), rgRows-done))
-		for _, c := range w.cols {
-			if c == nil {
-				continue
-			}
-			if err := c.fill(n); err != nil {
-				res.rows = done
-				res.err = chunkError(r.file, rg, c.name, rgRows, err)
-				return res
-			}
+		if err := w.fillWindow(n); err != nil {
+			res.rows = done
+			res.err = chunkError(r.file, rg, w.cols[w.failed].name, rgRows, err)
+			return res
 		}
 		if !w.window(&res, rg, done, n) {
 			return w.flush(res)
@@ -289,6 +289,55 @@ func (w *rgWorker) openChunks(rg int) (int64, error) {
 	return rgRows, nil
 }
 
+// fillWindow decodes the next n rows of every column, in column order.
+// With an event filter, the columns beyond user, ts and event are decoded
+// only for the rows that need them (rowsNeeded): a row of an unwanted
+// event whose user, ts and event are valid is only counted, so its other
+// values are skipped, their dictionary indices still checked. On an error
+// w.failed is the column at fault.
+func (w *rgWorker) fillWindow(n int) error {
+	var need []bool
+	decided := false
+	for i, c := range w.cols {
+		if i > colEvent && !decided {
+			need, decided = w.rowsNeeded(n), true
+		}
+		if c == nil {
+			continue
+		}
+		if err := c.fill(n, need); err != nil { // need is nil for user, ts and event
+			w.failed = i
+			return err
+		}
+	}
+	if !decided {
+		need = w.rowsNeeded(n)
+	}
+	w.need = need
+	return nil
+}
+
+// rowsNeeded returns, per row of the window, whether the row needs more
+// than its user, ts and event: false for a row of an unwanted event whose
+// user, ts and event are valid (and that is no exposure), which is only
+// counted. Without a filter, or with user, ts or event from a partition,
+// every row is needed and it returns nil.
+func (w *rgWorker) rowsNeeded(n int) []bool {
+	uc, tc, ec := w.cols[colUser], w.cols[colTS], w.cols[colEvent]
+	if uc == nil || tc == nil || ec == nil || ec.keep == nil {
+		return nil
+	}
+	if w.needBuf == nil {
+		w.needBuf = make([]bool, bulkWindow)
+	}
+	need, exposure := w.needBuf[:n], w.r.p.exposure
+	for k := range need {
+		u, ev := &uc.cells[k], &ec.cells[k]
+		need[k] = ec.keep[k] || u.null || u.s == "" || tc.times[k].state != tsOK || ev.null || ev.s == "" || ev.s == exposure
+	}
+	return need
+}
+
 // window applies the row rules to the n decoded rows of the window that
 // starts done rows into row group rg, as parquetReader.read does, and
 // puts the kept ones into batches. It returns false when a bad row stops
@@ -296,19 +345,12 @@ func (w *rgWorker) openChunks(rg int) (int64, error) {
 func (w *rgWorker) window(res *rgResult, rg int, done int64, n int) bool {
 	r := w.r
 	base := r.rgStart[rg] + done
-	// fast: user, ts and event come from the file and there is a filter.
-	uc, tc, ec := w.cols[colUser], w.cols[colTS], w.cols[colEvent]
-	fast := uc != nil && tc != nil && ec != nil && ec.keep != nil
+	need := w.need // see rowsNeeded
 	for k := 0; k < n; k++ {
-		if fast && !ec.keep[k] {
-			// A row of an unwanted event: valid when its user,
-			// ts and event are (it is no exposure), and then
-			// only counted; otherwise the full rules below.
-			u, ev, ts := &uc.cells[k], &ec.cells[k], &tc.times[k]
-			if !u.null && u.s != "" && ts.state == tsOK && !ev.null && ev.s != "" && ev.s != r.p.exposure {
-				res.filtered.add(ts.ns)
-				continue
-			}
+		if need != nil && !need[k] {
+			// A valid row of an unwanted event: only counted.
+			res.filtered.add(w.cols[colTS].times[k].ns)
+			continue
 		}
 		row := &w.row
 		r.part.fill(row)
@@ -401,8 +443,12 @@ func (c *bulkColumn) open(pages parquet.Pages) {
 	c.pages = pages
 }
 
-// fill decodes the next n rows into c.cells or c.times (and c.keep).
-func (c *bulkColumn) fill(n int) error {
+// fill decodes the next n rows into c.cells or c.times (and c.keep). A
+// text column that only the rows marked in need use (nil: every row)
+// leaves the cells of the other rows as they were; their dictionary
+// indices are checked all the same, so that a damaged page fails where it
+// would without need.
+func (c *bulkColumn) fill(n int, need []bool) error {
 	for k := 0; k < n; {
 		if c.pos >= c.nrows {
 			if err := c.nextPage(); err != nil {
@@ -415,10 +461,53 @@ func (c *bulkColumn) fill(n int) error {
 			if err := c.fillTS(c.times[k : k+m]); err != nil {
 				return err
 			}
+		} else if need != nil {
+			if err := c.fillTextNeeded(k, m, need[k:k+m]); err != nil {
+				return err
+			}
 		} else if err := c.fillText(k, m); err != nil {
 			return err
 		}
 		k += m
+	}
+	return nil
+}
+
+// fillTextNeeded is fillText for the rows marked in need; it skips the
+// values of the others (skip).
+func (c *bulkColumn) fillTextNeeded(k, m int, need []bool) error {
+	for j := 0; j < m; {
+		e := j
+		for e < m && need[e] {
+			e++
+		}
+		if e > j {
+			if err := c.fillText(k+j, e-j); err != nil {
+				return err
+			}
+			j = e
+			continue
+		}
+		for e < m && !need[e] {
+			e++
+		}
+		if err := c.skip(e - j); err != nil {
+			return err
+		}
+		j = e
+	}
+	return nil
+}
+
+// skip moves past the page's next n rows without decoding their values;
+// their dictionary indices are checked as fillText checks them.
+func (c *bulkColumn) skip(n int) error {
+	for range n {
+		if v := c.value(); v >= 0 && c.idx != nil {
+			if _, err := dictIndex(c.idx[v], len(c.dictStr)); err != nil {
+				return err
+			}
+		}
 	}
 	return nil
 }

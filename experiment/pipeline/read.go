@@ -57,7 +57,11 @@ func openReader(in Input, exps []Experiment, events []string, workers int) (reco
 	case experiment.InputUnitTable, experiment.InputCounts:
 		r, err = openTable(in, m, exps[0], srcs)
 	default:
-		r, err = ingest.NewReader(srcs, eventOptions(in, m, exps, events, workers))
+		// The talliers and the spill copy what they keep of a batch,
+		// so its buffers can serve the next batches (recycler).
+		opts := eventOptions(in, m, exps, events, workers)
+		opts.Allocator = new(recycler)
+		r, err = ingest.NewReader(srcs, opts)
 	}
 	if err != nil {
 		return nil, &ConfigError{err}
