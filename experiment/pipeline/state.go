@@ -2,6 +2,7 @@ package pipeline
 
 import (
 	"bufio"
+	"bytes"
 	"context"
 	"crypto/sha256"
 	"encoding/binary"
@@ -34,12 +35,14 @@ import (
 // change what the saved tally summarised (see experiment.StaleStateError).
 //
 // Layout (all integers varints): the magic line, the layout version, the
-// build, the definition hash, the manifest, the reader's counts, each
-// experiment's saved tally, and a CRC-32C of everything before it.
+// length of the header, the header (the build, the definition hash, the
+// manifest, the reader's counts) and its CRC-32C (4 bytes), then each
+// experiment's saved tally, which checks its own parts (see
+// experiment.Tallier.WriteState): no part of the file is read twice.
 
 const (
 	stateFileMagic   = "armtally-state\n"
-	stateFileVersion = 1
+	stateFileVersion = 2
 	// stateHashBlock is how much of each end of a file its content hash
 	// covers: a Parquet file's footer, a CSV file's last rows.
 	stateHashBlock = 64 << 10
@@ -195,8 +198,8 @@ type stateFile struct {
 	stats ingest.Stats
 }
 
-// openStateFile opens the state file and checks its checksum; it returns
-// nil and a reason when it cannot be used ("" when there is none).
+// openStateFile opens the state file; it returns nil and a reason when it
+// cannot be read ("" when there is none).
 func openStateFile(path string) (*stateFile, string) {
 	f, err := os.Open(path)
 	if errors.Is(err, fs.ErrNotExist) {
@@ -205,37 +208,7 @@ func openStateFile(path string) (*stateFile, string) {
 	if err != nil {
 		return nil, fmt.Sprintf("the state file cannot be read: %v", err)
 	}
-	why := checkSum(f)
-	if why == "" {
-		if _, err := f.Seek(0, io.SeekStart); err != nil {
-			why = fmt.Sprintf("the state file cannot be read: %v", err)
-		}
-	}
-	if why != "" {
-		f.Close()
-		return nil, why
-	}
 	return &stateFile{f: f, r: bufio.NewReaderSize(f, 1<<16)}, ""
-}
-
-// checkSum compares the CRC-32C of a state file with the one it ends with.
-func checkSum(f *os.File) string {
-	info, err := f.Stat()
-	if err != nil {
-		return fmt.Sprintf("the state file cannot be read: %v", err)
-	}
-	if info.Size() < 4 {
-		return "the state file is damaged (its checksum does not match)"
-	}
-	h := crc32.New(crc32.MakeTable(crc32.Castagnoli))
-	if _, err := io.Copy(h, io.NewSectionReader(f, 0, info.Size()-4)); err != nil {
-		return fmt.Sprintf("the state file cannot be read: %v", err)
-	}
-	var tail [4]byte
-	if _, err := f.ReadAt(tail[:], info.Size()-4); err != nil || binary.LittleEndian.Uint32(tail[:]) != h.Sum32() {
-		return "the state file is damaged (its checksum does not match)"
-	}
-	return ""
 }
 
 func (sf *stateFile) close() { sf.f.Close() }
@@ -250,9 +223,10 @@ func (sf *stateFile) readHeader(def string) string {
 		bad = bad || err != nil
 		return v
 	}
+	limit := int64(1 << 30) // the header; its fields are shorter
 	str := func() string {
 		n := num()
-		if bad || n < 0 || n > 1<<20 {
+		if bad || n < 0 || n > limit {
 			bad = true
 			return ""
 		}
@@ -267,6 +241,13 @@ func (sf *stateFile) readHeader(def string) string {
 	if v := num(); v != stateFileVersion {
 		return fmt.Sprintf("the state file has layout %d, this armtally reads %d", v, stateFileVersion)
 	}
+	hdr := []byte(str())
+	limit = 1 << 20
+	var sum [4]byte
+	if _, err := io.ReadFull(r, sum[:]); bad || err != nil || binary.LittleEndian.Uint32(sum[:]) != crc32.Checksum(hdr, crc32.MakeTable(crc32.Castagnoli)) {
+		return "the state file is damaged (its header checksum does not match)"
+	}
+	r = bufio.NewReader(bytes.NewReader(hdr))
 	if str() != buildVersion() {
 		return "the state file was written by another armtally build"
 	}
@@ -315,16 +296,18 @@ func writeState(path, def string, files []fileEntry, st ingest.Stats, talliers [
 
 // writeStateTo writes the layout described at the top of this file.
 func writeStateTo(out io.Writer, def string, files []fileEntry, st ingest.Stats, talliers []*experiment.Tallier) (int64, error) {
-	h := crc32.New(crc32.MakeTable(crc32.Castagnoli))
-	cw := &countWriter{w: io.MultiWriter(out, h)}
+	cw := &countWriter{w: out}
 	w := bufio.NewWriterSize(cw, 1<<16)
-	num := func(v int64) { w.Write(binary.AppendVarint(nil, v)) }
+	var hdr []byte
+	num := func(v int64) { hdr = binary.AppendVarint(hdr, v) }
 	str := func(s string) {
 		num(int64(len(s)))
-		w.WriteString(s)
+		hdr = append(hdr, s...)
 	}
 	str(stateFileMagic)
 	num(stateFileVersion)
+	w.Write(hdr)
+	hdr = hdr[:0]
 	str(buildVersion())
 	str(def)
 	num(int64(len(files)))
@@ -342,6 +325,9 @@ func writeStateTo(out io.Writer, def string, files []fileEntry, st ingest.Stats,
 		str(b.Reason.String())
 		num(b.Count)
 	}
+	w.Write(binary.AppendVarint(nil, int64(len(hdr))))
+	w.Write(hdr)
+	w.Write(binary.LittleEndian.AppendUint32(nil, crc32.Checksum(hdr, crc32.MakeTable(crc32.Castagnoli))))
 	for _, tl := range talliers {
 		if err := tl.WriteState(w); err != nil {
 			return 0, err
@@ -350,10 +336,7 @@ func writeStateTo(out io.Writer, def string, files []fileEntry, st ingest.Stats,
 	if err := w.Flush(); err != nil {
 		return 0, err
 	}
-	if _, err := out.Write(binary.LittleEndian.AppendUint32(nil, h.Sum32())); err != nil {
-		return 0, err
-	}
-	return cw.n + 4, nil
+	return cw.n, nil
 }
 
 // countWriter counts the bytes written through it.
