@@ -227,13 +227,13 @@ func newTallier(spec Spec, partitions int) (*Tallier, error) {
 	}
 	partitions = max(1, min(partitions, 256))
 	t := &Tallier{
-		spec:     spec,
-		names:    []string{spec.ExposureEvent},
-		kinds:    []int32{kindExposure},
+		spec:      spec,
+		names:     []string{spec.ExposureEvent},
+		kinds:     []int32{kindExposure},
 		seed:      maphash.MakeSeed(),
 		stateHash: xxh3.Hash,
-		armIndex: make(map[string]int32),
-		expKeys:  make(map[string]struct{}),
+		armIndex:  make(map[string]int32),
+		expKeys:   make(map[string]struct{}),
 	}
 	for range partitions {
 		pt := &tallyPart{exposures: newExposures(spec)}
