@@ -7,6 +7,7 @@ import (
 	"errors"
 	"fmt"
 	"hash/crc32"
+	"io"
 	"math"
 	"runtime"
 	"slices"
@@ -24,13 +25,15 @@ type mergeResult struct {
 	dicts   [][]string
 	sums    *groupSums
 	horizon int64
+	// inMemory: the blocks' data is here (not written out as merged).
+	inMemory bool
 }
 
 // finishResumed merges a resumed tally's new units with its saved state.
 // An error (stale, or a damaged block wrapping ErrStateFormat) is kept
 // in stale.
 func (t *Tallier) finishResumed() *finished {
-	m, err := t.merge(t.saved)
+	m, err := t.merge(t.saved, nil)
 	if err != nil {
 		return &finished{stale: err}
 	}
@@ -54,6 +57,14 @@ type mergeCtx struct {
 	refAt             []int // task k's refs are refs[refAt[k]:refAt[k+1]]
 	blocks            []savedBlock
 	dense             int // the size of a dense groupSums, 0 for a map
+	// w receives the encoded blocks in order as tasks finish (nil: they
+	// are kept in blocks); written counts the tasks written.
+	w       io.Writer
+	mu      sync.Mutex
+	cond    *sync.Cond
+	written int
+	failed  bool
+	werr    error
 }
 
 // newPart is what the merge needs of one partition's new units: their
@@ -89,10 +100,12 @@ type mergeWorker struct {
 }
 
 // merge merges the tallier's units with saved state sv (empty for a
-// tally that was not resumed).
-func (t *Tallier) merge(sv *savedState) (*mergeResult, error) {
+// tally that was not resumed), writing the new state's blocks to w as
+// they are made (w nil: keeping them).
+func (t *Tallier) merge(sv *savedState, w io.Writer) (*mergeResult, error) {
 	nm, dims := len(t.spec.Metrics), len(t.spec.Segments)
-	mc := &mergeCtx{t: t, sv: sv, sh: newColShape(nm, dims), resumed: t.saved != nil, horizon: t.fresh}
+	mc := &mergeCtx{t: t, sv: sv, sh: newColShape(nm, dims), resumed: t.saved != nil, horizon: t.fresh, w: w}
+	mc.cond = sync.NewCond(&mc.mu)
 	if t.hasEnd {
 		mc.horizon = t.end
 	}
@@ -113,7 +126,8 @@ func (t *Tallier) merge(sv *savedState) (*mergeResult, error) {
 	if err != nil {
 		return nil, err
 	}
-	m := &mergeResult{diag: t.diag, bits: mc.outBits, blocks: mc.blocks, dicts: mc.dicts, horizon: mc.horizon, sums: newGroupSums(mc.dense)}
+	m := &mergeResult{diag: t.diag, bits: mc.outBits, blocks: mc.blocks, dicts: mc.dicts, horizon: mc.horizon,
+		sums: newGroupSums(mc.dense), inMemory: w == nil}
 	d := &m.diag
 	d.OutsideAttribution = slices.Clone(t.diag.OutsideAttribution)
 	for _, w := range workers {
@@ -253,6 +267,7 @@ func (mc *mergeCtx) run() ([]*mergeWorker, error) {
 				if errs[k] = mc.task(k, w); errs[k] != nil {
 					failed.Store(true)
 				}
+				mc.emit(k, w.enc, errs[k] != nil)
 			}
 		})
 	}
@@ -262,7 +277,31 @@ func (mc *mergeCtx) run() ([]*mergeWorker, error) {
 			return nil, err
 		}
 	}
+	if mc.werr != nil {
+		return nil, mc.werr
+	}
 	return workers, nil
+}
+
+// emit writes the encoded blocks of task k once those of every earlier
+// task are written; a failed task stops the writing.
+func (mc *mergeCtx) emit(k int, enc []byte, failed bool) {
+	if mc.w == nil {
+		return
+	}
+	mc.mu.Lock()
+	defer mc.mu.Unlock()
+	for mc.written != k && !mc.failed {
+		mc.cond.Wait()
+	}
+	mc.failed = mc.failed || failed
+	if !mc.failed && mc.werr == nil {
+		if _, mc.werr = mc.w.Write(enc); mc.werr != nil {
+			mc.failed = true
+		}
+	}
+	mc.written++
+	mc.cond.Broadcast()
 }
 
 func (mc *mergeCtx) key(r newRef) []byte { return mc.t.parts[r.p].units.key(r.u) }
@@ -519,14 +558,20 @@ func (mc *mergeCtx) attribute(w *mergeWorker, k int, evs []metricEvent) {
 func (mc *mergeCtx) encode(k int, w *mergeWorker, out *unitCols) {
 	d := mc.outBits - mc.taskBits
 	i := 0
+	w.enc = w.enc[:0]
 	for b := k << d; b < (k+1)<<d; b++ {
 		j := i
 		for j < out.len() && blockOf(out.hash[j], mc.outBits) == b {
 			j++
 		}
-		w.enc = encodeBlock(w.enc[:0], out, i, j, mc.sh, &w.bs)
-		data := slices.Clone(w.enc)
-		mc.blocks[b] = savedBlock{n: j - i, size: len(data), data: data, crc: crc32.Checksum(data, castagnoli())}
+		at := len(w.enc)
+		w.enc = encodeBlock(w.enc, out, i, j, mc.sh, &w.bs)
+		data := w.enc[at:]
+		blk := savedBlock{n: j - i, size: len(data), crc: crc32.Checksum(data, castagnoli())}
+		if mc.w == nil {
+			blk.data = slices.Clone(data)
+		}
+		mc.blocks[b] = blk
 		i = j
 	}
 }

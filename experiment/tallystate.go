@@ -121,34 +121,62 @@ func blockOf(h uint64, bits int) int {
 // in a later run: the counters of the rows read, the arms, experiment keys
 // and segment values seen, and one record per unit (see above). It fails
 // as Tally does, and with a *StaleStateError on a resumed tally that
-// cannot be exact.
+// cannot be exact. A resumed tally is merged as it is written: Tally
+// after WriteState sums the same pass.
 func (t *Tallier) WriteState(w io.Writer) error {
 	if err := t.checkKeys(); err != nil {
 		return err
 	}
-	f := t.finish()
-	if f.stale != nil {
-		return f.stale
+	cw := &countingWriter{w: w}
+	sw := &stateWriter{w: cw}
+	sw.str(stateMagic)
+	sw.uint(stateVersion)
+	if err := sw.flush(); err != nil {
+		return err
 	}
-	m := f.merged
-	if m == nil {
+	var m *mergeResult
+	if f := t.fin; f != nil && f.merged != nil && f.merged.inMemory {
+		m = f.merged
+		for _, b := range m.blocks {
+			sw.write(b.data)
+		}
+	} else {
 		var err error
-		if m, err = t.merge(&savedState{}); err != nil {
+		if m, err = t.merge(t.savedOrEmpty(), cw); err != nil {
+			if t.saved != nil {
+				t.fin = &finished{stale: err}
+			}
 			return err
+		}
+		if t.saved != nil {
+			t.fin = &finished{diag: m.diag, merged: m}
 		}
 	}
 	hdr := t.stateHeader(m)
-	sw := &stateWriter{w: w}
-	sw.str(stateMagic)
-	sw.uint(stateVersion)
-	sw.bytes(hdr)
+	sw.write(hdr)
+	sw.write(binary.LittleEndian.AppendUint32(nil, uint32(len(hdr))))
 	sw.write(binary.LittleEndian.AppendUint32(nil, crc32.Checksum(hdr, castagnoli())))
-	sw.flush()
-	for _, b := range m.blocks {
-		sw.write(b.data)
-	}
-	sw.str(stateMagic) // the end: a cut file is refused
+	sw.write([]byte(stateMagic)) // the end: a cut state is refused
 	return sw.flush()
+}
+
+func (t *Tallier) savedOrEmpty() *savedState {
+	if t.saved != nil {
+		return t.saved
+	}
+	return &savedState{}
+}
+
+// countingWriter counts the bytes written through it.
+type countingWriter struct {
+	w io.Writer
+	n int64
+}
+
+func (c *countingWriter) Write(p []byte) (int, error) {
+	n, err := c.w.Write(p)
+	c.n += int64(n)
+	return n, err
 }
 
 // stateHeader encodes the header of a saved state.
@@ -189,7 +217,7 @@ func (t *Tallier) stateHeader(m *mergeResult) []byte {
 	sw.uint(uint64(m.bits))
 	for _, b := range m.blocks {
 		sw.uint(uint64(b.n))
-		sw.uint(uint64(len(b.data)))
+		sw.uint(uint64(b.size))
 		sw.write(binary.LittleEndian.AppendUint32(nil, b.crc))
 	}
 	return sw.buf
@@ -217,16 +245,15 @@ func diagCounters(d *TallyDiagnostics) []*int64 {
 
 // ReadState loads a state written by WriteState for the same spec into a
 // new Tallier, before its first Add: the rows it summarises then count as
-// read. It reads the blocks into memory without decoding them; a damaged
-// block is found when the tally is made (an error wrapping
-// ErrStateFormat). Errors wrap ErrStateFormat.
-func (t *Tallier) ReadState(r io.Reader) error {
+// read. It keeps b (the state, as WriteState wrote it, which must not
+// change until the tallier's last WriteState, Tally or Units) and does not
+// decode its units: a damaged block is found when the tally is made (an
+// error wrapping ErrStateFormat). Errors wrap ErrStateFormat.
+func (t *Tallier) ReadState(b []byte) error {
 	if t.diag.RowsRead > 0 || t.hasFresh || t.saved != nil {
 		return errors.New("ReadState: the tallier has read rows already")
 	}
-	sr := &stateReader{r: bufio.NewReaderSize(r, stateBlock)}
-	sv, err := t.readState(sr)
-	sr.done()
+	sv, err := t.readState(b)
 	if err != nil {
 		return fmt.Errorf("%w: %w", ErrStateFormat, err)
 	}
@@ -235,34 +262,44 @@ func (t *Tallier) ReadState(r io.Reader) error {
 	return nil
 }
 
-func (t *Tallier) readState(sr *stateReader) (*savedState, error) {
-	if sr.str() != stateMagic || sr.uint() != stateVersion {
-		return nil, errors.New("unknown layout")
+func (t *Tallier) readState(b []byte) (*savedState, error) {
+	prefix := 0
+	for _, want := range []uint64{uint64(len(stateMagic)), stateVersion} {
+		v, k := binary.Uvarint(b[prefix:])
+		if k <= 0 || v != want {
+			return nil, errors.New("unknown layout")
+		}
+		if prefix += k; want == uint64(len(stateMagic)) {
+			if !bytes.HasPrefix(b[prefix:], []byte(stateMagic)) {
+				return nil, errors.New("unknown layout")
+			}
+			prefix += len(stateMagic)
+		}
 	}
-	hdr := bytes.Clone(sr.bytes())
-	sum := sr.fixed(4)
-	if sr.err != nil {
-		return nil, sr.err
+	tail := len(stateMagic) + 8
+	if len(b) < prefix+tail || string(b[len(b)-len(stateMagic):]) != stateMagic {
+		return nil, errors.New("cut short")
 	}
-	if binary.LittleEndian.Uint32(sum) != crc32.Checksum(hdr, castagnoli()) {
+	foot := b[len(b)-tail:]
+	n := int(binary.LittleEndian.Uint32(foot))
+	if n > len(b)-prefix-tail {
+		return nil, errors.New("cut short")
+	}
+	hdr := b[len(b)-tail-n : len(b)-tail]
+	if binary.LittleEndian.Uint32(foot[4:]) != crc32.Checksum(hdr, castagnoli()) {
 		return nil, errors.New("damaged header")
 	}
-	hr := &stateReader{r: bufio.NewReader(bytes.NewReader(hdr))}
-	sv, total, err := t.readHeader(hr)
+	sv, total, err := t.readHeader(&stateReader{r: bufio.NewReader(bytes.NewReader(hdr))})
 	if err != nil {
 		return nil, err
 	}
-	sr.done()
-	payload := make([]byte, total)
-	if _, err := io.ReadFull(sr.r, payload); err != nil {
-		return nil, fmt.Errorf("cut short: %w", err)
+	payload := b[prefix : len(b)-tail-n]
+	if int64(len(payload)) != total {
+		return nil, errors.New("the blocks do not add up")
 	}
 	for i := range sv.blocks {
-		b := &sv.blocks[i]
-		b.data, payload = payload[:b.size:b.size], payload[b.size:]
-	}
-	if sr.str() != stateMagic {
-		return nil, sr.fail()
+		blk := &sv.blocks[i]
+		blk.data, payload = payload[:blk.size:blk.size], payload[blk.size:]
 	}
 	return sv, nil
 }
@@ -498,6 +535,13 @@ func (s *stateReader) str() string { return string(s.bytes()) }
 
 // mergedUnits returns the unit records of a resumed tally, sorted by key.
 func (t *Tallier) mergedUnits(m *mergeResult) (iter.Seq[UnitRecord], error) {
+	if !m.inMemory {
+		// Written out as merged: merge again, into memory.
+		var err error
+		if m, err = t.merge(t.saved, nil); err != nil {
+			return nil, err
+		}
+	}
 	sh := newColShape(len(t.spec.Metrics), len(t.spec.Segments))
 	var c unitCols
 	var s blockScratch

@@ -84,7 +84,7 @@ func resumeHash(t *testing.T, spec Spec, state []byte, rows []row, parts int, ha
 		tl.stateHash = hash
 	}
 	if state != nil {
-		if err := tl.ReadState(bytes.NewReader(state)); err != nil {
+		if err := tl.ReadState(state); err != nil {
 			t.Fatalf("ReadState: %v", err)
 		}
 	}
@@ -195,14 +195,14 @@ func TestReadStateDamaged(t *testing.T) {
 	}
 	for _, cut := range []int{0, 1, len(state) / 2, len(state) - 1} {
 		tl, _ := newTallier(spec, 2)
-		if err := tl.ReadState(bytes.NewReader(state[:cut])); !errors.Is(err, ErrStateFormat) {
+		if err := tl.ReadState(state[:cut]); !errors.Is(err, ErrStateFormat) {
 			t.Errorf("cut at %d: error %v, want ErrStateFormat", cut, err)
 		}
 	}
 	other := spec
 	other.Metrics = other.Metrics[:1]
 	tl, _ := newTallier(other, 2)
-	if err := tl.ReadState(bytes.NewReader(state)); !errors.Is(err, ErrStateFormat) {
+	if err := tl.ReadState(state); !errors.Is(err, ErrStateFormat) {
 		t.Errorf("other metrics: error %v, want ErrStateFormat", err)
 	}
 }
@@ -294,7 +294,7 @@ func TestResumedTallyManyBlocks(t *testing.T) {
 			state = next
 		}
 		tl, _ := newTallier(spec, 2)
-		if err := tl.ReadState(bytes.NewReader(state)); err != nil {
+		if err := tl.ReadState(state); err != nil {
 			t.Fatal(err)
 		}
 		if tl.saved.bits == 0 {
@@ -317,7 +317,7 @@ func TestStateDamagedBlocks(t *testing.T) {
 		if hash != nil {
 			tl.stateHash = hash
 		}
-		if err := tl.ReadState(bytes.NewReader(b)); err != nil {
+		if err := tl.ReadState(b); err != nil {
 			return err
 		}
 		_, err := tl.Tally()
