@@ -184,7 +184,8 @@ func encodeBlock(dst []byte, c *unitCols, i, j int, sh colShape, s *blockScratch
 var errBlock = errors.New("damaged unit block")
 
 // decodeBlock appends the n units of block b to c, with their stable
-// hashes (hash). It fails on a block whose size does not add up.
+// hashes (hash; nil: neither the keys nor their hashes). It fails on a
+// block whose size does not add up.
 func decodeBlock(c *unitCols, b []byte, n int, sh colShape, hash func([]byte) uint64, s *blockScratch) error {
 	if len(b) < blockWidths {
 		return errBlock
@@ -226,6 +227,9 @@ func decodeBlock(c *unitCols, b []byte, n int, sh colShape, hash func([]byte) ui
 	}
 	if total != uint64(len(p)) || uint64(len(c.keys))+total > math.MaxUint32 {
 		return errBlock
+	}
+	if hash == nil {
+		return nil
 	}
 	for _, l := range s.lens {
 		lo := len(c.keys)

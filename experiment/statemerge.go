@@ -321,13 +321,21 @@ func (mc *mergeCtx) task(k int, w *mergeWorker) error {
 	in, out := &w.in, &w.out
 	in.reset()
 	out.reset()
+	refs := mc.refs[mc.refAt[k]:mc.refAt[k+1]]
+	if len(refs) == 0 && mc.sv.units > 0 && mc.outBits == mc.taskBits && mc.sameArms() {
+		return mc.passBlock(k, w)
+	}
 	if mc.sv.units > 0 {
 		if err := mc.loadBlock(k, w); err != nil {
 			return fmt.Errorf("%w: block %d: %w", ErrStateFormat, k, err)
 		}
 	}
-	refs := mc.refs[mc.refAt[k]:mc.refAt[k+1]]
-	slices.SortFunc(refs, func(a, b newRef) int { return cmpUnit(a.h, mc.key(a), b.h, mc.key(b)) })
+	slices.SortFunc(refs, func(a, b newRef) int {
+		if a.h != b.h {
+			return cmp.Compare(a.h, b.h)
+		}
+		return bytes.Compare(mc.key(a), mc.key(b))
+	})
 	i := 0
 	for _, r := range refs {
 		key := mc.key(r)
@@ -352,6 +360,54 @@ func (mc *mergeCtx) task(k int, w *mergeWorker) error {
 	return nil
 }
 
+// sameArms reports whether the saved arm indices are the tallier's.
+func (mc *mergeCtx) sameArms() bool {
+	for i, a := range mc.sv.armMap {
+		if int(a) != i {
+			return false
+		}
+	}
+	return true
+}
+
+// passBlock handles saved block k when no new unit falls in it: it is
+// checked, summed without its keys and written out as it is.
+func (mc *mergeCtx) passBlock(k int, w *mergeWorker) error {
+	b := mc.sv.blocks[k]
+	if crc32.Checksum(b.data, castagnoli()) != b.crc {
+		return fmt.Errorf("%w: block %d: checksum mismatch", ErrStateFormat, k)
+	}
+	if err := decodeBlock(&w.in, b.data, b.n, mc.sh, nil, &w.bs); err != nil {
+		return fmt.Errorf("%w: block %d: %w", ErrStateFormat, k, err)
+	}
+	if err := mc.checkValues(&w.in); err != nil {
+		return fmt.Errorf("%w: block %d: %w", ErrStateFormat, k, err)
+	}
+	mc.sum(w, &w.in)
+	w.enc = append(w.enc[:0], b.data...)
+	mc.blocks[k] = savedBlock{n: b.n, size: b.size, crc: b.crc}
+	if mc.w == nil {
+		mc.blocks[k].data = b.data
+	}
+	return nil
+}
+
+// checkValues checks that the arms and segment values of saved units are
+// among those saved.
+func (mc *mergeCtx) checkValues(in *unitCols) error {
+	for _, a := range in.arm {
+		if int(a>>unitFlagBits) >= len(mc.sv.armMap) {
+			return errBlock
+		}
+	}
+	for i, v := range in.segs {
+		if v < segNull || v != segNull && int(v) >= len(mc.sv.dicts[i%mc.sh.dims]) {
+			return errBlock
+		}
+	}
+	return nil
+}
+
 // loadBlock decodes saved block k into w.in, checking its CRC, its order
 // and its values, and maps its arms to the tallier's.
 func (mc *mergeCtx) loadBlock(k int, w *mergeWorker) error {
@@ -367,16 +423,12 @@ func (mc *mergeCtx) loadBlock(k int, w *mergeWorker) error {
 		if blockOf(in.hash[i], mc.sv.bits) != k || i > 0 && cmpUnit(in.hash[i-1], in.key(i-1), in.hash[i], in.key(i)) >= 0 {
 			return errors.New("units out of order (another hash function?)")
 		}
-		a := in.arm[i] >> unitFlagBits
-		if int(a) >= len(mc.sv.armMap) {
-			return errBlock
-		}
-		in.arm[i] = uint32(mc.sv.armMap[a])<<unitFlagBits | in.arm[i]&(1<<unitFlagBits-1)
 	}
-	for i, v := range in.segs {
-		if v < segNull || v != segNull && int(v) >= len(mc.sv.dicts[i%mc.sh.dims]) {
-			return errBlock
-		}
+	if err := mc.checkValues(in); err != nil {
+		return err
+	}
+	for i, a := range in.arm {
+		in.arm[i] = uint32(mc.sv.armMap[a>>unitFlagBits])<<unitFlagBits | a&(1<<unitFlagBits-1)
 	}
 	return nil
 }
