@@ -581,7 +581,9 @@ func (t *Tallier) fillMerged(rec *UnitRecord, m *mergeResult, c *unitCols, i int
 	rec.Arm = t.arms[flags>>unitFlagBits]
 	rec.MultiArm = flags&unitMulti != 0
 	rec.Status = flagStatus(flags, t.spec.MultiArm)
-	rec.Segments = make([]SegmentValue, dims)
+	if dims > 0 { // nil without dimensions, as fill leaves it
+		rec.Segments = make([]SegmentValue, dims)
+	}
 	for d := range dims {
 		if v := c.segs[i*dims+d]; v != segNull {
 			rec.Segments[d] = SegmentValue{Value: m.dicts[d][v], Valid: true}

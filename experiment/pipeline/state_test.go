@@ -8,6 +8,7 @@ import (
 	"math/rand/v2"
 	"os"
 	"path/filepath"
+	"reflect"
 	"slices"
 	"strings"
 	"testing"
@@ -278,5 +279,42 @@ func TestIncrementalDamagedState(t *testing.T) {
 	var ce *pipeline.ConfigError
 	if !errors.As(err, &ce) {
 		t.Fatalf("state with a memory limit: error %v, want a ConfigError", err)
+	}
+}
+
+// A resumed run keeps the per-unit records of the audit table: those of a
+// full run, in the same order (common practice: an incremental aggregate
+// must equal the batch one).
+func TestIncrementalKeepsUnits(t *testing.T) {
+	days, files := exportDays(t)
+	dir := t.TempDir()
+	state := filepath.Join(t.TempDir(), "tally.state")
+	exps := stateExperiments()
+	runUnits := func(state string) (*pipeline.Result, [][]experiment.UnitRecord) {
+		res, err := pipeline.Run(context.Background(), pipeline.Input{Paths: []string{dir}, Mapping: ingest.Mapping{Segments: []string{"platform"}}},
+			exps, pipeline.Options{State: state, Workers: 2, KeepUnits: true})
+		if err != nil {
+			t.Fatal(err)
+		}
+		var all [][]experiment.UnitRecord
+		for i := range exps {
+			units, err := res.Units(i)
+			if err != nil {
+				t.Fatal(err)
+			}
+			all = append(all, slices.Collect(units))
+		}
+		return res, all
+	}
+	for i, d := range days[:12] {
+		writeDay(t, dir, d, files[d])
+		inc, got := runUnits(state)
+		_, want := runUnits("")
+		if inc.State.Resumed != (i > 0) {
+			t.Fatalf("after %s: state report %+v", d, *inc.State)
+		}
+		if !reflect.DeepEqual(got, want) {
+			t.Fatalf("after %s: the resumed run's unit records differ from the full run's", d)
+		}
 	}
 }
