@@ -405,11 +405,6 @@ func (s *stateWriter) bool(b bool) {
 	s.spill()
 }
 
-func (s *stateWriter) bytes(b []byte) {
-	s.buf = binary.AppendUvarint(s.buf, uint64(len(b)))
-	s.write(b)
-}
-
 func (s *stateWriter) str(v string) {
 	s.buf = binary.AppendUvarint(s.buf, uint64(len(v)))
 	s.buf = append(s.buf, v...)
