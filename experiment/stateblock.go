@@ -181,7 +181,12 @@ func encodeBlock(dst []byte, c *unitCols, i, j int, sh colShape, s *blockScratch
 	return append(dst, c.keys[keysLo:prev]...)
 }
 
-var errBlock = errors.New("damaged unit block")
+// The faults of a saved block.
+var (
+	errBlock    = errors.New("damaged unit block")
+	errChecksum = errors.New("checksum mismatch")
+	errOrder    = errors.New("units out of order (another hash function?)")
+)
 
 // decodeBlock appends the n units of block b to c, with their stable
 // hashes (hash; nil: neither the keys nor their hashes). It fails on a

@@ -4,7 +4,6 @@ import (
 	"bytes"
 	"cmp"
 	"encoding/binary"
-	"errors"
 	"fmt"
 	"hash/crc32"
 	"io"
@@ -83,19 +82,12 @@ type newRef struct {
 	p, u int32
 }
 
-// attribution holds the changes a merge makes to the counters of the
-// attribution of metric events.
-type attribution struct {
-	neverExposed, excluded, before, inUnit int64
-	outside                                []int64
-}
-
 // mergeWorker is one goroutine's scratch and sums.
 type mergeWorker struct {
 	in, out unitCols
 	bs      blockScratch
 	enc     []byte
-	attr    attribution
+	attr    TallyDiagnostics // the changes to the counters of the attribution
 	sums    *groupSums
 }
 
@@ -131,13 +123,8 @@ func (t *Tallier) merge(sv *savedState, w io.Writer) (*mergeResult, error) {
 	d := &m.diag
 	d.OutsideAttribution = slices.Clone(t.diag.OutsideAttribution)
 	for _, w := range workers {
-		a := &w.attr
-		d.UnitNeverExposed += a.neverExposed
-		d.UnitExcluded += a.excluded
-		d.BeforeExposure += a.before
-		d.MetricEventsInUnit += a.inUnit
-		for i, v := range a.outside {
-			d.OutsideAttribution[i] += v
+		if err := sumDiag(d, w.attr, nm); err != nil {
+			return nil, err
 		}
 		m.sums.add(w.sums)
 	}
@@ -256,7 +243,7 @@ func (mc *mergeCtx) run() ([]*mergeWorker, error) {
 	var failed atomic.Bool
 	var wg sync.WaitGroup
 	for i := range workers {
-		w := &mergeWorker{sums: newGroupSums(mc.dense), attr: attribution{outside: make([]int64, mc.sh.nm)}}
+		w := &mergeWorker{sums: newGroupSums(mc.dense), attr: TallyDiagnostics{OutsideAttribution: make([]int64, mc.sh.nm)}}
 		workers[i] = w
 		wg.Go(func() {
 			for !failed.Load() {
@@ -375,7 +362,7 @@ func (mc *mergeCtx) sameArms() bool {
 func (mc *mergeCtx) passBlock(k int, w *mergeWorker) error {
 	b := mc.sv.blocks[k]
 	if crc32.Checksum(b.data, castagnoli()) != b.crc {
-		return fmt.Errorf("%w: block %d: checksum mismatch", ErrStateFormat, k)
+		return fmt.Errorf("%w: block %d: %w", ErrStateFormat, k, errChecksum)
 	}
 	if err := decodeBlock(&w.in, b.data, b.n, mc.sh, nil, &w.bs); err != nil {
 		return fmt.Errorf("%w: block %d: %w", ErrStateFormat, k, err)
@@ -413,7 +400,7 @@ func (mc *mergeCtx) checkValues(in *unitCols) error {
 func (mc *mergeCtx) loadBlock(k int, w *mergeWorker) error {
 	b := mc.sv.blocks[k]
 	if crc32.Checksum(b.data, castagnoli()) != b.crc {
-		return errors.New("checksum mismatch")
+		return errChecksum
 	}
 	in := &w.in
 	if err := decodeBlock(in, b.data, b.n, mc.sh, mc.t.stateHash, &w.bs); err != nil {
@@ -421,7 +408,7 @@ func (mc *mergeCtx) loadBlock(k int, w *mergeWorker) error {
 	}
 	for i := range in.len() {
 		if blockOf(in.hash[i], mc.sv.bits) != k || i > 0 && cmpUnit(in.hash[i-1], in.key(i-1), in.hash[i], in.key(i)) >= 0 {
-			return errors.New("units out of order (another hash function?)")
+			return errOrder
 		}
 	}
 	if err := mc.checkValues(in); err != nil {
@@ -503,11 +490,11 @@ func (mc *mergeCtx) exposeSaved(w *mergeWorker, k int, r newRef, ns *unitState) 
 	}
 	if was == StatusAnalysed && flagStatus(flags, mc.t.spec.MultiArm) != StatusAnalysed {
 		a := &w.attr
-		a.before -= int64(out.before[k])
-		a.inUnit -= int64(out.in[k])
-		a.excluded += int64(out.before[k]) + int64(out.in[k])
+		a.BeforeExposure -= int64(out.before[k])
+		a.MetricEventsInUnit -= int64(out.in[k])
+		a.UnitExcluded += int64(out.before[k]) + int64(out.in[k])
 		for m := range sh.nm {
-			a.outside[m] -= int64(out.out[k*sh.nm+m])
+			a.OutsideAttribution[m] -= int64(out.out[k*sh.nm+m])
 		}
 		out.clearCounts(k, sh)
 	}
@@ -528,13 +515,13 @@ func (mc *mergeCtx) exposeUnexposed(w *mergeWorker, k int, r newRef, ns *unitSta
 	}
 	if before := int64(out.before[k]); before > 0 {
 		a := &w.attr
-		a.neverExposed -= before
+		a.UnitNeverExposed -= before
 		switch {
 		case flagStatus(flags, mc.t.spec.MultiArm) != StatusAnalysed:
-			a.excluded += before
+			a.UnitExcluded += before
 			out.before[k] = 0
 		case out.t0[k] < ns.t0:
-			a.before += before
+			a.BeforeExposure += before
 		default:
 			return &StaleStateError{Reason: "a unit with saved metric events was exposed at or before the latest of them"}
 		}
@@ -563,15 +550,7 @@ func (mc *mergeCtx) newSeg(p int32, d int, v int32) int32 {
 }
 
 // segLess is exposures.segLess on the merged values.
-func (mc *mergeCtx) segLess(d int, a, b int32) bool {
-	switch {
-	case a == segNull:
-		return false
-	case b == segNull:
-		return true
-	}
-	return mc.dicts[d][a] < mc.dicts[d][b]
-}
+func (mc *mergeCtx) segLess(d int, a, b int32) bool { return segValueLess(mc.dicts[d], a, b) }
 
 // attribute attributes the new metric events of unit k of out as finish
 // does, and counts them as the saved state keeps them.
@@ -581,23 +560,23 @@ func (mc *mergeCtx) attribute(w *mergeWorker, k int, evs []metricEvent) {
 	for _, e := range evs {
 		switch {
 		case flags&unitExposed == 0:
-			a.neverExposed++
+			a.UnitNeverExposed++
 			out.before[k]++
 			out.t0[k] = max(out.t0[k], e.ts)
 			continue
 		case flagStatus(flags, mc.t.spec.MultiArm) != StatusAnalysed:
-			a.excluded++
+			a.UnitExcluded++
 			continue
 		case e.ts < out.t0[k]:
-			a.before++
+			a.BeforeExposure++
 			out.before[k]++
 			continue
 		}
-		a.inUnit++
+		a.MetricEventsInUnit++
 		out.in[k]++
 		for _, m := range mc.t.metricsOf[e.event] {
 			if w := int64(mc.t.spec.Metrics[m].Window); w > 0 && e.ts-out.t0[k] >= w {
-				a.outside[m]++
+				a.OutsideAttribution[m]++
 				out.out[k*sh.nm+m]++
 				continue
 			}

@@ -11,6 +11,7 @@ import (
 	"iter"
 	"math"
 	"slices"
+	"strings"
 )
 
 // A Tallier's state can be saved after a run (WriteState) and resumed by a
@@ -127,8 +128,7 @@ func (t *Tallier) WriteState(w io.Writer) error {
 	if err := t.checkKeys(); err != nil {
 		return err
 	}
-	cw := &countingWriter{w: w}
-	sw := &stateWriter{w: cw}
+	sw := &stateWriter{w: w}
 	sw.str(stateMagic)
 	sw.uint(stateVersion)
 	if err := sw.flush(); err != nil {
@@ -142,7 +142,7 @@ func (t *Tallier) WriteState(w io.Writer) error {
 		}
 	} else {
 		var err error
-		if m, err = t.merge(t.savedOrEmpty(), cw); err != nil {
+		if m, err = t.merge(t.savedOrEmpty(), w); err != nil {
 			if t.saved != nil {
 				t.fin = &finished{stale: err}
 			}
@@ -165,18 +165,6 @@ func (t *Tallier) savedOrEmpty() *savedState {
 		return t.saved
 	}
 	return &savedState{}
-}
-
-// countingWriter counts the bytes written through it.
-type countingWriter struct {
-	w io.Writer
-	n int64
-}
-
-func (c *countingWriter) Write(p []byte) (int, error) {
-	n, err := c.w.Write(p)
-	c.n += int64(n)
-	return n, err
 }
 
 // stateHeader encodes the header of a saved state.
@@ -554,18 +542,8 @@ func (t *Tallier) mergedUnits(m *mergeResult) (iter.Seq[UnitRecord], error) {
 		t.fillMerged(&rec, m, &c, i)
 		recs = append(recs, rec)
 	}
-	slices.SortFunc(recs, func(a, b UnitRecord) int { return cmpString(a.Unit, b.Unit) })
+	slices.SortFunc(recs, func(a, b UnitRecord) int { return strings.Compare(a.Unit, b.Unit) })
 	return slices.Values(recs), nil
-}
-
-func cmpString(a, b string) int {
-	switch {
-	case a < b:
-		return -1
-	case a > b:
-		return 1
-	}
-	return 0
 }
 
 // fillMerged sets the arm, status, flags and segment values of exposed
