@@ -136,7 +136,7 @@ func (t *Tallier) merge(sv *savedState, w io.Writer) (*mergeResult, error) {
 
 // buildDicts makes the merged segment values of each dimension: the
 // saved ones, then those of the new rows, and each partition's map to
-// them. A resumed tally with a dimension at its limit is stale: the
+// them. A resumed tally with a dimension past its limit is stale: the
 // limit is judged on all the rows, by a full run.
 func (mc *mergeCtx) buildDicts() error {
 	t := mc.t
@@ -164,8 +164,8 @@ func (mc *mergeCtx) buildDicts() error {
 				mc.news[p].segMap[d] = append(mc.news[p].segMap[d], i)
 			}
 		}
-		if mc.resumed && len(mc.dicts[d]) >= t.spec.maxSegmentValues() {
-			return &StaleStateError{Reason: fmt.Sprintf("segment %q has as many distinct values as its limit allows", t.spec.Segments[d])}
+		if mc.resumed && len(mc.dicts[d]) > t.spec.maxSegmentValues() {
+			return &StaleStateError{Reason: fmt.Sprintf("segment %q has more distinct values than its limit", t.spec.Segments[d])}
 		}
 	}
 	return nil

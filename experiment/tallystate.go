@@ -45,7 +45,7 @@ import (
 // Tally returns a *StaleStateError, when a new exposure is earlier than a
 // saved unit's t0 (its earlier metric events were not kept), ties with it
 // in another arm, a unit with only metric events so far is exposed at or
-// before the latest of them, or a segment dimension reaches its limit of
+// before the latest of them, or a segment dimension passes its limit of
 // distinct values (the limit is judged on all the rows). The maturity
 // horizon is not saved per unit: it is recomputed from t0 and the
 // freshness of all rows.

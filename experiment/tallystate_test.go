@@ -345,3 +345,34 @@ func TestStateDamagedBlocks(t *testing.T) {
 		t.Errorf("the undamaged state: %v", err)
 	}
 }
+
+// A segment dimension whose saved and new values together pass its limit
+// is left to a full run (which judges the limit on all the rows); at the
+// limit, the resumed tally is the full one.
+func TestResumedTallySegmentLimit(t *testing.T) {
+	spec := stateSpec(MultiArmExclude)
+	spec.MaxSegmentValues = 2
+	withSeg := func(r row, v string) row {
+		r.segs = []string{v}
+		return r
+	}
+	first := []row{withSeg(seen("a", 2*day, "control"), "DE")}
+	_, _, state, err := resume(t, spec, nil, first, 2)
+	if err != nil {
+		t.Fatal(err)
+	}
+	atLimit := []row{withSeg(seen("b", 3*day, "treat"), "FR")}
+	want, _, _, err := resume(t, spec, nil, append(slices.Clone(first), atLimit...), 1)
+	if err != nil {
+		t.Fatal(err)
+	}
+	got, _, next, err := resume(t, spec, state, atLimit, 2)
+	if err != nil || !reflect.DeepEqual(got, want) {
+		t.Fatalf("at the limit: error %v, or the resumed tally differs from the full one", err)
+	}
+	_, _, _, err = resume(t, spec, next, []row{withSeg(seen("c", 4*day, "treat"), "IT")}, 2)
+	var se *StaleStateError
+	if !errors.As(err, &se) {
+		t.Fatalf("past the limit: error %v, want a *StaleStateError", err)
+	}
+}
