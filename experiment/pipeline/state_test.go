@@ -268,11 +268,33 @@ func TestIncrementalDamagedState(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	b[len(b)/2] ^= 0x40
-	writeFile(t, state, b)
-	res := run(t, dir, state, exps)
-	if !res.State.Recomputed || !strings.Contains(res.State.Reason, "damaged") {
-		t.Fatalf("state report %+v, want a recompute of a damaged file", *res.State)
+	want := readoutBytes(t, run(t, dir, "", exps).Readouts)
+	damage := []struct {
+		name, reason string
+		edit         func([]byte) []byte
+	}{
+		{"a byte of a block", "damaged", func(b []byte) []byte { b[len(b)/2] ^= 0x40; return b }},
+		{"a byte of the trailer", "damaged", func(b []byte) []byte { b[len(b)-30] ^= 0x01; return b }},
+		{"cut in half", "damaged", func(b []byte) []byte { return b[:len(b)/2] }},
+		{"cut by a byte", "damaged", func(b []byte) []byte { return b[:len(b)-1] }},
+		// The layout version follows the magic line's length and bytes.
+		{"layout 1", "layout 1", func(b []byte) []byte { b[1+len("armtally-state\n")] = 2; return b }},
+		{"empty", "not one armtally wrote", func([]byte) []byte { return nil }},
+	}
+	for _, dc := range damage {
+		writeFile(t, state, dc.edit(slices.Clone(b)))
+		res := run(t, dir, state, exps)
+		if !res.State.Recomputed || !strings.Contains(res.State.Reason, dc.reason) {
+			t.Fatalf("%s: state report %+v, want a recompute (%q)", dc.name, *res.State, dc.reason)
+		}
+		if !strings.Contains(readoutBytes(t, res.Readouts), dc.reason) {
+			t.Fatalf("%s: the readout does not say why every file was read again", dc.name)
+		}
+		// The recompute saved a sound state: the next run resumes from it.
+		again := run(t, dir, state, exps)
+		if !again.State.Resumed || readoutBytes(t, again.Readouts) != want {
+			t.Fatalf("%s: after the recompute, state report %+v or a readout other than the full run's", dc.name, *again.State)
+		}
 	}
 	_, err = pipeline.Run(context.Background(), pipeline.Input{Sources: []ingest.Source{ingest.BytesSource("a.csv", files[days[0]])}},
 		exps, pipeline.Options{State: state, MemoryLimit: 1 << 30})
