@@ -228,7 +228,7 @@ func (t *Tallier) StateUnits() int {
 func diagCounters(d *TallyDiagnostics) []*int64 {
 	return []*int64{&d.RowsRead, &d.ExposureRows, &d.ExposuresOutsideWindow, &d.OtherExperimentRows,
 		&d.NotMetricEvents, &d.MetricEvents, &d.AfterWindowEnd, &d.UnitNeverExposed, &d.UnitExcluded,
-		&d.BeforeExposure, &d.MetricEventsInUnit}
+		&d.BeforeExposure, &d.MetricEventsInUnit, &d.AfterAsOf}
 }
 
 // ReadState loads a state written by WriteState for the same spec into a

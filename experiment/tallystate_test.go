@@ -114,12 +114,19 @@ func resumeHash(t *testing.T, spec Spec, state []byte, rows []row, parts int, ha
 // Adding the days one at a time on top of the saved state gives the tally
 // and unit records of all the days at once (common practice: an
 // incremental aggregate must equal the batch one), for both multi-arm
-// policies and any number of partitions; days in time order never need a
-// recompute.
+// policies, both maturity policies, a closed and an open window, a rerun
+// look (as-of) and any number of partitions; days in time order never
+// need a recompute.
 func TestResumedTallyEqualsFull(t *testing.T) {
-	for _, policy := range []MultiArmPolicy{MultiArmExclude, MultiArmFirst} {
+	asOf := base.Add(6*day + 5*hour)
+	for v, policy := range []MultiArmPolicy{MultiArmExclude, MultiArmFirst, MultiArmExclude, MultiArmFirst} {
 		for seed := uint64(1); seed <= 8; seed++ {
 			spec := stateSpec(policy)
+			if v >= 2 {
+				// The other maturity policy, an open window and a
+				// rerun look.
+				spec.Maturity, spec.End, spec.AsOf = MaturityInclude, nil, &asOf
+			}
 			days := randomDays(seed, 12)
 			var state []byte
 			var all []row

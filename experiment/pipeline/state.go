@@ -31,8 +31,9 @@ import (
 // (a full recompute, said by a WarnStateRecomputed warning in each readout
 // and in StateReport) when a file of the manifest changed or is gone, the
 // definition of the run (experiments, column mapping, reader settings) or
-// the armtally build differs, the state file is damaged, or the new rows
-// change what the saved tally summarised (see experiment.StaleStateError).
+// the armtally build differs, the state file is damaged, the new rows
+// change what the saved tally summarised (see experiment.StaleStateError),
+// or rows the reader left out reach an experiment's as-of date.
 //
 // Layout: the magic line and the layout version (varints), each
 // experiment's saved tally (experiment.Tallier.WriteState, which checks
@@ -520,6 +521,16 @@ func resumeRun(ctx context.Context, in Input, exps []Experiment, opts Options, s
 			return nil, nil, "reading the new files failed", nil
 		}
 		return nil, nil, "", err
+	}
+	if st := res.Stats; st.Filtered > 0 {
+		for _, e := range exps {
+			if e.Spec.AsOf != nil && st.FilteredMaxTS >= e.Spec.AsOf.UnixNano() {
+				// The rows the reader leaves out move the freshness only
+				// when all of them are before the as-of date
+				// (Tallier.AddFiltered), which every file decides.
+				return nil, nil, "rows of other events reach the as-of date: a rerun look is computed over every file", nil
+			}
+		}
 	}
 	if s := in.MaxBadShare; s > 0 {
 		var total int64
