@@ -134,14 +134,17 @@ func (x *exposures) segmentLimit(spec Spec) error {
 
 // segLess reports whether interned value a of dimension d comes before b
 // in CompareSegmentValues order (null last).
-func (x *exposures) segLess(d int, a, b int32) bool {
+func (x *exposures) segLess(d int, a, b int32) bool { return segValueLess(x.segVals[d], a, b) }
+
+// segValueLess orders interned values a and b of vals (null last).
+func segValueLess(vals []string, a, b int32) bool {
 	switch {
 	case a == segNull:
 		return false
 	case b == segNull:
 		return true
 	}
-	return x.segVals[d][a] < x.segVals[d][b]
+	return vals[a] < vals[b]
 }
 
 // expose records an in-window exposure of unit u in arm a at time at, with

@@ -170,7 +170,10 @@ func (a *Accumulator) SeeArm(name string, exposure int64, known bool) {
 
 // Add sums one unit record. It fails when the record's slices do not match
 // the spec (one segment value per dimension, one flag per metric).
-func (a *Accumulator) Add(rec UnitRecord) error {
+func (a *Accumulator) Add(rec UnitRecord) error { return a.addN(rec, 1) }
+
+// addN sums n records equal to rec.
+func (a *Accumulator) addN(rec UnitRecord, n int64) error {
 	nm := len(a.spec.Metrics)
 	if len(rec.Converted) != nm || len(rec.Immature) != nm {
 		return fmt.Errorf("unit %q: record has %d conversion and %d maturity flags for %d metrics", rec.Unit, len(rec.Converted), len(rec.Immature), nm)
@@ -182,22 +185,22 @@ func (a *Accumulator) Add(rec UnitRecord) error {
 	if rec.HasT0 && rec.T0 < r.first {
 		r.first = rec.T0
 	}
-	a.diag.UnitsExposed++
-	r.exposed++
+	a.diag.UnitsExposed += n
+	r.exposed += n
 	if rec.MultiArm {
-		a.diag.MultiArmUnits++
+		a.diag.MultiArmUnits += n
 	}
 	switch rec.Status {
 	case StatusAnalysed:
 	case StatusTied:
-		a.diag.TiedUnits++
+		a.diag.TiedUnits += n
 		return nil
 	case StatusMultiArm:
 		return nil
 	default:
 		return fmt.Errorf("unit %q: unknown status %v", rec.Unit, rec.Status)
 	}
-	r.units++
+	r.units += n
 	cells := make([]*SegmentCell, len(rec.Segments))
 	for d, v := range rec.Segments {
 		c := r.segments[d][v]
@@ -205,21 +208,21 @@ func (a *Accumulator) Add(rec UnitRecord) error {
 			c = &SegmentCell{Value: v, Metrics: make([]Count, nm)}
 			r.segments[d][v] = c
 		}
-		c.Units++
+		c.Units += n
 		cells[d] = c
 	}
 	exclude := a.spec.Maturity == MaturityExclude
 	for m := 0; m < nm; m++ {
 		add := func(c *Count) {
 			if rec.Immature[m] {
-				c.Immature++
+				c.Immature += n
 				if exclude {
 					return
 				}
 			}
-			c.Units++
+			c.Units += n
 			if rec.Converted[m] {
-				c.Conversions++
+				c.Conversions += n
 			}
 		}
 		add(&r.metrics[m])

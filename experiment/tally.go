@@ -13,6 +13,7 @@ import (
 
 	"github.com/apache/arrow-go/v18/arrow"
 	"github.com/apache/arrow-go/v18/arrow/array"
+	"github.com/zeebo/xxh3"
 )
 
 // Count is the sufficient statistic of one arm for one metric.
@@ -155,6 +156,10 @@ type Tallier struct {
 	metricsOf [][]int
 	seed      maphash.Seed
 	parts     []*tallyPart
+	// saved is the saved state a resumed tally merges (tallystate.go);
+	// stateHash is the stable hash that orders a saved state's units.
+	saved     *savedState
+	stateHash func([]byte) uint64
 	// armIndex and arms intern the arm names; every partition's
 	// exposures lists the same arms in the same order.
 	armIndex map[string]int32
@@ -181,15 +186,6 @@ type tallyPart struct {
 	exposures
 	events chunked[metricEvent]
 	sink   uint64 // see unitIndex.touch
-
-	// A resumed tally (tallystate.go): units 0 to len(base)-1 come from
-	// the saved state, with their conversions (baseConv) and counts
-	// past the attribution window (baseOut), nm per unit. stale says
-	// why the new rows cannot be merged exactly, or "".
-	base     []baseUnit
-	baseConv []bool
-	baseOut  []int32
-	stale    string
 }
 
 // finished is the result of attributing the metric events to units.
@@ -200,6 +196,9 @@ type finished struct {
 	diag      TallyDiagnostics
 	// stale is a resumed tally that cannot be exact (*StaleStateError).
 	stale error
+	// merged is a resumed tally's merge with its saved state
+	// (tallystate.go); converted is then unused.
+	merged *mergeResult
 }
 
 const (
@@ -228,12 +227,13 @@ func newTallier(spec Spec, partitions int) (*Tallier, error) {
 	}
 	partitions = max(1, min(partitions, 256))
 	t := &Tallier{
-		spec:     spec,
-		names:    []string{spec.ExposureEvent},
-		kinds:    []int32{kindExposure},
-		seed:     maphash.MakeSeed(),
-		armIndex: make(map[string]int32),
-		expKeys:  make(map[string]struct{}),
+		spec:      spec,
+		names:     []string{spec.ExposureEvent},
+		kinds:     []int32{kindExposure},
+		seed:      maphash.MakeSeed(),
+		stateHash: xxh3.Hash,
+		armIndex:  make(map[string]int32),
+		expKeys:   make(map[string]struct{}),
 	}
 	for range partitions {
 		pt := &tallyPart{exposures: newExposures(spec)}
@@ -437,9 +437,6 @@ func (t *Tallier) addPart(p int, users *array.String, ts []arrow.Timestamp, segs
 			i := int(r)
 			u := pt.unitHashed(users.Value(i), t.rowHash[i])
 			if kind := t.rowKind[i]; kind == kindExposure {
-				if int(u) < len(pt.base) {
-					pt.checkBaseExposure(u, t.rowArm[i], int64(ts[i]))
-				}
 				pt.expose(u, t.rowArm[i], int64(ts[i]), segs, i)
 			} else {
 				pt.events.add(metricEvent{unit: u, event: kind, ts: int64(ts[i])})
@@ -555,11 +552,15 @@ func (t *Tallier) finish() *finished {
 	if t.fin != nil {
 		return t.fin
 	}
+	if t.saved != nil {
+		t.fin = t.finishResumed()
+		return t.fin
+	}
 	nm := len(t.spec.Metrics)
 	f := &finished{diag: t.diag}
 	d := &f.diag
 	d.OutsideAttribution = append([]int64(nil), t.diag.OutsideAttribution...)
-	for p, pt := range t.parts {
+	for _, pt := range t.parts {
 		converted := make([]bool, pt.state.len()*nm)
 		f.converted = append(f.converted, converted)
 		for j := range pt.events.len() {
@@ -584,11 +585,6 @@ func (t *Tallier) finish() *finished {
 					continue
 				}
 				converted[int(e.unit)*nm+m] = true
-			}
-		}
-		if len(pt.base) > 0 || pt.stale != "" {
-			if err := t.finishBase(p, converted, d); err != nil && f.stale == nil {
-				f.stale = err
 			}
 		}
 	}
@@ -628,6 +624,9 @@ func (t *Tallier) Units() (iter.Seq[UnitRecord], error) {
 	f := t.finish()
 	if f.stale != nil {
 		return nil, f.stale
+	}
+	if f.merged != nil {
+		return t.mergedUnits(f.merged)
 	}
 	// Each partition's units sorted, then merged: keys are unique
 	// across partitions.
@@ -683,8 +682,16 @@ func (t *Tallier) Tally() (Tally, error) {
 	for _, pt := range t.parts {
 		pt.seeArms(acc)
 	}
+	if f.merged != nil {
+		if err := t.addGroups(acc, f.merged); err != nil {
+			return Tally{}, err
+		}
+	}
 	var rec UnitRecord
 	for p, pt := range t.parts {
+		if f.merged != nil {
+			break // a resumed tally's units are summed in its groups
+		}
 		for u := range pt.state.len() {
 			if pt.state.at(u).armAtT0 < 0 {
 				continue

@@ -2,15 +2,16 @@ package experiment
 
 import (
 	"bufio"
+	"bytes"
 	"encoding/binary"
 	"errors"
 	"fmt"
-	"hash/maphash"
+	"hash/crc32"
 	"io"
+	"iter"
 	"math"
 	"slices"
-	"sync"
-	"unsafe"
+	"strings"
 )
 
 // A Tallier's state can be saved after a run (WriteState) and resumed by a
@@ -21,15 +22,21 @@ import (
 //
 // What a unit keeps. The metric events of a unit are attributed against
 // its t0, its arm and the multi-arm policy, so the saved state keeps, per
-// unit, the outcome of that attribution rather than the events:
+// unit, the outcome of that attribution rather than the events (see
+// unitCols): an exposed unit's t0, arm, flags, segment values, converted
+// bits and event counts; a unit with only metric events, their number and
+// the latest of their times.
 //
-//   - an exposed unit: t0, the arm at t0, the tied and multi-arm flags, its
-//     segment values, one converted flag per metric, and how many of its
-//     metric events fell before t0, how many at or after it, and, per
-//     metric, how many of those were past the attribution window (the
-//     diagnostics those events fed);
-//   - a unit with metric events but no in-window exposure: the number of
-//     those events and the latest of their times.
+// How a resumed tally works. ReadState loads the saved units as they are
+// stored, in blocks of columns sorted by a stable 64-bit hash of the unit
+// key (xxh3; ties by key bytes), a block per range of its top bits,
+// without indexing them. The Tallier then tallies the new rows alone. At
+// the end (finishResumed), the new units are sorted by the same hash and
+// merge-joined with the saved ones, block by block on every core: a saved
+// unit the new rows do not touch passes through as it is; a touched one
+// takes the new exposures and metric events under the rules of a full
+// run. The tally is summed from the merged blocks, which WriteState then
+// writes out as they are.
 //
 // The merge is exact when the new rows leave each saved unit's t0 and arm
 // at t0 as they were: new metric events are attributed against the saved
@@ -37,9 +44,11 @@ import (
 // "unit excluded" when the policy leaves it out. It is not exact, and
 // Tally returns a *StaleStateError, when a new exposure is earlier than a
 // saved unit's t0 (its earlier metric events were not kept), ties with it
-// in another arm, or a unit with only metric events so far is exposed at
-// or before the latest of them. The maturity horizon is not saved per
-// unit: it is recomputed from t0 and the freshness of all rows.
+// in another arm, a unit with only metric events so far is exposed at or
+// before the latest of them, or a segment dimension passes its limit of
+// distinct values (the limit is judged on all the rows). The maturity
+// horizon is not saved per unit: it is recomputed from t0 and the
+// freshness of all rows.
 
 // StaleStateError is a resumed tally that the saved state cannot give
 // exactly: the rows read since it was saved change what it summarised.
@@ -52,153 +61,118 @@ func (e *StaleStateError) Error() string {
 	return "the saved tally state cannot absorb the new rows: " + e.Reason
 }
 
-// baseUnit is what a saved state holds for one unit beyond its exposure
-// state (unitState, segment values), which is loaded into the tally's own.
-type baseUnit struct {
-	before int32 // metric events before t0 (exposed) or all of them (never exposed)
-	in     int32 // metric events at or after t0 (exposed)
-	latest int64 // never exposed: the latest of its metric events
-	flags  uint8
-}
-
-const (
-	baseExposed = 1 << iota
-	baseTied
-	baseMulti
-)
-
 // stateMagic starts every saved tally state; stateVersion is the layout.
+//
+// Layout: the magic and the version (varints and length-prefixed strings),
+// the length of the header, the header and its CRC-32C (4 bytes), the
+// blocks back to back, the magic again. The header holds the numbers of
+// metrics and segment dimensions, the arms with their earliest exposure,
+// the experiment keys, the diagnostic counters, the freshness, each
+// dimension's segment values, the number of units, the block bits (a
+// unit's block is the top bits of its hash), and per block its units,
+// bytes and CRC-32C; a block's CRC is checked as it is decoded.
 const (
 	stateMagic   = "armtally-tally\n"
-	stateVersion = 1
+	stateVersion = 2
 )
 
-// checkBaseExposure checks an in-window exposure of saved unit u of the
-// partition, in arm a at time at, before it is applied.
-func (pt *tallyPart) checkBaseExposure(u, a int32, at int64) {
-	if pt.stale != "" || pt.base[u].flags&baseExposed == 0 {
-		return
-	}
-	s := pt.state.at(int(u))
-	switch {
-	case at < s.t0:
-		pt.stale = "an exposure earlier than a unit's saved first exposure (a late row)"
-	case at == s.t0 && a != s.armAtT0:
-		pt.stale = "an exposure in another arm at a unit's saved first exposure (a new tie)"
-	}
+// ErrStateFormat is a saved tally state that cannot be read: another
+// layout version, another number of metrics or segment dimensions, a cut
+// or damaged file.
+var ErrStateFormat = errors.New("not a usable saved tally state")
+
+// savedState is a saved state as ReadState loads it: the blocks still
+// encoded.
+type savedState struct {
+	units  int64
+	bits   int
+	blocks []savedBlock
+	armMap []int32    // saved arm index -> the tallier's
+	dicts  [][]string // per dimension, the saved segment values
 }
 
-// finishBase merges the saved units of partition p into the attribution:
-// their conversions, and the diagnostics of their saved events when the
-// new rows changed what the policy makes of them.
-func (t *Tallier) finishBase(p int, converted []bool, d *TallyDiagnostics) error {
-	pt := t.parts[p]
-	if pt.stale != "" {
-		return &StaleStateError{Reason: pt.stale}
-	}
-	nm := len(t.spec.Metrics)
-	for u := range pt.base {
-		b := &pt.base[u]
-		for m := 0; m < nm; m++ {
-			converted[u*nm+m] = converted[u*nm+m] || pt.baseConv[u*nm+m]
-		}
-		s := pt.state.at(u)
-		now := status(s, t.spec.MultiArm)
-		if b.flags&baseExposed == 0 {
-			if s.armAtT0 < 0 {
-				continue
-			}
-			d.UnitNeverExposed -= int64(b.before)
-			switch {
-			case now != StatusAnalysed:
-				d.UnitExcluded += int64(b.before)
-			case b.latest < s.t0:
-				d.BeforeExposure += int64(b.before)
-			default:
-				return &StaleStateError{Reason: "a unit with saved metric events was exposed at or before the latest of them"}
-			}
-			continue
-		}
-		was := status(&unitState{tied: b.flags&baseTied != 0, multi: b.flags&baseMulti != 0}, t.spec.MultiArm)
-		if was == StatusAnalysed && now != StatusAnalysed {
-			d.BeforeExposure -= int64(b.before)
-			d.MetricEventsInUnit -= int64(b.in)
-			d.UnitExcluded += int64(b.before) + int64(b.in)
-			for m := 0; m < nm; m++ {
-				d.OutsideAttribution[m] -= int64(pt.baseOut[u*nm+m])
-			}
-		}
-	}
-	return nil
+type savedBlock struct {
+	n, size int
+	data    []byte
+	crc     uint32
 }
 
-// unitCounts are the per-unit diagnostics of one partition's units, for
-// the saved state: the saved ones plus the new events'.
-type unitCounts struct {
-	before, in []int32
-	latest     []int64
-	out        []int32 // per unit and metric
+// maxBlockBits bounds the number of blocks (1 << bits).
+const maxBlockBits = 16
+
+// blockBits returns the block bits for n units: blocks of at most about
+// 16Ki units.
+func blockBits(n int64) int {
+	b := 0
+	for n>>b > 1<<14 && b < maxBlockBits {
+		b++
+	}
+	return b
 }
 
-// counts attributes partition p's events to its units as finish does and
-// returns the per-unit counts.
-func (t *Tallier) counts(p int) unitCounts {
-	pt := t.parts[p]
-	n, nm := pt.state.len(), len(t.spec.Metrics)
-	c := unitCounts{before: make([]int32, n), in: make([]int32, n), latest: make([]int64, n), out: make([]int32, n*nm)}
-	for u := range c.latest {
-		c.latest[u] = math.MinInt64
+// blockOf returns the block of hash h among 1 << bits.
+func blockOf(h uint64, bits int) int {
+	if bits == 0 {
+		return 0
 	}
-	for u, b := range pt.base {
-		c.before[u], c.in[u] = b.before, b.in
-		if b.flags&baseExposed == 0 {
-			c.latest[u] = b.latest
-		}
-		copy(c.out[u*nm:(u+1)*nm], pt.baseOut[u*nm:(u+1)*nm])
-	}
-	for j := range pt.events.len() {
-		e := pt.events.at(j)
-		u := int(e.unit)
-		s := pt.state.at(u)
-		if s.armAtT0 < 0 {
-			c.before[u]++
-			c.latest[u] = max(c.latest[u], e.ts)
-			continue
-		}
-		if e.ts < s.t0 {
-			c.before[u]++
-			continue
-		}
-		c.in[u]++
-		for _, m := range t.metricsOf[e.event] {
-			if w := int64(t.spec.Metrics[m].Window); w > 0 && e.ts-s.t0 >= w {
-				c.out[u*nm+m]++
-			}
-		}
-	}
-	return c
+	return int(h >> (64 - bits))
 }
 
 // WriteState writes the tallier's state after its last Add, for ReadState
 // in a later run: the counters of the rows read, the arms, experiment keys
 // and segment values seen, and one record per unit (see above). It fails
 // as Tally does, and with a *StaleStateError on a resumed tally that
-// cannot be exact.
+// cannot be exact. A resumed tally is merged as it is written: Tally
+// after WriteState sums the same pass.
 func (t *Tallier) WriteState(w io.Writer) error {
 	if err := t.checkKeys(); err != nil {
 		return err
 	}
-	f := t.finish()
-	if f.stale != nil {
-		return f.stale
-	}
-	sw := &stateWriter{w: w, buf: make([]byte, 0, 2*stateBlock)}
+	sw := &stateWriter{w: w}
 	sw.str(stateMagic)
 	sw.uint(stateVersion)
+	if err := sw.flush(); err != nil {
+		return err
+	}
+	var m *mergeResult
+	if f := t.fin; f != nil && f.merged != nil && f.merged.inMemory {
+		m = f.merged
+		for _, b := range m.blocks {
+			sw.write(b.data)
+		}
+	} else {
+		var err error
+		if m, err = t.merge(t.savedOrEmpty(), w); err != nil {
+			if t.saved != nil {
+				t.fin = &finished{stale: err}
+			}
+			return err
+		}
+		if t.saved != nil {
+			t.fin = &finished{diag: m.diag, merged: m}
+		}
+	}
+	hdr := t.stateHeader(m)
+	sw.write(hdr)
+	sw.write(binary.LittleEndian.AppendUint32(nil, uint32(len(hdr))))
+	sw.write(binary.LittleEndian.AppendUint32(nil, crc32.Checksum(hdr, castagnoli())))
+	sw.write([]byte(stateMagic)) // the end: a cut state is refused
+	return sw.flush()
+}
+
+func (t *Tallier) savedOrEmpty() *savedState {
+	if t.saved != nil {
+		return t.saved
+	}
+	return &savedState{}
+}
+
+// stateHeader encodes the header of a saved state.
+func (t *Tallier) stateHeader(m *mergeResult) []byte {
+	sw := &stateWriter{}
 	nm := len(t.spec.Metrics)
 	sw.uint(uint64(nm))
 	sw.uint(uint64(len(t.spec.Segments)))
-	// The arms, with their earliest exposure over all partitions.
 	sw.uint(uint64(len(t.arms)))
 	for a, name := range t.arms {
 		first := int64(math.MaxInt64)
@@ -213,87 +187,35 @@ func (t *Tallier) WriteState(w io.Writer) error {
 	for _, k := range keys {
 		sw.str(k)
 	}
-	for _, v := range diagCounters(&f.diag) {
+	for _, v := range diagCounters(&m.diag) {
 		sw.int(*v)
 	}
-	for _, v := range f.diag.OutsideAttribution {
+	for _, v := range m.diag.OutsideAttribution {
 		sw.int(v)
 	}
 	sw.bool(t.hasFresh)
 	sw.int(t.fresh)
-	var units, keyBytes uint64
-	for _, pt := range t.parts {
-		units += uint64(pt.state.len())
-		keyBytes += uint64(len(pt.units.arena))
-	}
-	sw.uint(units)
-	sw.uint(keyBytes)
-	for p := range t.parts {
-		t.writeUnits(sw, p, f.converted[p], t.counts(p))
-	}
-	sw.str(stateMagic) // the end: a cut file is refused
-	return sw.flush()
-}
-
-// writeUnits writes the unit records of partition p.
-func (t *Tallier) writeUnits(sw *stateWriter, p int, converted []bool, c unitCounts) {
-	pt := t.parts[p]
-	nm := len(t.spec.Metrics)
-	policy := t.spec.MultiArm
-	for u := range pt.state.len() {
-		s := pt.state.at(u)
-		sw.bytes(pt.units.key(int32(u)))
-		if s.armAtT0 < 0 {
-			sw.byte(0)
-			sw.uint(uint64(c.before[u]))
-			sw.int(c.latest[u])
-			continue
-		}
-		flags := byte(baseExposed)
-		if s.tied {
-			flags |= baseTied
-		}
-		if s.multi {
-			flags |= baseMulti
-		}
-		sw.byte(flags)
-		sw.int(s.t0)
-		sw.uint(uint64(s.armAtT0))
-		for d := range pt.dims {
-			// 0 for null, else the length plus one and the bytes.
-			if v := pt.segs[u*pt.dims+d]; v == segNull {
-				sw.uint(0)
-			} else {
-				sw.uint(uint64(len(pt.segVals[d][v])) + 1)
-				sw.write([]byte(pt.segVals[d][v]))
-			}
-		}
-		if status(s, policy) != StatusAnalysed {
-			// Its events all count as "unit excluded", whatever
-			// comes: no conversions or counts to keep.
-			sw.bytes(nil)
-			continue
-		}
-		var conv []byte
-		for m := 0; m < nm; m++ {
-			if m%8 == 0 {
-				conv = append(conv, 0)
-			}
-			if converted[u*nm+m] {
-				conv[m/8] |= 1 << (m % 8)
-			}
-		}
-		sw.bytes(conv)
-		sw.uint(uint64(c.before[u]))
-		sw.uint(uint64(c.in[u]))
-		for m := 0; m < nm; m++ {
-			sw.uint(uint64(c.out[u*nm+m]))
+	for _, vals := range m.dicts {
+		sw.uint(uint64(len(vals)))
+		for _, v := range vals {
+			sw.str(v)
 		}
 	}
+	sw.uint(uint64(m.units))
+	sw.uint(uint64(m.bits))
+	for _, b := range m.blocks {
+		sw.uint(uint64(b.n))
+		sw.uint(uint64(b.size))
+		sw.write(binary.LittleEndian.AppendUint32(nil, b.crc))
+	}
+	return sw.buf
 }
 
 // StateUnits returns the number of unit records WriteState writes.
 func (t *Tallier) StateUnits() int {
+	if f := t.finish(); f.merged != nil {
+		return int(f.merged.units)
+	}
 	n := 0
 	for _, pt := range t.parts {
 		n += pt.state.len()
@@ -306,231 +228,130 @@ func (t *Tallier) StateUnits() int {
 func diagCounters(d *TallyDiagnostics) []*int64 {
 	return []*int64{&d.RowsRead, &d.ExposureRows, &d.ExposuresOutsideWindow, &d.OtherExperimentRows,
 		&d.NotMetricEvents, &d.MetricEvents, &d.AfterWindowEnd, &d.UnitNeverExposed, &d.UnitExcluded,
-		&d.BeforeExposure, &d.MetricEventsInUnit}
+		&d.BeforeExposure, &d.MetricEventsInUnit, &d.AfterAsOf}
 }
-
-// ErrStateFormat is a saved tally state that cannot be read: another
-// layout version, another number of metrics or segment dimensions, a cut
-// or damaged file.
-var ErrStateFormat = errors.New("not a usable saved tally state")
 
 // ReadState loads a state written by WriteState for the same spec into a
 // new Tallier, before its first Add: the rows it summarises then count as
-// read. Errors wrap ErrStateFormat.
-func (t *Tallier) ReadState(r io.Reader) error {
-	if t.diag.RowsRead > 0 || t.hasFresh {
+// read. It keeps b (the state, as WriteState wrote it, which must not
+// change until the tallier's last WriteState, Tally or Units) and does not
+// decode its units: a damaged block is found when the tally is made (an
+// error wrapping ErrStateFormat). Errors wrap ErrStateFormat.
+func (t *Tallier) ReadState(b []byte) error {
+	if t.diag.RowsRead > 0 || t.hasFresh || t.saved != nil {
 		return errors.New("ReadState: the tallier has read rows already")
 	}
-	sr := &stateReader{r: bufio.NewReaderSize(r, stateBlock)}
-	err := t.readState(sr)
-	sr.done()
+	sv, err := t.readState(b)
 	if err != nil {
 		return fmt.Errorf("%w: %w", ErrStateFormat, err)
 	}
+	t.saved = sv
+	t.fin = nil
 	return nil
 }
 
-func (t *Tallier) readState(sr *stateReader) error {
-	if sr.str() != stateMagic || sr.uint() != stateVersion {
-		return errors.New("unknown layout")
+func (t *Tallier) readState(b []byte) (*savedState, error) {
+	prefix := 0
+	for _, want := range []uint64{uint64(len(stateMagic)), stateVersion} {
+		v, k := binary.Uvarint(b[prefix:])
+		if k <= 0 || v != want {
+			return nil, errors.New("unknown layout")
+		}
+		if prefix += k; want == uint64(len(stateMagic)) {
+			if !bytes.HasPrefix(b[prefix:], []byte(stateMagic)) {
+				return nil, errors.New("unknown layout")
+			}
+			prefix += len(stateMagic)
+		}
 	}
-	nm := len(t.spec.Metrics)
-	if sr.uint() != uint64(nm) || sr.uint() != uint64(len(t.spec.Segments)) {
-		return errors.New("another number of metrics or segment dimensions")
+	tail := len(stateMagic) + 8
+	if len(b) < prefix+tail || string(b[len(b)-len(stateMagic):]) != stateMagic {
+		return nil, errors.New("cut short")
 	}
-	narms := sr.uint()
-	if narms > math.MaxInt32 || sr.err != nil {
-		return sr.fail()
+	foot := b[len(b)-tail:]
+	n := int(binary.LittleEndian.Uint32(foot))
+	if n > len(b)-prefix-tail {
+		return nil, errors.New("cut short")
 	}
-	arms := make([]int32, narms)
-	for i := range arms {
-		name, first := sr.str(), sr.int()
-		arms[i] = t.arm(name)
+	hdr := b[len(b)-tail-n : len(b)-tail]
+	if binary.LittleEndian.Uint32(foot[4:]) != crc32.Checksum(hdr, castagnoli()) {
+		return nil, errors.New("damaged header")
+	}
+	sv, total, err := t.readHeader(&stateReader{r: bufio.NewReader(bytes.NewReader(hdr))})
+	if err != nil {
+		return nil, err
+	}
+	payload := b[prefix : len(b)-tail-n]
+	if int64(len(payload)) != total {
+		return nil, errors.New("the blocks do not add up")
+	}
+	for i := range sv.blocks {
+		blk := &sv.blocks[i]
+		blk.data, payload = payload[:blk.size:blk.size], payload[blk.size:]
+	}
+	return sv, nil
+}
+
+// readHeader reads a saved state's header into the tallier and returns
+// the saved units' blocks (their data only sized) and their total bytes.
+func (t *Tallier) readHeader(hr *stateReader) (*savedState, int64, error) {
+	nm, dims := len(t.spec.Metrics), len(t.spec.Segments)
+	if hr.uint() != uint64(nm) || hr.uint() != uint64(dims) {
+		return nil, 0, errors.New("another number of metrics or segment dimensions")
+	}
+	sv := &savedState{}
+	narms := hr.uint()
+	if narms > math.MaxInt32>>unitFlagBits || hr.err != nil {
+		return nil, 0, hr.fail()
+	}
+	for range narms {
+		name, first := hr.str(), hr.int()
+		a := t.arm(name)
+		sv.armMap = append(sv.armMap, a)
 		pt := t.parts[0]
-		pt.armFirst[arms[i]] = min(pt.armFirst[arms[i]], first)
+		pt.armFirst[a] = min(pt.armFirst[a], first)
 	}
-	for n := sr.uint(); n > 0 && sr.err == nil; n-- {
-		t.expKeys[sr.str()] = struct{}{}
+	for n := hr.uint(); n > 0 && hr.err == nil; n-- {
+		t.expKeys[hr.str()] = struct{}{}
 	}
 	for _, v := range diagCounters(&t.diag) {
-		*v = sr.int()
+		*v = hr.int()
 	}
 	for m := range t.diag.OutsideAttribution {
-		t.diag.OutsideAttribution[m] = sr.int()
+		t.diag.OutsideAttribution[m] = hr.int()
 	}
-	t.hasFresh, t.fresh = sr.bool(), sr.int()
-	units, keyBytes := sr.uint(), sr.uint()
-	if sr.err == nil && units < math.MaxInt32 && keyBytes < math.MaxInt32 {
-		// Room for a share of the units a little over the even one.
-		per, bytes := int(units)/len(t.parts)*9/8, int(keyBytes)/len(t.parts)*9/8
-		nm := len(t.spec.Metrics)
-		for _, pt := range t.parts {
-			pt.units.reserve(per)
-			pt.units.arena = slices.Grow(pt.units.arena, bytes)
-			pt.base = slices.Grow(pt.base, per)
-			pt.baseConv = slices.Grow(pt.baseConv, per*nm)
-			pt.baseOut = slices.Grow(pt.baseOut, per*nm)
+	t.hasFresh, t.fresh = hr.bool(), hr.int()
+	sv.dicts = make([][]string, dims)
+	for d := range sv.dicts {
+		for n := hr.uint(); n > 0 && hr.err == nil; n-- {
+			sv.dicts[d] = append(sv.dicts[d], hr.str())
 		}
 	}
-	var g loadGroup
-	for i := uint64(0); i < units && sr.err == nil; {
-		n := int(min(units-i, loadGroupUnits))
-		if err := t.loadGroup(sr, &g, n, arms); err != nil {
-			return err
+	sv.units = int64(hr.uint())
+	sv.bits = int(hr.uint())
+	if hr.err != nil || sv.bits > maxBlockBits || sv.units < 0 {
+		return nil, 0, hr.fail()
+	}
+	var total, units int64
+	for range 1 << sv.bits {
+		n, size := hr.uint(), hr.uint()
+		crc := hr.fixed(4)
+		if hr.err != nil || n > 1<<40 || size > 1<<40 {
+			return nil, 0, hr.fail()
 		}
-		i += uint64(n)
+		sv.blocks = append(sv.blocks, savedBlock{n: int(n), size: int(size), crc: binary.LittleEndian.Uint32(crc)})
+		total += int64(size)
+		units += int64(n)
 	}
-	if sr.str() != stateMagic {
-		return sr.fail()
+	if units != sv.units || hr.err != nil {
+		return nil, 0, hr.fail()
 	}
-	for _, pt := range t.parts {
-		if err := pt.segmentLimit(t.spec); err != nil {
-			return err
-		}
-	}
-	return sr.err
-}
-
-// loadGroupUnits is the number of unit records decoded before they are
-// loaded, each partition's on its own goroutine.
-const loadGroupUnits = 8192
-
-// loadGroup holds decoded unit records until they are loaded; the bytes
-// of their keys and segment values are copied into data.
-type loadGroup struct {
-	units []pendingUnit
-	data  []byte
-	segs  [][]byte // dims per unit; nil for null
-	conv  []bool   // nm per unit
-	out   []int32  // nm per unit
-	byPt  [][]int32
-}
-
-// pendingUnit is one decoded unit record.
-type pendingUnit struct {
-	key    []byte // in a loadGroup's data (an earlier array of it when data grew)
-	h      uint64
-	t0     int64
-	arm    int32
-	b      baseUnit
-	hasOut bool
-	// Where its segment values, conversions and counts start in the
-	// group's segs, conv and out.
-	segAt, convAt, outAt int
-}
-
-// loadGroup decodes the next n unit records, then loads each partition's
-// share of them on its own goroutine.
-func (t *Tallier) loadGroup(sr *stateReader, g *loadGroup, n int, arms []int32) error {
-	nm, dims := len(t.spec.Metrics), len(t.spec.Segments)
-	g.units, g.data, g.segs, g.conv, g.out = g.units[:0], g.data[:0], g.segs[:0], g.conv[:0], g.out[:0]
-	if len(g.byPt) != len(t.parts) {
-		g.byPt = make([][]int32, len(t.parts))
-	}
-	for p := range g.byPt {
-		g.byPt[p] = g.byPt[p][:0]
-	}
-	for i := 0; i < n && sr.err == nil; i++ {
-		pu := pendingUnit{segAt: len(g.segs), convAt: len(g.conv), outAt: len(g.out)}
-		key := sr.bytes()
-		at := len(g.data)
-		g.data = append(g.data, key...)
-		pu.key = g.data[at:len(g.data):len(g.data)]
-		pu.h = maphash.Bytes(t.seed, key)
-		pu.b.flags = sr.byte()
-		if pu.b.flags&baseExposed == 0 {
-			pu.b.before, pu.b.latest = int32(sr.uint()), sr.int()
-		} else {
-			pu.t0 = sr.int()
-			arm := sr.uint()
-			if arm >= uint64(len(arms)) {
-				return sr.fail()
-			}
-			pu.arm = arms[arm]
-			for range dims {
-				var v []byte
-				if l := sr.uint(); l > 0 {
-					at := len(g.data)
-					g.data = append(g.data, sr.fixed(l-1)...)
-					v = g.data[at:len(g.data):len(g.data)]
-				}
-				g.segs = append(g.segs, v)
-			}
-			conv := sr.bytes()
-			for m := 0; m < nm; m++ {
-				g.conv = append(g.conv, len(conv) > m/8 && conv[m/8]&(1<<(m%8)) != 0)
-			}
-			if pu.hasOut = len(conv) > 0; pu.hasOut {
-				pu.b.before, pu.b.in = int32(sr.uint()), int32(sr.uint())
-				for m := 0; m < nm; m++ {
-					g.out = append(g.out, int32(sr.uint()))
-				}
-			}
-		}
-		p := t.partOf(pu.h)
-		g.byPt[p] = append(g.byPt[p], int32(len(g.units)))
-		g.units = append(g.units, pu)
-	}
-	if sr.err != nil {
-		return sr.err
-	}
-	errs := make([]error, len(t.parts))
-	var wg sync.WaitGroup
-	for p := range t.parts {
-		if len(g.byPt[p]) > 0 {
-			wg.Go(func() { errs[p] = t.loadPart(p, g) })
-		}
-	}
-	wg.Wait()
-	return errors.Join(errs...)
-}
-
-// loadPart loads the units of a group that fall in partition p.
-func (t *Tallier) loadPart(p int, g *loadGroup) error {
-	pt := t.parts[p]
-	nm := len(t.spec.Metrics)
-	idx := g.byPt[p]
-	var sink uint64
-	for _, i := range idx {
-		sink += pt.units.touch(g.units[i].h)
-	}
-	pt.sink += sink
-	for _, i := range idx {
-		pu := &g.units[i]
-		u, ok := pt.units.lookupHashed(unsafe.String(unsafe.SliceData(pu.key), len(pu.key)), pu.h) // the index copies a new key
-		if ok || int(u) != len(pt.base) {
-			return fmt.Errorf("unit %q twice", pu.key)
-		}
-		pt.addUnit()
-		segAt, convAt, outAt := pu.segAt, pu.convAt, pu.outAt
-		b := pu.b
-		if b.flags&baseExposed == 0 {
-			pt.base = append(pt.base, b)
-			pt.baseConv = append(pt.baseConv, make([]bool, nm)...)
-			pt.baseOut = append(pt.baseOut, make([]int32, nm)...)
-			continue
-		}
-		*pt.state.at(int(u)) = unitState{t0: pu.t0, armAtT0: pu.arm, firstArm: pu.arm,
-			tied: b.flags&baseTied != 0, multi: b.flags&baseMulti != 0}
-		for d := 0; d < pt.dims; d++ {
-			if v := g.segs[segAt+d]; v != nil {
-				pt.segs[int(u)*pt.dims+d] = pt.internSeg(d, unsafe.String(unsafe.SliceData(v), len(v))) // interned as a copy
-			}
-		}
-		pt.baseConv = append(pt.baseConv, g.conv[convAt:convAt+nm]...)
-		if pu.hasOut {
-			pt.baseOut = append(pt.baseOut, g.out[outAt:outAt+nm]...)
-		} else {
-			pt.baseOut = append(pt.baseOut, make([]int32, nm)...)
-		}
-		pt.base = append(pt.base, b)
-	}
-	return nil
+	return sv, total, nil
 }
 
 // stateWriter writes the fields of a saved state: unsigned and signed
 // varints, and length-prefixed bytes, gathered in a buffer written out a
-// block at a time.
+// block at a time (w nil: gathered only).
 type stateWriter struct {
 	w   io.Writer
 	buf []byte
@@ -541,7 +362,7 @@ type stateWriter struct {
 const stateBlock = 1 << 16
 
 func (s *stateWriter) spill() {
-	if len(s.buf) >= stateBlock {
+	if s.w != nil && len(s.buf) >= stateBlock {
 		s.flushBuf()
 	}
 }
@@ -563,22 +384,13 @@ func (s *stateWriter) int(v int64) {
 	s.spill()
 }
 
-func (s *stateWriter) byte(b byte) {
-	s.buf = append(s.buf, b)
-	s.spill()
-}
-
 func (s *stateWriter) bool(b bool) {
+	v := byte(0)
 	if b {
-		s.byte(1)
-	} else {
-		s.byte(0)
+		v = 1
 	}
-}
-
-func (s *stateWriter) bytes(b []byte) {
-	s.buf = binary.AppendUvarint(s.buf, uint64(len(b)))
-	s.write(b)
+	s.buf = append(s.buf, v)
+	s.spill()
 }
 
 func (s *stateWriter) str(v string) {
@@ -587,7 +399,15 @@ func (s *stateWriter) str(v string) {
 	s.spill()
 }
 
+// write writes b; a large b goes straight to w.
 func (s *stateWriter) write(b []byte) {
+	if s.w != nil && len(b) >= stateBlock {
+		s.flushBuf()
+		if s.err == nil {
+			_, s.err = s.w.Write(b)
+		}
+		return
+	}
 	s.buf = append(s.buf, b...)
 	s.spill()
 }
@@ -611,7 +431,7 @@ type stateReader struct {
 
 // maxStateString bounds a string or byte field of a saved state, so that
 // a damaged length cannot ask for gigabytes.
-const maxStateString = 1 << 24
+const maxStateString = 1 << 28
 
 func (s *stateReader) fail() error {
 	if s.err == nil {
@@ -659,19 +479,10 @@ func (s *stateReader) int() int64 {
 	return int64(u>>1) ^ -int64(u&1) // zigzag, as binary.PutVarint
 }
 
-func (s *stateReader) byte() byte {
-	if s.err != nil {
-		return 0
-	}
-	if s.avail(1) < 1 {
-		s.err = errors.New("cut short")
-		return 0
-	}
-	s.pos++
-	return s.win[s.pos-1]
+func (s *stateReader) bool() bool {
+	b := s.fixed(1)
+	return len(b) == 1 && b[0] == 1
 }
-
-func (s *stateReader) bool() bool { return s.byte() == 1 }
 
 // bytes returns the next length-prefixed field; it is valid until the
 // next read.
@@ -704,3 +515,66 @@ func (s *stateReader) fixed(n uint64) []byte {
 }
 
 func (s *stateReader) str() string { return string(s.bytes()) }
+
+// mergedUnits returns the unit records of a resumed tally, sorted by key.
+func (t *Tallier) mergedUnits(m *mergeResult) (iter.Seq[UnitRecord], error) {
+	if !m.inMemory {
+		// Written out as merged: merge again, into memory.
+		var err error
+		if m, err = t.merge(t.saved, nil); err != nil {
+			return nil, err
+		}
+	}
+	sh := newColShape(len(t.spec.Metrics), len(t.spec.Segments))
+	var c unitCols
+	var s blockScratch
+	for _, b := range m.blocks {
+		if err := decodeBlock(&c, b.data, b.n, sh, t.stateHash, &s); err != nil {
+			return nil, err
+		}
+	}
+	var recs []UnitRecord
+	for i := range c.len() {
+		if c.arm[i]&unitExposed == 0 {
+			continue
+		}
+		rec := UnitRecord{Unit: string(c.key(i)), T0: c.t0[i], HasT0: true}
+		t.fillMerged(&rec, m, &c, i)
+		recs = append(recs, rec)
+	}
+	slices.SortFunc(recs, func(a, b UnitRecord) int { return strings.Compare(a.Unit, b.Unit) })
+	return slices.Values(recs), nil
+}
+
+// fillMerged sets the arm, status, flags and segment values of exposed
+// unit i of merged columns c.
+func (t *Tallier) fillMerged(rec *UnitRecord, m *mergeResult, c *unitCols, i int) {
+	nm, dims := len(t.spec.Metrics), len(t.spec.Segments)
+	flags := c.arm[i]
+	rec.Arm = t.arms[flags>>unitFlagBits]
+	rec.MultiArm = flags&unitMulti != 0
+	rec.Status = flagStatus(flags, t.spec.MultiArm)
+	if dims > 0 { // nil without dimensions, as fill leaves it
+		rec.Segments = make([]SegmentValue, dims)
+	}
+	for d := range dims {
+		if v := c.segs[i*dims+d]; v != segNull {
+			rec.Segments[d] = SegmentValue{Value: m.dicts[d][v], Valid: true}
+		}
+	}
+	rec.Converted, rec.Immature = make([]bool, nm), make([]bool, nm)
+	if rec.Status != StatusAnalysed {
+		return
+	}
+	cb := (nm + 7) / 8
+	for mi, mt := range t.spec.Metrics {
+		rec.Converted[mi] = c.conv[i*cb+mi/8]&(1<<(mi%8)) != 0
+		w := int64(mt.Window)
+		rec.Immature[mi] = w > 0 && c.t0[i] > m.horizon-w
+	}
+}
+
+// flagStatus applies the multi-arm policy to a unit's flags.
+func flagStatus(flags uint32, policy MultiArmPolicy) UnitStatus {
+	return status(&unitState{tied: flags&unitTied != 0, multi: flags&unitMulti != 0}, policy)
+}

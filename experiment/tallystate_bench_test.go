@@ -39,7 +39,7 @@ func BenchmarkTallierState(b *testing.B) {
 			if err != nil {
 				b.Fatal(err)
 			}
-			if err := r.ReadState(bytes.NewReader(buf.Bytes())); err != nil {
+			if err := r.ReadState(buf.Bytes()); err != nil {
 				b.Fatal(err)
 			}
 		}

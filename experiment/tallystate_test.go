@@ -69,12 +69,22 @@ func randomDays(seed uint64, n int) [][]row {
 // Tally.
 func resume(t *testing.T, spec Spec, state []byte, rows []row, parts int) (Tally, []UnitRecord, []byte, error) {
 	t.Helper()
+	return resumeHash(t, spec, state, rows, parts, nil)
+}
+
+// resumeHash is resume with the stable hash of the saved state's order
+// replaced by hash (nil: the default).
+func resumeHash(t *testing.T, spec Spec, state []byte, rows []row, parts int, hash func([]byte) uint64) (Tally, []UnitRecord, []byte, error) {
+	t.Helper()
 	tl, err := newTallier(spec, parts)
 	if err != nil {
 		t.Fatal(err)
 	}
+	if hash != nil {
+		tl.stateHash = hash
+	}
 	if state != nil {
-		if err := tl.ReadState(bytes.NewReader(state)); err != nil {
+		if err := tl.ReadState(state); err != nil {
 			t.Fatalf("ReadState: %v", err)
 		}
 	}
@@ -104,12 +114,19 @@ func resume(t *testing.T, spec Spec, state []byte, rows []row, parts int) (Tally
 // Adding the days one at a time on top of the saved state gives the tally
 // and unit records of all the days at once (common practice: an
 // incremental aggregate must equal the batch one), for both multi-arm
-// policies and any number of partitions; days in time order never need a
-// recompute.
+// policies, both maturity policies, a closed and an open window, a rerun
+// look (as-of) and any number of partitions; days in time order never
+// need a recompute.
 func TestResumedTallyEqualsFull(t *testing.T) {
-	for _, policy := range []MultiArmPolicy{MultiArmExclude, MultiArmFirst} {
+	asOf := base.Add(6*day + 5*hour)
+	for v, policy := range []MultiArmPolicy{MultiArmExclude, MultiArmFirst, MultiArmExclude, MultiArmFirst} {
 		for seed := uint64(1); seed <= 8; seed++ {
 			spec := stateSpec(policy)
+			if v >= 2 {
+				// The other maturity policy, an open window and a
+				// rerun look.
+				spec.Maturity, spec.End, spec.AsOf = MaturityInclude, nil, &asOf
+			}
 			days := randomDays(seed, 12)
 			var state []byte
 			var all []row
@@ -185,14 +202,184 @@ func TestReadStateDamaged(t *testing.T) {
 	}
 	for _, cut := range []int{0, 1, len(state) / 2, len(state) - 1} {
 		tl, _ := newTallier(spec, 2)
-		if err := tl.ReadState(bytes.NewReader(state[:cut])); !errors.Is(err, ErrStateFormat) {
+		if err := tl.ReadState(state[:cut]); !errors.Is(err, ErrStateFormat) {
 			t.Errorf("cut at %d: error %v, want ErrStateFormat", cut, err)
 		}
 	}
 	other := spec
 	other.Metrics = other.Metrics[:1]
 	tl, _ := newTallier(other, 2)
-	if err := tl.ReadState(bytes.NewReader(state)); !errors.Is(err, ErrStateFormat) {
+	if err := tl.ReadState(state); !errors.Is(err, ErrStateFormat) {
 		t.Errorf("other metrics: error %v, want ErrStateFormat", err)
+	}
+}
+
+// Units whose keys share a stable hash (a hash that collides on purpose:
+// the key's length, or the last byte of the key with every bit but the
+// top ones equal) are ordered by their key bytes and stay exact, as does
+// a state spread over many blocks whose number grows as units arrive.
+func TestResumedTallyHashCollisions(t *testing.T) {
+	hashes := map[string]func([]byte) uint64{
+		"length":    func(k []byte) uint64 { return uint64(len(k)) << 60 },
+		"last byte": func(k []byte) uint64 { return uint64(k[len(k)-1]) << 56 },
+		"constant":  func([]byte) uint64 { return 42 },
+	}
+	for name, h := range hashes {
+		t.Run(name, func(t *testing.T) {
+			spec := stateSpec(MultiArmExclude)
+			var state []byte
+			var all []row
+			for d, rows := range randomDays(3, 8) {
+				all = append(all, rows...)
+				want, wantUnits, _, err := resume(t, spec, nil, all, 1)
+				if err != nil {
+					t.Fatal(err)
+				}
+				got, gotUnits, next, err := resumeHash(t, spec, state, rows, 1+d%3, h)
+				if err != nil {
+					t.Fatalf("day %d: %v", d, err)
+				}
+				if !reflect.DeepEqual(got, want) || !reflect.DeepEqual(gotUnits, wantUnits) {
+					t.Fatalf("day %d: the resumed tally differs from the full one", d)
+				}
+				state = next
+			}
+		})
+	}
+}
+
+// manyUnitDays returns n days of rows of about 12,000 units each, enough
+// for a state of several blocks (blockBits) by the last day: most units
+// are new each day, some come back with a purchase or a second arm.
+func manyUnitDays(n int) [][]row {
+	rng := rand.New(rand.NewPCG(7, 7))
+	days := make([][]row, n)
+	for d := range days {
+		for k := 0; k < 12000; k++ {
+			u := fmt.Sprintf("user-%d", rng.IntN(30000))
+			at := time.Duration(d)*day + time.Duration(rng.IntN(int(day/time.Second)))*time.Second
+			switch x := rng.IntN(10); {
+			case x < 6:
+				r := seen(u, at, []string{"control", "treat"}[rng.IntN(2)])
+				r.segs = []string{[]string{"DE", "FR", nullSeg}[rng.IntN(3)]}
+				days[d] = append(days[d], r)
+			case x < 8:
+				days[d] = append(days[d], ev(u, at, "buy"))
+			default:
+				days[d] = append(days[d], ev(u, at, "cart"))
+			}
+		}
+		sort.SliceStable(days[d], func(i, j int) bool { return days[d][i].at < days[d][j].at })
+	}
+	return days
+}
+
+// A state of many blocks, resumed day by day, keeps the full tally
+// (common practice: an incremental aggregate must equal the batch one);
+// its number of blocks grows with its units.
+func TestResumedTallyManyBlocks(t *testing.T) {
+	if testing.Short() {
+		t.Skip("-short: 36,000 rows a day")
+	}
+	for _, policy := range []MultiArmPolicy{MultiArmExclude, MultiArmFirst} {
+		spec := stateSpec(policy)
+		var state []byte
+		var all []row
+		for d, rows := range manyUnitDays(4) {
+			all = append(all, rows...)
+			want, _, _, err := resume(t, spec, nil, all, 2)
+			if err != nil {
+				t.Fatal(err)
+			}
+			got, _, next, err := resume(t, spec, state, rows, 2)
+			if err != nil { // days in time order are never stale
+				t.Fatalf("policy %v, day %d: %v", policy, d, err)
+			}
+			if !reflect.DeepEqual(got, want) {
+				t.Fatalf("policy %v, day %d: the resumed tally differs from the full one", policy, d)
+			}
+			state = next
+		}
+		tl, _ := newTallier(spec, 2)
+		if err := tl.ReadState(state); err != nil {
+			t.Fatal(err)
+		}
+		if tl.saved.bits == 0 {
+			t.Errorf("policy %v: %d units in one block, want several", policy, tl.saved.units)
+		}
+	}
+}
+
+// A damaged block is found when the tally is made; a damaged header, a
+// cut file, another layout version and another hash order when the state
+// is read or merged: each is an ErrStateFormat, never a wrong tally.
+func TestStateDamagedBlocks(t *testing.T) {
+	spec := stateSpec(MultiArmFirst)
+	_, _, state, err := resume(t, spec, nil, randomDays(1, 3)[1], 2)
+	if err != nil {
+		t.Fatal(err)
+	}
+	tally := func(b []byte, hash func([]byte) uint64) error {
+		tl, _ := newTallier(spec, 2)
+		if hash != nil {
+			tl.stateHash = hash
+		}
+		if err := tl.ReadState(b); err != nil {
+			return err
+		}
+		_, err := tl.Tally()
+		return err
+	}
+	// The blocks end just before the closing magic (and its length byte).
+	end := len(state) - len(stateMagic) - 1
+	for _, at := range []int{20, 40, end - 1, end - 10} {
+		b := slices.Clone(state)
+		b[at] ^= 0x10
+		if err := tally(b, nil); !errors.Is(err, ErrStateFormat) {
+			t.Errorf("byte %d of %d flipped: error %v, want ErrStateFormat", at, len(b), err)
+		}
+	}
+	old := slices.Clone(state)
+	old[len(stateMagic)+1] = 1 // the layout version, after the magic's length and bytes
+	if err := tally(old, nil); !errors.Is(err, ErrStateFormat) {
+		t.Errorf("version 1: error %v, want ErrStateFormat", err)
+	}
+	// A block the new rows touch is checked for the order of its hashes.
+	if _, _, _, err := resumeHash(t, spec, state, randomDays(1, 3)[2], 2, func(k []byte) uint64 { return uint64(len(k)) }); !errors.Is(err, ErrStateFormat) {
+		t.Errorf("another hash order: error %v, want ErrStateFormat", err)
+	}
+	if err := tally(state, nil); err != nil {
+		t.Errorf("the undamaged state: %v", err)
+	}
+}
+
+// A segment dimension whose saved and new values together pass its limit
+// is left to a full run (which judges the limit on all the rows); at the
+// limit, the resumed tally is the full one.
+func TestResumedTallySegmentLimit(t *testing.T) {
+	spec := stateSpec(MultiArmExclude)
+	spec.MaxSegmentValues = 2
+	withSeg := func(r row, v string) row {
+		r.segs = []string{v}
+		return r
+	}
+	first := []row{withSeg(seen("a", 2*day, "control"), "DE")}
+	_, _, state, err := resume(t, spec, nil, first, 2)
+	if err != nil {
+		t.Fatal(err)
+	}
+	atLimit := []row{withSeg(seen("b", 3*day, "treat"), "FR")}
+	want, _, _, err := resume(t, spec, nil, append(slices.Clone(first), atLimit...), 1)
+	if err != nil {
+		t.Fatal(err)
+	}
+	got, _, next, err := resume(t, spec, state, atLimit, 2)
+	if err != nil || !reflect.DeepEqual(got, want) {
+		t.Fatalf("at the limit: error %v, or the resumed tally differs from the full one", err)
+	}
+	_, _, _, err = resume(t, spec, next, []row{withSeg(seen("c", 4*day, "treat"), "IT")}, 2)
+	var se *StaleStateError
+	if !errors.As(err, &se) {
+		t.Fatalf("past the limit: error %v, want a *StaleStateError", err)
 	}
 }

@@ -139,15 +139,3 @@ func (x *unitIndex) resize(size int) {
 		}
 	}
 }
-
-// reserve sizes the table for n units in all, so that loading them
-// (a saved tally state) does not grow it step by step.
-func (x *unitIndex) reserve(n int) {
-	size := len(x.slots)
-	for 4*n > 3*size {
-		size *= 2
-	}
-	if size != len(x.slots) {
-		x.resize(size)
-	}
-}

@@ -250,7 +250,7 @@ func Run(ctx context.Context, in Input, exps []Experiment, opts Options) (*Resul
 	if opts.MemoryLimit > 0 {
 		tallies, rows, err = readSpilled(ctx, r, exps, opts)
 	} else {
-		tallies, rows, err = readInMemory(ctx, r, talliers, opts)
+		tallies, rows, err = readInMemory(ctx, r, talliers, opts, nil)
 	}
 	inv := &inventory{ctx: ctx, in: in, exps: exps, workers: opts.Workers}
 	if sk := (*severalKeys)(nil); errors.As(err, &sk) {
@@ -331,7 +331,7 @@ func asDataError(err error) error {
 // counts the rows of each metric event in the new files only, so it leaves
 // the check that every metric event occurs to the full run that wrote the
 // state (a changed definition forces a full run).
-func runTalliers(ctx context.Context, in Input, exps []Experiment, opts Options, sf *stateFile, saved ingest.Stats) (*Result, []*experiment.Tallier, error) {
+func runTalliers(ctx context.Context, in Input, exps []Experiment, opts Options, sf *stateFile, saved ingest.Stats, out *stateOut) (*Result, []*experiment.Tallier, error) {
 	talliers, events, err := makeTalliers(in.Shape, exps)
 	if err != nil {
 		return nil, nil, err
@@ -340,7 +340,7 @@ func runTalliers(ctx context.Context, in Input, exps []Experiment, opts Options,
 	for i, tl := range talliers {
 		tls[i] = tl.(*experiment.Tallier)
 		if sf != nil {
-			if err := tls[i].ReadState(sf.r); err != nil {
+			if err := tls[i].ReadState(sf.sections[i]); err != nil {
 				return nil, nil, err
 			}
 		}
@@ -357,7 +357,7 @@ func runTalliers(ctx context.Context, in Input, exps []Experiment, opts Options,
 			return nil, nil, err
 		}
 		defer r.Close()
-		tallies, rows, err = readInMemory(ctx, r, talliers, opts)
+		tallies, rows, err = readInMemory(ctx, r, talliers, opts, out)
 		if sk := (*severalKeys)(nil); errors.As(err, &sk) {
 			err = inv.severalKeys(sk.keys)
 		}
@@ -367,6 +367,9 @@ func runTalliers(ctx context.Context, in Input, exps []Experiment, opts Options,
 		st = r.Stats()
 	} else {
 		for i, tl := range tls {
+			if err := out.write(tl); err != nil {
+				return nil, nil, err
+			}
 			if tallies[i], err = tl.Tally(); err != nil {
 				return nil, nil, &DataError{err}
 			}
@@ -438,8 +441,9 @@ func checkAllowed(shape experiment.InputShape, e Experiment) error {
 
 // readInMemory feeds every record batch to every tallier and tallies them;
 // for the talliers of an event log it also returns the rows of each metric
-// event (Tallier.MetricEventRows).
-func readInMemory(ctx context.Context, r recordReader, talliers []tallier, opts Options) ([]experiment.Tally, [][]experiment.NameCount, error) {
+// event (Tallier.MetricEventRows). With a state file (out), each tally's
+// state is written before it is summed, in the same pass.
+func readInMemory(ctx context.Context, r recordReader, talliers []tallier, opts Options, out *stateOut) ([]experiment.Tally, [][]experiment.NameCount, error) {
 	stop := startProgress(r, opts)
 	defer stop()
 	for r.Next() {
@@ -469,6 +473,11 @@ func readInMemory(ctx context.Context, r recordReader, talliers []tallier, opts 
 				return nil, nil, err
 			}
 			rows[i] = tl.MetricEventRows()
+			if out != nil {
+				if err := out.write(tl); err != nil {
+					return nil, nil, err
+				}
+			}
 		}
 		t, err := tl.Tally()
 		if err != nil {

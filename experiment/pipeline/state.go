@@ -2,6 +2,7 @@ package pipeline
 
 import (
 	"bufio"
+	"bytes"
 	"context"
 	"crypto/sha256"
 	"encoding/binary"
@@ -30,16 +31,23 @@ import (
 // (a full recompute, said by a WarnStateRecomputed warning in each readout
 // and in StateReport) when a file of the manifest changed or is gone, the
 // definition of the run (experiments, column mapping, reader settings) or
-// the armtally build differs, the state file is damaged, or the new rows
-// change what the saved tally summarised (see experiment.StaleStateError).
+// the armtally build differs, the state file is damaged, the new rows
+// change what the saved tally summarised (see experiment.StaleStateError),
+// or rows the reader left out reach an experiment's as-of date.
 //
-// Layout (all integers varints): the magic line, the layout version, the
-// build, the definition hash, the manifest, the reader's counts, each
-// experiment's saved tally, and a CRC-32C of everything before it.
+// Layout: the magic line and the layout version (varints), each
+// experiment's saved tally (experiment.Tallier.WriteState, which checks
+// its own parts), then the trailer: the build, the definition hash, the
+// manifest, the reader's counts and where each tally starts and ends
+// (varints and length-prefixed strings), its length and CRC-32C (4 bytes
+// each, little-endian) and the end line. The file is mapped into memory
+// (read in full where it cannot be) and no part of it is read twice;
+// the new state is written as the tallies are merged, in one stream.
 
 const (
 	stateFileMagic   = "armtally-state\n"
-	stateFileVersion = 1
+	stateFileEnd     = "armtally-state-end\n"
+	stateFileVersion = 2
 	// stateHashBlock is how much of each end of a file its content hash
 	// covers: a Parquet file's footer, a CSV file's last rows.
 	stateHashBlock = 64 << 10
@@ -153,8 +161,8 @@ func contentHash(s ingest.Source) (string, error) {
 // state file (positioned at the first saved tally), its saved counts and
 // the sources not in its manifest; or nil and a reason to read everything
 // ("" when there is no state file).
-func planResume(path, def string, files []fileEntry, srcs []ingest.Source) (*stateFile, []ingest.Source, string) {
-	sf, why := openStateFile(path)
+func planResume(path, def string, files []fileEntry, srcs []ingest.Source, mapped bool) (*stateFile, []ingest.Source, string) {
+	sf, why := openStateFile(path, mapped)
 	if sf == nil {
 		return nil, nil, why
 	}
@@ -189,61 +197,36 @@ func planResume(path, def string, files []fileEntry, srcs []ingest.Source) (*sta
 
 // stateFile is a state file being read.
 type stateFile struct {
-	f     *os.File
-	r     *bufio.Reader
-	files []fileEntry
-	stats ingest.Stats
+	data     []byte
+	release  func()
+	files    []fileEntry
+	stats    ingest.Stats
+	sections [][]byte // each experiment's saved tally
 }
 
-// openStateFile opens the state file and checks its checksum; it returns
-// nil and a reason when it cannot be used ("" when there is none).
-func openStateFile(path string) (*stateFile, string) {
-	f, err := os.Open(path)
+// openStateFile maps the state file (reads it into memory when not
+// mapped); it returns nil and a reason when it
+// cannot be read ("" when there is none).
+func openStateFile(path string, mapped bool) (*stateFile, string) {
+	data, release, err := readFile(path, mapped)
 	if errors.Is(err, fs.ErrNotExist) {
 		return nil, ""
 	}
 	if err != nil {
 		return nil, fmt.Sprintf("the state file cannot be read: %v", err)
 	}
-	why := checkSum(f)
-	if why == "" {
-		if _, err := f.Seek(0, io.SeekStart); err != nil {
-			why = fmt.Sprintf("the state file cannot be read: %v", err)
-		}
-	}
-	if why != "" {
-		f.Close()
-		return nil, why
-	}
-	return &stateFile{f: f, r: bufio.NewReaderSize(f, 1<<16)}, ""
+	return &stateFile{data: data, release: release}, ""
 }
 
-// checkSum compares the CRC-32C of a state file with the one it ends with.
-func checkSum(f *os.File) string {
-	info, err := f.Stat()
-	if err != nil {
-		return fmt.Sprintf("the state file cannot be read: %v", err)
-	}
-	if info.Size() < 4 {
-		return "the state file is damaged (its checksum does not match)"
-	}
-	h := crc32.New(crc32.MakeTable(crc32.Castagnoli))
-	if _, err := io.Copy(h, io.NewSectionReader(f, 0, info.Size()-4)); err != nil {
-		return fmt.Sprintf("the state file cannot be read: %v", err)
-	}
-	var tail [4]byte
-	if _, err := f.ReadAt(tail[:], info.Size()-4); err != nil || binary.LittleEndian.Uint32(tail[:]) != h.Sum32() {
-		return "the state file is damaged (its checksum does not match)"
-	}
-	return ""
-}
+// close releases the file's bytes: after the last use of the talliers
+// that read them.
+func (sf *stateFile) close() { sf.release() }
 
-func (sf *stateFile) close() { sf.f.Close() }
-
-// readHeader reads up to the experiments' tallies; it returns a reason
-// when the state cannot be used.
+// readHeader reads the layout version and the trailer; it returns a
+// reason when the state cannot be used.
 func (sf *stateFile) readHeader(def string) string {
-	r := sf.r
+	b := sf.data
+	r := bufio.NewReader(bytes.NewReader(b))
 	bad := false
 	num := func() int64 {
 		v, err := binary.ReadVarint(r)
@@ -267,6 +250,21 @@ func (sf *stateFile) readHeader(def string) string {
 	if v := num(); v != stateFileVersion {
 		return fmt.Sprintf("the state file has layout %d, this armtally reads %d", v, stateFileVersion)
 	}
+	start := len(stateFileMagic) + 2 // the magic's length, the magic, the version
+	tail := 8 + len(stateFileEnd)
+	if len(b) < start+tail || string(b[len(b)-len(stateFileEnd):]) != stateFileEnd {
+		return "the state file is damaged (cut short)"
+	}
+	foot := b[len(b)-tail:]
+	n := int(binary.LittleEndian.Uint32(foot))
+	if n > len(b)-start-tail {
+		return "the state file is damaged (cut short)"
+	}
+	trailer := b[len(b)-tail-n : len(b)-tail]
+	if binary.LittleEndian.Uint32(foot[4:]) != crc32.Checksum(trailer, crc32.MakeTable(crc32.Castagnoli)) {
+		return "the state file is damaged (its trailer checksum does not match)"
+	}
+	r = bufio.NewReader(bytes.NewReader(trailer))
 	if str() != buildVersion() {
 		return "the state file was written by another armtally build"
 	}
@@ -283,48 +281,89 @@ func (sf *stateFile) readHeader(def string) string {
 		st.BadRows = append(st.BadRows, ingest.BadRowCount{Reason: reason, Count: num()})
 		st.BadRowExamples = append(st.BadRowExamples, nil) // counts only
 	}
+	for n := num(); n > 0 && !bad; n-- {
+		from, to := num(), num()
+		if from < int64(start) || to < from || to > int64(len(b)-tail-len(trailer)) {
+			bad = true
+			break
+		}
+		sf.sections = append(sf.sections, b[from:to:to])
+	}
 	if bad {
 		return "the state file is damaged"
 	}
 	return ""
 }
 
-// writeState writes the state file atomically: a temporary file in the
-// same folder, synced, then renamed over path. It returns the file's size.
-func writeState(path, def string, files []fileEntry, st ingest.Stats, talliers []*experiment.Tallier) (int64, error) {
-	tmp, err := os.CreateTemp(filepath.Dir(path), "."+filepath.Base(path)+".*.tmp")
-	if err != nil {
-		return 0, err
-	}
-	defer os.Remove(tmp.Name()) // after the rename, a no-op
-	n, err := writeStateTo(tmp, def, files, st, talliers)
-	if err == nil {
-		err = tmp.Sync()
-	}
-	if cerr := tmp.Close(); err == nil {
-		err = cerr
-	}
-	if err == nil {
-		err = os.Rename(tmp.Name(), path)
-	}
-	if err != nil {
-		return 0, fmt.Errorf("state file %s: %w", path, err)
-	}
-	return n, nil
+// stateOut is a state file being written: a temporary file in the same
+// folder, renamed over the old one once complete.
+type stateOut struct {
+	path     string
+	f        *os.File
+	cw       *countWriter
+	w        *bufio.Writer
+	sections [][2]int64
 }
 
-// writeStateTo writes the layout described at the top of this file.
-func writeStateTo(out io.Writer, def string, files []fileEntry, st ingest.Stats, talliers []*experiment.Tallier) (int64, error) {
-	h := crc32.New(crc32.MakeTable(crc32.Castagnoli))
-	cw := &countWriter{w: io.MultiWriter(out, h)}
-	w := bufio.NewWriterSize(cw, 1<<16)
-	num := func(v int64) { w.Write(binary.AppendVarint(nil, v)) }
+func createStateOut(path string) (*stateOut, error) {
+	f, err := os.CreateTemp(filepath.Dir(path), "."+filepath.Base(path)+".*.tmp")
+	if err != nil {
+		return nil, &StateError{fmt.Errorf("state file %s: %w", path, err)}
+	}
+	o := &stateOut{path: path, f: f}
+	if err := o.reset(); err != nil {
+		o.abort()
+		return nil, err
+	}
+	return o, nil
+}
+
+// reset empties the file and writes its start.
+func (o *stateOut) reset() error {
+	if _, err := o.f.Seek(0, io.SeekStart); err != nil {
+		return &StateError{err}
+	}
+	if err := o.f.Truncate(0); err != nil {
+		return &StateError{err}
+	}
+	o.cw = &countWriter{w: o.f}
+	o.w = bufio.NewWriterSize(o.cw, 1<<16)
+	o.sections = nil
+	var b []byte
+	b = binary.AppendVarint(b, int64(len(stateFileMagic)))
+	b = append(b, stateFileMagic...)
+	b = binary.AppendVarint(b, stateFileVersion)
+	o.w.Write(b)
+	return nil
+}
+
+func (o *stateOut) pos() int64 { return o.cw.n + int64(o.w.Buffered()) }
+
+// write writes the saved tally of tl, which merges a resumed one. An
+// error other than a stale or damaged saved state is a *StateError.
+func (o *stateOut) write(tl *experiment.Tallier) error {
+	from := o.pos()
+	err := tl.WriteState(o.w)
+	var stale *experiment.StaleStateError
+	switch {
+	case errors.As(err, &stale) || errors.Is(err, experiment.ErrStateFormat):
+		return err
+	case err != nil:
+		return &StateError{fmt.Errorf("state file %s: %w", o.path, err)}
+	}
+	o.sections = append(o.sections, [2]int64{from, o.pos()})
+	return nil
+}
+
+// finish writes the trailer, syncs the file and renames it over the old
+// one; it returns the file's size.
+func (o *stateOut) finish(def string, files []fileEntry, st ingest.Stats) (int64, error) {
+	var t []byte
+	num := func(v int64) { t = binary.AppendVarint(t, v) }
 	str := func(s string) {
 		num(int64(len(s)))
-		w.WriteString(s)
+		t = append(t, s...)
 	}
-	str(stateFileMagic)
-	num(stateFileVersion)
 	str(buildVersion())
 	str(def)
 	num(int64(len(files)))
@@ -342,18 +381,36 @@ func writeStateTo(out io.Writer, def string, files []fileEntry, st ingest.Stats,
 		str(b.Reason.String())
 		num(b.Count)
 	}
-	for _, tl := range talliers {
-		if err := tl.WriteState(w); err != nil {
-			return 0, err
-		}
+	num(int64(len(o.sections)))
+	for _, s := range o.sections {
+		num(s[0])
+		num(s[1])
 	}
-	if err := w.Flush(); err != nil {
-		return 0, err
+	t = binary.LittleEndian.AppendUint32(t, uint32(len(t)))
+	t = binary.LittleEndian.AppendUint32(t, crc32.Checksum(t[:len(t)-4], crc32.MakeTable(crc32.Castagnoli)))
+	t = append(t, stateFileEnd...)
+	o.w.Write(t)
+	err := o.w.Flush()
+	if err == nil {
+		err = o.f.Sync()
 	}
-	if _, err := out.Write(binary.LittleEndian.AppendUint32(nil, h.Sum32())); err != nil {
-		return 0, err
+	if cerr := o.f.Close(); err == nil {
+		err = cerr
 	}
-	return cw.n + 4, nil
+	if err == nil {
+		err = os.Rename(o.f.Name(), o.path)
+	}
+	if err != nil {
+		os.Remove(o.f.Name())
+		return 0, &StateError{fmt.Errorf("state file %s: %w", o.path, err)}
+	}
+	return o.cw.n, nil
+}
+
+// abort removes the temporary file.
+func (o *stateOut) abort() {
+	o.f.Close()
+	os.Remove(o.f.Name())
 }
 
 // countWriter counts the bytes written through it.
@@ -387,13 +444,20 @@ func runWithState(ctx context.Context, in Input, exps []Experiment, opts Options
 		return nil, &ConfigError{err}
 	}
 	rep := StateReport{FilesTotal: len(srcs)}
-	sf, fresh, why := planResume(opts.State, def, files, srcs)
+	out, err := createStateOut(opts.State)
+	if err != nil {
+		return nil, err
+	}
+	// The audit table's unit records are read after the run: its saved
+	// state is then read into memory rather than mapped.
+	sf, fresh, why := planResume(opts.State, def, files, srcs, !opts.KeepUnits)
 	var res *Result
 	var talliers []*experiment.Tallier
 	if sf != nil {
-		res, talliers, why, err = resumeRun(ctx, in, exps, opts, sf, fresh)
+		res, talliers, why, err = resumeRun(ctx, in, exps, opts, sf, fresh, out)
 		sf.close()
 		if err != nil {
+			out.abort()
 			return nil, err
 		}
 		rep.Resumed, rep.FilesRead = res != nil, len(fresh)
@@ -402,7 +466,11 @@ func runWithState(ctx context.Context, in Input, exps []Experiment, opts Options
 		rep.Recomputed, rep.Reason, rep.FilesRead = why != "", why, len(srcs)
 		full := in
 		full.Paths, full.FS, full.Sources = nil, nil, srcs
-		if res, talliers, err = runTalliers(ctx, full, exps, opts, nil, ingest.Stats{}); err != nil {
+		if err = out.reset(); err == nil {
+			res, talliers, err = runTalliers(ctx, full, exps, opts, nil, ingest.Stats{}, out)
+		}
+		if err != nil {
+			out.abort()
 			return nil, err
 		}
 		if why != "" {
@@ -412,8 +480,8 @@ func runWithState(ctx context.Context, in Input, exps []Experiment, opts Options
 			}
 		}
 	}
-	if rep.Bytes, err = writeState(opts.State, def, files, res.Stats, talliers); err != nil {
-		return nil, &StateError{err}
+	if rep.Bytes, err = out.finish(def, files, res.Stats); err != nil {
+		return nil, err
 	}
 	for _, tl := range talliers {
 		rep.Units += int64(tl.StateUnits())
@@ -424,7 +492,7 @@ func runWithState(ctx context.Context, in Input, exps []Experiment, opts Options
 
 // resumeRun reads the new files on top of the saved tallies. It returns
 // a nil Result and the reason when the run must read every file instead.
-func resumeRun(ctx context.Context, in Input, exps []Experiment, opts Options, sf *stateFile, fresh []ingest.Source) (*Result, []*experiment.Tallier, string, error) {
+func resumeRun(ctx context.Context, in Input, exps []Experiment, opts Options, sf *stateFile, fresh []ingest.Source, out *stateOut) (*Result, []*experiment.Tallier, string, error) {
 	var bad int64
 	for _, b := range sf.stats.BadRows {
 		bad += b.Count
@@ -436,7 +504,10 @@ func resumeRun(ctx context.Context, in Input, exps []Experiment, opts Options, s
 			return nil, nil, "the saved rows used up the bad-row budget", nil
 		}
 	}
-	res, talliers, err := runTalliers(ctx, sub, exps, opts, sf, sf.stats)
+	if len(sf.sections) != len(exps) {
+		return nil, nil, "the state file is damaged (another number of experiments)", nil
+	}
+	res, talliers, err := runTalliers(ctx, sub, exps, opts, sf, sf.stats, out)
 	var stale *experiment.StaleStateError
 	switch {
 	case errors.As(err, &stale):
@@ -450,6 +521,16 @@ func resumeRun(ctx context.Context, in Input, exps []Experiment, opts Options, s
 			return nil, nil, "reading the new files failed", nil
 		}
 		return nil, nil, "", err
+	}
+	if st := res.Stats; st.Filtered > 0 {
+		for _, e := range exps {
+			if e.Spec.AsOf != nil && st.FilteredMaxTS >= e.Spec.AsOf.UnixNano() {
+				// The rows the reader leaves out move the freshness only
+				// when all of them are before the as-of date
+				// (Tallier.AddFiltered), which every file decides.
+				return nil, nil, "rows of other events reach the as-of date: a rerun look is computed over every file", nil
+			}
+		}
 	}
 	if s := in.MaxBadShare; s > 0 {
 		var total int64

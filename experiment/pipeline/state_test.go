@@ -8,6 +8,7 @@ import (
 	"math/rand/v2"
 	"os"
 	"path/filepath"
+	"reflect"
 	"slices"
 	"strings"
 	"testing"
@@ -267,16 +268,115 @@ func TestIncrementalDamagedState(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	b[len(b)/2] ^= 0x40
-	writeFile(t, state, b)
-	res := run(t, dir, state, exps)
-	if !res.State.Recomputed || !strings.Contains(res.State.Reason, "damaged") {
-		t.Fatalf("state report %+v, want a recompute of a damaged file", *res.State)
+	want := readoutBytes(t, run(t, dir, "", exps).Readouts)
+	damage := []struct {
+		name, reason string
+		edit         func([]byte) []byte
+	}{
+		{"a byte of a block", "damaged", func(b []byte) []byte { b[len(b)/2] ^= 0x40; return b }},
+		{"a byte of the trailer", "damaged", func(b []byte) []byte { b[len(b)-30] ^= 0x01; return b }},
+		{"cut in half", "damaged", func(b []byte) []byte { return b[:len(b)/2] }},
+		{"cut by a byte", "damaged", func(b []byte) []byte { return b[:len(b)-1] }},
+		// The layout version follows the magic line's length and bytes.
+		{"layout 1", "layout 1", func(b []byte) []byte { b[1+len("armtally-state\n")] = 2; return b }},
+		{"empty", "not one armtally wrote", func([]byte) []byte { return nil }},
+	}
+	for _, dc := range damage {
+		writeFile(t, state, dc.edit(slices.Clone(b)))
+		res := run(t, dir, state, exps)
+		if !res.State.Recomputed || !strings.Contains(res.State.Reason, dc.reason) {
+			t.Fatalf("%s: state report %+v, want a recompute (%q)", dc.name, *res.State, dc.reason)
+		}
+		if !strings.Contains(readoutBytes(t, res.Readouts), dc.reason) {
+			t.Fatalf("%s: the readout does not say why every file was read again", dc.name)
+		}
+		// The recompute saved a sound state: the next run resumes from it.
+		again := run(t, dir, state, exps)
+		if !again.State.Resumed || readoutBytes(t, again.Readouts) != want {
+			t.Fatalf("%s: after the recompute, state report %+v or a readout other than the full run's", dc.name, *again.State)
+		}
 	}
 	_, err = pipeline.Run(context.Background(), pipeline.Input{Sources: []ingest.Source{ingest.BytesSource("a.csv", files[days[0]])}},
 		exps, pipeline.Options{State: state, MemoryLimit: 1 << 30})
 	var ce *pipeline.ConfigError
 	if !errors.As(err, &ce) {
 		t.Fatalf("state with a memory limit: error %v, want a ConfigError", err)
+	}
+}
+
+// A resumed run keeps the per-unit records of the audit table: those of a
+// full run, in the same order (common practice: an incremental aggregate
+// must equal the batch one).
+func TestIncrementalKeepsUnits(t *testing.T) {
+	days, files := exportDays(t)
+	dir := t.TempDir()
+	state := filepath.Join(t.TempDir(), "tally.state")
+	exps := stateExperiments()
+	runUnits := func(state string) (*pipeline.Result, [][]experiment.UnitRecord) {
+		res, err := pipeline.Run(context.Background(), pipeline.Input{Paths: []string{dir}, Mapping: ingest.Mapping{Segments: []string{"platform"}}},
+			exps, pipeline.Options{State: state, Workers: 2, KeepUnits: true})
+		if err != nil {
+			t.Fatal(err)
+		}
+		var all [][]experiment.UnitRecord
+		for i := range exps {
+			units, err := res.Units(i)
+			if err != nil {
+				t.Fatal(err)
+			}
+			all = append(all, slices.Collect(units))
+		}
+		return res, all
+	}
+	for i, d := range days[:12] {
+		writeDay(t, dir, d, files[d])
+		inc, got := runUnits(state)
+		_, want := runUnits("")
+		if inc.State.Resumed != (i > 0) {
+			t.Fatalf("after %s: state report %+v", d, *inc.State)
+		}
+		if !reflect.DeepEqual(got, want) {
+			t.Fatalf("after %s: the resumed run's unit records differ from the full run's", d)
+		}
+	}
+}
+
+// A rerun look (as-of) that counts immature units resumes night by night
+// while every row is before its date, and reads every file again once the
+// rows of other events pass it (the freshness of rows the reader leaves
+// out is judged over all of them): its readouts are a full run's each
+// night (common practice: an incremental aggregate must equal the batch
+// one).
+func TestIncrementalAsOf(t *testing.T) {
+	days, files := exportDays(t)
+	exps := stateExperiments()[1:]
+	asOf := exps[0].Spec.Start.AddDate(0, 0, 10)
+	exps[0].Spec.AsOf, exps[0].Spec.Maturity = &asOf, experiment.MaturityInclude
+	dir := t.TempDir()
+	state := filepath.Join(t.TempDir(), "tally.state")
+	recomputed := 0
+	for i, d := range days[:16] {
+		writeDay(t, dir, d, files[d])
+		inc := run(t, dir, state, exps)
+		full := run(t, dir, "", exps)
+		if st := inc.State; st.Recomputed {
+			recomputed++
+			if !strings.Contains(st.Reason, "as-of") {
+				t.Fatalf("after %s: recomputed for %q", d, st.Reason)
+			}
+			ws := inc.Readouts[0].Warnings
+			if n := len(ws); n == 0 || ws[n-1].Code != experiment.WarnStateRecomputed {
+				t.Fatalf("after %s: warnings %+v, want the recompute last", d, ws)
+			}
+			inc.Readouts[0].Warnings = ws[:len(ws)-1]
+		} else if i > 0 && !inc.State.Resumed {
+			t.Fatalf("after %s: state report %+v", d, *inc.State)
+		}
+		if readoutBytes(t, inc.Readouts) != readoutBytes(t, full.Readouts) {
+			t.Fatalf("after %s: the incremental readout differs from the full one", d)
+		}
+	}
+	if recomputed == 0 || recomputed == 15 {
+		t.Errorf("%d of 15 nights recomputed, want the nights past the as-of date only", recomputed)
 	}
 }

@@ -1,0 +1,37 @@
+//go:build unix
+
+package pipeline
+
+import (
+	"os"
+	"syscall"
+)
+
+// readFile returns the bytes of the file at path and a function that
+// releases them: mapped read-only into memory when mapped (the file must
+// then not be cut short while they are in use), else read.
+func readFile(path string, mapped bool) ([]byte, func(), error) {
+	if !mapped {
+		b, err := os.ReadFile(path)
+		return b, func() {}, err
+	}
+	f, err := os.Open(path)
+	if err != nil {
+		return nil, nil, err
+	}
+	defer f.Close()
+	info, err := f.Stat()
+	if err != nil {
+		return nil, nil, err
+	}
+	if info.Size() == 0 || int64(int(info.Size())) != info.Size() {
+		b, err := os.ReadFile(path)
+		return b, func() {}, err
+	}
+	data, err := syscall.Mmap(int(f.Fd()), 0, int(info.Size()), syscall.PROT_READ, syscall.MAP_SHARED)
+	if err != nil {
+		b, err := os.ReadFile(path)
+		return b, func() {}, err
+	}
+	return data, func() { syscall.Munmap(data) }, nil
+}
