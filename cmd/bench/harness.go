@@ -40,7 +40,10 @@ type harnessFlags struct {
 	// CSV log of that many units.
 	incremental      bool
 	incrementalUsers int
-	csvLargeUsers    int
+	// incrementalNights lists the nights timed: the export cut to its
+	// first N days, "last" for all of them.
+	incrementalNights string
+	csvLargeUsers     int
 	// only and skip select the parts to run (see harnessParts); quick
 	// is the small configuration.
 	only, skip string
@@ -107,7 +110,7 @@ type benchReport struct {
 	ProfileTop      string
 	ProfileCum      string
 	ProfileNote     string
-	Incremental     *incrementalResult
+	Incremental     []*incrementalResult
 	DecodeLoad      [2]string // load averages before and after the decode runs
 	BenchCmd        string
 	Started         time.Time
@@ -131,6 +134,7 @@ func runHarness(args []string, stdout, stderr io.Writer) error {
 	fs.IntVar(&f.csvUsers, "csv-users", 1_000_000, "exposed units of the CSV log")
 	fs.IntVar(&f.csvLargeUsers, "csv-large-users", 10_000_000, "exposed units of the large CSV log (10M units: about 5.7 GB, written only when the part csv-large runs and the disk has room)")
 	fs.IntVar(&f.incrementalUsers, "incremental-users", 0, "exposed units of the partitioned export (0: --users)")
+	fs.StringVar(&f.incrementalNights, "incremental-nights", "17,last", "nights of the incremental part, comma-separated: N times the export cut to its first N days (day 17, 2026-11-11, is inside the exposure window 2026-11-03 to 2026-11-19), \"last\" the whole export")
 	fs.Uint64Var(&f.seed, "seed", 1, "random seed of every log")
 	fs.IntVar(&f.runs, "runs", 3, "timed runs per measurement, armtally and DuckDB alternated (after one untimed check run)")
 	fs.IntVar(&f.scalingRuns, "scaling-runs", 0, "timed runs of the 2x-events log (0: --runs)")
@@ -204,8 +208,16 @@ func runHarness(args []string, stdout, stderr io.Writer) error {
 		if err != nil {
 			return fmt.Errorf("run: %w", err)
 		}
-		if rep.Incremental, err = measureIncremental(folder, info, bin, self, f, a, logf); err != nil {
-			return fmt.Errorf("run: incremental: %w", err)
+		nights, err := nightDays(f.incrementalNights, len(info.Days))
+		if err != nil {
+			return fmt.Errorf("run: %w", err)
+		}
+		for _, n := range nights {
+			inc, err := measureIncremental(folder, info, n, bin, self, f, a, logf)
+			if err != nil {
+				return fmt.Errorf("run: incremental, %d days: %w", n, err)
+			}
+			rep.Incremental = append(rep.Incremental, inc)
 		}
 	}
 	var mainLog *scenario // the --users Parquet log, written when decode or profile runs

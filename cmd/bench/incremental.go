@@ -11,6 +11,7 @@ import (
 	"os"
 	"path/filepath"
 	"slices"
+	"strconv"
 	"strings"
 
 	"github.com/parquet-go/parquet-go"
@@ -149,8 +150,8 @@ type incrementalResult struct {
 // run and DuckDB over the export, runs interleaved; the nightly run's JSON
 // readout must equal the full run's byte for byte (the run aborts
 // otherwise).
-func measureIncremental(folder string, info partInfo, bin, self string, f harnessFlags, a analysis, logf func(string, ...any)) (*incrementalResult, error) {
-	res := &incrementalResult{Folder: folder, Info: info, DaysTotal: len(info.Days), DaysInState: len(info.Days) - 1}
+func measureIncremental(folder string, info partInfo, nDays int, bin, self string, f harnessFlags, a analysis, logf func(string, ...any)) (*incrementalResult, error) {
+	res := &incrementalResult{Folder: folder, Info: info, DaysTotal: nDays, DaysInState: nDays - 1}
 	// work/ holds hard links of the day files: every day for the full
 	// runs, all but the last while the state is made.
 	work := filepath.Join(f.dir, "incremental-work")
@@ -161,7 +162,7 @@ func measureIncremental(folder string, info partInfo, bin, self string, f harnes
 		}
 		return os.Link(filepath.Join(folder, day, "part-0.parquet"), filepath.Join(work, day, "part-0.parquet"))
 	}
-	days := info.Days
+	days := info.Days[:nDays]
 	for _, d := range days[:len(days)-1] {
 		if err := link(d); err != nil {
 			return nil, err
@@ -223,7 +224,7 @@ func measureIncremental(folder string, info partInfo, bin, self string, f harnes
 	if st, err := os.Stat(state); err == nil {
 		res.StateBytes = st.Size()
 	}
-	logf("incremental: the nightly readout equals the full one; state file %.1f MB", mb(res.StateBytes))
+	logf("incremental, %d days: the nightly readout equals the full one; state file %.1f MB", nDays, mb(res.StateBytes))
 	res.LoadBefore = loadAvg()
 	var full, night, duck []sample
 	for i := range f.runs {
@@ -243,10 +244,31 @@ func measureIncremental(folder string, info partInfo, bin, self string, f harnes
 			return nil, err
 		}
 		duck = append(duck, s)
-		logf("incremental run %d/%d: nightly %.2f s %.0f MB; full %.2f s %.0f MB; duckdb %.2f s %.0f MB", i+1, f.runs,
+		logf("incremental, %d days, run %d/%d: nightly %.2f s %.0f MB; full %.2f s %.0f MB; duckdb %.2f s %.0f MB", nDays, i+1, f.runs,
 			night[i].Wall.Seconds(), mb(night[i].MaxRSS), full[i].Wall.Seconds(), mb(full[i].MaxRSS), duck[i].Wall.Seconds(), mb(duck[i].MaxRSS))
 	}
 	res.LoadAfter = loadAvg()
 	res.Full, res.Night, res.DuckDB = summarise(full), summarise(night), summarise(duck)
 	return res, nil
+}
+
+// nightDays parses --incremental-nights against an export of total days:
+// each N is the export cut to its first N days (at least 2), "last" all of
+// them; the list comes back without repeats, in the order given.
+func nightDays(list string, total int) ([]int, error) {
+	var out []int
+	for _, f := range strings.Split(list, ",") {
+		f = strings.TrimSpace(f)
+		n := total
+		if f != "last" {
+			var err error
+			if n, err = strconv.Atoi(f); err != nil || n < 2 || n > total {
+				return nil, fmt.Errorf("--incremental-nights: %q is neither \"last\" nor a number of days from 2 to %d", f, total)
+			}
+		}
+		if !slices.Contains(out, n) {
+			out = append(out, n)
+		}
+	}
+	return out, nil
 }

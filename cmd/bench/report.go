@@ -158,7 +158,7 @@ func renderReport(rep *benchReport) string {
 		p("\n")
 	}
 
-	if inc := rep.Incremental; inc != nil {
+	for _, inc := range rep.Incremental {
 		renderIncremental(p, inc, f)
 	}
 
@@ -193,10 +193,10 @@ func renderReport(rep *benchReport) string {
 // renderIncremental writes the section of the nightly case.
 func renderIncremental(p func(string, ...any), inc *incrementalResult, f harnessFlags) {
 	in := inc.Info
-	p("\n### Incremental nightly run\n\n")
-	p("The same generator and analysis, written as a partitioned export: one snappy Parquet file per UTC day (`dt=YYYY-MM-DD/part-0.parquet`, %s rows per row group), %d days, %s rows, %s units (exposed and never exposed), %s. ",
-		report.FormatCount(partRowGroupRows), len(in.Days), report.FormatCount(in.Rows), report.FormatCount(in.Units), mbs(in.Bytes))
-	p("The state file of the first %d days is made once (untimed, `armtally analyze ... --state FILE`); each timed nightly run starts from a copy of it and reads the last day (`%s`) on top. ", inc.DaysInState, in.Days[len(in.Days)-1])
+	p("\n### Incremental nightly run: day %d of %d\n\n", inc.DaysTotal, len(in.Days))
+	p("The same generator and analysis, written as a partitioned export: one snappy Parquet file per UTC day (`dt=YYYY-MM-DD/part-0.parquet`, %s rows per row group), %d days, %s rows, %s units (exposed and never exposed), %s; this night uses its first %d days. ",
+		report.FormatCount(partRowGroupRows), len(in.Days), report.FormatCount(in.Rows), report.FormatCount(in.Units), mbs(in.Bytes), inc.DaysTotal)
+	p("The state file of the first %d days is made once (untimed, `armtally analyze ... --state FILE`); each timed nightly run starts from a copy of it and reads day %d (`%s`) on top; the full runs and DuckDB read the same %d days. ", inc.DaysInState, inc.DaysTotal, in.Days[inc.DaysTotal-1], inc.DaysTotal)
 	p("The nightly JSON readout was checked byte for byte against a full run's (equal: %v), and the full run's counts against DuckDB's. ", inc.FullJSONEqualsNightly)
 	p("Runs interleaved (nightly, full, DuckDB), %d each; load average %s when they began, %s when they ended.\n\n", inc.Night.Runs, inc.LoadBefore, inc.LoadAfter)
 	p("| Run | Median wall | Range | CPU | Peak RSS | wall / full armtally | wall / DuckDB |\n|:--|--:|--:|--:|--:|--:|--:|\n")
