@@ -540,3 +540,15 @@ func textStart(b []byte, cut bool) (string, bool) {
 }
 
 func (o *openedSource) Close() error { return o.c.Close() }
+
+// IsInputName reports whether a folder walk of FileSources would read a
+// file of this name: its extension is one of the known formats and it
+// does not start with '.' or '_'.
+func IsInputName(name string) bool {
+	base := filepath.Base(name)
+	if strings.HasPrefix(base, ".") || strings.HasPrefix(base, "_") {
+		return false
+	}
+	_, ok := formatOf(base)
+	return ok
+}

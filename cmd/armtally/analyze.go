@@ -338,6 +338,11 @@ func parseAnalyzeRun(args []string, stdout, stderr io.Writer) (*analyzeRun, erro
 	if err := checkOutputs(run, inputs); err != nil {
 		return nil, err
 	}
+	if !f.demo {
+		if err := checkOutsideInputFolders(outputFiles(run), inputRoots(fs, sf)); err != nil {
+			return nil, err
+		}
+	}
 	return run, nil
 }
 

@@ -8,9 +8,13 @@ import (
 	"os"
 	"os/signal"
 	"path/filepath"
+	"strings"
 	"syscall"
 
+	"github.com/spf13/pflag"
+
 	"github.com/armtally/armtally/experiment"
+	"github.com/armtally/armtally/experiment/specfile"
 	"github.com/armtally/armtally/ingest"
 	"github.com/armtally/armtally/report"
 	"github.com/armtally/armtally/report/chart"
@@ -71,6 +75,70 @@ func checkOutputs(run *analyzeRun, inputs []string) error {
 		return usagef("analyze: %v", err)
 	}
 	return nil
+}
+
+// inputRoots returns the input paths of the run as given: the arguments,
+// or the spec file's input.paths when there are none.
+func inputRoots(fs *pflag.FlagSet, sf *specfile.File) []string {
+	if fs.NArg() > 0 || sf == nil {
+		return fs.Args()
+	}
+	return sf.Paths
+}
+
+// checkOutsideInputFolders refuses an output that the next run over the
+// same input folders would read as input: a file below one of them whose
+// name has an input extension and no '.' or '_' at the start of its name
+// or of a folder on the way down (ingest.FileSources skips those). A
+// nightly job that wrote its state or audit table as state.parquet inside
+// the export it reads would otherwise fail, or worse, on the next night.
+func checkOutsideInputFolders(outputs []report.OutputPath, roots []string) error {
+	var folders, given []string
+	for _, r := range roots {
+		if fi, err := os.Stat(r); err == nil && fi.IsDir() {
+			folders, given = append(folders, realPath(r)), append(given, r)
+		}
+	}
+	for _, o := range outputs {
+		if o.Path == "-" || !ingest.IsInputName(o.Path) {
+			continue
+		}
+		dir := realPath(filepath.Dir(o.Path))
+		for i, folder := range folders {
+			rel, err := filepath.Rel(folder, dir)
+			if err != nil || rel == ".." || strings.HasPrefix(rel, ".."+string(filepath.Separator)) || hiddenOnTheWay(rel) {
+				continue
+			}
+			return usagef("analyze: %s %s is inside the input folder %s and the next run over it would read it as input; write it outside the folder, or start its name with '_' or '.'", o.From, o.Path, given[i])
+		}
+	}
+	return nil
+}
+
+// realPath is path made absolute with its symbolic links resolved, or as
+// clean as it gets when it cannot be resolved.
+func realPath(path string) string {
+	if abs, err := filepath.Abs(path); err == nil {
+		path = abs
+	}
+	if real, err := filepath.EvalSymlinks(path); err == nil {
+		return real
+	}
+	return filepath.Clean(path)
+}
+
+// hiddenOnTheWay reports whether a relative folder path has a component
+// that a folder walk skips.
+func hiddenOnTheWay(rel string) bool {
+	if rel == "." {
+		return false
+	}
+	for _, part := range strings.Split(rel, string(filepath.Separator)) {
+		if strings.HasPrefix(part, ".") || strings.HasPrefix(part, "_") {
+			return true
+		}
+	}
+	return false
 }
 
 // notifySignals returns a context that SIGINT or SIGTERM cancels, with a

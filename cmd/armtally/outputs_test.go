@@ -12,6 +12,8 @@ import (
 	"syscall"
 	"testing"
 	"time"
+
+	"github.com/armtally/armtally/report"
 )
 
 // commandEnv, set to 1, makes the test binary run as armtally (see
@@ -95,6 +97,11 @@ func TestOutputPathsRefused(t *testing.T) {
 		{"--state is the input", []string{good, "--state", good}, "--state " + good + " is an input"},
 		{"--state and --out the same file", []string{bad, "--state", filepath.Join(dir, "r.out"), "--out", filepath.Join(dir, "r.out")}, "are the same file"},
 		{"--state -", []string{bad, "--state", "-"}, "--state -"},
+		{"--state read as input by the next run", []string{dir, "--state", filepath.Join(dir, "sub", "tally.parquet")}, "--state " + filepath.Join(dir, "sub", "tally.parquet") + " is inside the input folder " + dir},
+		{"--audit read as input by the next run", []string{dir, "--audit", filepath.Join(dir, "units.csv.gz")}, "is inside the input folder"},
+	}
+	if err := os.Mkdir(filepath.Join(dir, "sub"), 0o755); err != nil {
+		t.Fatal(err)
 	}
 	if err := os.Symlink(okJSON, filepath.Join(dir, "ok-link.json")); err != nil {
 		t.Fatal(err)
@@ -130,6 +137,46 @@ func TestOutputPathsRefused(t *testing.T) {
 				t.Errorf("r.out was written: %q", got)
 			}
 		})
+	}
+}
+
+// An output below an input folder is refused only when a folder walk
+// would read it: a known extension and no '.' or '_' on the way.
+func TestOutsideInputFolders(t *testing.T) {
+	dir := t.TempDir()
+	for _, sub := range []string{"a", "_tmp", ".hidden"} {
+		if err := os.Mkdir(filepath.Join(dir, sub), 0o755); err != nil {
+			t.Fatal(err)
+		}
+	}
+	outside := t.TempDir()
+	for _, tc := range []struct {
+		path    string
+		refused bool
+	}{
+		{filepath.Join(dir, "state.parquet"), true},
+		{filepath.Join(dir, "a", "state.PARQ"), true},
+		{filepath.Join(dir, "a", "units.csv"), true},
+		{filepath.Join(dir, "state.bin"), false},
+		{filepath.Join(dir, "_state.parquet"), false},
+		{filepath.Join(dir, ".state.parquet"), false},
+		{filepath.Join(dir, "_tmp", "state.parquet"), false},
+		{filepath.Join(dir, ".hidden", "x.csv"), false},
+		{filepath.Join(outside, "state.parquet"), false},
+		{filepath.Join(dir+"-sibling.parquet"), false},
+	} {
+		err := checkOutsideInputFolders([]report.OutputPath{{From: "--state", Path: tc.path}}, []string{dir})
+		if (err != nil) != tc.refused {
+			t.Errorf("%s: error %v, want refused %v", tc.path, err, tc.refused)
+		}
+	}
+	// A file argument is not a folder: outputs beside it are not read.
+	log := filepath.Join(dir, "log.csv")
+	if err := os.WriteFile(log, []byte("x\n"), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	if err := checkOutsideInputFolders([]report.OutputPath{{From: "--state", Path: filepath.Join(dir, "state.parquet")}}, []string{log}); err != nil {
+		t.Errorf("output beside a file argument: %v", err)
 	}
 }
 
