@@ -250,6 +250,32 @@ func (t *Tallier) ReadState(b []byte) error {
 	return nil
 }
 
+// ExpectGrowth tells a resumed Tallier, before its first Add, that the
+// rows still to come are about share times those its saved state
+// summarises (the new files' bytes over the saved ones', say). Each
+// partition's unit index is then sized once for the units those rows can
+// hold, at most one per exposure or metric-event row at the saved rate,
+// instead of doubling step by step as they arrive. The tally does not
+// depend on it.
+func (t *Tallier) ExpectGrowth(share float64) {
+	if t.saved == nil || !(share > 0) {
+		return
+	}
+	rows := share * float64(t.diag.ExposureRows+t.diag.MetricEvents)
+	// A bound on what a wrong share (a tiny saved state) may reserve.
+	rows = min(rows, 2*float64(t.saved.units)+1<<20)
+	per := int(rows)/len(t.parts) + 1
+	for _, pt := range t.parts {
+		size := unitIndexMinSlots
+		for 3*size < 4*per {
+			size *= 2
+		}
+		if size > len(pt.units.slots) && pt.units.len() == 0 {
+			pt.units.resize(size)
+		}
+	}
+}
+
 func (t *Tallier) readState(b []byte) (*savedState, error) {
 	prefix := 0
 	for _, want := range []uint64{uint64(len(stateMagic)), stateVersion} {
