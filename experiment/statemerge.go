@@ -89,6 +89,7 @@ type mergeWorker struct {
 	enc     []byte
 	attr    TallyDiagnostics // the changes to the counters of the attribution
 	sums    *groupSums
+	sink    uint64 // see touch
 }
 
 // merge merges the tallier's units with saved state sv (empty for a
@@ -317,6 +318,7 @@ func (mc *mergeCtx) task(k int, w *mergeWorker) error {
 			return fmt.Errorf("%w: block %d: %w", ErrStateFormat, k, err)
 		}
 	}
+	mc.touch(w, refs)
 	slices.SortFunc(refs, func(a, b newRef) int {
 		if a.h != b.h {
 			return cmp.Compare(a.h, b.h)
@@ -345,6 +347,24 @@ func (mc *mergeCtx) task(k int, w *mergeWorker) error {
 	mc.sum(w, out)
 	mc.encode(k, w, out)
 	return nil
+}
+
+// touch reads what the merge will read of each new unit of a task (its
+// key, its exposure state, its events), which lies in the partitions in
+// the order the units first came, not in hash order. The loads of one
+// unit do not wait for another's, so their cache misses overlap here
+// instead of stalling the merge one unit at a time; the task's units then
+// merge from the cache.
+func (mc *mergeCtx) touch(w *mergeWorker, refs []newRef) {
+	var sink uint64
+	for _, r := range refs {
+		pt, np := mc.t.parts[r.p], &mc.news[r.p]
+		sink += uint64(pt.state.at(int(r.u)).t0) + uint64(np.evAt[r.u])
+		if k := pt.units.key(r.u); len(k) > 0 {
+			sink += uint64(k[0])
+		}
+	}
+	w.sink += sink
 }
 
 // sameArms reports whether the saved arm indices are the tallier's.
