@@ -129,4 +129,3 @@ func BenchmarkTallierResume(b *testing.B) {
 	}
 	b.ReportMetric(float64(t.StateUnits()), "saved-units")
 }
-
