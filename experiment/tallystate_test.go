@@ -404,9 +404,9 @@ func TestResumedTallyExpectGrowth(t *testing.T) {
 		t.Fatal(err)
 	}
 	tl.ExpectGrowth(0.5) // one day on top of two
-	sized := len(tl.parts[0].units.slots)
-	if sized <= unitIndexMinSlots {
-		t.Fatalf("ExpectGrowth left %d slots", sized)
+	sized, arena := len(tl.parts[0].units.slots), cap(tl.parts[0].units.arena)
+	if sized <= unitIndexMinSlots || arena == 0 {
+		t.Fatalf("ExpectGrowth left %d slots and %d bytes of arena", sized, arena)
 	}
 	rec := batch(t, days[2], spec.Segments...)
 	err = tl.Add(rec)
@@ -414,8 +414,8 @@ func TestResumedTallyExpectGrowth(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	if n := len(tl.parts[0].units.slots); n != sized {
-		t.Errorf("the unit index grew from %d to %d slots after ExpectGrowth", sized, n)
+	if n, a := len(tl.parts[0].units.slots), cap(tl.parts[0].units.arena); n != sized || a != arena {
+		t.Errorf("the unit index grew from %d to %d slots and %d to %d bytes of arena after ExpectGrowth", sized, n, arena, a)
 	}
 	got, err := tl.Tally()
 	if err != nil {
