@@ -318,7 +318,6 @@ func (mc *mergeCtx) task(k int, w *mergeWorker) error {
 			return fmt.Errorf("%w: block %d: %w", ErrStateFormat, k, err)
 		}
 	}
-	mc.touch(w, refs)
 	slices.SortFunc(refs, func(a, b newRef) int {
 		if a.h != b.h {
 			return cmp.Compare(a.h, b.h)
@@ -326,7 +325,10 @@ func (mc *mergeCtx) task(k int, w *mergeWorker) error {
 		return bytes.Compare(mc.key(a), mc.key(b))
 	})
 	i := 0
-	for _, r := range refs {
+	for n, r := range refs {
+		if n%touchGroup == 0 {
+			mc.touch(w, refs[n:min(n+touchGroup, len(refs))])
+		}
 		key := mc.key(r)
 		j := i
 		for j < in.len() && cmpUnit(in.hash[j], in.key(j), r.h, key) < 0 {
@@ -349,12 +351,16 @@ func (mc *mergeCtx) task(k int, w *mergeWorker) error {
 	return nil
 }
 
-// touch reads what the merge will read of each new unit of a task (its
-// key, its exposure state, its events), which lies in the partitions in
-// the order the units first came, not in hash order. The loads of one
-// unit do not wait for another's, so their cache misses overlap here
-// instead of stalling the merge one unit at a time; the task's units then
-// merge from the cache.
+// touchGroup is the number of new units whose data a task reads ahead
+// (touch) before merging them.
+const touchGroup = 64
+
+// touch reads what the merge will read of each of a group of new units
+// (its key, its exposure state, its events), which lies in the
+// partitions in the order the units first came, not in hash order. The
+// loads of one unit do not wait for another's, so their cache misses
+// overlap here instead of stalling the merge one unit at a time; the
+// group then merges from the cache.
 func (mc *mergeCtx) touch(w *mergeWorker, refs []newRef) {
 	var sink uint64
 	for _, r := range refs {
