@@ -66,11 +66,12 @@ type mergeCtx struct {
 	werr    error
 }
 
-// newPart is what the merge needs of one partition's new units: their
-// stable hashes, their metric events grouped by unit, and the merged
-// index of each of the partition's segment values.
+// newPart is what the merge needs of one partition's new units: how many
+// fall in each task (then where the next goes in refs), their metric
+// events grouped by unit, and the merged index of each of the
+// partition's segment values.
 type newPart struct {
-	hash   []uint64
+	next   []int
 	evAt   []int32 // unit u's events are evs[evAt[u]:evAt[u+1]]
 	evs    []metricEvent
 	segMap [][]int32
@@ -105,12 +106,16 @@ func (t *Tallier) merge(sv *savedState, w io.Writer) (*mergeResult, error) {
 	if err := mc.buildDicts(); err != nil {
 		return nil, err
 	}
-	newUnits := mc.prepareNew()
+	var newUnits int64
+	for _, pt := range t.parts {
+		newUnits += int64(pt.state.len())
+	}
 	mc.outBits = max(sv.bits, blockBits(sv.units+newUnits))
 	mc.taskBits = mc.outBits
 	if sv.units > 0 {
 		mc.taskBits = sv.bits
 	}
+	mc.prepareNew()
 	mc.bucket()
 	if g := len(t.arms) * 6 << (2 * nm); dims == 0 && nm <= 8 && g <= 1<<16 {
 		mc.dense = g
@@ -172,19 +177,19 @@ func (mc *mergeCtx) buildDicts() error {
 	return nil
 }
 
-// prepareNew hashes each partition's units and groups their metric
-// events by unit, a partition per goroutine; it returns the number of
-// units.
-func (mc *mergeCtx) prepareNew() int64 {
+// prepareNew counts each partition's units per task (by their stable
+// hashes) and groups their metric events by unit, a partition per
+// goroutine.
+func (mc *mergeCtx) prepareNew() {
 	t := mc.t
 	var wg sync.WaitGroup
 	for p, pt := range t.parts {
 		wg.Go(func() {
 			np := &mc.news[p]
 			n := pt.state.len()
-			np.hash = make([]uint64, n)
+			np.next = make([]int, 1<<mc.taskBits)
 			for u := range n {
-				np.hash[u] = t.stateHash(pt.units.key(int32(u)))
+				np.next[blockOf(t.stateHash(pt.units.key(int32(u))), mc.taskBits)]++
 			}
 			np.evAt = make([]int32, n+1)
 			for j := range pt.events.len() {
@@ -203,34 +208,39 @@ func (mc *mergeCtx) prepareNew() int64 {
 		})
 	}
 	wg.Wait()
-	var n int64
-	for _, np := range mc.news {
-		n += int64(len(np.hash))
-	}
-	return n
 }
 
-// bucket sorts the new units into their tasks.
+// bucket sorts the new units into their tasks: task k's go to
+// refs[refAt[k]:refAt[k+1]], each partition's after the previous
+// partition's, and the partitions place theirs at once, hashing their
+// keys again rather than keeping the hashes between the two passes.
 func (mc *mergeCtx) bucket() {
 	tasks := 1 << mc.taskBits
 	mc.refAt = make([]int, tasks+1)
-	for _, np := range mc.news {
-		for _, h := range np.hash {
-			mc.refAt[blockOf(h, mc.taskBits)+1]++
-		}
-	}
+	at := 0
 	for k := range tasks {
-		mc.refAt[k+1] += mc.refAt[k]
-	}
-	mc.refs = make([]newRef, mc.refAt[tasks])
-	next := slices.Clone(mc.refAt[:tasks])
-	for p, np := range mc.news {
-		for u, h := range np.hash {
-			k := blockOf(h, mc.taskBits)
-			mc.refs[next[k]] = newRef{h: h, p: int32(p), u: int32(u)}
-			next[k]++
+		mc.refAt[k] = at
+		for p := range mc.news {
+			c := mc.news[p].next[k]
+			mc.news[p].next[k] = at
+			at += c
 		}
 	}
+	mc.refAt[tasks] = at
+	mc.refs = make([]newRef, at)
+	var wg sync.WaitGroup
+	for p, pt := range mc.t.parts {
+		wg.Go(func() {
+			next := mc.news[p].next
+			for u := range pt.state.len() {
+				h := mc.t.stateHash(pt.units.key(int32(u)))
+				k := blockOf(h, mc.taskBits)
+				mc.refs[next[k]] = newRef{h: h, p: int32(p), u: int32(u)}
+				next[k]++
+			}
+		})
+	}
+	wg.Wait()
 }
 
 // run runs the tasks on every core and returns the workers, or the error
