@@ -255,10 +255,13 @@ func (t *Tallier) ReadState(b []byte) error {
 // summarises (the new files' bytes over the saved ones', say). Each
 // partition's unit index is then sized once for the units those rows can
 // hold, at most one per exposure or metric-event row at the saved rate,
-// instead of doubling step by step as they arrive. The tally does not
-// depend on it.
+// instead of doubling step by step as they arrive; nothing is reserved
+// once the saved rows reach the window's end. The tally does not depend
+// on it.
 func (t *Tallier) ExpectGrowth(share float64) {
-	if t.saved == nil || !(share > 0) {
+	if t.saved == nil || !(share > 0) || t.hasEnd && t.hasFresh && t.fresh >= t.end {
+		// Once the saved rows reach the window's end, new rows make no
+		// units but late ones: the index grows for those as they come.
 		return
 	}
 	rows := share * float64(t.diag.ExposureRows+t.diag.MetricEvents)
