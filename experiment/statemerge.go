@@ -90,7 +90,9 @@ type mergeWorker struct {
 	enc     []byte
 	attr    TallyDiagnostics // the changes to the counters of the attribution
 	sums    *groupSums
-	sink    uint64 // see touch
+	sink    uint64   // see touch
+	ends    []int    // sortRefs' buckets
+	sorted  []newRef // sortRefs' scratch
 }
 
 // merge merges the tallier's units with saved state sv (empty for a
@@ -328,12 +330,7 @@ func (mc *mergeCtx) task(k int, w *mergeWorker) error {
 			return fmt.Errorf("%w: block %d: %w", ErrStateFormat, k, err)
 		}
 	}
-	slices.SortFunc(refs, func(a, b newRef) int {
-		if a.h != b.h {
-			return cmp.Compare(a.h, b.h)
-		}
-		return bytes.Compare(mc.key(a), mc.key(b))
-	})
+	mc.sortRefs(w, refs)
 	i := 0
 	for n, r := range refs {
 		if n%touchGroup == 0 {
@@ -359,6 +356,68 @@ func (mc *mergeCtx) task(k int, w *mergeWorker) error {
 	mc.sum(w, out)
 	mc.encode(k, w, out)
 	return nil
+}
+
+// sortRefs sorts a task's new units by hash, then key. The hash bits
+// below the task's spread them into about one bucket per four units (a
+// stable hash is uniform), in order, and each bucket is sorted on its own:
+// by insertion when small, as it nearly always is, else by a comparison
+// sort. A comparison sort of the whole task called a function per
+// comparison (0.1 s of CPU on the 10M-unit night inside the window).
+func (mc *mergeCtx) sortRefs(w *mergeWorker, refs []newRef) {
+	n := len(refs)
+	if n < 2 {
+		return
+	}
+	bits := 0
+	for bits < 16 && 4<<bits < n {
+		bits++
+	}
+	bucket := func(h uint64) int {
+		if bits == 0 {
+			return 0
+		}
+		return int(h << mc.taskBits >> (64 - bits))
+	}
+	ends := slices.Grow(w.ends[:0], 1<<bits+1)[:1<<bits+1]
+	clear(ends)
+	for _, r := range refs {
+		ends[bucket(r.h)+1]++
+	}
+	for b := range 1 << bits {
+		ends[b+1] += ends[b]
+	}
+	sorted := slices.Grow(w.sorted[:0], n)[:n]
+	for _, r := range refs {
+		b := bucket(r.h)
+		sorted[ends[b]] = r
+		ends[b]++
+	}
+	less := func(a, b newRef) bool {
+		return a.h < b.h || a.h == b.h && bytes.Compare(mc.key(a), mc.key(b)) < 0
+	}
+	lo := 0
+	for _, hi := range ends[:1<<bits] {
+		if hi-lo > 32 {
+			slices.SortFunc(sorted[lo:hi], func(a, b newRef) int {
+				if c := cmp.Compare(a.h, b.h); c != 0 {
+					return c
+				}
+				return bytes.Compare(mc.key(a), mc.key(b))
+			})
+		} else {
+			for i := lo + 1; i < hi; i++ {
+				x, j := sorted[i], i
+				for ; j > lo && less(x, sorted[j-1]); j-- {
+					sorted[j] = sorted[j-1]
+				}
+				sorted[j] = x
+			}
+		}
+		lo = hi
+	}
+	copy(refs, sorted)
+	w.ends, w.sorted = ends, sorted
 }
 
 // touchGroup is the number of new units whose data a task reads ahead
