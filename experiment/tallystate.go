@@ -282,6 +282,10 @@ func (t *Tallier) ExpectGrowth(share float64) {
 		}
 		if size > len(pt.units.slots) {
 			pt.units.resize(size)
+			// Written once in order here, the fresh table's pages are
+			// faulted in once each, rather than first read by a lookup
+			// (mapping the zero page) and then faulted again by its write.
+			clear(pt.units.slots)
 		}
 		// The arena doubles as keys arrive, copying them and leaving the
 		// smaller arenas as garbage: made once, it holds the estimate.
