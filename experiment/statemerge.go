@@ -193,19 +193,20 @@ func (mc *mergeCtx) prepareNew() {
 			for u := range n {
 				np.next[blockOf(t.stateHash(pt.units.key(int32(u))), mc.taskBits)]++
 			}
+			// evAt[u] counts, then ends, then (placing the events from
+			// the last) starts unit u's events: no copy of it is needed.
 			np.evAt = make([]int32, n+1)
 			for j := range pt.events.len() {
-				np.evAt[pt.events.at(j).unit+1]++
+				np.evAt[pt.events.at(j).unit]++
 			}
 			for u := range n {
 				np.evAt[u+1] += np.evAt[u]
 			}
 			np.evs = make([]metricEvent, pt.events.len())
-			next := slices.Clone(np.evAt[:n])
-			for j := range pt.events.len() {
+			for j := pt.events.len() - 1; j >= 0; j-- {
 				e := pt.events.at(j)
-				np.evs[next[e.unit]] = *e
-				next[e.unit]++
+				np.evAt[e.unit]--
+				np.evs[np.evAt[e.unit]] = *e
 			}
 		})
 	}
