@@ -435,7 +435,10 @@ func (mc *mergeCtx) touch(w *mergeWorker, refs []newRef) {
 	var sink uint64
 	for _, r := range refs {
 		pt, np := mc.t.parts[r.p], &mc.news[r.p]
-		sink += uint64(pt.state.at(int(r.u)).t0) + uint64(np.evAt[r.u])
+		sink += uint64(pt.state.at(int(r.u)).t0)
+		if a := np.evAt[r.u]; a < np.evAt[r.u+1] {
+			sink += uint64(np.evs[a].ts)
+		}
 		if k := pt.units.key(r.u); len(k) > 0 {
 			sink += uint64(k[0])
 		}
