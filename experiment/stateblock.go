@@ -5,6 +5,7 @@ import (
 	"errors"
 	"hash/crc32"
 	"math"
+	"slices"
 )
 
 // unitCols holds unit records column by column, in the order of a saved
@@ -109,37 +110,48 @@ func maxOf(vs []uint32) uint32 {
 	return m
 }
 
+// putCol appends vs to dst, w bytes a value. The values are stored
+// through an index into room made first: appending them one by one
+// checked the capacity per value.
 func putCol(dst []byte, vs []uint32, w int) []byte {
+	at := len(dst)
+	dst = slices.Grow(dst, w*len(vs))[:at+w*len(vs)]
+	out := dst[at:]
 	switch w {
 	case 1:
-		for _, v := range vs {
-			dst = append(dst, byte(v))
+		out = out[:len(vs)]
+		for i, v := range vs {
+			out[i] = byte(v)
 		}
 	case 2:
-		for _, v := range vs {
-			dst = binary.LittleEndian.AppendUint16(dst, uint16(v))
+		for i, v := range vs {
+			binary.LittleEndian.PutUint16(out[2*i:], uint16(v))
 		}
 	default:
-		for _, v := range vs {
-			dst = binary.LittleEndian.AppendUint32(dst, v)
+		for i, v := range vs {
+			binary.LittleEndian.PutUint32(out[4*i:], v)
 		}
 	}
 	return dst
 }
 
+// getCol appends the n values of w bytes each at the start of src to dst.
 func getCol(dst []uint32, src []byte, n, w int) []uint32 {
+	at := len(dst)
+	dst = slices.Grow(dst, n)[:at+n]
+	out := dst[at:]
 	switch w {
 	case 1:
-		for _, b := range src[:n] {
-			dst = append(dst, uint32(b))
+		for i, b := range src[:len(out)] {
+			out[i] = uint32(b)
 		}
 	case 2:
-		for i := range n {
-			dst = append(dst, uint32(binary.LittleEndian.Uint16(src[2*i:])))
+		for i := range out {
+			out[i] = uint32(binary.LittleEndian.Uint16(src[2*i:]))
 		}
 	default:
-		for i := range n {
-			dst = append(dst, binary.LittleEndian.Uint32(src[4*i:]))
+		for i := range out {
+			out[i] = binary.LittleEndian.Uint32(src[4*i:])
 		}
 	}
 	return dst
@@ -169,8 +181,10 @@ func encodeBlock(dst []byte, c *unitCols, i, j int, sh colShape, s *blockScratch
 		dst = append(dst, byte(w))
 	}
 	dst = putCol(dst, s.lens, ws[0])
-	for _, t := range c.t0[i:j] {
-		dst = binary.LittleEndian.AppendUint64(dst, uint64(t))
+	at := len(dst)
+	dst = slices.Grow(dst, 8*(j-i))[:at+8*(j-i)]
+	for k, t := range c.t0[i:j] {
+		binary.LittleEndian.PutUint64(dst[at+8*k:], uint64(t))
 	}
 	dst = putCol(dst, arm, ws[1])
 	dst = append(dst, c.conv[i*sh.cb:j*sh.cb]...)
@@ -213,9 +227,10 @@ func decodeBlock(c *unitCols, b []byte, n int, sh colShape, hash func([]byte) ui
 		return h
 	}
 	s.lens = getCol(s.lens[:0], take(n*ws[0]), n, ws[0])
-	t0 := take(8 * n)
-	for k := range n {
-		c.t0 = append(c.t0, int64(binary.LittleEndian.Uint64(t0[8*k:])))
+	t0, at := take(8*n), len(c.t0)
+	c.t0 = slices.Grow(c.t0, n)[:at+n]
+	for k := range c.t0[at:] {
+		c.t0[at+k] = int64(binary.LittleEndian.Uint64(t0[8*k:]))
 	}
 	c.arm = getCol(c.arm, take(n*ws[1]), n, ws[1])
 	c.conv = append(c.conv, take(n*sh.cb)...)
@@ -236,12 +251,13 @@ func decodeBlock(c *unitCols, b []byte, n int, sh colShape, hash func([]byte) ui
 	if hash == nil {
 		return nil
 	}
+	lo := len(c.keys)
+	c.keys = append(c.keys, p...)
 	for _, l := range s.lens {
-		lo := len(c.keys)
-		c.keys = append(c.keys, p[:l]...)
-		p = p[l:]
-		c.keyEnd = append(c.keyEnd, uint32(len(c.keys)))
-		c.hash = append(c.hash, hash(c.keys[lo:]))
+		hi := lo + int(l)
+		c.keyEnd = append(c.keyEnd, uint32(hi))
+		c.hash = append(c.hash, hash(c.keys[lo:hi]))
+		lo = hi
 	}
 	return nil
 }

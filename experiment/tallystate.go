@@ -250,6 +250,72 @@ func (t *Tallier) ReadState(b []byte) error {
 	return nil
 }
 
+// ExpectGrowth tells a resumed Tallier, before its first Add, that the
+// rows still to come are about share times those its saved state
+// summarises (the new files' bytes over the saved ones', say). Each
+// partition's unit index is then sized once for the units those rows can
+// hold, at most one per exposure or metric-event row at the saved rate,
+// instead of doubling step by step as they arrive; nothing is reserved
+// once the saved rows reach the window's end. The tally does not depend
+// on it.
+func (t *Tallier) ExpectGrowth(share float64) {
+	if t.saved == nil || !(share > 0) || t.hasEnd && t.hasFresh && t.fresh >= t.end {
+		// Once the saved rows reach the window's end, new rows make no
+		// units but late ones: the index grows for those as they come.
+		return
+	}
+	rows := share * float64(t.diag.ExposureRows+t.diag.MetricEvents)
+	// A bound on what a wrong share (a tiny saved state) may reserve.
+	rows = min(rows, 2*float64(t.saved.units)+1<<20)
+	per := int(rows)/len(t.parts) + 1
+	// Keys longer than maxKeyGuess (or a damaged block's sizes) leave the
+	// arena to grow as before.
+	const maxKeyGuess = 256
+	keyBytes := per * min(t.saved.keyLen(newColShape(len(t.spec.Metrics), len(t.spec.Segments))), maxKeyGuess)
+	for _, pt := range t.parts {
+		if pt.units.len() > 0 {
+			continue
+		}
+		size := unitIndexMinSlots
+		for 3*size < 4*per {
+			size *= 2
+		}
+		if size > len(pt.units.slots) {
+			pt.units.resize(size)
+			// Written once in order here, the fresh table's pages are
+			// faulted in once each, rather than first read by a lookup
+			// (mapping the zero page) and then faulted again by its write.
+			clear(pt.units.slots)
+		}
+		// The arena doubles as keys arrive, copying them and leaving the
+		// smaller arenas as garbage: made once, it holds the estimate.
+		if keyBytes > cap(pt.units.arena) {
+			pt.units.arena = make([]byte, 0, keyBytes)
+		}
+	}
+}
+
+// keyLen returns the mean key length, rounded up, of the units of the
+// first few saved blocks (from their sizes and column widths, without
+// decoding them), or 0 when they hold none.
+func (sv *savedState) keyLen(sh colShape) int {
+	var units, keys int
+	for _, b := range sv.blocks[:min(len(sv.blocks), 8)] {
+		if b.n == 0 || len(b.data) < blockWidths {
+			continue
+		}
+		ws := b.data[:blockWidths]
+		fixed := blockWidths + b.n*(int(ws[0])+8+int(ws[1])+sh.cb+int(ws[2])+int(ws[3])) + b.n*sh.nm*int(ws[4]) + b.n*sh.dims*int(ws[5])
+		if fixed <= len(b.data) {
+			units, keys = units+b.n, keys+len(b.data)-fixed
+		}
+	}
+	if units == 0 {
+		return 0
+	}
+	return (keys + units - 1) / units
+}
+
 func (t *Tallier) readState(b []byte) (*savedState, error) {
 	prefix := 0
 	for _, want := range []uint64{uint64(len(stateMagic)), stateVersion} {

@@ -383,3 +383,53 @@ func TestResumedTallySegmentLimit(t *testing.T) {
 		t.Fatalf("past the limit: error %v, want a *StaleStateError", err)
 	}
 }
+
+// ExpectGrowth sizes a resumed tally's unit indexes once, large enough for
+// a day like the saved ones, and changes nothing else: the tally, the unit
+// records and the new state are those of a run without it (common
+// practice: a capacity hint must not change a result).
+func TestResumedTallyExpectGrowth(t *testing.T) {
+	spec := stateSpec(MultiArmExclude)
+	days := manyUnitDays(3)
+	_, _, state, err := resume(t, spec, nil, slices.Concat(days[0], days[1]), 2)
+	if err != nil {
+		t.Fatal(err)
+	}
+	want, wantUnits, wantState, err := resume(t, spec, state, days[2], 2)
+	if err != nil {
+		t.Fatal(err)
+	}
+	tl, _ := newTallier(spec, 2)
+	if err := tl.ReadState(state); err != nil {
+		t.Fatal(err)
+	}
+	tl.ExpectGrowth(0.5) // one day on top of two
+	sized, arena := len(tl.parts[0].units.slots), cap(tl.parts[0].units.arena)
+	if sized <= unitIndexMinSlots || arena == 0 {
+		t.Fatalf("ExpectGrowth left %d slots and %d bytes of arena", sized, arena)
+	}
+	rec := batch(t, days[2], spec.Segments...)
+	err = tl.Add(rec)
+	rec.Release()
+	if err != nil {
+		t.Fatal(err)
+	}
+	if n, a := len(tl.parts[0].units.slots), cap(tl.parts[0].units.arena); n != sized || a != arena {
+		t.Errorf("the unit index grew from %d to %d slots and %d to %d bytes of arena after ExpectGrowth", sized, n, arena, a)
+	}
+	got, err := tl.Tally()
+	if err != nil {
+		t.Fatal(err)
+	}
+	seq, err := tl.Units()
+	if err != nil {
+		t.Fatal(err)
+	}
+	var buf bytes.Buffer
+	if err := tl.WriteState(&buf); err != nil {
+		t.Fatal(err)
+	}
+	if !reflect.DeepEqual(got, want) || !reflect.DeepEqual(slices.Collect(seq), wantUnits) || !bytes.Equal(buf.Bytes(), wantState) {
+		t.Error("ExpectGrowth changed the tally, the unit records or the state")
+	}
+}

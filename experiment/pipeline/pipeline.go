@@ -343,6 +343,7 @@ func runTalliers(ctx context.Context, in Input, exps []Experiment, opts Options,
 			if err := tls[i].ReadState(sf.sections[i]); err != nil {
 				return nil, nil, err
 			}
+			tls[i].ExpectGrowth(sf.growth)
 		}
 	}
 	var (

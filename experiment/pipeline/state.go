@@ -187,10 +187,17 @@ func planResume(path, def string, files []fileEntry, srcs []ingest.Source, mappe
 		seen[fe.path] = true
 	}
 	var fresh []ingest.Source
+	var newBytes, savedBytes int64
 	for i, s := range srcs {
 		if !seen[files[i].path] {
 			fresh = append(fresh, s)
+			newBytes += files[i].size
+		} else {
+			savedBytes += files[i].size
 		}
+	}
+	if savedBytes > 0 {
+		sf.growth = float64(newBytes) / float64(savedBytes)
 	}
 	return sf, fresh, ""
 }
@@ -202,6 +209,9 @@ type stateFile struct {
 	files    []fileEntry
 	stats    ingest.Stats
 	sections [][]byte // each experiment's saved tally
+	// growth is the new files' bytes over the saved ones' (0: unknown),
+	// from which the talliers size their unit indexes.
+	growth float64
 }
 
 // openStateFile maps the state file (reads it into memory when not
