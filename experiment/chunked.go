@@ -58,15 +58,14 @@ func (c *chunked[T]) add(v T) {
 // next returns a fresh full chunk. Full chunks are cut from slabs of
 // several chunks, as many as the slice has (doubling what it holds, like
 // append) up to about slabBytes, so that a large slice's memory comes in
-// pieces of several huge pages, advised as such (adviseHuge): one chunk
-// of a few hundred KiB would hold no whole 2 MiB page.
+// pieces of several huge pages (makeHuge): one chunk of a few hundred
+// KiB would hold no whole 2 MiB page.
 func (c *chunked[T]) next() []T {
 	const size = 1 << chunkBits
 	if len(c.spare) < size {
 		var zero T
 		perSlab := max(1, slabBytes/(size*int(unsafe.Sizeof(zero))))
-		c.spare = make([]T, min(len(c.chunks), perSlab)*size)
-		adviseHuge(c.spare)
+		c.spare = makeHuge[T](min(len(c.chunks), perSlab) * size)
 	}
 	chunk := c.spare[:size:size]
 	c.spare = c.spare[size:]

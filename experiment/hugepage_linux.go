@@ -40,3 +40,26 @@ func adviseHuge[T any](s []T) {
 	b := unsafe.Slice((*byte)(unsafe.Add(unsafe.Pointer(unsafe.SliceData(s[:1])), lo-p)), hi-lo)
 	_ = unix.Madvise(b, unix.MADV_HUGEPAGE)
 }
+
+// makeHuge returns a zeroed slice of n elements whose every page lies in
+// whole 2 MiB pages advised for huge pages: when it holds hugeMin or
+// more, it is cut from an allocation about 4 MiB longer, starting at the
+// first huge-page boundary (or just past it, for elements whose size does
+// not divide the offset), and the whole allocation is advised. The slack
+// is never touched, so it costs address space, not memory, unless the
+// allocator must zero reused memory. Its capacity is n.
+func makeHuge[T any](n int) []T {
+	var zero T
+	size := int(unsafe.Sizeof(zero))
+	if size == 0 || n*size < hugeMin {
+		return make([]T, n)
+	}
+	// Up to 2 MiB + size before the first boundary, up to 2 MiB after
+	// the last element to the next: 4 MiB and two elements cover both.
+	extra := 2*hugePage/size + 2
+	all := make([]T, n+extra)
+	adviseHuge(all)
+	p := uintptr(unsafe.Pointer(unsafe.SliceData(all)))
+	skip := int(((p+hugePage-1)&^(hugePage-1) - p + uintptr(size) - 1) / uintptr(size))
+	return all[skip : skip+n : skip+n]
+}

@@ -87,11 +87,47 @@ func hugeRanges(t *testing.T, lo, hi uintptr) [][2]uintptr {
 				t.Fatalf("smaps line %q: %v", sc.Text(), err)
 			}
 		case f[0] == "VmFlags:" && end > lo && start < hi && slices.Contains(f[1:], "hg"):
-			out = append(out, [2]uintptr{max(start, lo) - lo, min(end, hi) - lo})
+			r := [2]uintptr{max(start, lo) - lo, min(end, hi) - lo}
+			if k := len(out) - 1; k >= 0 && out[k][1] == r[0] {
+				out[k][1] = r[1] // next to the last: one range
+				continue
+			}
+			out = append(out, r)
 		}
 	}
 	if err := sc.Err(); err != nil {
 		t.Fatal(err)
 	}
 	return out
+}
+
+// TestMakeHugeCovered checks that every byte of a slice from makeHuge
+// lies in memory marked for huge pages ("hg" in /proc/self/smaps,
+// proc(5)), for element sizes that divide 2 MiB and one that does not
+// (24 bytes), and that the slice is n long, n in capacity and zeroed.
+// (Slices under hugeMin are a plain make, in heap memory that an earlier
+// advice may cover, so they are not checked here.)
+func TestMakeHugeCovered(t *testing.T) {
+	_, statErr := os.Stat("/sys/kernel/mm/transparent_hugepage")
+	thp := statErr == nil
+	check := func(t *testing.T, p unsafe.Pointer, bytes uintptr, n, length, capacity int, zeroed bool) {
+		t.Helper()
+		if length != n || capacity != n || !zeroed {
+			t.Fatalf("len %d cap %d zeroed %v; want %d, %d, true", length, capacity, zeroed, n, n)
+		}
+		lo := uintptr(p)
+		got := hugeRanges(t, lo, lo+bytes)
+		covered := len(got) == 1 && got[0] == [2]uintptr{0, bytes}
+		if covered != thp {
+			t.Errorf("%d bytes: advised %x (offsets into the slice); want all advised: %v", bytes, got, thp)
+		}
+	}
+	for _, n := range []int{hugeMin + 24, 3*hugeMin + 12345} { // bytes, at least hugeMin after rounding down
+		b := makeHuge[byte](n)
+		check(t, unsafe.Pointer(&b[0]), uintptr(n), n, len(b), cap(b), !slices.ContainsFunc(b, func(v byte) bool { return v != 0 }))
+		u := makeHuge[uint64](n / 8)
+		check(t, unsafe.Pointer(&u[0]), uintptr(n/8*8), n/8, len(u), cap(u), !slices.ContainsFunc(u, func(v uint64) bool { return v != 0 }))
+		w := makeHuge[[3]uint64](n / 24)
+		check(t, unsafe.Pointer(&w[0]), uintptr(n/24*24), n/24, len(w), cap(w), !slices.ContainsFunc(w, func(v [3]uint64) bool { return v != [3]uint64{} }))
+	}
 }
