@@ -13,7 +13,7 @@ const firstChunk = 64
 
 // slabBytes is about the most memory one allocation of full chunks
 // takes (see chunked.next).
-const slabBytes = 8 << 20
+const slabBytes = 16 << 20
 
 // chunked is a growable slice kept in fixed-size chunks. Growing it past
 // its first chunk never copies what it holds, unlike append on one slice,
@@ -58,14 +58,17 @@ func (c *chunked[T]) add(v T) {
 // next returns a fresh full chunk. Full chunks are cut from slabs of
 // several chunks, as many as the slice has (doubling what it holds, like
 // append) up to about slabBytes, so that a large slice's memory comes in
-// pieces of several huge pages (makeHuge): one chunk of a few hundred
-// KiB would hold no whole 2 MiB page.
+// pieces of several huge pages, advised as such (adviseHuge): one chunk
+// of a few hundred KiB would hold no whole 2 MiB page. (Slabs are not cut
+// from makeHuge's aligned memory: its slack, about 4 MiB a slab, counts
+// in the live heap and raised peak memory by 7% at 10M units.)
 func (c *chunked[T]) next() []T {
 	const size = 1 << chunkBits
 	if len(c.spare) < size {
 		var zero T
 		perSlab := max(1, slabBytes/(size*int(unsafe.Sizeof(zero))))
-		c.spare = makeHuge[T](min(len(c.chunks), perSlab) * size)
+		c.spare = make([]T, min(len(c.chunks), perSlab)*size)
+		adviseHuge(c.spare)
 	}
 	chunk := c.spare[:size:size]
 	c.spare = c.spare[size:]
