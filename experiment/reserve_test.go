@@ -49,19 +49,23 @@ func TestTallierReservesAsUnitsArrive(t *testing.T) {
 }
 
 // TestChunkedGrowsAcrossChunks checks the chunked slice across its first
-// chunk's doublings and past a full chunk: element i reads back as i.
+// chunk's doublings, past a full chunk and past the slabs' cap (full
+// chunks cut from shared allocations must not overlap): element i reads
+// back as i after all are written.
 func TestChunkedGrowsAcrossChunks(t *testing.T) {
-	var c chunked[int32]
-	const n = 3<<chunkBits + 5
-	for i := range n {
-		c.add(int32(i))
-	}
-	if c.len() != n {
-		t.Fatalf("len %d, want %d", c.len(), n)
-	}
-	for i := range n {
-		if got := *c.at(i); got != int32(i) {
-			t.Fatalf("at(%d) = %d", i, got)
+	perSlab := slabBytes / (4 << chunkBits) // int32 chunks in a full slab
+	for _, n := range []int{5, 3<<chunkBits + 5, (2*perSlab+3)<<chunkBits + 7} {
+		var c chunked[int32]
+		for i := range n {
+			c.add(int32(i))
+		}
+		if c.len() != n {
+			t.Fatalf("len %d, want %d", c.len(), n)
+		}
+		for i := range n {
+			if got := *c.at(i); got != int32(i) {
+				t.Fatalf("n=%d: at(%d) = %d", n, i, got)
+			}
 		}
 	}
 }

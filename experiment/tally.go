@@ -561,7 +561,7 @@ func (t *Tallier) finish() *finished {
 	d := &f.diag
 	d.OutsideAttribution = append([]int64(nil), t.diag.OutsideAttribution...)
 	for _, pt := range t.parts {
-		converted := make([]bool, pt.state.len()*nm)
+		converted := makeHuge[bool](pt.state.len() * nm)
 		f.converted = append(f.converted, converted)
 		for j := range pt.events.len() {
 			e := pt.events.at(j)

@@ -3,7 +3,6 @@ package experiment
 import (
 	"bytes"
 	"hash/maphash"
-	"slices"
 )
 
 // unitIndex numbers unit keys densely (0, 1, ...) in order of first
@@ -83,8 +82,10 @@ func (x *unitIndex) lookupHashed(key string, hash uint64) (int32, bool) {
 	if len(x.arena)+len(key) > cap(x.arena) {
 		// Double the arena: append grows a large slice by about a
 		// quarter, which copied the keys about four times over and left
-		// that much garbage for the collector's headroom.
-		x.arena = slices.Grow(x.arena, max(len(key), cap(x.arena)))
+		// that much garbage for the collector's headroom. The new arena
+		// lies in huge pages advised before the copy first touches it.
+		grown := makeHuge[byte](cap(x.arena) + max(len(key), cap(x.arena)))
+		x.arena = grown[:copy(grown, x.arena)]
 	}
 	x.arena = append(x.arena, key...)
 	x.ends.add(uint64(len(x.arena)))
@@ -131,7 +132,7 @@ func (x *unitIndex) grow() { x.resize(2 * len(x.slots)) }
 // its key.
 func (x *unitIndex) resize(size int) {
 	old := x.slots
-	x.slots = make([]uint64, size)
+	x.slots = makeHuge[uint64](size)
 	x.mask = uint32(size - 1)
 	for _, s := range old {
 		if s != 0 {
