@@ -288,9 +288,10 @@ func (t *Tallier) ExpectGrowth(share float64) {
 			clear(pt.units.slots)
 		}
 		// The arena doubles as keys arrive, copying them and leaving the
-		// smaller arenas as garbage: made once, it holds the estimate.
+		// smaller arenas as garbage: made once (in advised huge pages,
+		// like the arenas lookupHashed grows), it holds the estimate.
 		if keyBytes > cap(pt.units.arena) {
-			pt.units.arena = make([]byte, 0, keyBytes)
+			pt.units.arena = makeHuge[byte](keyBytes)[:0]
 		}
 	}
 }
