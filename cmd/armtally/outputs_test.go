@@ -163,7 +163,7 @@ func TestOutsideInputFolders(t *testing.T) {
 		{filepath.Join(dir, "_tmp", "state.parquet"), false},
 		{filepath.Join(dir, ".hidden", "x.csv"), false},
 		{filepath.Join(outside, "state.parquet"), false},
-		{filepath.Join(dir+"-sibling.parquet"), false},
+		{filepath.Join(dir + "-sibling.parquet"), false},
 	} {
 		err := checkOutsideInputFolders([]report.OutputPath{{From: "--state", Path: tc.path}}, []string{dir})
 		if (err != nil) != tc.refused {
