@@ -762,6 +762,8 @@ func analyze(ctx context.Context, run *analyzeRun) (*pipeline.Result, error) {
 		// The collector's soft limit, so that it works harder as the
 		// heap nears the limit rather than letting garbage pile up.
 		debug.SetMemoryLimit(run.memoryLimit)
+	} else {
+		prepareHugeHeap(hugeHeapSize(inputBytes(run), physicalMemory()), os.Getenv("GODEBUG"))
 	}
 	res, err := pipeline.Run(ctx, in, exps, opts)
 	if sig := interrupted(ctx); err != nil && sig != nil {
@@ -786,6 +788,24 @@ func analyze(ctx context.Context, run *analyzeRun) (*pipeline.Result, error) {
 		fmt.Fprintf(run.stderr, "armtally: --state: read every file again: %s\n", st.Reason)
 	}
 	return res, nil
+}
+
+// inputBytes returns the size of the run's input files and of the state
+// it resumes, as far as they can be read now (the run itself reports
+// what it cannot read).
+func inputBytes(run *analyzeRun) int64 {
+	var n int64
+	for _, s := range run.sources {
+		if size, _, err := s.Stat(); err == nil {
+			n += size
+		}
+	}
+	if run.state != "" {
+		if fi, err := os.Stat(run.state); err == nil && fi.Mode().IsRegular() {
+			n += fi.Size()
+		}
+	}
+	return n
 }
 
 // writeAudits adds each experiment's per-unit audit table to set, at
