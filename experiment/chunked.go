@@ -1,6 +1,10 @@
 package experiment
 
-import "unsafe"
+import (
+	"unsafe"
+
+	"github.com/armtally/armtally/experiment/hugepage"
+)
 
 // chunkBits sets the size of a chunked slice's chunks: 1<<16 elements.
 const chunkBits = 16
@@ -58,9 +62,9 @@ func (c *chunked[T]) add(v T) {
 // next returns a fresh full chunk. Full chunks are cut from slabs of
 // several chunks, as many as the slice has (doubling what it holds, like
 // append) up to about slabBytes, so that a large slice's memory comes in
-// pieces of several huge pages, advised as such (adviseHuge): one chunk
+// pieces of several huge pages, advised as such (hugepage.Advise): one chunk
 // of a few hundred KiB would hold no whole 2 MiB page. (Slabs are not cut
-// from makeHuge's aligned memory: its slack, about 4 MiB a slab, counts
+// from hugepage.Make's aligned memory: its slack, about 4 MiB a slab, counts
 // in the live heap and raised peak memory by 7% at 10M units.)
 func (c *chunked[T]) next() []T {
 	const size = 1 << chunkBits
@@ -68,7 +72,7 @@ func (c *chunked[T]) next() []T {
 		var zero T
 		perSlab := max(1, slabBytes/(size*int(unsafe.Sizeof(zero))))
 		c.spare = make([]T, min(len(c.chunks), perSlab)*size)
-		adviseHuge(c.spare)
+		hugepage.Advise(c.spare)
 	}
 	chunk := c.spare[:size:size]
 	c.spare = c.spare[size:]

@@ -13,6 +13,7 @@ import (
 
 	"github.com/apache/arrow-go/v18/arrow"
 	"github.com/apache/arrow-go/v18/arrow/array"
+	"github.com/armtally/armtally/experiment/hugepage"
 	"github.com/zeebo/xxh3"
 )
 
@@ -561,7 +562,7 @@ func (t *Tallier) finish() *finished {
 	d := &f.diag
 	d.OutsideAttribution = append([]int64(nil), t.diag.OutsideAttribution...)
 	for _, pt := range t.parts {
-		converted := makeHuge[bool](pt.state.len() * nm)
+		converted := hugepage.Make[bool](pt.state.len() * nm)
 		f.converted = append(f.converted, converted)
 		for j := range pt.events.len() {
 			e := pt.events.at(j)

@@ -12,6 +12,8 @@ import (
 	"math"
 	"slices"
 	"strings"
+
+	"github.com/armtally/armtally/experiment/hugepage"
 )
 
 // A Tallier's state can be saved after a run (WriteState) and resumed by a
@@ -291,7 +293,7 @@ func (t *Tallier) ExpectGrowth(share float64) {
 		// smaller arenas as garbage: made once (in advised huge pages,
 		// like the arenas lookupHashed grows), it holds the estimate.
 		if keyBytes > cap(pt.units.arena) {
-			pt.units.arena = makeHuge[byte](keyBytes)[:0]
+			pt.units.arena = hugepage.Make[byte](keyBytes)[:0]
 		}
 	}
 }

@@ -3,6 +3,8 @@ package experiment
 import (
 	"bytes"
 	"hash/maphash"
+
+	"github.com/armtally/armtally/experiment/hugepage"
 )
 
 // unitIndex numbers unit keys densely (0, 1, ...) in order of first
@@ -84,7 +86,7 @@ func (x *unitIndex) lookupHashed(key string, hash uint64) (int32, bool) {
 		// quarter, which copied the keys about four times over and left
 		// that much garbage for the collector's headroom. The new arena
 		// lies in huge pages advised before the copy first touches it.
-		grown := makeHuge[byte](cap(x.arena) + max(len(key), cap(x.arena)))
+		grown := hugepage.Make[byte](cap(x.arena) + max(len(key), cap(x.arena)))
 		x.arena = grown[:copy(grown, x.arena)]
 	}
 	x.arena = append(x.arena, key...)
@@ -132,7 +134,7 @@ func (x *unitIndex) grow() { x.resize(2 * len(x.slots)) }
 // its key.
 func (x *unitIndex) resize(size int) {
 	old := x.slots
-	x.slots = makeHuge[uint64](size)
+	x.slots = hugepage.Make[uint64](size)
 	x.mask = uint32(size - 1)
 	for _, s := range old {
 		if s != 0 {

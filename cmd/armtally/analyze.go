@@ -14,6 +14,7 @@ import (
 	"github.com/spf13/pflag"
 
 	"github.com/armtally/armtally/experiment"
+	"github.com/armtally/armtally/experiment/hugepage"
 	"github.com/armtally/armtally/experiment/pipeline"
 	"github.com/armtally/armtally/experiment/specfile"
 	"github.com/armtally/armtally/experiment/warehouse"
@@ -767,7 +768,7 @@ func analyze(ctx context.Context, run *analyzeRun) (*pipeline.Result, error) {
 		// only the pipeline knows: a heap sized from all the files would
 		// be many times what the night uses (and on the benchmark's
 		// 35-day night the advice made no difference either way).
-		prepareHugeHeap(hugeHeapSize(inputBytes(run), physicalMemory()), os.Getenv("GODEBUG"))
+		hugepage.PrepareHeap(hugeHeapSize(inputBytes(run), hugepage.PhysicalMemory()), os.Getenv("GODEBUG"))
 	}
 	res, err := pipeline.Run(ctx, in, exps, opts)
 	if sig := interrupted(ctx); err != nil && sig != nil {

@@ -1,7 +1,7 @@
 package main
 
 // Sizes of the heap advised for huge pages before a run (see
-// prepareHugeHeap): three times the input's bytes (a 10M-unit snappy
+// hugepage.PrepareHeap): three times the input's bytes (a 10M-unit snappy
 // Parquet log of 710 MB peaks at about 950 MB resident), at most 2 GiB
 // and an eighth of the machine's memory, and nothing for inputs under
 // 16 MiB, where the run is short and the advice not worth the collection

@@ -1,10 +1,11 @@
-package experiment
+package hugepage
 
 import (
 	"bufio"
 	"bytes"
 	"fmt"
 	"os"
+	"os/exec"
 	"slices"
 	"strings"
 	"testing"
@@ -13,7 +14,7 @@ import (
 	"golang.org/x/sys/unix"
 )
 
-// TestAdviseHugeAlignedInside checks that adviseHuge marks exactly the
+// TestAdviseAlignedInside checks that Advise marks exactly the
 // whole 2 MiB-aligned pages inside the slice for huge pages and nothing
 // around them: the kernel's /proc/self/smaps lists each mapping with its
 // flags, "hg" for MADV_HUGEPAGE (proc(5)). The slice is cut from a
@@ -21,7 +22,7 @@ import (
 // it. Where the kernel has no transparent huge pages
 // (/sys/kernel/mm/transparent_hugepage absent) the advice fails and
 // nothing may be marked.
-func TestAdviseHugeAlignedInside(t *testing.T) {
+func TestAdviseAlignedInside(t *testing.T) {
 	const size = 16 << 20
 	m, err := unix.Mmap(-1, 0, size, unix.PROT_READ|unix.PROT_WRITE, unix.MAP_PRIVATE|unix.MAP_ANON)
 	if err != nil {
@@ -54,7 +55,7 @@ func TestAdviseHugeAlignedInside(t *testing.T) {
 				t.Fatal(err)
 			}
 			s := unsafe.Slice((*uint64)(unsafe.Pointer(&m[c.lo])), (c.hi-c.lo)/8)
-			adviseHuge(s)
+			Advise(s)
 			got := hugeRanges(t, base, base+size)
 			want := c.want
 			if !thp {
@@ -101,13 +102,13 @@ func hugeRanges(t *testing.T, lo, hi uintptr) [][2]uintptr {
 	return out
 }
 
-// TestMakeHugeCovered checks that every byte of a slice from makeHuge
+// TestMakeCovered checks that every byte of a slice from Make
 // lies in memory marked for huge pages ("hg" in /proc/self/smaps,
 // proc(5)), for element sizes that divide 2 MiB and one that does not
 // (24 bytes), and that the slice is n long, n in capacity and zeroed.
 // (Slices under hugeMin are a plain make, in heap memory that an earlier
 // advice may cover, so they are not checked here.)
-func TestMakeHugeCovered(t *testing.T) {
+func TestMakeCovered(t *testing.T) {
 	_, statErr := os.Stat("/sys/kernel/mm/transparent_hugepage")
 	thp := statErr == nil
 	check := func(t *testing.T, p unsafe.Pointer, bytes uintptr, n, length, capacity int, zeroed bool) {
@@ -123,11 +124,47 @@ func TestMakeHugeCovered(t *testing.T) {
 		}
 	}
 	for _, n := range []int{hugeMin + 24, 3*hugeMin + 12345} { // bytes, at least hugeMin after rounding down
-		b := makeHuge[byte](n)
+		b := Make[byte](n)
 		check(t, unsafe.Pointer(&b[0]), uintptr(n), n, len(b), cap(b), !slices.ContainsFunc(b, func(v byte) bool { return v != 0 }))
-		u := makeHuge[uint64](n / 8)
+		u := Make[uint64](n / 8)
 		check(t, unsafe.Pointer(&u[0]), uintptr(n/8*8), n/8, len(u), cap(u), !slices.ContainsFunc(u, func(v uint64) bool { return v != 0 }))
-		w := makeHuge[[3]uint64](n / 24)
+		w := Make[[3]uint64](n / 24)
 		check(t, unsafe.Pointer(&w[0]), uintptr(n/24*24), n/24, len(w), cap(w), !slices.ContainsFunc(w, func(v [3]uint64) bool { return v != [3]uint64{} }))
+	}
+}
+
+// TestPrepareHeapAdvises checks the point of PrepareHeap: a large
+// allocation made after it lies in memory advised for huge pages ("hg" in
+// /proc/self/smaps); and that GODEBUG=disablethp=1 leaves the heap alone
+// (the same check then fails). Each case runs in a fresh process (this
+// test binary again), whose heap holds nothing of the other tests'. Where
+// the kernel has no transparent huge pages nothing may be marked.
+func TestPrepareHeapAdvises(t *testing.T) {
+	_, statErr := os.Stat("/sys/kernel/mm/transparent_hugepage")
+	thp := statErr == nil
+	if godebug, ok := os.LookupEnv("ARMTALLY_TEST_HUGEHEAP"); ok {
+		const n = 64 << 20
+		PrepareHeap(256<<20, godebug)
+		b := make([]byte, n)
+		lo := uintptr(unsafe.Pointer(unsafe.SliceData(b)))
+		want := [2]uintptr{0, n - 2*hugePage}
+		if got := hugeRanges(t, lo+hugePage, lo+n-hugePage); len(got) != 1 || got[0] != want {
+			t.Errorf("a %d-byte slice made after PrepareHeap: advised %x (offsets), want %x", n, got, want)
+		}
+		return
+	}
+	for _, c := range []struct {
+		godebug string
+		advised bool
+	}{{"", thp}, {"disablethp=1", false}} {
+		cmd := exec.Command(os.Args[0], "-test.run=^TestPrepareHeapAdvises$", "-test.count=1")
+		cmd.Env = append(os.Environ(), "ARMTALLY_TEST_HUGEHEAP="+c.godebug)
+		out, err := cmd.CombinedOutput()
+		if got := err == nil; got != c.advised {
+			t.Errorf("GODEBUG %q: slice advised %v, want %v; the child said:\n%s", c.godebug, got, c.advised, out)
+		}
+	}
+	if disableTHP("") || !disableTHP("gctrace=1,disablethp=1") || disableTHP("disablethp=0") {
+		t.Error("disableTHP reads GODEBUG wrongly")
 	}
 }
