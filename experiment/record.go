@@ -233,6 +233,39 @@ func (a *Accumulator) addN(rec UnitRecord, n int64) error {
 	return nil
 }
 
+// merge adds the sums of b, an Accumulator of the same spec, to a: the
+// result is what a would hold had it been given b's records too. The
+// unit counters of the diagnostics are summed; arms b has that a has not
+// are added (Tally orders arms independently of the order they were met).
+func (a *Accumulator) merge(b *Accumulator) {
+	nm := len(a.spec.Metrics)
+	for _, rb := range b.arms {
+		r := a.arm(rb.name)
+		r.first = min(r.first, rb.first)
+		r.exposed += rb.exposed
+		r.units += rb.units
+		for m, c := range rb.metrics {
+			addCount(&r.metrics[m], c)
+		}
+		for d, cells := range rb.segments {
+			for v, cb := range cells {
+				c := r.segments[d][v]
+				if c == nil {
+					c = &SegmentCell{Value: v, Metrics: make([]Count, nm)}
+					r.segments[d][v] = c
+				}
+				c.Units += cb.Units
+				for m, n := range cb.Metrics {
+					addCount(&c.Metrics[m], n)
+				}
+			}
+		}
+	}
+	a.diag.UnitsExposed += b.diag.UnitsExposed
+	a.diag.MultiArmUnits += b.diag.MultiArmUnits
+	a.diag.TiedUnits += b.diag.TiedUnits
+}
+
 // addCell adds pre-aggregated counts: pop units of the arm's analysis
 // population with the given segment values, and their counts per metric.
 func (a *Accumulator) addCell(arm string, segs []SegmentValue, pop int64, counts []Count) {

@@ -544,3 +544,56 @@ func TestMergeTallies(t *testing.T) {
 		t.Errorf("merged parts of two experiments without a key: %v, want %q", err, want)
 	}
 }
+
+// TestAccumulatorMerge checks that records summed in two accumulators and
+// merged give the sums of one accumulator given them all, whichever way
+// they are split: the parallel sum of a tally's partitions relies on it.
+// The records mix arms, segments (null included), a tied and a multi-arm
+// unit and an immature one; the expected sums are the single
+// accumulator's (invented records, checked by construction).
+func TestAccumulatorMerge(t *testing.T) {
+	recs := []UnitRecord{
+		{Unit: "u1", Arm: "control", T0: 10, HasT0: true, Segments: svs("android", "de"), Converted: []bool{true}, Immature: []bool{false}},
+		{Unit: "u2", Arm: "treat", T0: 20, HasT0: true, Segments: svs("ios", nullSeg), Converted: []bool{false}, Immature: []bool{false}},
+		{Unit: "u3", Arm: "control", T0: 5, HasT0: true, Segments: svs("a", "x"), Status: StatusTied, MultiArm: true, Converted: []bool{false}, Immature: []bool{false}},
+		{Unit: "u4", Arm: "extra", T0: 1, HasT0: true, Segments: svs(nullSeg, nullSeg), MultiArm: true, Converted: []bool{true}, Immature: []bool{false}},
+		{Unit: "u5", Arm: "control", T0: 30, HasT0: true, Segments: svs("ios", "de"), Converted: []bool{true}, Immature: []bool{true}},
+		{Unit: "u6", Arm: "treat", T0: 40, HasT0: true, Segments: svs("ios", "fr"), Status: StatusMultiArm, MultiArm: true, Converted: []bool{false}, Immature: []bool{false}},
+	}
+	for _, policy := range []MaturityPolicy{MaturityExclude, MaturityInclude} {
+		spec := spec2()
+		spec.Arms = []string{"control", "treat"}
+		spec.Segments = []string{"platform", "country"}
+		spec.Maturity = policy
+		whole, err := NewAccumulator(spec)
+		if err != nil {
+			t.Fatal(err)
+		}
+		for _, r := range recs {
+			if err := whole.Add(r); err != nil {
+				t.Fatal(err)
+			}
+		}
+		want := whole.Tally()
+		if want.Diag.TiedUnits != 1 || want.Diag.MultiArmUnits != 3 || len(want.Arms) != 3 {
+			t.Fatalf("the records do not exercise the merge: %+v", want)
+		}
+		for split := range 1 << len(recs) {
+			a, _ := NewAccumulator(spec)
+			b, _ := NewAccumulator(spec)
+			for i, r := range recs {
+				dst := a
+				if split>>i&1 == 1 {
+					dst = b
+				}
+				if err := dst.Add(r); err != nil {
+					t.Fatal(err)
+				}
+			}
+			a.merge(b)
+			if got := a.Tally(); !reflect.DeepEqual(got, want) {
+				t.Fatalf("maturity %v, split %06b: merged\n%+v\nwant\n%+v", policy, split, got, want)
+			}
+		}
+	}
+}

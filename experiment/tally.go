@@ -2,6 +2,7 @@ package experiment
 
 import (
 	"bytes"
+	"errors"
 	"fmt"
 	"hash/maphash"
 	"iter"
@@ -558,39 +559,70 @@ func (t *Tallier) finish() *finished {
 		return t.fin
 	}
 	nm := len(t.spec.Metrics)
-	f := &finished{diag: t.diag}
+	f := &finished{diag: t.diag, converted: make([][]bool, len(t.parts))}
 	d := &f.diag
 	d.OutsideAttribution = append([]int64(nil), t.diag.OutsideAttribution...)
-	for _, pt := range t.parts {
-		converted := hugepage.Make[bool](pt.state.len() * nm)
-		f.converted = append(f.converted, converted)
-		for j := range pt.events.len() {
-			e := pt.events.at(j)
-			s := pt.state.at(int(e.unit))
-			switch {
-			case s.armAtT0 < 0:
-				d.UnitNeverExposed++
-				continue
-			case status(s, t.spec.MultiArm) != StatusAnalysed:
-				d.UnitExcluded++
-				continue
-			case e.ts < s.t0:
-				d.BeforeExposure++
-				continue
-			}
-			d.MetricEventsInUnit++
-			for _, m := range t.metricsOf[e.event] {
-				w := int64(t.spec.Metrics[m].Window)
-				if w > 0 && e.ts-s.t0 >= w {
-					d.OutsideAttribution[m]++
-					continue
-				}
-				converted[int(e.unit)*nm+m] = true
-			}
+	// Each partition attributes its own units' events on its own
+	// goroutine, counting into its own diagnostics, summed after.
+	diags := make([]attribution, len(t.parts))
+	var wg sync.WaitGroup
+	for p := range t.parts {
+		diags[p].outside = make([]int64, nm)
+		wg.Go(func() { f.converted[p] = t.attribute(p, &diags[p]) })
+	}
+	wg.Wait()
+	for _, a := range diags {
+		d.UnitNeverExposed += a.neverExposed
+		d.UnitExcluded += a.excluded
+		d.BeforeExposure += a.beforeExposure
+		d.MetricEventsInUnit += a.inUnit
+		for m, n := range a.outside {
+			d.OutsideAttribution[m] += n
 		}
 	}
 	t.fin = f
 	return f
+}
+
+// attribution counts what attributing one partition's metric events
+// dropped, and where (see TallyDiagnostics).
+type attribution struct {
+	neverExposed, excluded, beforeExposure, inUnit int64
+	outside                                        []int64 // per metric
+}
+
+// attribute attributes partition p's metric events to its units and
+// returns its conversion flags, converted[u*nm+m] for unit u and metric
+// m, counting the events it drops in a.
+func (t *Tallier) attribute(p int, a *attribution) []bool {
+	nm := len(t.spec.Metrics)
+	pt := t.parts[p]
+	converted := hugepage.Make[bool](pt.state.len() * nm)
+	for j := range pt.events.len() {
+		e := pt.events.at(j)
+		s := pt.state.at(int(e.unit))
+		switch {
+		case s.armAtT0 < 0:
+			a.neverExposed++
+			continue
+		case status(s, t.spec.MultiArm) != StatusAnalysed:
+			a.excluded++
+			continue
+		case e.ts < s.t0:
+			a.beforeExposure++
+			continue
+		}
+		a.inUnit++
+		for _, m := range t.metricsOf[e.event] {
+			w := int64(t.spec.Metrics[m].Window)
+			if w > 0 && e.ts-s.t0 >= w {
+				a.outside[m]++
+				continue
+			}
+			converted[int(e.unit)*nm+m] = true
+		}
+	}
+	return converted
 }
 
 // record fills rec for exposed unit u of partition p (its key only when
@@ -663,6 +695,43 @@ func (t *Tallier) Units() (iter.Seq[UnitRecord], error) {
 	}, nil
 }
 
+// sumUnits adds every exposed unit's record to acc: each partition's
+// units into an accumulator of its own, on its own goroutine, merged into
+// acc in partition order. The sums do not depend on the order.
+func (t *Tallier) sumUnits(f *finished, acc *Accumulator) error {
+	accs := make([]*Accumulator, len(t.parts))
+	errs := make([]error, len(t.parts))
+	var wg sync.WaitGroup
+	for p, pt := range t.parts {
+		a, err := NewAccumulator(t.spec)
+		if err != nil {
+			return err
+		}
+		accs[p] = a
+		wg.Go(func() {
+			var rec UnitRecord
+			for u := range pt.state.len() {
+				if pt.state.at(u).armAtT0 < 0 {
+					continue
+				}
+				t.record(f, p, int32(u), false, &rec)
+				if err := a.Add(rec); err != nil {
+					errs[p] = err
+					return
+				}
+			}
+		})
+	}
+	wg.Wait()
+	if err := errors.Join(errs...); err != nil {
+		return err
+	}
+	for _, a := range accs {
+		acc.merge(a)
+	}
+	return nil
+}
+
 // Tally finishes the pass: it decides each unit's arm, applies the
 // multi-arm policy, attributes metric events, applies maturity and returns
 // the counts, overall and per segment value. Arms are ordered as listed in
@@ -688,19 +757,9 @@ func (t *Tallier) Tally() (Tally, error) {
 			return Tally{}, err
 		}
 	}
-	var rec UnitRecord
-	for p, pt := range t.parts {
-		if f.merged != nil {
-			break // a resumed tally's units are summed in its groups
-		}
-		for u := range pt.state.len() {
-			if pt.state.at(u).armAtT0 < 0 {
-				continue
-			}
-			t.record(f, p, int32(u), false, &rec)
-			if err := acc.Add(rec); err != nil {
-				return Tally{}, err
-			}
+	if f.merged == nil { // a resumed tally's units are summed in its groups
+		if err := t.sumUnits(f, acc); err != nil {
+			return Tally{}, err
 		}
 	}
 	out := acc.Tally()
