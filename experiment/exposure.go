@@ -10,13 +10,45 @@ import (
 	"github.com/apache/arrow-go/v18/arrow/array"
 )
 
-// unitState is the per-unit exposure state: fixed size.
+// unitState is the per-unit exposure state: 16 bytes, for it is most of
+// a large tally's memory (ten million units held 240 MB in 24 bytes).
 type unitState struct {
-	t0       int64
-	armAtT0  int32 // arm index of the earliest exposure; -1 when unexposed
-	firstArm int32 // arm index of the first exposure row met in reading order
-	tied     bool  // two arms at t0
-	multi    bool  // two or more distinct arms among in-window exposures
+	t0      int64
+	armAtT0 int32 // arm index of the earliest exposure; -1 when unexposed
+	// first holds, in its low bits (firstArmMask), the arm index of the
+	// first exposure row met in reading order plus one (0: none yet), and
+	// the flags stateTied (two arms at t0) and stateMulti (two or more
+	// distinct arms among in-window exposures).
+	first uint32
+}
+
+const (
+	firstArmMask = 1<<30 - 1
+	stateTied    = 1 << 30
+	stateMulti   = 1 << 31
+	// maxArms bounds the distinct arm names of a tally, so that an arm
+	// index fits firstArmMask and a saved state's arm field
+	// (unitFlagBits); Add fails past it.
+	maxArms = 1<<(32-unitFlagBits) - 1
+)
+
+// firstArm returns the arm index of the unit's first exposure row in
+// reading order, -1 when none.
+func (s *unitState) firstArm() int32 { return int32(s.first&firstArmMask) - 1 }
+
+// tied reports two arms at the unit's t0.
+func (s *unitState) tied() bool { return s.first&stateTied != 0 }
+
+// multi reports two or more distinct arms among the unit's in-window
+// exposures.
+func (s *unitState) multi() bool { return s.first&stateMulti != 0 }
+
+// setTied sets or clears the tie flag.
+func (s *unitState) setTied(v bool) {
+	s.first &^= stateTied
+	if v {
+		s.first |= stateTied
+	}
 }
 
 // segNull is the interned index of a null segment value.
@@ -94,7 +126,7 @@ func (x *exposures) unitHashed(key string, hash uint64) int32 {
 
 // addUnit adds the state of a new, unexposed unit.
 func (x *exposures) addUnit() {
-	x.state.add(unitState{armAtT0: -1, firstArm: -1})
+	x.state.add(unitState{armAtT0: -1})
 	for range x.dims {
 		x.segs = append(x.segs, segNull)
 	}
@@ -160,13 +192,14 @@ func (x *exposures) expose(u, a int32, at int64, segCols []*array.String, i int)
 	base := int(u) * x.dims
 	switch {
 	case s.armAtT0 < 0 || at < s.t0:
-		s.t0, s.armAtT0, s.tied = at, a, false
+		s.t0, s.armAtT0 = at, a
+		s.setTied(false)
 		for d, col := range segCols {
 			x.segs[base+d] = x.segValue(d, col, i)
 		}
 	case at == s.t0:
 		if a != s.armAtT0 {
-			s.tied = true
+			s.setTied(true)
 			if x.arms[a] < x.arms[s.armAtT0] {
 				s.armAtT0 = a
 			}
@@ -177,19 +210,19 @@ func (x *exposures) expose(u, a int32, at int64, segCols []*array.String, i int)
 			}
 		}
 	}
-	if s.firstArm < 0 {
-		s.firstArm = a
-	} else if s.firstArm != a {
-		s.multi = true
+	if f := s.firstArm(); f < 0 {
+		s.first |= uint32(a) + 1
+	} else if f != a {
+		s.first |= stateMulti
 	}
 }
 
 // status applies the multi-arm policy to a unit.
 func status(s *unitState, policy MultiArmPolicy) UnitStatus {
 	switch {
-	case s.multi && policy == MultiArmExclude:
+	case s.multi() && policy == MultiArmExclude:
 		return StatusMultiArm
-	case s.tied && policy == MultiArmFirst:
+	case s.tied() && policy == MultiArmFirst:
 		return StatusTied
 	}
 	return StatusAnalysed
@@ -223,7 +256,7 @@ func (x *exposures) fill(u int32, policy MultiArmPolicy, hasT0, withKey bool, re
 		}
 	}
 	rec.Status = status(s, policy)
-	rec.MultiArm = s.multi
+	rec.MultiArm = s.multi()
 }
 
 // sortedUnits returns the indices of the exposed units sorted by key.

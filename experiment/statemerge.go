@@ -571,11 +571,11 @@ func (mc *mergeCtx) exposeSaved(w *mergeWorker, k int, r newRef, ns *unitState) 
 	switch {
 	case ns.t0 < t0:
 		return &StaleStateError{Reason: "an exposure earlier than a unit's saved first exposure (a late row)"}
-	case ns.t0 == t0 && (uint32(ns.armAtT0) != arm || ns.tied):
+	case ns.t0 == t0 && (uint32(ns.armAtT0) != arm || ns.tied()):
 		return &StaleStateError{Reason: "an exposure in another arm at a unit's saved first exposure (a new tie)"}
 	}
 	was := flagStatus(flags, mc.t.spec.MultiArm)
-	if ns.multi || uint32(ns.firstArm) != arm {
+	if ns.multi() || uint32(ns.firstArm()) != arm {
 		flags |= unitMulti
 	}
 	out.arm[k] = arm<<unitFlagBits | flags
@@ -606,10 +606,10 @@ func (mc *mergeCtx) exposeUnexposed(w *mergeWorker, k int, r newRef, ns *unitSta
 	out := &w.out
 	sh := mc.sh
 	flags := uint32(unitExposed)
-	if ns.tied {
+	if ns.tied() {
 		flags |= unitTied
 	}
-	if ns.multi {
+	if ns.multi() {
 		flags |= unitMulti
 	}
 	if before := int64(out.before[k]); before > 0 {

@@ -391,6 +391,9 @@ func (t *Tallier) Add(rec arrow.RecordBatch) error {
 		t.rowHash[i] = maphash.String(t.seed, users.Value(i))
 		units++
 	}
+	if len(t.arms) > maxArms {
+		return fmt.Errorf("%s: more than %d distinct arm names", table, maxArms)
+	}
 	if units == 0 {
 		return nil
 	}

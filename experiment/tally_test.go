@@ -5,6 +5,7 @@ import (
 	"strings"
 	"testing"
 	"time"
+	"unsafe"
 )
 
 // counters projects the tally's diagnostics onto plain numbers so that a
@@ -383,5 +384,33 @@ func TestAmbiguousExperiment(t *testing.T) {
 	}
 	if _, err := tl.Tally(); err == nil || !strings.Contains(err.Error(), "2 experiment keys (a, b)") {
 		t.Errorf("error = %v, want one naming both keys", err)
+	}
+}
+
+// TestUnitStatePacking checks the 16-byte per-unit exposure state: its
+// size, and that the first arm (up to the largest index maxArms allows)
+// and the tie and multi-arm flags are kept apart in its packed word
+// (common practice: a round trip of every field against the others).
+func TestUnitStatePacking(t *testing.T) {
+	if n := unsafe.Sizeof(unitState{}); n != 16 {
+		t.Fatalf("unitState is %d bytes, want 16", n)
+	}
+	for _, arm := range []int32{-1, 0, 1, 7, maxArms - 1} {
+		for _, tied := range []bool{false, true} {
+			for _, multi := range []bool{false, true} {
+				s := unitState{armAtT0: -1}
+				if arm >= 0 {
+					s.first |= uint32(arm) + 1
+				}
+				s.setTied(true)
+				s.setTied(tied)
+				if multi {
+					s.first |= stateMulti
+				}
+				if s.firstArm() != arm || s.tied() != tied || s.multi() != multi {
+					t.Errorf("arm %d tied %v multi %v: read back arm %d tied %v multi %v", arm, tied, multi, s.firstArm(), s.tied(), s.multi())
+				}
+			}
+		}
 	}
 }

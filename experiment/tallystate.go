@@ -645,5 +645,12 @@ func (t *Tallier) fillMerged(rec *UnitRecord, m *mergeResult, c *unitCols, i int
 
 // flagStatus applies the multi-arm policy to a unit's flags.
 func flagStatus(flags uint32, policy MultiArmPolicy) UnitStatus {
-	return status(&unitState{tied: flags&unitTied != 0, multi: flags&unitMulti != 0}, policy)
+	var s unitState
+	if flags&unitTied != 0 {
+		s.first |= stateTied
+	}
+	if flags&unitMulti != 0 {
+		s.first |= stateMulti
+	}
+	return status(&s, policy)
 }

@@ -141,8 +141,12 @@ func (t *UnitTableTallier) Add(rec arrow.RecordBatch) error {
 				continue
 			}
 		}
+		a := t.arm(arms.Value(i))
+		if int(a) >= maxArms {
+			return fmt.Errorf("unit table row %d: column %q: more than %d distinct arm names", row, ColArm, maxArms)
+		}
 		u := t.unit(users.Value(i))
-		t.expose(u, t.arm(arms.Value(i)), at, segs, i)
+		t.expose(u, a, at, segs, i)
 		for len(t.converted) < t.state.len()*nm {
 			t.converted = append(t.converted, false)
 		}
