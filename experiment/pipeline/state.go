@@ -336,7 +336,8 @@ func (o *stateOut) reset() error {
 	if err := o.f.Truncate(0); err != nil {
 		return &StateError{err}
 	}
-	o.cw = &countWriter{w: o.f}
+	f := o.f
+	o.cw = &countWriter{w: f, writeback: func(off, n int64) { startWriteback(f, off, n) }}
 	o.w = bufio.NewWriterSize(o.cw, 1<<16)
 	o.sections = nil
 	var b []byte
@@ -423,15 +424,30 @@ func (o *stateOut) abort() {
 	os.Remove(o.f.Name())
 }
 
-// countWriter counts the bytes written through it.
+// countWriter counts the bytes written through it. When writeback is set
+// (startWriteback of the file w writes to), it is called for every
+// writebackStep bytes written, so that the disk writes the state while
+// the merge still computes it and the final sync waits for little: the
+// sync of a 222 MB state took 0.38 s of a 0.75 s night
+// (cmd/bench/BENCHMARKS.md).
 type countWriter struct {
-	w io.Writer
-	n int64
+	w         io.Writer
+	n         int64
+	writeback func(off, n int64)
+	started   int64 // bytes handed to writeback
 }
+
+// writebackStep is how many bytes a countWriter lets the page cache hold
+// before it starts their writeback.
+const writebackStep = 8 << 20
 
 func (c *countWriter) Write(p []byte) (int, error) {
 	n, err := c.w.Write(p)
 	c.n += int64(n)
+	if c.writeback != nil && c.n-c.started >= writebackStep {
+		c.writeback(c.started, c.n-c.started)
+		c.started = c.n
+	}
 	return n, err
 }
 
