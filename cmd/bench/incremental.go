@@ -179,12 +179,24 @@ func measureIncremental(folder string, info partInfo, nDays int, bin, self strin
 	if err := link(days[len(days)-1]); err != nil {
 		return nil, err
 	}
+	// copyState puts the saved state in place and syncs it: a nightly
+	// job's state was written a day before, not a moment ago, and the
+	// writeback of a fresh copy would otherwise share the disk with the
+	// timed run.
 	copyState := func() error {
 		b, err := os.ReadFile(base)
 		if err != nil {
 			return err
 		}
-		return os.WriteFile(state, b, 0o644)
+		f, err := os.Create(state)
+		if err != nil {
+			return err
+		}
+		_, err = f.Write(b)
+		if err == nil {
+			err = f.Sync()
+		}
+		return errors.Join(err, f.Close())
 	}
 	duckArgs := []string{"duckdb-query", "--file", filepath.Join(work, "*", "*.parquet"), "--format", "parquet", "--query", "analyze-1pass", "--threads", fmt.Sprint(f.threads)}
 	// The check, untimed: the nightly readout is the full one.
