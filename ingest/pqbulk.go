@@ -184,6 +184,7 @@ func (r *parquetReader) newWorker(budget bool, stop <-chan struct{}) *rgWorker {
 			bc.events = r.p.events
 			bc.keep = make([]bool, bulkWindow)
 		}
+		bc.empties = i == colUser && r.p.events != nil
 		w.cols[i] = bc
 	}
 	w.row.cells = make([]cell, len(r.p.physical))
@@ -289,51 +290,96 @@ func (w *rgWorker) openChunks(rg int) (int64, error) {
 	return rgRows, nil
 }
 
-// fillWindow decodes the next n rows of every column, in column order.
-// With an event filter, the columns beyond user, ts and event are decoded
-// only for the rows that need them (rowsNeeded): a row of an unwanted
-// event whose user, ts and event are valid is only counted, so its other
-// values are skipped, their dictionary indices still checked. On an error
-// w.failed is the column at fault.
+// fillWindow decodes the next n rows of every column. Without an event
+// filter, or with user, ts or event from a partition, it decodes every
+// row of every column, in column order. With a filter it decodes ts and
+// event first and decides from them which rows are needed (rowsNeeded);
+// a row of an unwanted event that is no exposure and whose ts and event
+// are valid is needed only when its user is null or empty (it is then a
+// bad row), so the user column is decoded for the needed rows and only
+// checked for the others (fillUser), and the columns beyond user, ts and
+// event are decoded for the needed rows, the values of the others skipped,
+// their dictionary indices still checked. On an error w.failed is the
+// column at fault: the first in column order that fails in the window.
 func (w *rgWorker) fillWindow(n int) error {
-	var need []bool
-	decided := false
-	for i, c := range w.cols {
-		if i > colEvent && !decided {
-			need, decided = w.rowsNeeded(n), true
+	w.need = nil
+	uc, tc, ec := w.cols[colUser], w.cols[colTS], w.cols[colEvent]
+	if uc == nil || tc == nil || ec == nil || ec.keep == nil {
+		for i, c := range w.cols {
+			if c == nil {
+				continue
+			}
+			if err := c.fill(n, nil); err != nil {
+				w.failed = i
+				return err
+			}
 		}
+		return nil
+	}
+	if err := w.fillBeforeUser(colTS, n); err != nil {
+		return err
+	}
+	if err := w.fillBeforeUser(colEvent, n); err != nil {
+		return err
+	}
+	need := w.rowsNeeded(n)
+	if err := uc.fillUser(n, need); err != nil {
+		w.failed = colUser
+		return err
+	}
+	for i := colEvent + 1; i < len(w.cols); i++ {
+		c := w.cols[i]
 		if c == nil {
 			continue
 		}
-		if err := c.fill(n, need); err != nil { // need is nil for user, ts and event
+		if err := c.fill(n, need); err != nil {
 			w.failed = i
 			return err
 		}
-	}
-	if !decided {
-		need = w.rowsNeeded(n)
 	}
 	w.need = need
 	return nil
 }
 
+// fillBeforeUser decodes the next n rows of column i (ts or event) ahead
+// of the user column, which comes before it in column order. When column
+// i fails in the window, or its decoding panics, the user column's rows of
+// the window are decoded, and its own error, if any, is the one returned,
+// as when the user column is decoded first; otherwise column i's error (or
+// panic) stands.
+func (w *rgWorker) fillBeforeUser(i, n int) (err error) {
+	defer func() {
+		v := recover()
+		if v == nil && err == nil {
+			return
+		}
+		if uerr := w.cols[colUser].fill(n, nil); uerr != nil {
+			w.failed, err = colUser, uerr
+			return
+		}
+		if v != nil {
+			panic(v)
+		}
+		w.failed = i
+	}()
+	return w.cols[i].fill(n, nil)
+}
+
 // rowsNeeded returns, per row of the window, whether the row needs more
-// than its user, ts and event: false for a row of an unwanted event whose
-// user, ts and event are valid (and that is no exposure), which is only
-// counted. Without a filter, or with user, ts or event from a partition,
-// every row is needed and it returns nil.
+// than its ts and event by what they hold: true for a row of a wanted
+// event, an exposure, or a row whose ts or event is invalid. fillUser then
+// marks the rows whose user is null or empty. With user, ts and event
+// from the file and an event filter only (see fillWindow).
 func (w *rgWorker) rowsNeeded(n int) []bool {
-	uc, tc, ec := w.cols[colUser], w.cols[colTS], w.cols[colEvent]
-	if uc == nil || tc == nil || ec == nil || ec.keep == nil {
-		return nil
-	}
+	tc, ec := w.cols[colTS], w.cols[colEvent]
 	if w.needBuf == nil {
 		w.needBuf = make([]bool, bulkWindow)
 	}
 	need, exposure := w.needBuf[:n], w.r.p.exposure
+	times, keep, events := tc.times[:n], ec.keep[:n], ec.cells[:n]
 	for k := range need {
-		u, ev := &uc.cells[k], &ec.cells[k]
-		need[k] = ec.keep[k] || u.null || u.s == "" || tc.times[k].state != tsOK || ev.null || ev.s == "" || ev.s == exposure
+		ev := &events[k]
+		need[k] = keep[k] || times[k].state != tsOK || ev.null || ev.s == "" || ev.s == exposure
 	}
 	return need
 }
@@ -435,7 +481,11 @@ type bulkColumn struct {
 	lastDict parquet.Dictionary
 	dictStr  []string
 	dictKeep []bool
-	dictI64  []int64
+	// dictEmpty marks the dictionary's empty strings, for a column that
+	// is only checked (fillUser); nil for the other columns.
+	dictEmpty []bool
+	empties   bool // the column is the user column, see fillUser
+	dictI64   []int64
 }
 
 func (c *bulkColumn) open(pages parquet.Pages) {
@@ -507,6 +557,83 @@ func (c *bulkColumn) skip(n int) error {
 			if _, err := dictIndex(c.idx[v], len(c.dictStr)); err != nil {
 				return err
 			}
+		}
+	}
+	return nil
+}
+
+// fillUser decodes the next n rows of the user column for the rows marked
+// in need and checks the others: a null or empty user makes its row
+// needed (need[k] is set) and its cell is filled, so that the row is
+// reported as a bad row; the cells of the other rows are left as they
+// were. Dictionary indices are checked on every row, as fillText checks
+// them.
+func (c *bulkColumn) fillUser(n int, need []bool) error {
+	for k := 0; k < n; {
+		if c.pos >= c.nrows {
+			if err := c.nextPage(); err != nil {
+				return err
+			}
+			continue
+		}
+		m := min(n-k, c.nrows-c.pos)
+		if err := c.fillUserPage(c.cells[k:k+m], need[k:k+m]); err != nil {
+			return err
+		}
+		k += m
+	}
+	return nil
+}
+
+// fillUserPage is fillUser for rows of the current page.
+func (c *bulkColumn) fillUserPage(cells []cell, need []bool) error {
+	need = need[:len(cells)]
+	if c.idx != nil {
+		dict, empty := c.dictStr, c.dictEmpty[:len(c.dictStr)]
+		if c.levels == nil {
+			// No nulls: the rows are the page's next values.
+			idx := c.idx[c.vpos : c.vpos+len(cells)]
+			c.pos += len(cells)
+			c.vpos += len(cells)
+			for j, x := range idx {
+				if uint(x) >= uint(len(dict)) {
+					return dictIndexError(x, len(dict))
+				}
+				if need[j] || empty[x] {
+					cells[j], need[j] = cell{s: dict[x]}, true
+				}
+			}
+			return nil
+		}
+		for j := range cells {
+			v := c.value()
+			if v < 0 {
+				cells[j], need[j] = cell{null: true}, true
+				continue
+			}
+			x, err := dictIndex(c.idx[v], len(dict))
+			if err != nil {
+				return err
+			}
+			if need[j] || empty[x] {
+				cells[j], need[j] = cell{s: dict[x]}, true
+			}
+		}
+		return nil
+	}
+	for j := range cells {
+		v := c.value()
+		if v < 0 {
+			cells[j], need[j] = cell{null: true}, true
+			continue
+		}
+		// Offsets out of order or beyond the data (parquet-go computes
+		// them; never seen) take fillText's way too, to fail as it does;
+		// the row, needed without need, is then filtered in window.
+		lo, hi := c.offs[v], c.offs[v+1]
+		if need[j] || lo >= hi || int(hi) > len(c.data) {
+			b := c.data[lo:hi]
+			cells[j], need[j] = cell{s: unsafe.String(unsafe.SliceData(b), len(b))}, true
 		}
 	}
 	return nil
@@ -680,6 +807,12 @@ func (c *bulkColumn) readDictionary(d parquet.Dictionary) error {
 			c.dictKeep = append(c.dictKeep, c.events.has(s))
 		}
 	}
+	if c.empties {
+		c.dictEmpty = c.dictEmpty[:0]
+		for _, s := range c.dictStr {
+			c.dictEmpty = append(c.dictEmpty, s == "")
+		}
+	}
 	return nil
 }
 
@@ -725,5 +858,5 @@ func (c *bulkColumn) closePages() {
 	}
 	c.levels, c.idx, c.data, c.offs, c.i64 = nil, nil, nil, nil, nil
 	c.nrows, c.pos, c.vpos, c.nvals = 0, 0, 0, 0
-	c.lastDict, c.dictStr, c.dictKeep, c.dictI64 = nil, c.dictStr[:0], c.dictKeep[:0], nil
+	c.lastDict, c.dictStr, c.dictKeep, c.dictEmpty, c.dictI64 = nil, c.dictStr[:0], c.dictKeep[:0], c.dictEmpty[:0], nil
 }

@@ -1,9 +1,11 @@
 package ingest
 
 import (
+	"errors"
 	"fmt"
 	"math/rand/v2"
 	"slices"
+	"strings"
 	"testing"
 
 	"github.com/parquet-go/parquet-go"
@@ -213,6 +215,202 @@ func TestReadAheadKeepsErrorOrder(t *testing.T) {
 			gotSt.Rows = wantSt.Rows
 			if fmt.Sprintf("%+v", gotSt) != fmt.Sprintf("%+v", wantSt) {
 				t.Fatalf("budget %d, workers %d: stats\n%+v\nrow by row\n%+v", budget, workers, gotSt, wantSt)
+			}
+		}
+	}
+}
+
+// userRowDict and userRowPlain are files whose user column is dictionary-
+// and plain-encoded; the rows of TestBulkPathBadUsers.
+type userRowDict struct {
+	User  *string `parquet:"user_id,optional,dict"`
+	TS    *int64  `parquet:"ts,optional,timestamp(millisecond)"`
+	Event *string `parquet:"event,optional,dict"`
+	Exp   *string `parquet:"experiment,optional,dict"`
+	Arm   *string `parquet:"arm,optional,dict"`
+}
+
+type userRowPlain struct {
+	User  *string `parquet:"user_id,optional"`
+	TS    *int64  `parquet:"ts,optional,timestamp(millisecond)"`
+	Event *string `parquet:"event,optional,dict"`
+	Exp   *string `parquet:"experiment,optional,dict"`
+	Arm   *string `parquet:"arm,optional,dict"`
+}
+
+// userRowRequired is userRowDict with a required user column: its pages
+// have no definition levels, so a user is never null, but may be empty.
+type userRowRequired struct {
+	User  string  `parquet:"user_id,dict"`
+	TS    *int64  `parquet:"ts,optional,timestamp(millisecond)"`
+	Event *string `parquet:"event,optional,dict"`
+	Exp   *string `parquet:"experiment,optional,dict"`
+	Arm   *string `parquet:"arm,optional,dict"`
+}
+
+type userRowRequiredPlain struct {
+	User  string  `parquet:"user_id"`
+	TS    *int64  `parquet:"ts,optional,timestamp(millisecond)"`
+	Event *string `parquet:"event,optional,dict"`
+	Exp   *string `parquet:"experiment,optional,dict"`
+	Arm   *string `parquet:"arm,optional,dict"`
+}
+
+// With an event filter the bulk path decodes users only for the rows that
+// need them and only checks the others; a null or empty user must still
+// make its row a bad row, whether the row's event is wanted, unwanted or
+// the exposure, and wherever it lies among windows, pages and row groups:
+// the same rows, bad-row counts and first bad row as row by row.
+func TestBulkPathBadUsers(t *testing.T) {
+	const n = 9000 // beyond two windows (bulkWindow) in one row group
+	eventOf := func(i int) string {
+		switch {
+		case i%7 == 3:
+			return "purchase"
+		case i%11 == 5:
+			return "exposure"
+		}
+		return "view"
+	}
+	// Rows of each kind near the start, the windows' edges and the end.
+	rowsOf := func(event string) []int {
+		var at []int
+		for _, from := range []int{0, bulkWindow - 12, 2*bulkWindow - 12, n - 40} {
+			i := from
+			for eventOf(i) != event {
+				i++
+			}
+			at = append(at, i)
+			for i++; eventOf(i) != event; i++ {
+			}
+			at = append(at, i)
+		}
+		return at
+	}
+	view, purchase, exposure := rowsOf("view"), rowsOf("purchase"), rowsOf("exposure")
+	// A window's last row and the next window's first, both unwanted.
+	edge := []int{bulkWindow - 1, bulkWindow}
+	for _, i := range edge {
+		if eventOf(i) != "view" {
+			t.Fatalf("row %d is %s", i, eventOf(i))
+		}
+	}
+	tests := []struct {
+		name         string
+		null, empty  []int // rows with a null, an empty user
+		strictColumn string
+	}{
+		{name: "none"},
+		{name: "unwanted null", null: view},
+		{name: "unwanted empty", empty: view},
+		{name: "window edge", null: edge[:1], empty: edge[1:]},
+		{name: "wanted null", null: purchase},
+		{name: "wanted empty", empty: purchase},
+		{name: "exposure null", null: exposure},
+		{name: "exposure empty", empty: exposure},
+		{name: "mixed", null: append(slices.Clone(view[:4]), purchase[4:]...), empty: append(slices.Clone(exposure), view[4:]...)},
+	}
+	str := func(s string) *string { return &s }
+	for _, tc := range tests {
+		rows := make([]userRowDict, n)
+		for i := range rows {
+			ts := int64(1_780_000_000_000 + i*1000)
+			rows[i] = userRowDict{User: str(fmt.Sprintf("u%d", i%500)), TS: &ts, Event: str(eventOf(i)), Exp: str("exp-a")}
+			if *rows[i].Event == "exposure" {
+				rows[i].Arm = str([]string{"control", "treatment"}[i%2])
+			}
+		}
+		bad := map[int]bool{}
+		for _, i := range tc.null {
+			rows[i].User, bad[i] = nil, true
+		}
+		for _, i := range tc.empty {
+			rows[i].User, bad[i] = str(""), true
+		}
+		first := -1
+		for i := range bad {
+			if first < 0 || i < first {
+				first = i
+			}
+		}
+		plain := make([]userRowPlain, n)
+		required := make([]userRowRequired, n) // a null user written as ""
+		requiredPlain := make([]userRowRequiredPlain, n)
+		for i, r := range rows {
+			plain[i] = userRowPlain(r)
+			required[i] = userRowRequired{User: "", TS: r.TS, Event: r.Event, Exp: r.Exp, Arm: r.Arm}
+			if r.User != nil {
+				required[i].User = *r.User
+			}
+			requiredPlain[i] = userRowRequiredPlain(required[i])
+		}
+		files := []struct {
+			name string
+			data []byte
+		}{
+			{"dict", writeParquet(t, rows)},
+			{"plain", writeParquet(t, plain)},
+			{"dict-small", writeParquet(t, rows, parquet.MaxRowsPerRowGroup(1500), parquet.PageBufferSize(256))},
+			{"plain-small", writeParquet(t, plain, parquet.MaxRowsPerRowGroup(1500), parquet.PageBufferSize(256))},
+			{"dict-required", writeParquet(t, required, parquet.MaxRowsPerRowGroup(5000), parquet.PageBufferSize(1024))},
+			{"plain-required", writeParquet(t, requiredPlain, parquet.MaxRowsPerRowGroup(5000), parquet.PageBufferSize(1024))},
+		}
+		for _, f := range files {
+			src := []Source{BytesSource(f.name+".parquet", f.data)}
+			for _, budget := range []int64{0, 3, NoLimit} {
+				t.Run(fmt.Sprintf("%s/%s/budget %d", tc.name, f.name, budget), func(t *testing.T) {
+					opts := Options{Mapping: DefaultMapping(), ExposureEvent: "exposure", MaxBadRows: budget,
+						Events: []string{"purchase"}, BatchSize: 700}
+					ref := opts
+					ref.rowByRow = true
+					wantRows, wantSt, wantErr := readAll(t, src, ref)
+					// The reference itself must see the planted users.
+					var nullUsers int64
+					for _, c := range wantSt.BadRows {
+						if c.Reason == ReasonNullUser {
+							nullUsers += c.Count
+						}
+					}
+					switch {
+					case budget == NoLimit && (wantErr != nil || nullUsers != int64(len(bad))):
+						t.Fatalf("row by row: %d null users, %d planted; error %v", nullUsers, len(bad), wantErr)
+					case budget == 0 && len(bad) > 0:
+						at := fmt.Sprintf("%s.parquet:%d: ", f.name, first+1)
+						if wantErr == nil || !strings.Contains(wantErr.Error(), at) || !strings.Contains(wantErr.Error(), `"user_id"`) {
+							t.Fatalf("row by row: error %v, want the user of row %d", wantErr, first+1)
+						}
+					case budget == 3 && len(bad) > 3 && !errors.Is(wantErr, ErrBudgetExceeded):
+						t.Fatalf("row by row: error %v, want the budget exceeded", wantErr)
+					case len(bad) == 0 && (wantErr != nil || len(wantSt.BadRows) != 0 || wantSt.Filtered == 0):
+						t.Fatalf("row by row: error %v, bad rows %v, %d filtered", wantErr, wantSt.BadRows, wantSt.Filtered)
+					}
+					for _, workers := range []int{1, 2} {
+						o := opts
+						o.Workers = workers
+						gotRows, gotSt, gotErr := readAll(t, src, o)
+						if fmt.Sprint(gotErr) != fmt.Sprint(wantErr) {
+							t.Fatalf("workers %d: error %v, row by row %v", workers, gotErr, wantErr)
+						}
+						if wantErr != nil {
+							// As in TestBulkPathMatchesRowByRow: the
+							// paths cut batches differently before an
+							// error. Nor do they count the same
+							// filtered rows before it: the bulk path
+							// leaves out those of the row group of the
+							// error.
+							k := min(len(gotRows), len(wantRows))
+							if !slices.Equal(gotRows[:k], wantRows[:k]) {
+								t.Fatalf("workers %d: the rows before the error differ", workers)
+							}
+							gotSt.Rows, gotSt.Filtered, gotSt.FilteredMaxTS = wantSt.Rows, wantSt.Filtered, wantSt.FilteredMaxTS
+						} else if !slices.Equal(gotRows, wantRows) {
+							t.Fatalf("workers %d: %d rows, row by row %d", workers, len(gotRows), len(wantRows))
+						}
+						if fmt.Sprintf("%+v", gotSt) != fmt.Sprintf("%+v", wantSt) {
+							t.Fatalf("workers %d: stats\n%+v\nrow by row\n%+v", workers, gotSt, wantSt)
+						}
+					}
+				})
 			}
 		}
 	}
