@@ -107,14 +107,27 @@ func (x *unitIndex) lookupHashed(key string, hash uint64) (int32, bool) {
 // away. Touching a group of keys before looking them up lets the
 // processor wait for their cache misses together instead of one by one.
 func (x *unitIndex) touch(hash uint64) uint64 {
+	s, _ := x.touchUnit(hash)
+	return s
+}
+
+// touchUnit is touch that also returns the unit the slot names when its
+// hash bits match (-1 when they do not), so that the caller can touch
+// the unit's own memory too. It reads the last byte of that unit's key
+// as well, which the lookup's comparison reads next.
+func (x *unitIndex) touchUnit(hash uint64) (uint64, int32) {
 	h := uint32(hash)
 	s := x.slots[h&x.mask]
 	if uint32(s>>32) == h {
 		if u := uint32(s) - 1; int(u) < x.ends.len() {
-			return s + *x.ends.at(int(u))
+			e := *x.ends.at(int(u))
+			if e > 0 && e <= uint64(len(x.arena)) {
+				e += uint64(x.arena[e-1])
+			}
+			return s + e, int32(u)
 		}
 	}
-	return s
+	return s, -1
 }
 
 // place puts slot s in the first free place of its probe sequence.
