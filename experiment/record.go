@@ -233,6 +233,29 @@ func (a *Accumulator) addN(rec UnitRecord, n int64) error {
 	return nil
 }
 
+// armSums are the sums of one arm's unit records in a spec without
+// segment dimensions, made without the records (see Tallier.sumPart).
+type armSums struct {
+	exposed, units, multi, tied int64
+	first                       int64 // earliest T0; math.MaxInt64 when none
+	metrics                     []Count
+}
+
+// addArmSums adds s, the sums of records of the named arm, as addN would
+// add them one by one; the spec must have no segment dimensions.
+func (a *Accumulator) addArmSums(arm string, s armSums) {
+	r := a.arm(arm)
+	r.first = min(r.first, s.first)
+	r.exposed += s.exposed
+	r.units += s.units
+	for m, c := range s.metrics {
+		addCount(&r.metrics[m], c)
+	}
+	a.diag.UnitsExposed += s.exposed
+	a.diag.MultiArmUnits += s.multi
+	a.diag.TiedUnits += s.tied
+}
+
 // merge adds the sums of b, an Accumulator of the same spec, to a: the
 // result is what a would hold had it been given b's records too. The
 // unit counters of the diagnostics are summed; arms b has that a has not

@@ -6,6 +6,7 @@ import (
 	"fmt"
 	"hash/maphash"
 	"iter"
+	"math"
 	"runtime"
 	"slices"
 	"sort"
@@ -715,6 +716,10 @@ func (t *Tallier) sumUnits(f *finished, acc *Accumulator) error {
 			return err
 		}
 		accs[p] = a
+		if len(t.spec.Segments) == 0 {
+			wg.Go(func() { t.sumPart(f, p, a) })
+			continue
+		}
 		wg.Go(func() {
 			var rec UnitRecord
 			for u := range pt.state.len() {
@@ -737,6 +742,68 @@ func (t *Tallier) sumUnits(f *finished, acc *Accumulator) error {
 		acc.merge(a)
 	}
 	return nil
+}
+
+// sumPart adds the exposed units of partition p of a tally without
+// segment dimensions to acc, as adding each unit's record (record) would:
+// it sums them per arm first, then hands the sums to acc (addArmSums),
+// instead of building ten million records one by one, which took about a
+// twentieth of a large run's CPU time.
+func (t *Tallier) sumPart(f *finished, p int, acc *Accumulator) {
+	pt := t.parts[p]
+	nm := len(t.spec.Metrics)
+	horizon := t.fresh
+	if t.hasEnd {
+		horizon = t.end
+	}
+	windows := make([]int64, nm)
+	for m, mt := range t.spec.Metrics {
+		windows[m] = int64(mt.Window)
+	}
+	exclude := t.spec.Maturity == MaturityExclude
+	sums := make([]armSums, len(pt.arms))
+	for a := range sums {
+		sums[a] = armSums{first: math.MaxInt64, metrics: make([]Count, nm)}
+	}
+	converted := f.converted[p]
+	for u := range pt.state.len() {
+		s := pt.state.at(u)
+		if s.armAtT0 < 0 {
+			continue
+		}
+		a := &sums[s.armAtT0]
+		a.exposed++
+		a.first = min(a.first, s.t0)
+		if s.multi() {
+			a.multi++
+		}
+		switch status(s, t.spec.MultiArm) {
+		case StatusTied:
+			a.tied++
+			continue
+		case StatusMultiArm:
+			continue
+		}
+		a.units++
+		for m, w := range windows {
+			c := &a.metrics[m]
+			if w > 0 && s.t0 > horizon-w {
+				c.Immature++
+				if exclude {
+					continue
+				}
+			}
+			c.Units++
+			if converted[u*nm+m] {
+				c.Conversions++
+			}
+		}
+	}
+	for a, sum := range sums {
+		if sum.exposed > 0 {
+			acc.addArmSums(pt.arms[a], sum)
+		}
+	}
 }
 
 // Tally finishes the pass: it decides each unit's arm, applies the

@@ -1,6 +1,8 @@
 package experiment
 
 import (
+	"fmt"
+	"math/rand/v2"
 	"reflect"
 	"strings"
 	"testing"
@@ -409,6 +411,88 @@ func TestUnitStatePacking(t *testing.T) {
 				}
 				if s.firstArm() != arm || s.tied() != tied || s.multi() != multi {
 					t.Errorf("arm %d tied %v multi %v: read back arm %d tied %v multi %v", arm, tied, multi, s.firstArm(), s.tied(), s.multi())
+				}
+			}
+		}
+	}
+}
+
+// TestTallySumsAsRecords checks Tally's per-arm sums for a spec without
+// segments (Tallier.sumPart) against the general route: every record of
+// Units added to an Accumulator one by one. The random logs hold
+// multi-arm units, ties at t0, units exposed late in the window (immature)
+// and arms the spec does not list; the specs cover both multi-arm
+// policies, both maturity policies, a metric without a window and a spec
+// without an end (the horizon is then the data's freshness). The expected
+// values are the general route's (common practice: two routes to one sum).
+func TestTallySumsAsRecords(t *testing.T) {
+	rng := rand.New(rand.NewPCG(21, 22))
+	arms := []string{"control", "treat", "zeta"}
+	var rows []row
+	for u := range 800 {
+		user := fmt.Sprintf("u%03d", u)
+		at := time.Duration(rng.IntN(240)) * hour
+		for k := range 1 + rng.IntN(3) {
+			arm := arms[rng.IntN(3)]
+			if k > 0 && rng.IntN(2) == 0 {
+				rows = append(rows, seen(user, at, arm)) // a tie when the arm differs
+				continue
+			}
+			rows = append(rows, seen(user, at+time.Duration(rng.IntN(48))*hour, arm))
+		}
+		for range rng.IntN(4) {
+			rows = append(rows, ev(user, time.Duration(rng.IntN(280))*hour, []string{"buy", "view", "other"}[rng.IntN(3)]))
+		}
+	}
+	for _, multi := range []MultiArmPolicy{MultiArmExclude, MultiArmFirst} {
+		for _, maturity := range []MaturityPolicy{MaturityExclude, MaturityInclude} {
+			for _, noEnd := range []bool{false, true} {
+				spec := spec2()
+				spec.Arms = []string{"control", "treat"}
+				spec.MultiArm, spec.Maturity = multi, maturity
+				spec.Metrics = []Metric{
+					{Name: "buy", Events: []string{"buy"}, Window: 24 * hour},
+					{Name: "any", Events: []string{"buy", "view"}},
+					{Name: "view", Events: []string{"view"}, Window: 72 * hour},
+				}
+				if noEnd {
+					spec.End = nil
+				}
+				name := fmt.Sprintf("%v/%v/no end %v", multi, maturity, noEnd)
+				tl := tallier(t, spec, rows, 97)
+				got, err := tl.Tally()
+				if err != nil {
+					t.Fatal(err)
+				}
+				seq, err := tl.Units()
+				if err != nil {
+					t.Fatal(err)
+				}
+				acc, err := NewAccumulator(spec)
+				if err != nil {
+					t.Fatal(err)
+				}
+				for _, pt := range tl.parts {
+					pt.seeArms(acc)
+				}
+				for rec := range seq {
+					if err := acc.Add(rec); err != nil {
+						t.Fatal(err)
+					}
+				}
+				want := acc.Tally()
+				if !reflect.DeepEqual(got.Arms, want.Arms) {
+					t.Errorf("%s: Tally's arms\n%+v\nthe records'\n%+v", name, got.Arms, want.Arms)
+				}
+				if g, w := got.Diag, want.Diag; g.UnitsExposed != w.UnitsExposed || g.MultiArmUnits != w.MultiArmUnits || g.TiedUnits != w.TiedUnits {
+					t.Errorf("%s: Tally's unit counters %+v, the records' %+v", name, g, w)
+				}
+				var immature int64
+				for _, a := range want.Arms {
+					immature += a.Metrics[0].Immature
+				}
+				if (multi == MultiArmFirst) != (want.Diag.TiedUnits > 0) || want.Diag.MultiArmUnits == 0 || len(want.Arms) != 3 || immature == 0 {
+					t.Errorf("%s: the log does not exercise the sums: %+v", name, want)
 				}
 			}
 		}
