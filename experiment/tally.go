@@ -436,7 +436,7 @@ func (t *Tallier) addPart(p int, users *array.String, ts []arrow.Timestamp, segs
 				continue
 			}
 			rows[g] = int32(i)
-			s, u := pt.units.touchUnit(t.rowHash[i])
+			s, u := pt.units.touch(t.rowHash[i])
 			if u >= 0 && t.rowKind[i] == kindExposure {
 				s += uint64(pt.state.at(int(u)).t0)
 			}

@@ -103,19 +103,12 @@ func (x *unitIndex) lookupHashed(key string, hash uint64) (int32, bool) {
 
 // touch reads the memory a lookup of the key with this hash will read
 // first (its slot and, when the slot's hash bits match, the stored key's
-// end), and returns a value only so that the reads are not optimised
-// away. Touching a group of keys before looking them up lets the
-// processor wait for their cache misses together instead of one by one.
-func (x *unitIndex) touch(hash uint64) uint64 {
-	s, _ := x.touchUnit(hash)
-	return s
-}
-
-// touchUnit is touch that also returns the unit the slot names when its
-// hash bits match (-1 when they do not), so that the caller can touch
-// the unit's own memory too. It reads the last byte of that unit's key
-// as well, which the lookup's comparison reads next.
-func (x *unitIndex) touchUnit(hash uint64) (uint64, int32) {
+// end and last byte), and returns a value only so that the reads are not
+// optimised away, with the unit the slot names (-1 when its hash bits do
+// not match), so that the caller can touch that unit's own memory too.
+// Touching a group of keys before looking them up lets the processor wait
+// for their cache misses together instead of one by one.
+func (x *unitIndex) touch(hash uint64) (uint64, int32) {
 	h := uint32(hash)
 	s := x.slots[h&x.mask]
 	if uint32(s>>32) == h {
