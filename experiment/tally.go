@@ -572,37 +572,28 @@ func (t *Tallier) finish() *finished {
 	d.OutsideAttribution = append([]int64(nil), t.diag.OutsideAttribution...)
 	// Each partition attributes its own units' events on its own
 	// goroutine, counting into its own diagnostics, summed after.
-	diags := make([]attribution, len(t.parts))
+	diags := make([]TallyDiagnostics, len(t.parts))
 	var wg sync.WaitGroup
 	for p := range t.parts {
-		diags[p].outside = make([]int64, nm)
+		diags[p].OutsideAttribution = make([]int64, nm)
 		wg.Go(func() { f.converted[p] = t.attribute(p, &diags[p]) })
 	}
 	wg.Wait()
-	for _, a := range diags {
-		d.UnitNeverExposed += a.neverExposed
-		d.UnitExcluded += a.excluded
-		d.BeforeExposure += a.beforeExposure
-		d.MetricEventsInUnit += a.inUnit
-		for m, n := range a.outside {
-			d.OutsideAttribution[m] += n
-		}
+	for _, pd := range diags {
+		// Only the attribution's counters are set in pd; the lengths
+		// match, so sumDiag cannot fail.
+		_ = sumDiag(d, pd, nm)
 	}
 	t.fin = f
 	return f
 }
 
-// attribution counts what attributing one partition's metric events
-// dropped, and where (see TallyDiagnostics).
-type attribution struct {
-	neverExposed, excluded, beforeExposure, inUnit int64
-	outside                                        []int64 // per metric
-}
-
 // attribute attributes partition p's metric events to its units and
 // returns its conversion flags, converted[u*nm+m] for unit u and metric
-// m, counting the events it drops in a.
-func (t *Tallier) attribute(p int, a *attribution) []bool {
+// m, counting the events it drops and attributes in a (UnitNeverExposed,
+// UnitExcluded, BeforeExposure, MetricEventsInUnit, OutsideAttribution,
+// which must have one element per metric).
+func (t *Tallier) attribute(p int, a *TallyDiagnostics) []bool {
 	nm := len(t.spec.Metrics)
 	pt := t.parts[p]
 	converted := hugepage.Make[bool](pt.state.len() * nm)
@@ -611,20 +602,20 @@ func (t *Tallier) attribute(p int, a *attribution) []bool {
 		s := pt.state.at(int(e.unit))
 		switch {
 		case s.armAtT0 < 0:
-			a.neverExposed++
+			a.UnitNeverExposed++
 			continue
 		case status(s, t.spec.MultiArm) != StatusAnalysed:
-			a.excluded++
+			a.UnitExcluded++
 			continue
 		case e.ts < s.t0:
-			a.beforeExposure++
+			a.BeforeExposure++
 			continue
 		}
-		a.inUnit++
+		a.MetricEventsInUnit++
 		for _, m := range t.metricsOf[e.event] {
 			w := int64(t.spec.Metrics[m].Window)
 			if w > 0 && e.ts-s.t0 >= w {
-				a.outside[m]++
+				a.OutsideAttribution[m]++
 				continue
 			}
 			converted[int(e.unit)*nm+m] = true
