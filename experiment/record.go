@@ -123,6 +123,28 @@ type accArm struct {
 	segments []map[SegmentValue]*SegmentCell // per dimension
 }
 
+// addSums adds exposed and analysed units, an earliest exposure (T0;
+// math.MaxInt64 for none) and per-metric counts to the arm's sums.
+func (r *accArm) addSums(first, exposed, units int64, metrics []Count) {
+	r.first = min(r.first, first)
+	r.exposed += exposed
+	r.units += units
+	for m, c := range metrics {
+		addCount(&r.metrics[m], c)
+	}
+}
+
+// cell returns the arm's cell for value v of segment dimension d, added
+// with nm zero metric counts when new.
+func (r *accArm) cell(d int, v SegmentValue, nm int) *SegmentCell {
+	c := r.segments[d][v]
+	if c == nil {
+		c = &SegmentCell{Value: v, Metrics: make([]Count, nm)}
+		r.segments[d][v] = c
+	}
+	return c
+}
+
 // NewAccumulator returns an Accumulator for spec. It checks the parts of
 // the spec that every input shape shares (metrics, arms, split, window,
 // segment dimensions).
@@ -203,11 +225,7 @@ func (a *Accumulator) addN(rec UnitRecord, n int64) error {
 	r.units += n
 	cells := make([]*SegmentCell, len(rec.Segments))
 	for d, v := range rec.Segments {
-		c := r.segments[d][v]
-		if c == nil {
-			c = &SegmentCell{Value: v, Metrics: make([]Count, nm)}
-			r.segments[d][v] = c
-		}
+		c := r.cell(d, v, nm)
 		c.Units += n
 		cells[d] = c
 	}
@@ -244,13 +262,7 @@ type armSums struct {
 // addArmSums adds s, the sums of records of the named arm, as addN would
 // add them one by one; the spec must have no segment dimensions.
 func (a *Accumulator) addArmSums(arm string, s armSums) {
-	r := a.arm(arm)
-	r.first = min(r.first, s.first)
-	r.exposed += s.exposed
-	r.units += s.units
-	for m, c := range s.metrics {
-		addCount(&r.metrics[m], c)
-	}
+	a.arm(arm).addSums(s.first, s.exposed, s.units, s.metrics)
 	a.diag.UnitsExposed += s.exposed
 	a.diag.MultiArmUnits += s.multi
 	a.diag.TiedUnits += s.tied
@@ -264,19 +276,10 @@ func (a *Accumulator) merge(b *Accumulator) {
 	nm := len(a.spec.Metrics)
 	for _, rb := range b.arms {
 		r := a.arm(rb.name)
-		r.first = min(r.first, rb.first)
-		r.exposed += rb.exposed
-		r.units += rb.units
-		for m, c := range rb.metrics {
-			addCount(&r.metrics[m], c)
-		}
+		r.addSums(rb.first, rb.exposed, rb.units, rb.metrics)
 		for d, cells := range rb.segments {
 			for v, cb := range cells {
-				c := r.segments[d][v]
-				if c == nil {
-					c = &SegmentCell{Value: v, Metrics: make([]Count, nm)}
-					r.segments[d][v] = c
-				}
+				c := r.cell(d, v, nm)
 				c.Units += cb.Units
 				for m, n := range cb.Metrics {
 					addCount(&c.Metrics[m], n)
@@ -293,18 +296,10 @@ func (a *Accumulator) merge(b *Accumulator) {
 // population with the given segment values, and their counts per metric.
 func (a *Accumulator) addCell(arm string, segs []SegmentValue, pop int64, counts []Count) {
 	r := a.arm(arm)
-	r.exposed += pop
-	r.units += pop
+	r.addSums(math.MaxInt64, pop, pop, counts)
 	a.diag.UnitsExposed += pop
-	for m, c := range counts {
-		addCount(&r.metrics[m], c)
-	}
 	for d, v := range segs {
-		cell := r.segments[d][v]
-		if cell == nil {
-			cell = &SegmentCell{Value: v, Metrics: make([]Count, len(a.spec.Metrics))}
-			r.segments[d][v] = cell
-		}
+		cell := r.cell(d, v, len(a.spec.Metrics))
 		cell.Units += pop
 		for m, c := range counts {
 			addCount(&cell.Metrics[m], c)
