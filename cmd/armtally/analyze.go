@@ -763,12 +763,13 @@ func analyze(ctx context.Context, run *analyzeRun) (*pipeline.Result, error) {
 		// The collector's soft limit, so that it works harder as the
 		// heap nears the limit rather than letting garbage pile up.
 		debug.SetMemoryLimit(run.memoryLimit)
-	} else if !resumes(run.state) {
-		// A night that resumes a state reads only its new files, which
-		// only the pipeline knows: a heap sized from all the files would
-		// be many times what the night uses (and on the benchmark's
-		// 35-day night the advice made no difference either way).
-		hugepage.PrepareHeap(hugeHeapSize(inputBytes(run), hugepage.PhysicalMemory()), os.Getenv("GODEBUG"))
+	} else {
+		// Sized from the files the run reads: a night that resumes a
+		// state reads only its new files.
+		physical, godebug := hugepage.PhysicalMemory(), os.Getenv("GODEBUG")
+		opts.BeforeRead = func(inputBytes int64) {
+			hugepage.PrepareHeap(hugeHeapSize(inputBytes, physical), godebug)
+		}
 	}
 	res, err := pipeline.Run(ctx, in, exps, opts)
 	if sig := interrupted(ctx); err != nil && sig != nil {
@@ -793,28 +794,6 @@ func analyze(ctx context.Context, run *analyzeRun) (*pipeline.Result, error) {
 		fmt.Fprintf(run.stderr, "armtally: --state: read every file again: %s\n", st.Reason)
 	}
 	return res, nil
-}
-
-// inputBytes returns the size of the run's input files, as far as they
-// can be read now (the run itself reports what it cannot read).
-func inputBytes(run *analyzeRun) int64 {
-	var n int64
-	for _, s := range run.sources {
-		if size, _, err := s.Stat(); err == nil {
-			n += size
-		}
-	}
-	return n
-}
-
-// resumes reports whether a run with --state path resumes a saved state
-// (the file exists) rather than making the first one.
-func resumes(path string) bool {
-	if path == "" {
-		return false
-	}
-	_, err := os.Stat(path)
-	return err == nil
 }
 
 // writeAudits adds each experiment's per-unit audit table to set, at

@@ -128,6 +128,14 @@ type Options struct {
 	// state.go for when it reads every file instead). It rules out a
 	// memory limit and Arrow record streams.
 	State string
+	// BeforeRead, when set, is called once the run knows which files it
+	// reads and before it reads them, with their total size in bytes: all
+	// of the input's files, or for a run that resumes a state only the
+	// new ones (and, should that run then have to read every file, once
+	// more with all of them). A caller may prepare memory for the run
+	// with it (the armtally command advises the heap for huge pages). It
+	// is not called for Arrow record streams.
+	BeforeRead func(inputBytes int64)
 }
 
 // Result is what a run gives back.
@@ -237,6 +245,13 @@ func Run(ctx context.Context, in Input, exps []Experiment, opts Options) (*Resul
 	talliers, events, err := makeTalliers(in.Shape, exps)
 	if err != nil {
 		return nil, err
+	}
+	if opts.BeforeRead != nil && in.Records == nil {
+		// A source that cannot be listed or sized here fails, with its
+		// name, when the reader opens it.
+		if srcs, err := sources(in); err == nil {
+			opts.BeforeRead(sourceBytes(srcs))
+		}
 	}
 	r, err := openReader(in, exps, events, opts.Workers)
 	if err != nil {

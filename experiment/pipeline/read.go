@@ -32,6 +32,18 @@ func sources(in Input) ([]ingest.Source, error) {
 	return srcs, nil
 }
 
+// sourceBytes returns the total size of srcs, leaving out those that
+// cannot be sized now (the reader reports them).
+func sourceBytes(srcs []ingest.Source) int64 {
+	var n int64
+	for _, s := range srcs {
+		if size, _, err := s.Stat(); err == nil {
+			n += size
+		}
+	}
+	return n
+}
+
 // openReader returns the reader of the input. For an event log, events
 // lists the events the talliers use: the reader leaves out the rows of
 // other events and counts them (see ingest.Options.Events).

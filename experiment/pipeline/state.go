@@ -480,6 +480,9 @@ func runWithState(ctx context.Context, in Input, exps []Experiment, opts Options
 	var res *Result
 	var talliers []*experiment.Tallier
 	if sf != nil {
+		if opts.BeforeRead != nil {
+			opts.BeforeRead(sourceBytes(fresh))
+		}
 		res, talliers, why, err = resumeRun(ctx, in, exps, opts, sf, fresh, out)
 		sf.close()
 		if err != nil {
@@ -492,6 +495,9 @@ func runWithState(ctx context.Context, in Input, exps []Experiment, opts Options
 		rep.Recomputed, rep.Reason, rep.FilesRead = why != "", why, len(srcs)
 		full := in
 		full.Paths, full.FS, full.Sources = nil, nil, srcs
+		if opts.BeforeRead != nil {
+			opts.BeforeRead(sourceBytes(srcs))
+		}
 		if err = out.reset(); err == nil {
 			res, talliers, err = runTalliers(ctx, full, exps, opts, nil, ingest.Stats{}, out)
 		}

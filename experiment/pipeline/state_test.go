@@ -380,3 +380,47 @@ func TestIncrementalAsOf(t *testing.T) {
 		t.Errorf("%d of 15 nights recomputed, want the nights past the as-of date only", recomputed)
 	}
 }
+
+// BeforeRead learns the size of the files a run reads before it reads
+// them: every file for a run without a state and for the first night, the
+// new file alone for a night that resumes, every file again for a night
+// that has to recompute (the sizes are the files' own, from os.Stat).
+func TestBeforeReadSizes(t *testing.T) {
+	days, files := exportDays(t)
+	dir := t.TempDir()
+	state := filepath.Join(t.TempDir(), "tally.state")
+	exps := stateExperiments()
+	var total int64
+	for _, d := range days[:3] {
+		writeDay(t, dir, d, files[d])
+		total += int64(len(files[d]))
+	}
+	runSizes := func(state string, exps []pipeline.Experiment) []int64 {
+		t.Helper()
+		var got []int64
+		opts := pipeline.Options{State: state, Workers: 2, BeforeRead: func(n int64) { got = append(got, n) }}
+		in := pipeline.Input{Paths: []string{dir}, Mapping: ingest.Mapping{Segments: []string{"platform"}}}
+		if _, err := pipeline.Run(context.Background(), in, exps, opts); err != nil {
+			t.Fatal(err)
+		}
+		return got
+	}
+	if got := runSizes("", exps); !slices.Equal(got, []int64{total}) {
+		t.Errorf("run without a state: BeforeRead got %v, want [%d]", got, total)
+	}
+	if got := runSizes(state, exps); !slices.Equal(got, []int64{total}) {
+		t.Errorf("first night: BeforeRead got %v, want [%d]", got, total)
+	}
+	writeDay(t, dir, days[3], files[days[3]])
+	day := int64(len(files[days[3]]))
+	total += day
+	if got := runSizes(state, exps); !slices.Equal(got, []int64{day}) {
+		t.Errorf("night that resumes: BeforeRead got %v, want [%d]", got, day)
+	}
+	changed := slices.Clone(exps)
+	changed[0].Spec.Metrics = slices.Clone(changed[0].Spec.Metrics)
+	changed[0].Spec.Metrics[0].Window = 5 * 24 * time.Hour
+	if got := runSizes(state, changed); !slices.Equal(got, []int64{total}) {
+		t.Errorf("night with a changed definition: BeforeRead got %v, want [%d]", got, total)
+	}
+}
