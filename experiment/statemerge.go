@@ -12,6 +12,8 @@ import (
 	"slices"
 	"sync"
 	"sync/atomic"
+
+	"github.com/armtally/armtally/experiment/internal/mapped"
 )
 
 // mergeResult is a tally's units merged with a saved state: the blocks of
@@ -265,7 +267,9 @@ func (mc *mergeCtx) run() ([]*mergeWorker, error) {
 				if k >= tasks {
 					return
 				}
-				if errs[k] = mc.task(k, w); errs[k] != nil {
+				// The saved blocks may be mapped from a file: a fault
+				// on reading them fails the task instead of the process.
+				if errs[k] = mapped.Guard(errStateFault, func() error { return mc.task(k, w) }); errs[k] != nil {
 					failed.Store(true)
 				}
 				mc.emit(k, w.enc, errs[k] != nil)

@@ -14,6 +14,7 @@ import (
 	"strings"
 
 	"github.com/armtally/armtally/experiment/hugepage"
+	"github.com/armtally/armtally/experiment/internal/mapped"
 )
 
 // A Tallier's state can be saved after a run (WriteState) and resumed by a
@@ -83,6 +84,10 @@ const (
 // or damaged file.
 var ErrStateFormat = errors.New("not a usable saved tally state")
 
+// errStateFault is a fault on reading a saved state mapped from a file
+// that was cut short while in use (see mapped.Guard).
+var errStateFault = fmt.Errorf("%w: its bytes could not be read", ErrStateFormat)
+
 // savedState is a saved state as ReadState loads it: the blocks still
 // encoded.
 type savedState struct {
@@ -139,8 +144,14 @@ func (t *Tallier) WriteState(w io.Writer) error {
 	var m *mergeResult
 	if f := t.fin; f != nil && f.merged != nil && f.merged.inMemory {
 		m = f.merged
-		for _, b := range m.blocks {
-			sw.write(b.data)
+		// Passed blocks may still be the saved state's mapped bytes.
+		if err := mapped.Guard(errStateFault, func() error {
+			for _, b := range m.blocks {
+				sw.write(b.data)
+			}
+			return nil
+		}); err != nil {
+			return err
 		}
 	} else {
 		var err error
@@ -243,9 +254,15 @@ func (t *Tallier) ReadState(b []byte) error {
 	if t.diag.RowsRead > 0 || t.hasFresh || t.saved != nil {
 		return errors.New("ReadState: the tallier has read rows already")
 	}
-	sv, err := t.readState(b)
+	var sv *savedState
+	err := mapped.Guard(errStateFault, func() (err error) {
+		if sv, err = t.readState(b); err != nil {
+			err = fmt.Errorf("%w: %w", ErrStateFormat, err)
+		}
+		return err
+	})
 	if err != nil {
-		return fmt.Errorf("%w: %w", ErrStateFormat, err)
+		return err
 	}
 	t.saved = sv
 	t.fin = nil
@@ -273,7 +290,14 @@ func (t *Tallier) ExpectGrowth(share float64) {
 	// Keys longer than maxKeyGuess (or a damaged block's sizes) leave the
 	// arena to grow as before.
 	const maxKeyGuess = 256
-	keyBytes := per * min(t.saved.keyLen(newColShape(len(t.spec.Metrics), len(t.spec.Segments))), maxKeyGuess)
+	var keyLen int
+	// A fault here (a mapped state cut short) sizes no arena; the merge
+	// reports it.
+	_ = mapped.Guard(errStateFault, func() error {
+		keyLen = t.saved.keyLen(newColShape(len(t.spec.Metrics), len(t.spec.Segments)))
+		return nil
+	})
+	keyBytes := per * min(keyLen, maxKeyGuess)
 	for _, pt := range t.parts {
 		if pt.units.len() > 0 {
 			continue

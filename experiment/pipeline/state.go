@@ -18,6 +18,7 @@ import (
 	"runtime/debug"
 
 	"github.com/armtally/armtally/experiment"
+	"github.com/armtally/armtally/experiment/internal/mapped"
 	"github.com/armtally/armtally/ingest"
 )
 
@@ -161,12 +162,12 @@ func contentHash(s ingest.Source) (string, error) {
 // state file (positioned at the first saved tally), its saved counts and
 // the sources not in its manifest; or nil and a reason to read everything
 // ("" when there is no state file).
-func planResume(path, def string, files []fileEntry, srcs []ingest.Source, mapped bool) (*stateFile, []ingest.Source, string) {
-	sf, why := openStateFile(path, mapped)
+func planResume(path, def string, files []fileEntry, srcs []ingest.Source, useMap bool) (*stateFile, []ingest.Source, string) {
+	sf, why := openStateFile(path, useMap)
 	if sf == nil {
 		return nil, nil, why
 	}
-	if why = sf.readHeader(def); why != "" {
+	if why = sf.checkedHeader(def); why != "" {
 		sf.close()
 		return nil, nil, why
 	}
@@ -217,8 +218,8 @@ type stateFile struct {
 // openStateFile maps the state file (reads it into memory when not
 // mapped); it returns nil and a reason when it
 // cannot be read ("" when there is none).
-func openStateFile(path string, mapped bool) (*stateFile, string) {
-	data, release, err := readFile(path, mapped)
+func openStateFile(path string, useMap bool) (*stateFile, string) {
+	data, release, err := readFile(path, useMap)
 	if errors.Is(err, fs.ErrNotExist) {
 		return nil, ""
 	}
@@ -231,6 +232,22 @@ func openStateFile(path string, mapped bool) (*stateFile, string) {
 // close releases the file's bytes: after the last use of the talliers
 // that read them.
 func (sf *stateFile) close() { sf.release() }
+
+// checkedHeader is readHeader with a fault on reading the mapped file
+// (cut short since it was opened) returned as a reason, not a crash.
+func (sf *stateFile) checkedHeader(def string) string {
+	var why string
+	if err := mapped.Guard(errStateUnreadable, func() error {
+		why = sf.readHeader(def)
+		return nil
+	}); err != nil {
+		return err.Error()
+	}
+	return why
+}
+
+// errStateUnreadable is a fault on reading a mapped state file.
+var errStateUnreadable = errors.New("the state file cannot be read")
 
 // readHeader reads the layout version and the trailer; it returns a
 // reason when the state cannot be used.
