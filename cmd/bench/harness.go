@@ -134,7 +134,7 @@ func runHarness(args []string, stdout, stderr io.Writer) error {
 	fs.IntVar(&f.csvUsers, "csv-users", 1_000_000, "exposed units of the CSV log")
 	fs.IntVar(&f.csvLargeUsers, "csv-large-users", 10_000_000, "exposed units of the large CSV log (10M units: about 5.7 GB, written only when the part csv-large runs and the disk has room)")
 	fs.IntVar(&f.incrementalUsers, "incremental-users", 0, "exposed units of the partitioned export (0: --users)")
-	fs.StringVar(&f.incrementalNights, "incremental-nights", "17,30,last", "nights of the incremental part, comma-separated: N times the export cut to its first N days (day 17, 2026-11-11, is inside the exposure window 2026-11-03 to 2026-11-19; day 30, 2026-11-24, is the issue's case, a 30-day export, whose last night comes after the generated exposures, 2026-11-02 to 2026-11-15, and the 7 days of their purchases), \"last\" the whole export")
+	fs.StringVar(&f.incrementalNights, "incremental-nights", "17,30,last", "nights of the incremental part, comma-separated: N times the export cut to its first N days (day 17, 2026-11-11, is inside the exposure window 2026-11-03 to 2026-11-19; day 30, 2026-11-24, is the issue's case, a 30-day export: after the last exposure, 2026-11-16, its 0.33M rows still hold 0.11M purchases of saved units), \"last\" the whole export")
 	fs.Uint64Var(&f.seed, "seed", 1, "random seed of every log")
 	fs.IntVar(&f.runs, "runs", 3, "timed runs per measurement, armtally and DuckDB alternated (after one untimed check run)")
 	fs.IntVar(&f.scalingRuns, "scaling-runs", 0, "timed runs of the 2x-events log (0: --runs)")
