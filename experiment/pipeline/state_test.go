@@ -152,14 +152,11 @@ func TestIncrementalEqualsFull(t *testing.T) {
 	}
 }
 
-// Each change the saved state cannot absorb makes the run read every file
-// again, say so in each readout, and still give the full run's readouts
-// otherwise; a late file the state can absorb does not.
-func TestIncrementalRecompute(t *testing.T) {
-	days, files := exportDays(t)
-	exps := stateExperiments()
-	// A unit first exposed on day 20, and an exposure of it in the same
-	// arm on day 10: a late row before its saved first exposure.
+// lateExposureFile returns a day-10 file holding one exposure of a unit
+// first exposed on day 20, in its arm: a late row before its saved first
+// exposure, which a state saved after day 20 cannot absorb.
+func lateExposureFile(t *testing.T, days []string, files map[string][]byte) []byte {
+	t.Helper()
 	var lateRow []string
 	r := csv.NewReader(bytes.NewReader(files[days[20]]))
 	recs, _ := r.ReadAll()
@@ -173,7 +170,16 @@ func TestIncrementalRecompute(t *testing.T) {
 		t.Fatal("no unit first exposed on day 20")
 	}
 	lateRow[1] = strings.Replace(lateRow[1], days[20][3:], days[10][3:], 1)
-	lateExposure := []byte(strings.Join(sampledata.Columns(), ",") + "\n" + strings.Join(lateRow, ",") + "\n")
+	return []byte(strings.Join(sampledata.Columns(), ",") + "\n" + strings.Join(lateRow, ",") + "\n")
+}
+
+// Each change the saved state cannot absorb makes the run read every file
+// again, say so in each readout, and still give the full run's readouts
+// otherwise; a late file the state can absorb does not.
+func TestIncrementalRecompute(t *testing.T) {
+	days, files := exportDays(t)
+	exps := stateExperiments()
+	lateExposure := lateExposureFile(t, days, files)
 	lateNoise := []byte(strings.Join(sampledata.Columns(), ",") + "\n" + "u9999999," + days[10][3:] + "T12:00:00Z,page_view,,,web\n")
 
 	tests := []struct {
@@ -395,7 +401,7 @@ func TestBeforeReadSizes(t *testing.T) {
 		writeDay(t, dir, d, files[d])
 		total += int64(len(files[d]))
 	}
-	runSizes := func(state string, exps []pipeline.Experiment) []int64 {
+	runSizes := func(dir, state string, exps []pipeline.Experiment) []int64 {
 		t.Helper()
 		var got []int64
 		opts := pipeline.Options{State: state, Workers: 2, BeforeRead: func(n int64) { got = append(got, n) }}
@@ -405,22 +411,39 @@ func TestBeforeReadSizes(t *testing.T) {
 		}
 		return got
 	}
-	if got := runSizes("", exps); !slices.Equal(got, []int64{total}) {
+	if got := runSizes(dir, "", exps); !slices.Equal(got, []int64{total}) {
 		t.Errorf("run without a state: BeforeRead got %v, want [%d]", got, total)
 	}
-	if got := runSizes(state, exps); !slices.Equal(got, []int64{total}) {
+	if got := runSizes(dir, state, exps); !slices.Equal(got, []int64{total}) {
 		t.Errorf("first night: BeforeRead got %v, want [%d]", got, total)
 	}
 	writeDay(t, dir, days[3], files[days[3]])
 	day := int64(len(files[days[3]]))
 	total += day
-	if got := runSizes(state, exps); !slices.Equal(got, []int64{day}) {
+	if got := runSizes(dir, state, exps); !slices.Equal(got, []int64{day}) {
 		t.Errorf("night that resumes: BeforeRead got %v, want [%d]", got, day)
 	}
 	changed := slices.Clone(exps)
 	changed[0].Spec.Metrics = slices.Clone(changed[0].Spec.Metrics)
 	changed[0].Spec.Metrics[0].Window = 5 * 24 * time.Hour
-	if got := runSizes(state, changed); !slices.Equal(got, []int64{total}) {
+	if got := runSizes(dir, state, changed); !slices.Equal(got, []int64{total}) {
 		t.Errorf("night with a changed definition: BeforeRead got %v, want [%d]", got, total)
+	}
+
+	// A night that resumes and then meets a row its state cannot absorb
+	// is told of its new files, then of every file.
+	dir, state, total = t.TempDir(), filepath.Join(t.TempDir(), "tally.state"), 0
+	for _, d := range days[:21] {
+		writeDay(t, dir, d, files[d])
+		total += int64(len(files[d]))
+	}
+	runSizes(dir, state, exps)
+	late := lateExposureFile(t, days, files)
+	writeFile(t, filepath.Join(dir, days[10], "part-1.csv"), late)
+	writeDay(t, dir, days[21], files[days[21]])
+	fresh := int64(len(late) + len(files[days[21]]))
+	total += fresh
+	if got := runSizes(dir, state, exps); !slices.Equal(got, []int64{fresh, total}) {
+		t.Errorf("night that recomputes: BeforeRead got %v, want [%d %d]", got, fresh, total)
 	}
 }
