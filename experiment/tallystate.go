@@ -13,7 +13,6 @@ import (
 	"slices"
 	"strings"
 
-	"github.com/armtally/armtally/experiment/hugepage"
 	"github.com/armtally/armtally/experiment/internal/mapped"
 )
 
@@ -288,11 +287,11 @@ func (t *Tallier) ExpectGrowth(share float64) {
 	rows = min(rows, 2*float64(t.saved.units)+1<<20)
 	per := int(rows)/len(t.parts) + 1
 	// Keys longer than maxKeyGuess (or a damaged block's sizes) leave the
-	// arena to grow as before.
+	// first slab of keys to grow as before.
 	const maxKeyGuess = 256
 	var keyLen int
-	// A fault here (a mapped state cut short) sizes no arena; the merge
-	// reports it.
+	// A fault here (a mapped state cut short) reserves no key slab; the
+	// merge reports it.
 	_ = mapped.Guard(errStateFault, func() error {
 		keyLen = t.saved.keyLen(newColShape(len(t.spec.Metrics), len(t.spec.Segments)))
 		return nil
@@ -313,12 +312,9 @@ func (t *Tallier) ExpectGrowth(share float64) {
 			// (mapping the zero page) and then faulted again by its write.
 			clear(pt.units.slots)
 		}
-		// The arena doubles as keys arrive, copying them and leaving the
-		// smaller arenas as garbage: made once (in advised huge pages,
-		// like the arenas lookupHashed grows), it holds the estimate.
-		if keyBytes > cap(pt.units.arena) {
-			pt.units.arena = hugepage.Make[byte](keyBytes)[:0]
-		}
+		// The first slab of keys doubles up to a full slab as keys
+		// arrive: made once, it holds the estimate (up to a full slab).
+		pt.units.reserveKeys(keyBytes)
 	}
 }
 

@@ -404,7 +404,7 @@ func TestResumedTallyExpectGrowth(t *testing.T) {
 		t.Fatal(err)
 	}
 	tl.ExpectGrowth(0.5) // one day on top of two
-	sized, arena := len(tl.parts[0].units.slots), cap(tl.parts[0].units.arena)
+	sized, arena := len(tl.parts[0].units.slots), tl.parts[0].units.keyBytes()
 	if sized <= unitIndexMinSlots || arena == 0 {
 		t.Fatalf("ExpectGrowth left %d slots and %d bytes of arena", sized, arena)
 	}
@@ -414,7 +414,7 @@ func TestResumedTallyExpectGrowth(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	if n, a := len(tl.parts[0].units.slots), cap(tl.parts[0].units.arena); n != sized || a != arena {
+	if n, a := len(tl.parts[0].units.slots), tl.parts[0].units.keyBytes(); n != sized || a != arena {
 		t.Errorf("the unit index grew from %d to %d slots and %d to %d bytes of arena after ExpectGrowth", sized, n, arena, a)
 	}
 	got, err := tl.Tally()

@@ -9,18 +9,42 @@ import (
 
 // unitIndex numbers unit keys densely (0, 1, ...) in order of first
 // sight. It holds no pointers the collector must follow per unit: the key
-// bytes live in one arena, the key boundaries in a slice of offsets, and
-// the hash table is open addressing over uint64 slots, each holding the
-// low 32 bits of the key's hash (high half) and the unit index plus one
-// (low half; zero marks an empty slot). Collisions are resolved by
-// comparing the key bytes.
+// bytes lie back to back in slabs, the key boundaries in a slice of
+// offsets, and the hash table is open addressing over uint64 slots, each
+// holding the low 32 bits of the key's hash (high half) and the unit
+// index plus one (low half; zero marks an empty slot). Collisions are
+// resolved by comparing the key bytes.
+//
+// The slabs are 1<<slabBits bytes (the first one doubles up to that size,
+// so that a tally of a handful of units holds little), and growing the
+// keys past a slab starts a new one instead of copying them all into a
+// doubled array, which at ten million units copied about as many bytes
+// as the keys hold and faulted in twice their memory. ends[u] is the end
+// of key u as an offset over all slabs, with flags in its top bits: a key
+// never straddles two slabs (one that would starts the next slab,
+// keyAtSlab), and one longer than a slab is kept on its own in big
+// (keyBig).
 type unitIndex struct {
-	seed  maphash.Seed
-	slots []uint64
-	mask  uint32
-	arena []byte          // the keys, back to back
-	ends  chunked[uint64] // ends[u] is the end of key u in arena; it starts at ends[u-1] (0 for u = 0)
+	seed     maphash.Seed
+	slots    []uint64
+	mask     uint32
+	slabs    [][]byte
+	used     uint64 // the offset of the next key's first byte
+	slabBits uint
+	ends     chunked[uint64] // ends[u] is the end of key u (see above); it starts at the end of key u-1 (0 for u = 0) unless flagged
+	big      map[int32][]byte
 }
+
+const (
+	// keySlabBits sets the size of a unit index's full slabs: 16 MiB,
+	// whole huge pages (see hugepage.Advise).
+	keySlabBits = 24
+	// firstSlab is the size of a unit index's first slab when it is made.
+	firstSlab = 256
+	keyAtSlab = 1 << 63 // the key starts at the start of its slab
+	keyBig    = 1 << 62 // the key is in big
+	keyFlags  = keyAtSlab | keyBig
+)
 
 // unitIndexMinSlots is the size of a new index's table. It is small so
 // that a run of thousands of experiments, most with few units, holds
@@ -33,9 +57,10 @@ func newUnitIndex() unitIndex { return newUnitIndexSeed(maphash.MakeSeed()) }
 // caller can hash a key once (hashKey) for several uses.
 func newUnitIndexSeed(seed maphash.Seed) unitIndex {
 	return unitIndex{
-		seed:  seed,
-		slots: make([]uint64, unitIndexMinSlots),
-		mask:  unitIndexMinSlots - 1,
+		seed:     seed,
+		slots:    make([]uint64, unitIndexMinSlots),
+		mask:     unitIndexMinSlots - 1,
+		slabBits: keySlabBits,
 	}
 }
 
@@ -44,12 +69,23 @@ func (x *unitIndex) len() int { return x.ends.len() }
 
 // key returns the bytes of unit u's key; they are not to be modified.
 func (x *unitIndex) key(u int32) []byte {
-	var lo uint64
-	if u > 0 {
-		lo = *x.ends.at(int(u) - 1)
+	e := *x.ends.at(int(u))
+	if e&keyBig != 0 {
+		return x.big[u]
 	}
-	hi := *x.ends.at(int(u))
-	return x.arena[lo:hi:hi]
+	hi := e &^ keyFlags
+	var lo uint64
+	switch {
+	case e&keyAtSlab != 0:
+		lo = (hi - 1) >> x.slabBits << x.slabBits
+	case u > 0:
+		lo = *x.ends.at(int(u) - 1) &^ keyFlags
+	}
+	if lo == hi {
+		return nil
+	}
+	off := lo & (1<<x.slabBits - 1)
+	return x.slabs[lo>>x.slabBits][off : off+hi-lo : off+hi-lo]
 }
 
 // keyString returns unit u's key as a fresh string.
@@ -57,6 +93,83 @@ func (x *unitIndex) keyString(u int32) string { return string(x.key(u)) }
 
 // compare orders units a and b by key, bytewise.
 func (x *unitIndex) compare(a, b int32) int { return bytes.Compare(x.key(a), x.key(b)) }
+
+// addKey stores key as the key of unit u, the next unit.
+func (x *unitIndex) addKey(u int32, key string) {
+	n := uint64(len(key))
+	full := uint64(1) << x.slabBits
+	switch {
+	case n > full:
+		if x.big == nil {
+			x.big = make(map[int32][]byte)
+		}
+		x.big[u] = []byte(key)
+		x.ends.add(x.used | keyBig)
+		return
+	case n == 0:
+		x.ends.add(x.used)
+		return
+	}
+	var flags uint64
+	i, off := x.used>>x.slabBits, x.used&(full-1)
+	if off+n > full {
+		// Past the end of this slab's full size: the key starts the next.
+		i, off, flags = i+1, 0, keyAtSlab
+	}
+	switch {
+	case int(i) == len(x.slabs) && i == 0:
+		x.slabs = append(x.slabs, advisedBytes(min(full, max(firstSlab, ceilPow2(n)))))
+	case int(i) == len(x.slabs):
+		x.slabs = append(x.slabs, advisedBytes(full))
+	case off+n > uint64(len(x.slabs[i])):
+		// The first slab, not yet full size: doubled, copied.
+		grown := advisedBytes(min(full, max(2*uint64(len(x.slabs[i])), ceilPow2(off+n))))
+		copy(grown, x.slabs[i][:off])
+		x.slabs[i] = grown
+	}
+	copy(x.slabs[i][off:], key)
+	x.used = i<<x.slabBits + off + n
+	x.ends.add(x.used | flags)
+}
+
+// reserveKeys makes the first slab hold about n bytes of keys (at most a
+// full slab) before any key is added, so that it does not double its way
+// there; see Tallier.ExpectGrowth.
+func (x *unitIndex) reserveKeys(n int) {
+	if len(x.slabs) > 0 || n <= 0 {
+		return
+	}
+	x.slabs = [][]byte{advisedBytes(min(uint64(1)<<x.slabBits, ceilPow2(uint64(n))))}
+}
+
+// keyBytes returns the bytes the slabs hold room for.
+func (x *unitIndex) keyBytes() int {
+	n := 0
+	for _, s := range x.slabs {
+		n += len(s)
+	}
+	return n
+}
+
+// advisedBytes returns n zeroed bytes, advised for huge pages in place
+// from 4 MiB on (the whole 2 MiB pages inside them; see chunked.next for
+// why not hugepage.Make).
+func advisedBytes(n uint64) []byte {
+	b := make([]byte, n)
+	if n >= 4<<20 {
+		hugepage.Advise(b)
+	}
+	return b
+}
+
+// ceilPow2 returns the least power of two at least n (n >= 1).
+func ceilPow2(n uint64) uint64 {
+	p := uint64(1)
+	for p < n {
+		p <<= 1
+	}
+	return p
+}
 
 // lookup returns the index of key and true, or, when key is new, adds it
 // as unit x.len() and returns that index and false.
@@ -81,16 +194,7 @@ func (x *unitIndex) lookupHashed(key string, hash uint64) (int32, bool) {
 		}
 	}
 	u := int32(x.ends.len())
-	if len(x.arena)+len(key) > cap(x.arena) {
-		// Double the arena: append grows a large slice by about a
-		// quarter, which copied the keys about four times over and left
-		// that much garbage for the collector's headroom. The new arena
-		// lies in huge pages advised before the copy first touches it.
-		grown := hugepage.Make[byte](cap(x.arena) + max(len(key), cap(x.arena)))
-		x.arena = grown[:copy(grown, x.arena)]
-	}
-	x.arena = append(x.arena, key...)
-	x.ends.add(uint64(len(x.arena)))
+	x.addKey(u, key)
 	// Keep the load at most three quarters: with the hash bits in the
 	// slot, a probe rarely reads a key, and the smaller table means fewer
 	// fresh pages to fault in as it grows.
@@ -114,8 +218,9 @@ func (x *unitIndex) touch(hash uint64) (uint64, int32) {
 	if uint32(s>>32) == h {
 		if u := uint32(s) - 1; int(u) < x.ends.len() {
 			e := *x.ends.at(int(u))
-			if e > 0 && e <= uint64(len(x.arena)) {
-				e += uint64(x.arena[e-1])
+			if hi := e &^ keyFlags; e&keyBig == 0 && hi > 0 && hi <= x.used {
+				p := hi - 1
+				e += uint64(x.slabs[p>>x.slabBits][p&(1<<x.slabBits-1)])
 			}
 			return s + e, int32(u)
 		}

@@ -2,6 +2,7 @@ package experiment
 
 import (
 	"fmt"
+	"hash/maphash"
 	"strings"
 	"testing"
 )
@@ -38,5 +39,60 @@ func TestUnitIndex(t *testing.T) {
 	}
 	if x.compare(0, 1) >= 0 || x.compare(1, 0) <= 0 || x.compare(2, 2) != 0 {
 		t.Fatal("compare disagrees with bytewise order")
+	}
+}
+
+// With slabs of 64 bytes, keys fill slabs exactly, start the next slab
+// when they would straddle two, and are kept on their own when longer
+// than a slab; each reads back exactly, is found again, and its last byte
+// is what touch reads (common practice: a store must give back what it
+// was given).
+func TestUnitIndexSlabs(t *testing.T) {
+	x := newUnitIndex()
+	x.slabBits = 6
+	keys := []string{
+		strings.Repeat("a", 64),      // fills the first slab exactly (after its doublings)
+		"b", strings.Repeat("c", 63), // fill the second exactly
+		strings.Repeat("d", 60), strings.Repeat("e", 10), // e starts the fourth slab
+		"", strings.Repeat("f", 65), "g", // empty; longer than a slab; after it
+		strings.Repeat("h", 64), "\x00", "i", // a full slab after a padded one
+	}
+	for i := range 200 {
+		keys = append(keys, strings.Repeat(string(rune('j'+i%10)), 1+i%70)+fmt.Sprint(i))
+	}
+	for pass := range 2 {
+		for i, k := range keys {
+			u, seen := x.lookup(k)
+			if int(u) != i || seen != (pass == 1) {
+				t.Fatalf("pass %d: lookup(%q) = %d, %v; want %d, %v", pass, k, u, seen, i, pass == 1)
+			}
+		}
+	}
+	touched := 0
+	for i, k := range keys {
+		if got := x.keyString(int32(i)); got != k {
+			t.Fatalf("key %d = %q, want %q", i, got, k)
+		}
+		if k == "" || len(k) > 64 {
+			continue
+		}
+		// touch names the unit in the key's first slot (-1 when a
+		// collision put it further on).
+		if _, u := x.touch(maphash.String(x.seed, k)); u == int32(i) {
+			touched++
+		} else if u != -1 {
+			t.Fatalf("touch of key %d names unit %d", i, u)
+		}
+	}
+	if touched < len(keys)/2 {
+		t.Fatalf("touch named %d of %d units", touched, len(keys))
+	}
+	if len(x.slabs) < 10 || len(x.big) == 0 {
+		t.Fatalf("%d slabs and %d keys on their own: the test did not reach what it checks", len(x.slabs), len(x.big))
+	}
+	for i, s := range x.slabs {
+		if len(s) > 64 {
+			t.Fatalf("slab %d holds %d bytes, more than a slab", i, len(s))
+		}
 	}
 }
