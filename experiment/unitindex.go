@@ -142,15 +142,6 @@ func (x *unitIndex) reserveKeys(n int) {
 	x.slabs = [][]byte{advisedBytes(min(uint64(1)<<x.slabBits, ceilPow2(uint64(n))))}
 }
 
-// keyBytes returns the bytes the slabs hold room for.
-func (x *unitIndex) keyBytes() int {
-	n := 0
-	for _, s := range x.slabs {
-		n += len(s)
-	}
-	return n
-}
-
 // advisedBytes returns n zeroed bytes, advised for huge pages in place
 // from 4 MiB on (the whole 2 MiB pages inside them; see chunked.next for
 // why not hugepage.Make).

@@ -247,11 +247,13 @@ func Run(ctx context.Context, in Input, exps []Experiment, opts Options) (*Resul
 		return nil, err
 	}
 	if opts.BeforeRead != nil && in.Records == nil {
-		// A source that cannot be listed or sized here fails, with its
-		// name, when the reader opens it.
-		if srcs, err := sources(in); err == nil {
-			opts.BeforeRead(sourceBytes(srcs))
+		// Listed once: the reader opens these sources.
+		srcs, err := sources(in)
+		if err != nil {
+			return nil, err
 		}
+		in.Paths, in.FS, in.Sources = nil, nil, srcs
+		opts.BeforeRead(sourceBytes(srcs))
 	}
 	r, err := openReader(in, exps, events, opts.Workers)
 	if err != nil {
