@@ -4,6 +4,7 @@ import (
 	"errors"
 	"fmt"
 	"io"
+	"math"
 	"unsafe"
 
 	"github.com/apache/arrow-go/v18/arrow"
@@ -128,6 +129,11 @@ func (r *parquetReader) nextBatch(workers int, a *accounting) (rec arrow.RecordB
 			return nil, io.EOF
 		}
 		pl.cur = res
+		if !a.budget {
+			// Without a budget the worker stopped at its first bad row:
+			// its filtered rows are those before it.
+			a.filtered.merge(res.filtered)
+		}
 		for _, b := range res.bad {
 			a.rowsRead = pl.base + b.row
 			if err := a.bad(b); err != nil {
@@ -135,7 +141,9 @@ func (r *parquetReader) nextBatch(workers int, a *accounting) (rec arrow.RecordB
 			}
 		}
 		a.rowsRead = pl.base + r.rgStart[res.rg] + res.rows
-		a.filtered.merge(res.filtered)
+		if a.budget {
+			a.filtered.merge(res.filtered)
+		}
 		if res.err != nil {
 			return nil, res.err
 		}
@@ -161,6 +169,7 @@ type rgWorker struct {
 	// failed is the column fillWindow stopped at.
 	need    []bool
 	needBuf []bool
+	sel     []int32 // the window's needed rows (selectNeeded)
 	failed  int
 }
 
@@ -181,8 +190,8 @@ func (r *parquetReader) newWorker(budget bool, stop <-chan struct{}) *rgWorker {
 			bc.cells = make([]cell, bulkWindow)
 		}
 		if i == colEvent && r.p.events != nil {
-			bc.events = r.p.events
-			bc.keep = make([]bool, bulkWindow)
+			bc.events, bc.exposure = r.p.events, r.p.exposure
+			bc.verdicts = make([]uint8, bulkWindow)
 		}
 		bc.empties = i == colUser && r.p.events != nil
 		w.cols[i] = bc
@@ -304,7 +313,7 @@ func (w *rgWorker) openChunks(rg int) (int64, error) {
 func (w *rgWorker) fillWindow(n int) error {
 	w.need = nil
 	uc, tc, ec := w.cols[colUser], w.cols[colTS], w.cols[colEvent]
-	if uc == nil || tc == nil || ec == nil || ec.keep == nil {
+	if uc == nil || tc == nil || ec == nil || ec.verdicts == nil {
 		for i, c := range w.cols {
 			if c == nil {
 				continue
@@ -367,21 +376,47 @@ func (w *rgWorker) fillBeforeUser(i, n int) (err error) {
 
 // rowsNeeded returns, per row of the window, whether the row needs more
 // than its ts and event by what they hold: true for a row of a wanted
-// event, an exposure, or a row whose ts or event is invalid. fillUser then
-// marks the rows whose user is null or empty. With user, ts and event
-// from the file and an event filter only (see fillWindow).
+// event, an exposure, or a row whose ts or event is invalid (the event's
+// part is its verdict, evNeed, decided once per dictionary entry).
+// fillUser then marks the rows whose user is null or empty. With user, ts
+// and event from the file and an event filter only (see fillWindow).
 func (w *rgWorker) rowsNeeded(n int) []bool {
 	tc, ec := w.cols[colTS], w.cols[colEvent]
 	if w.needBuf == nil {
 		w.needBuf = make([]bool, bulkWindow)
 	}
-	need, exposure := w.needBuf[:n], w.r.p.exposure
-	times, keep, events := tc.times[:n], ec.keep[:n], ec.cells[:n]
+	need := w.needBuf[:n]
+	times, verdicts := tc.times[:n], ec.verdicts[:n]
 	for k := range need {
-		ev := &events[k]
-		need[k] = keep[k] || times[k].state != tsOK || ev.null || ev.s == "" || ev.s == exposure
+		need[k] = verdicts[k]&evNeed != 0 || times[k].state != tsOK
 	}
 	return need
+}
+
+// selectNeeded lists the needed rows of the window (w.need) in w.sel and
+// returns the count of the others, the valid rows of unwanted events,
+// without a branch per row: which rows are needed follows no pattern.
+func (w *rgWorker) selectNeeded(n int) ([]int32, filterCount) {
+	if w.sel == nil {
+		w.sel = make([]int32, bulkWindow)
+	}
+	need, times, sel := w.need[:n], w.cols[colTS].times[:n], w.sel[:n]
+	got, maxTS := 0, int64(math.MinInt64)
+	for k, nd := range need {
+		sel[got] = int32(k)
+		b := b2i(nd)
+		got += b
+		// A needed row's ts is masked to the least int64, which leaves
+		// the largest ts as it is.
+		mask := int64(-b)
+		maxTS = max(maxTS, times[k].ns&^mask|math.MinInt64&mask)
+	}
+	skipped := n - got
+	var f filterCount
+	if skipped > 0 {
+		f = filterCount{n: int64(skipped), maxTS: maxTS}
+	}
+	return sel[:got], f
 }
 
 // window applies the row rules to the n decoded rows of the window that
@@ -389,47 +424,74 @@ func (w *rgWorker) rowsNeeded(n int) []bool {
 // puts the kept ones into batches. It returns false when a bad row stops
 // the reader (there is no budget); res.rows then counts the rows up to it.
 func (w *rgWorker) window(res *rgResult, rg int, done int64, n int) bool {
-	r := w.r
-	base := r.rgStart[rg] + done
-	need := w.need // see rowsNeeded
-	for k := 0; k < n; k++ {
-		if need != nil && !need[k] {
-			// A valid row of an unwanted event: only counted.
-			res.filtered.add(w.cols[colTS].times[k].ns)
-			continue
-		}
-		row := &w.row
-		r.part.fill(row)
-		for i, c := range w.cols {
-			if c == nil {
-				continue
-			}
-			if i == colTS {
-				row.ts, row.cells[i], row.tsErr = c.times[k].get(&c.ts)
-				continue
-			}
-			row.cells[i] = c.cells[k]
-		}
-		if col, reason := r.p.check(row); reason != nil {
-			b := r.p.badRow(r.file, base+int64(k)+1, rg, row, col, reason)
-			b.value = string([]byte(b.value)) // the page buffers are reused
-			res.bad = append(res.bad, b)
-			if !w.budget {
-				res.rows = done + int64(k) + 1
+	if w.need == nil {
+		for k := 0; k < n; k++ {
+			if !w.apply(res, rg, done, k) {
 				return false
 			}
+		}
+		return true
+	}
+	// The rows not needed (see rowsNeeded) are valid rows of unwanted
+	// events: only counted.
+	sel, skipped := w.selectNeeded(n)
+	for _, k := range sel {
+		if !w.apply(res, rg, done, int(k)) {
+			// Only the rows before the one that stopped the reader count.
+			for j := range int(k) {
+				if !w.need[j] {
+					res.filtered.add(w.cols[colTS].times[j].ns)
+				}
+			}
+			return false
+		}
+	}
+	res.filtered.merge(skipped)
+	return true
+}
+
+// apply applies the row rules to row k of the window and appends it to
+// the batch when it is kept; it returns false when the row is bad and
+// stops the reader.
+func (w *rgWorker) apply(res *rgResult, rg int, done int64, k int) bool {
+	r := w.r
+	row := &w.row
+	r.part.fill(row)
+	for i, c := range w.cols {
+		if c == nil {
 			continue
 		}
-		if !r.p.keep(row) {
+		if i == colTS {
+			row.ts, row.cells[i], row.tsErr = c.times[k].get(&c.ts)
+			continue
+		}
+		row.cells[i] = c.cells[k]
+	}
+	if col, reason := r.p.check(row); reason != nil {
+		b := r.p.badRow(r.file, r.rgStart[rg]+done+int64(k)+1, rg, row, col, reason)
+		b.value = string([]byte(b.value)) // the page buffers are reused
+		res.bad = append(res.bad, b)
+		if !w.budget {
+			res.rows = done + int64(k) + 1
+			return false
+		}
+		return true
+	}
+	// With a filter, the event column's verdict is plan.keep's.
+	if ec := w.cols[colEvent]; ec != nil && ec.verdicts != nil && w.need != nil {
+		if ec.verdicts[k]&evKeep == 0 {
 			res.filtered.add(row.ts)
-			continue
+			return true
 		}
-		w.bld.append(row)
-		w.batch++
-		if w.batch == r.batchSize || w.bld.full() {
-			res.recs = append(res.recs, w.bld.newRecord())
-			w.batch = 0
-		}
+	} else if !r.p.keep(row) {
+		res.filtered.add(row.ts)
+		return true
+	}
+	w.bld.append(row)
+	w.batch++
+	if w.batch == r.batchSize || w.bld.full() {
+		res.recs = append(res.recs, w.bld.newRecord())
+		w.batch = 0
 	}
 	return true
 }
@@ -460,10 +522,13 @@ func chunkError(file string, rg int, col string, rgRows int64, err error) error 
 // bulkColumn reads one column chunk in windows of rows, page by page.
 type bulkColumn struct {
 	*pqColumn
-	cells  []cell   // text: the window's values; they point into pages
-	times  []tsCell // ts: the window's values
-	events *nameSet
-	keep   []bool // event column with a filter: the window's verdicts
+	cells []cell   // text: the window's values; they point into pages
+	times []tsCell // ts: the window's values
+	// events and exposure are the plan's, on the event column with a
+	// filter; verdicts are then the window's rows' (evKeep, evNeed).
+	events   *nameSet
+	exposure string
+	verdicts []uint8
 
 	pages   parquet.Pages
 	page    parquet.Page
@@ -474,13 +539,13 @@ type bulkColumn struct {
 	vpos    int            // next non-null value of the page
 	nvals   int
 
-	idx      []int32 // dictionary indices of the page, or nil
-	data     []byte  // plain byte arrays of the page
-	offs     []uint32
-	i64      []int64 // plain int64 values of the page
-	lastDict parquet.Dictionary
-	dictStr  []string
-	dictKeep []bool
+	idx         []int32 // dictionary indices of the page, or nil
+	data        []byte  // plain byte arrays of the page
+	offs        []uint32
+	i64         []int64 // plain int64 values of the page
+	lastDict    parquet.Dictionary
+	dictStr     []string
+	dictVerdict []uint8 // per dictionary value, with verdicts
 	// dictEmpty marks the dictionary's empty strings, for a column that
 	// is only checked (fillUser); nil for the other columns.
 	dictEmpty []bool
@@ -493,7 +558,7 @@ func (c *bulkColumn) open(pages parquet.Pages) {
 	c.pages = pages
 }
 
-// fill decodes the next n rows into c.cells or c.times (and c.keep). A
+// fill decodes the next n rows into c.cells or c.times (and c.verdicts). A
 // text column that only the rows marked in need use (nil: every row)
 // leaves the cells of the other rows as they were; their dictionary
 // indices are checked all the same, so that a damaged page fails where it
@@ -524,8 +589,13 @@ func (c *bulkColumn) fill(n int, need []bool) error {
 }
 
 // fillTextNeeded is fillText for the rows marked in need; it skips the
-// values of the others (skip).
+// values of the others (skip). A dictionary-encoded page without verdicts
+// takes one loop over its rows (fillDictNeeded); any other takes runs of
+// needed and skipped rows.
 func (c *bulkColumn) fillTextNeeded(k, m int, need []bool) error {
+	if c.idx != nil && c.verdicts == nil {
+		return c.fillDictNeeded(c.cells[k:k+m], need[:m])
+	}
 	for j := 0; j < m; {
 		e := j
 		for e < m && need[e] {
@@ -546,6 +616,48 @@ func (c *bulkColumn) fillTextNeeded(k, m int, need []bool) error {
 		}
 		j = e
 	}
+	return nil
+}
+
+// fillDictNeeded is fillTextNeeded on a dictionary-encoded page: each
+// row's dictionary index is checked, and its cell filled when it is
+// needed.
+func (c *bulkColumn) fillDictNeeded(cells []cell, need []bool) error {
+	dict := c.dictStr
+	need = need[:len(cells)]
+	if c.levels == nil {
+		idx := c.idx[c.vpos : c.vpos+len(cells)]
+		for j, x := range idx {
+			if uint(x) >= uint(len(dict)) {
+				return dictIndexError(x, len(dict))
+			}
+			if need[j] {
+				cells[j] = cell{s: dict[x]}
+			}
+		}
+		c.pos += len(cells)
+		c.vpos += len(cells)
+		return nil
+	}
+	levels, idx, v := c.levels[c.pos:c.pos+len(cells)], c.idx, c.vpos
+	for j, l := range levels {
+		if l != c.maxDef {
+			if need[j] {
+				cells[j] = cell{null: true}
+			}
+			continue
+		}
+		x := idx[v]
+		v++
+		if uint(x) >= uint(len(dict)) {
+			return dictIndexError(x, len(dict))
+		}
+		if need[j] {
+			cells[j] = cell{s: dict[x]}
+		}
+	}
+	c.pos += len(cells)
+	c.vpos = v
 	return nil
 }
 
@@ -670,34 +782,56 @@ func dictIndexError(x int32, n int) error {
 
 func (c *bulkColumn) fillText(k, m int) error {
 	cells := c.cells[k : k+m]
-	var keep []bool
-	if c.keep != nil {
-		keep = c.keep[k : k+m]
+	var verdicts []uint8
+	if c.verdicts != nil {
+		verdicts = c.verdicts[k : k+m]
 	}
 	for j := range cells {
 		v := c.value()
-		var ok bool
+		var vd uint8
 		switch {
 		case v < 0:
-			cells[j] = cell{null: true}
+			cells[j], vd = cell{null: true}, evNeed
 		case c.idx != nil:
 			x, err := dictIndex(c.idx[v], len(c.dictStr))
 			if err != nil {
 				return err
 			}
 			cells[j] = cell{s: c.dictStr[x]}
-			ok = keep != nil && c.dictKeep[x]
+			if verdicts != nil {
+				vd = c.dictVerdict[x]
+			}
 		default:
 			b := c.data[c.offs[v]:c.offs[v+1]]
 			s := unsafe.String(unsafe.SliceData(b), len(b))
 			cells[j] = cell{s: s}
-			ok = keep != nil && c.events.has(s)
+			if verdicts != nil {
+				vd = c.verdict(s)
+			}
 		}
-		if keep != nil {
-			keep[j] = ok
+		if verdicts != nil {
+			verdicts[j] = vd
 		}
 	}
 	return nil
+}
+
+// The verdicts of an event column with a filter, per row (an event cell's
+// verdict does not depend on the rest of its row).
+const (
+	evKeep = 1 << iota // the event is wanted: plan.keep
+	evNeed             // the row is wanted, an exposure, or its event null or empty: see rowsNeeded
+)
+
+// verdict returns the verdict of the event name s (not null).
+func (c *bulkColumn) verdict(s string) uint8 {
+	switch {
+	case c.events.has(s):
+		return evKeep | evNeed
+	case s == "" || s == c.exposure:
+		return evNeed
+	}
+	return 0
 }
 
 func (c *bulkColumn) fillTS(dst []tsCell) error {
@@ -801,10 +935,10 @@ func (c *bulkColumn) readDictionary(d parquet.Dictionary) error {
 		v := b[offs[i]:offs[i+1]]
 		c.dictStr = append(c.dictStr, unsafe.String(unsafe.SliceData(v), len(v)))
 	}
-	if c.keep != nil {
-		c.dictKeep = c.dictKeep[:0]
+	if c.verdicts != nil {
+		c.dictVerdict = c.dictVerdict[:0]
 		for _, s := range c.dictStr {
-			c.dictKeep = append(c.dictKeep, c.events.has(s))
+			c.dictVerdict = append(c.dictVerdict, c.verdict(s))
 		}
 	}
 	if c.empties {
@@ -858,5 +992,14 @@ func (c *bulkColumn) closePages() {
 	}
 	c.levels, c.idx, c.data, c.offs, c.i64 = nil, nil, nil, nil, nil
 	c.nrows, c.pos, c.vpos, c.nvals = 0, 0, 0, 0
-	c.lastDict, c.dictStr, c.dictKeep, c.dictEmpty, c.dictI64 = nil, c.dictStr[:0], c.dictKeep[:0], c.dictEmpty[:0], nil
+	c.lastDict, c.dictStr, c.dictVerdict, c.dictEmpty, c.dictI64 = nil, c.dictStr[:0], c.dictVerdict[:0], c.dictEmpty[:0], nil
+}
+
+// b2i is 1 for true and 0 for false, without a branch.
+func b2i(b bool) int {
+	var i int
+	if b {
+		i = 1
+	}
+	return i
 }

@@ -120,6 +120,12 @@ func TestBulkPathMatchesRowByRow(t *testing.T) {
 		{"filter", Options{Mapping: m, ExposureEvent: "exposure", PlannedArms: planned, MaxBadRows: NoLimit,
 			Events: []string{"exposure", "purchase"}, BatchSize: 333}},
 		{"filter-none-kept", Options{Mapping: m, MaxBadRows: NoLimit, Events: []string{"refund"}}},
+		// A bad row that stops the reader inside a window: the rows of
+		// unwanted events before it count as filtered, those after not.
+		{"filter-strict", Options{Mapping: m, ExposureEvent: "exposure", PlannedArms: planned,
+			Events: []string{"exposure", "purchase"}}},
+		{"filter-budget-50", Options{Mapping: m, ExposureEvent: "exposure", PlannedArms: planned, MaxBadRows: 50,
+			Events: []string{"purchase"}, BatchSize: 100}},
 	}
 	for _, name := range names {
 		src := []Source{BytesSource(name+".parquet", files[name]), BytesSource(name+"-again.parquet", files[name])}
@@ -131,7 +137,9 @@ func TestBulkPathMatchesRowByRow(t *testing.T) {
 				if v.name == "budget" && (len(wantRows) == 0 || len(wantSt.BadRows) < 5) {
 					t.Fatalf("the file does not exercise the rules: %d rows, bad %v", len(wantRows), wantSt.BadRows)
 				}
-				matchRowByRow(t, src, v.opts, []int{1, 2, 3, 8}, false, wantRows, wantSt, wantErr)
+				// With a budget, a row group's filtered rows are counted
+				// whole or not at all when the budget runs out inside it.
+				matchRowByRow(t, src, v.opts, []int{1, 2, 3, 8}, v.name == "filter-budget-50", wantRows, wantSt, wantErr)
 			})
 		}
 	}
@@ -362,9 +370,10 @@ func TestBulkPathBadUsers(t *testing.T) {
 					case len(bad) == 0 && (wantErr != nil || len(wantSt.BadRows) != 0 || wantSt.Filtered == 0):
 						t.Fatalf("row by row: error %v, bad rows %v, %d filtered", wantErr, wantSt.BadRows, wantSt.Filtered)
 					}
-					// The bulk path does not count the filtered rows of
-					// the row group of an error before it.
-					matchRowByRow(t, src, opts, []int{1, 2}, true, wantRows, wantSt, wantErr)
+					// When a budget runs out, the bulk path counts the
+					// filtered rows of that row group whole or not at all;
+					// without a budget it counts those before the bad row.
+					matchRowByRow(t, src, opts, []int{1, 2}, budget == 3, wantRows, wantSt, wantErr)
 				})
 			}
 		}
