@@ -456,6 +456,21 @@ func (t *Tallier) addPart(p int, users *array.String, ts []arrow.Timestamp, segs
 	pt.sink += sink
 }
 
+// SetReadShare tells the tallier the share (0 to 1) of its input that the
+// batches added so far hold, such as a reader's rows read over the rows
+// its files' metadata lists. A unit index that must grow then grows toward
+// the units the share projects, in one step rather than several doublings
+// (unitIndex.grow). It is advice: the tally does not depend on it. A
+// share outside (0, 1) turns it off.
+func (t *Tallier) SetReadShare(share float64) {
+	if !(share > 0 && share < 1) {
+		share = 0
+	}
+	for _, pt := range t.parts {
+		pt.units.share = share
+	}
+}
+
 // exposureArm applies the rules of an exposure row that do not depend on
 // the unit: its experiment key and the window. It returns the row's arm,
 // or false when the row is not an in-window exposure of this experiment.

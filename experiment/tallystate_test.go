@@ -442,3 +442,80 @@ func keySlabBytes(x *unitIndex) int {
 	}
 	return n
 }
+
+// SetReadShare only sizes the unit indexes ahead: a tally told the share
+// of its input read, right, wrong or absent, gives the tally, the unit
+// records and the state of one told nothing (common practice: a capacity
+// hint must not change a result). The units are enough for the indexes to
+// grow by projection (TestUnitIndexGrowsByProjection).
+func TestReadShareLeavesTallyAlone(t *testing.T) {
+	spec := stateSpec(MultiArmExclude)
+	rng := rand.New(rand.NewPCG(5, 9))
+	const units, batches = 150_000, 30
+	var rows []row
+	for i := range units {
+		u := fmt.Sprintf("user-%d", i)
+		at := day + time.Duration(rng.IntN(int(8*day/time.Second)))*time.Second
+		r := seen(u, at, []string{"control", "treat"}[rng.IntN(2)])
+		r.segs = []string{"DE"}
+		rows = append(rows, r)
+		if rng.IntN(3) == 0 {
+			rows = append(rows, ev(u, at+time.Hour, "buy"))
+		}
+	}
+	type result struct {
+		tally Tally
+		units []UnitRecord
+		state []byte
+		slots int
+	}
+	run := func(share func(b int) float64) result {
+		tl, err := newTallier(spec, 1)
+		if err != nil {
+			t.Fatal(err)
+		}
+		per := len(rows)/batches + 1
+		for b := 0; b*per < len(rows); b++ {
+			if share != nil {
+				tl.SetReadShare(share(b))
+			}
+			rec := batch(t, rows[b*per:min(len(rows), (b+1)*per)], spec.Segments...)
+			err := tl.Add(rec)
+			rec.Release()
+			if err != nil {
+				t.Fatal(err)
+			}
+		}
+		var res result
+		res.slots = len(tl.parts[0].units.slots)
+		if res.tally, err = tl.Tally(); err != nil {
+			t.Fatal(err)
+		}
+		seq, err := tl.Units()
+		if err != nil {
+			t.Fatal(err)
+		}
+		res.units = slices.Collect(seq)
+		var buf bytes.Buffer
+		if err := tl.WriteState(&buf); err != nil {
+			t.Fatal(err)
+		}
+		res.state = buf.Bytes()
+		return res
+	}
+	want := run(nil)
+	for name, share := range map[string]func(int) float64{
+		"right":    func(b int) float64 { return float64(b+1) / batches },
+		"too-low":  func(b int) float64 { return 0.1 * float64(b+1) / batches },
+		"too-high": func(b int) float64 { return min(1, 10*float64(b+1)/batches) },
+		"off":      func(int) float64 { return -1 },
+	} {
+		got := run(share)
+		if !reflect.DeepEqual(got.tally, want.tally) || !reflect.DeepEqual(got.units, want.units) || !bytes.Equal(got.state, want.state) {
+			t.Errorf("share %s changed the tally, the unit records or the state", name)
+		}
+		if name == "too-low" && got.slots <= want.slots {
+			t.Errorf("share %s: %d slots, want more than %d (the projection unused)", name, got.slots, want.slots)
+		}
+	}
+}

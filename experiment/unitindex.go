@@ -33,6 +33,11 @@ type unitIndex struct {
 	slabBits uint
 	ends     chunked[uint64] // ends[u] is the end of key u (see above); it starts at the end of key u-1 (0 for u = 0) unless flagged
 	big      map[int32][]byte
+	// share is the share of the input read so far, when known (see
+	// Tallier.SetReadShare), and proj the units it projected at the last
+	// growth; see grow.
+	share float64
+	proj  float64
 }
 
 const (
@@ -228,8 +233,47 @@ func (x *unitIndex) place(s uint64) {
 	x.slots[i] = s
 }
 
-// grow doubles the table.
-func (x *unitIndex) grow() { x.resize(2 * len(x.slots)) }
+// grow doubles the table, or, with the share of the input read known,
+// grows it toward the units that share projects (the units so far over
+// the share), in one step instead of several doublings: each re-places
+// every slot in fresh memory. It takes that step only when the projection
+// agrees within projTolerance with the one at the last growth, so that
+// units arriving faster or slower as the input goes on (a log in time
+// order) fall back to doubling; the step is at most maxGrowStep times the
+// table. A wrong projection costs memory, never a different tally.
+func (x *unitIndex) grow() {
+	size := 2 * len(x.slots)
+	if x.share > 0 && x.share < 1 && len(x.slots) >= minProjectedSlots {
+		proj := float64(x.len()) / x.share
+		if prev := x.proj; prev > 0 && proj <= prev*projTolerance && proj*projTolerance >= prev {
+			size = max(size, slotsFor(proj*projMargin, maxGrowStep*len(x.slots)))
+		}
+		x.proj = proj
+	}
+	x.resize(size)
+}
+
+const (
+	// minProjectedSlots is the least table that grows by projection.
+	minProjectedSlots = 1 << 16
+	// projTolerance is how far apart two projections may be and agree.
+	projTolerance = 1.25
+	// projMargin is the room kept above a projection.
+	projMargin = 1.1
+	// maxGrowStep bounds one growth by projection.
+	maxGrowStep = 8
+)
+
+// slotsFor returns the table size (a power of two) that holds n units at
+// a load of at most three quarters, or limit (a power of two) if that is
+// less.
+func slotsFor(n float64, limit int) int {
+	size := unitIndexMinSlots
+	for size < limit && 3*float64(size) < 4*n {
+		size *= 2
+	}
+	return size
+}
 
 // resize makes the table size slots long (a power of two, more than
 // the units); the stored hash bits place each slot again without reading

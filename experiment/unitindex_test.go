@@ -96,3 +96,84 @@ func TestUnitIndexSlabs(t *testing.T) {
 		}
 	}
 }
+
+// growthSizes adds n units to a fresh index, telling it share(i) before
+// unit i, checks that every key is found again as its unit, and returns
+// the table sizes it grew to from minProjectedSlots on.
+func growthSizes(t *testing.T, n int, share func(i int) float64) []int {
+	t.Helper()
+	x := newUnitIndex()
+	var sizes []int
+	for i := range n {
+		x.share = share(i)
+		before := len(x.slots)
+		if u, seen := x.lookup(fmt.Sprintf("unit-%07d", i)); int(u) != i || seen {
+			t.Fatalf("unit %d: lookup = %d, %v", i, u, seen)
+		}
+		if len(x.slots) != before && before >= minProjectedSlots {
+			sizes = append(sizes, len(x.slots))
+		}
+	}
+	for i := 0; i < n; i += 997 {
+		if u, seen := x.lookup(fmt.Sprintf("unit-%07d", i)); int(u) != i || !seen {
+			t.Fatalf("unit %d found again as %d, %v", i, u, seen)
+		}
+	}
+	return sizes
+}
+
+// A unit index told the share of its input read grows by projection only
+// when two projections agree: with units spread evenly over the input it
+// reaches the table that doubling ends at in fewer steps; with units
+// arriving ever more slowly (a share growing as the square of the units)
+// or none told, it doubles; with units that stop early it may overshoot,
+// by at most maxGrowStep at once (the bound, common practice for capacity
+// hints). Every key is found again in each case.
+func TestUnitIndexGrowsByProjection(t *testing.T) {
+	const n = 300_000
+	doubling := growthSizes(t, n, func(int) float64 { return 0 })
+	if want := []int{1 << 17, 1 << 18, 1 << 19}; fmt.Sprint(doubling) != fmt.Sprint(want) {
+		t.Fatalf("without a share: sizes %v, want %v", doubling, want)
+	}
+	final := doubling[len(doubling)-1]
+	cases := []struct {
+		name  string
+		share func(i int) float64
+		check func(sizes []int) error
+	}{
+		{"even", func(i int) float64 { return float64(i+1) / n }, func(sizes []int) error {
+			if len(sizes) >= len(doubling) || sizes[len(sizes)-1] != final {
+				return fmt.Errorf("sizes %v, want fewer steps than %v to the same table", sizes, doubling)
+			}
+			return nil
+		}},
+		{"slowing", func(i int) float64 { f := float64(i+1) / n; return f * f }, func(sizes []int) error {
+			if fmt.Sprint(sizes) != fmt.Sprint(doubling) {
+				return fmt.Errorf("sizes %v, want doubling's %v", sizes, doubling)
+			}
+			return nil
+		}},
+		{"stopping-early", func(i int) float64 { return 0.25 * float64(i+1) / n }, func(sizes []int) error {
+			for k, s := range sizes {
+				prev := minProjectedSlots
+				if k > 0 {
+					prev = sizes[k-1]
+				}
+				if s > maxGrowStep*prev {
+					return fmt.Errorf("sizes %v: a step beyond %dx", sizes, maxGrowStep)
+				}
+			}
+			if last := sizes[len(sizes)-1]; last <= final {
+				return fmt.Errorf("sizes %v: no overshoot past %d; the case does not test the bound", sizes, final)
+			}
+			return nil
+		}},
+	}
+	for _, c := range cases {
+		t.Run(c.name, func(t *testing.T) {
+			if err := c.check(growthSizes(t, n, c.share)); err != nil {
+				t.Error(err)
+			}
+		})
+	}
+}

@@ -536,3 +536,37 @@ func (c *pqColumn) text(v parquet.Value) cell {
 	}
 	return cell{s: unsafe.String(unsafe.SliceData(c.scratch), len(c.scratch))}
 }
+
+// MetadataRows returns the rows that the footers of srcs list, and true,
+// when every source is a Parquet file whose footer reads; otherwise false
+// (a CSV source, a file that does not open: the Reader reports those). It
+// reads each footer once more than a Reader does, to size memory ahead of
+// a run (see experiment.Tallier.SetReadShare).
+func MetadataRows(srcs []Source) (int64, bool) {
+	var total int64
+	for _, src := range srcs {
+		if src.kind != FormatParquet {
+			return 0, false
+		}
+		n, ok := footerRows(src)
+		if !ok {
+			return 0, false
+		}
+		total += n
+	}
+	return total, len(srcs) > 0
+}
+
+// footerRows returns the rows that the footer of a Parquet source lists.
+func footerRows(src Source) (int64, bool) {
+	o, err := src.open()
+	if err != nil {
+		return 0, false
+	}
+	defer o.Close()
+	pf, err := openParquet(o.r, o.size)
+	if err != nil || pf.NumRows() < 0 {
+		return 0, false
+	}
+	return pf.NumRows(), true
+}

@@ -413,3 +413,30 @@ func matchRowByRow(t *testing.T, src []Source, opts Options, workers []int, igno
 		}
 	}
 }
+
+// MetadataRows sums the rows that the footers list when every source is a
+// readable Parquet file, and gives up otherwise (the reader reports those
+// files); the rows are checked against the rows the reader reads.
+func TestMetadataRows(t *testing.T) {
+	rows := randomBulkRows(rand.New(rand.NewPCG(3, 5)), 1000)
+	a := writeParquet(t, rows, parquet.MaxRowsPerRowGroup(300))
+	b := writeParquet(t, rows[:123])
+	both := []Source{BytesSource("a.parquet", a), BytesSource("b.parquet", b)}
+	n, ok := MetadataRows(both)
+	_, st, err := readAll(t, both, Options{Mapping: DefaultMapping(), MaxBadRows: NoLimit})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if !ok || n != 1123 || st.RowsRead != n {
+		t.Fatalf("MetadataRows = %d, %v; want 1123 and the %d rows the reader reads", n, ok, st.RowsRead)
+	}
+	for name, srcs := range map[string][]Source{
+		"none":      nil,
+		"with-csv":  {both[0], BytesSource("c.csv", []byte("user_id,ts,event\nu1,2026-01-01T00:00:00Z,x\n"))},
+		"truncated": {both[0], BytesSource("t.parquet", b[:len(b)-9])},
+	} {
+		if n, ok := MetadataRows(srcs); ok {
+			t.Errorf("%s: MetadataRows = %d, true; want false", name, n)
+		}
+	}
+}

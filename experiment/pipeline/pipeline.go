@@ -267,7 +267,7 @@ func Run(ctx context.Context, in Input, exps []Experiment, opts Options) (*Resul
 	if opts.MemoryLimit > 0 {
 		tallies, rows, err = readSpilled(ctx, r, exps, opts)
 	} else {
-		tallies, rows, err = readInMemory(ctx, r, talliers, opts, nil)
+		tallies, rows, err = readInMemory(ctx, r, in.Sources, talliers, opts, nil)
 	}
 	inv := &inventory{ctx: ctx, in: in, exps: exps, workers: opts.Workers}
 	if sk := (*severalKeys)(nil); errors.As(err, &sk) {
@@ -375,7 +375,7 @@ func runTalliers(ctx context.Context, in Input, exps []Experiment, opts Options,
 			return nil, nil, err
 		}
 		defer r.Close()
-		tallies, rows, err = readInMemory(ctx, r, talliers, opts, out)
+		tallies, rows, err = readInMemory(ctx, r, in.Sources, talliers, opts, out)
 		if sk := (*severalKeys)(nil); errors.As(err, &sk) {
 			err = inv.severalKeys(sk.keys)
 		}
@@ -460,15 +460,26 @@ func checkAllowed(shape experiment.InputShape, e Experiment) error {
 // readInMemory feeds every record batch to every tallier and tallies them;
 // for the talliers of an event log it also returns the rows of each metric
 // event (Tallier.MetricEventRows). With a state file (out), each tally's
-// state is written before it is summed, in the same pass.
-func readInMemory(ctx context.Context, r recordReader, talliers []tallier, opts Options, out *stateOut) ([]experiment.Tally, [][]experiment.NameCount, error) {
+// state is written before it is summed, in the same pass. srcs, when the
+// caller has listed the reader's sources, serve to tell the talliers the
+// share of the input read (Tallier.SetReadShare).
+func readInMemory(ctx context.Context, r recordReader, srcs []ingest.Source, talliers []tallier, opts Options, out *stateOut) ([]experiment.Tally, [][]experiment.NameCount, error) {
 	stop := startProgress(r, opts)
 	defer stop()
+	share := readShare(r, srcs)
 	for r.Next() {
 		if err := ctx.Err(); err != nil {
 			return nil, nil, err
 		}
 		rec := r.RecordBatch()
+		if share != nil {
+			sh := share()
+			for _, tl := range talliers {
+				if tl, ok := tl.(*experiment.Tallier); ok {
+					tl.SetReadShare(sh)
+				}
+			}
+		}
 		for _, tl := range talliers {
 			if err := tl.Add(rec); err != nil {
 				return nil, nil, &DataError{err}
@@ -504,6 +515,21 @@ func readInMemory(ctx context.Context, r recordReader, talliers []tallier, opts 
 		tallies[i] = t
 	}
 	return tallies, rows, nil
+}
+
+// readShare returns a function that gives the share of the input that r
+// has read, its rows read over the rows that the Parquet footers of srcs
+// list, or nil when these are not known (a CSV source, sources not listed).
+func readShare(r recordReader, srcs []ingest.Source) func() float64 {
+	p, ok := r.(interface{ Progress() int64 })
+	if !ok || len(srcs) == 0 {
+		return nil
+	}
+	total, ok := ingest.MetadataRows(srcs)
+	if !ok || total <= 0 {
+		return nil
+	}
+	return func() float64 { return float64(p.Progress()) / float64(total) }
 }
 
 // startProgress calls opts.Progress when the reader can count as it goes.
