@@ -246,14 +246,17 @@ func Run(ctx context.Context, in Input, exps []Experiment, opts Options) (*Resul
 	if err != nil {
 		return nil, err
 	}
-	if opts.BeforeRead != nil && in.Records == nil {
-		// Listed once: the reader opens these sources.
+	if in.Records == nil {
+		// Listed once: the reader opens these sources, BeforeRead sizes
+		// them and readInMemory reads their footers' rows.
 		srcs, err := sources(in)
 		if err != nil {
 			return nil, err
 		}
 		in.Paths, in.FS, in.Sources = nil, nil, srcs
-		opts.BeforeRead(sourceBytes(srcs))
+		if opts.BeforeRead != nil {
+			opts.BeforeRead(sourceBytes(srcs))
+		}
 	}
 	r, err := openReader(in, exps, events, opts.Workers)
 	if err != nil {

@@ -307,3 +307,41 @@ func TestRunDataError(t *testing.T) {
 		t.Errorf("error %v, want a DataError naming bad.csv", err)
 	}
 }
+
+// readShare is the reader's rows read over the rows the Parquet footers
+// list: it rises to exactly 1 as a Parquet input is read, and is unknown
+// (nil) for a CSV input or sources not listed.
+func TestReadShare(t *testing.T) {
+	pq, _, _ := genLog(t, 3000, false)
+	csv, _, _ := genLog(t, 300, true)
+	open := func(srcs ...ingest.Source) *ingest.Reader {
+		r, err := ingest.NewReader(srcs, ingest.Options{Mapping: ingest.DefaultMapping(), BatchSize: 1000})
+		if err != nil {
+			t.Fatal(err)
+		}
+		t.Cleanup(func() { r.Close() })
+		return r
+	}
+	r := open(pq, pq)
+	share := readShare(r, []ingest.Source{pq, pq})
+	if share == nil {
+		t.Fatal("no share for a Parquet input")
+	}
+	last, steps := 0.0, 0
+	for r.Next() {
+		s := share()
+		if s < last || s <= 0 || s > 1 {
+			t.Fatalf("share %v after %v", s, last)
+		}
+		last, steps = s, steps+1
+	}
+	if err := r.Err(); err != nil {
+		t.Fatal(err)
+	}
+	if last != 1 || steps < 4 {
+		t.Errorf("share %v after %d batches, want 1 after several", last, steps)
+	}
+	if readShare(open(pq, csv), []ingest.Source{pq, csv}) != nil || readShare(open(pq), nil) != nil {
+		t.Error("a share for a CSV input or for sources not listed")
+	}
+}
