@@ -188,7 +188,7 @@ type Tallier struct {
 type tallyPart struct {
 	exposures
 	events chunked[metricEvent]
-	sink   uint64 // see unitIndex.touch
+	sink   uint64 // see unitIndex.slotOf
 }
 
 // finished is the result of attributing the metric events to units.
@@ -421,27 +421,38 @@ func (t *Tallier) Add(rec arrow.RecordBatch) error {
 // addPart applies the rows of partition p that the first pass kept.
 //
 // The rows go in groups: the unit index's memory for a whole group is
-// read first (unitIndex.touch), so that the cache misses of the group
-// overlap, then the group is applied in order.
+// read first (unitIndex.slotOf, unitOf and keyTouch, in two stages), so that the cache misses
+// of the group overlap, then the group is applied in order.
 func (t *Tallier) addPart(p int, users *array.String, ts []arrow.Timestamp, segs []*array.String, n int) {
 	const group = 32
 	pt := t.parts[p]
 	single := len(t.parts) == 1
-	var rows [group]int32
+	var (
+		rows  [group]int32
+		slots [group]uint64
+	)
 	var sink uint64
 	for i := 0; i < n; {
 		g := 0
+		// The group's slots first, then the units they name (their key
+		// ends and, for an exposure, first exposures): within a stage no
+		// load waits on another.
 		for ; i < n && g < group; i++ {
 			if t.rowKind[i] == rowSkip || !single && t.partOf(t.rowHash[i]) != p {
 				continue
 			}
 			rows[g] = int32(i)
-			s, u := pt.units.touch(t.rowHash[i])
-			if u >= 0 && t.rowKind[i] == kindExposure {
-				s += uint64(pt.state.at(int(u)).t0)
-			}
-			sink += s
+			slots[g] = pt.units.slotOf(t.rowHash[i])
 			g++
+		}
+		for j := range g {
+			r := rows[j]
+			if u := pt.units.unitOf(slots[j], t.rowHash[r]); u >= 0 {
+				sink += pt.units.keyTouch(u)
+				if t.rowKind[r] == kindExposure {
+					sink += uint64(pt.state.at(int(u)).t0)
+				}
+			}
 		}
 		for _, r := range rows[:g] {
 			i := int(r)

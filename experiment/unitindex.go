@@ -201,27 +201,38 @@ func (x *unitIndex) lookupHashed(key string, hash uint64) (int32, bool) {
 	return u, false
 }
 
-// touch reads the memory a lookup of the key with this hash will read
-// first (its slot and, when the slot's hash bits match, the stored key's
-// end and last byte), and returns a value only so that the reads are not
-// optimised away, with the unit the slot names (-1 when its hash bits do
-// not match), so that the caller can touch that unit's own memory too.
-// Touching a group of keys before looking them up lets the processor wait
-// for their cache misses together instead of one by one.
-func (x *unitIndex) touch(hash uint64) (uint64, int32) {
-	h := uint32(hash)
-	s := x.slots[h&x.mask]
-	if uint32(s>>32) == h {
-		if u := uint32(s) - 1; int(u) < x.ends.len() {
-			e := *x.ends.at(int(u))
-			if hi := e &^ keyFlags; e&keyBig == 0 && hi > 0 && hi <= x.used {
-				p := hi - 1
-				e += uint64(x.slabs[p>>x.slabBits][p&(1<<x.slabBits-1)])
-			}
-			return s + e, int32(u)
-		}
+// slotOf, unitOf and keyTouch read the memory that a lookup of a key
+// with a given hash reads first: its slot and, when the slot's hash bits
+// match, the unit's key end and last byte. Touching a group of keys
+// before looking them up lets the processor wait for their cache misses
+// together instead of one by one; Tallier.addPart does it in two stages
+// over a group (all the slots, then the units they name), so that the
+// loads of each stage do not wait on one another.
+
+// slotOf reads the first slot of the hash's probe sequence.
+func (x *unitIndex) slotOf(hash uint64) uint64 { return x.slots[uint32(hash)&x.mask] }
+
+// unitOf returns the unit that slot s names when its hash bits are the
+// hash's, or -1.
+func (x *unitIndex) unitOf(s, hash uint64) int32 {
+	if s == 0 || uint32(s>>32) != uint32(hash) {
+		return -1
 	}
-	return s, -1
+	if u := uint32(s) - 1; int(u) < x.ends.len() {
+		return int32(u)
+	}
+	return -1
+}
+
+// keyTouch reads unit u's key end and last byte, as a lookup comparing
+// keys does, and returns a value made of them.
+func (x *unitIndex) keyTouch(u int32) uint64 {
+	e := *x.ends.at(int(u))
+	if hi := e &^ keyFlags; e&keyBig == 0 && hi > 0 && hi <= x.used {
+		p := hi - 1
+		e += uint64(x.slabs[p>>x.slabBits][p&(1<<x.slabBits-1)])
+	}
+	return e
 }
 
 // place puts slot s in the first free place of its probe sequence.

@@ -45,7 +45,7 @@ func TestUnitIndex(t *testing.T) {
 // With slabs of 64 bytes, keys fill slabs exactly, start the next slab
 // when they would straddle two, and are kept on their own when longer
 // than a slab; each reads back exactly, is found again, and its last byte
-// is what touch reads (common practice: a store must give back what it
+// is what keyTouch reads (common practice: a store must give back what it
 // was given).
 func TestUnitIndexSlabs(t *testing.T) {
 	x := newUnitIndex()
@@ -76,16 +76,18 @@ func TestUnitIndexSlabs(t *testing.T) {
 		if k == "" || len(k) > 64 {
 			continue
 		}
-		// touch names the unit in the key's first slot (-1 when a
-		// collision put it further on).
-		if _, u := x.touch(maphash.String(x.seed, k)); u == int32(i) {
+		// The key's first slot names its unit (-1 when a collision put
+		// it further on), whose key end and last byte keyTouch reads.
+		h := maphash.String(x.seed, k)
+		if u := x.unitOf(x.slotOf(h), h); u == int32(i) {
+			x.keyTouch(u)
 			touched++
 		} else if u != -1 {
-			t.Fatalf("touch of key %d names unit %d", i, u)
+			t.Fatalf("the first slot of key %d names unit %d", i, u)
 		}
 	}
 	if touched < len(keys)/2 {
-		t.Fatalf("touch named %d of %d units", touched, len(keys))
+		t.Fatalf("first slots named %d of %d units", touched, len(keys))
 	}
 	if len(x.slabs) < 10 || len(x.big) == 0 {
 		t.Fatalf("%d slabs and %d keys on their own: the test did not reach what it checks", len(x.slabs), len(x.big))
