@@ -549,6 +549,7 @@ type bulkColumn struct {
 	// dictEmpty marks the dictionary's empty strings, for a column that
 	// is only checked (fillUser); nil for the other columns.
 	dictEmpty []bool
+	anyEmpty  bool // dictEmpty marks one
 	empties   bool // the column is the user column, see fillUser
 	dictI64   []int64
 }
@@ -707,6 +708,19 @@ func (c *bulkColumn) fillUserPage(cells []cell, need []bool) error {
 			idx := c.idx[c.vpos : c.vpos+len(cells)]
 			c.pos += len(cells)
 			c.vpos += len(cells)
+			if !c.anyEmpty {
+				// No row turns needed: the common case, without a
+				// look-up in dictEmpty per row.
+				for j, x := range idx {
+					if uint(x) >= uint(len(dict)) {
+						return dictIndexError(x, len(dict))
+					}
+					if need[j] {
+						cells[j] = cell{s: dict[x]}
+					}
+				}
+				return nil
+			}
 			for j, x := range idx {
 				if uint(x) >= uint(len(dict)) {
 					return dictIndexError(x, len(dict))
@@ -942,9 +956,10 @@ func (c *bulkColumn) readDictionary(d parquet.Dictionary) error {
 		}
 	}
 	if c.empties {
-		c.dictEmpty = c.dictEmpty[:0]
+		c.dictEmpty, c.anyEmpty = c.dictEmpty[:0], false
 		for _, s := range c.dictStr {
 			c.dictEmpty = append(c.dictEmpty, s == "")
+			c.anyEmpty = c.anyEmpty || s == ""
 		}
 	}
 	return nil
@@ -992,7 +1007,7 @@ func (c *bulkColumn) closePages() {
 	}
 	c.levels, c.idx, c.data, c.offs, c.i64 = nil, nil, nil, nil, nil
 	c.nrows, c.pos, c.vpos, c.nvals = 0, 0, 0, 0
-	c.lastDict, c.dictStr, c.dictVerdict, c.dictEmpty, c.dictI64 = nil, c.dictStr[:0], c.dictVerdict[:0], c.dictEmpty[:0], nil
+	c.lastDict, c.dictStr, c.dictVerdict, c.dictEmpty, c.dictI64, c.anyEmpty = nil, c.dictStr[:0], c.dictVerdict[:0], c.dictEmpty[:0], nil, false
 }
 
 // b2i is 1 for true and 0 for false, without a branch.
