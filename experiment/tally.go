@@ -421,8 +421,9 @@ func (t *Tallier) Add(rec arrow.RecordBatch) error {
 // addPart applies the rows of partition p that the first pass kept.
 //
 // The rows go in groups: the unit index's memory for a whole group is
-// read first (unitIndex.slotOf, unitOf and keyTouch, in two stages), so that the cache misses
-// of the group overlap, then the group is applied in order.
+// read first (unitIndex.slotOf, unitOf and keyTouch, in two stages), so
+// that the cache misses of the group overlap, then the group is applied
+// in order.
 func (t *Tallier) addPart(p int, users *array.String, ts []arrow.Timestamp, segs []*array.String, n int) {
 	const group = 32
 	pt := t.parts[p]
