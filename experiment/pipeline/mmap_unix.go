@@ -9,7 +9,9 @@ import (
 
 // readFile returns the bytes of the file at path and a function that
 // releases them: mapped read-only into memory when mapped (the file must
-// then not be cut short while they are in use), else read.
+// then not be cut short while they are in use), else read. A mapped file
+// stays open until released, with a shared lock (lockShared) that keeps
+// another run from writing it in place as its spare (see stateOut).
 func readFile(path string, mapped bool) ([]byte, func(), error) {
 	if !mapped {
 		b, err := os.ReadFile(path)
@@ -19,19 +21,22 @@ func readFile(path string, mapped bool) ([]byte, func(), error) {
 	if err != nil {
 		return nil, nil, err
 	}
-	defer f.Close()
+	lockShared(f)
 	info, err := f.Stat()
 	if err != nil {
+		f.Close()
 		return nil, nil, err
 	}
-	if info.Size() == 0 || int64(int(info.Size())) != info.Size() {
-		b, err := os.ReadFile(path)
-		return b, func() {}, err
+	if info.Size() > 0 && int64(int(info.Size())) == info.Size() {
+		data, err := syscall.Mmap(int(f.Fd()), 0, int(info.Size()), syscall.PROT_READ, syscall.MAP_SHARED)
+		if err == nil {
+			return data, func() {
+				syscall.Munmap(data)
+				f.Close()
+			}, nil
+		}
 	}
-	data, err := syscall.Mmap(int(f.Fd()), 0, int(info.Size()), syscall.PROT_READ, syscall.MAP_SHARED)
-	if err != nil {
-		b, err := os.ReadFile(path)
-		return b, func() {}, err
-	}
-	return data, func() { syscall.Munmap(data) }, nil
+	f.Close()
+	b, err := os.ReadFile(path)
+	return b, func() {}, err
 }
