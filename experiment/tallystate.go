@@ -301,11 +301,7 @@ func (t *Tallier) ExpectGrowth(share float64) {
 		if pt.units.len() > 0 {
 			continue
 		}
-		size := unitIndexMinSlots
-		for 3*size < 4*per {
-			size *= 2
-		}
-		if size > len(pt.units.slots) {
+		if size := slotsFor(float64(per), math.MaxInt32+1); size > len(pt.units.slots) {
 			pt.units.resize(size)
 			// Written once in order here, the fresh table's pages are
 			// faulted in once each, rather than first read by a lookup

@@ -704,23 +704,16 @@ func (c *bulkColumn) fillUserPage(cells []cell, need []bool) error {
 	if c.idx != nil {
 		dict, empty := c.dictStr, c.dictEmpty[:len(c.dictStr)]
 		if c.levels == nil {
+			if !c.anyEmpty {
+				// No row turns needed: the common case, read as the
+				// other columns are, without a look-up in dictEmpty per
+				// row.
+				return c.fillDictNeeded(cells, need)
+			}
 			// No nulls: the rows are the page's next values.
 			idx := c.idx[c.vpos : c.vpos+len(cells)]
 			c.pos += len(cells)
 			c.vpos += len(cells)
-			if !c.anyEmpty {
-				// No row turns needed: the common case, without a
-				// look-up in dictEmpty per row.
-				for j, x := range idx {
-					if uint(x) >= uint(len(dict)) {
-						return dictIndexError(x, len(dict))
-					}
-					if need[j] {
-						cells[j] = cell{s: dict[x]}
-					}
-				}
-				return nil
-			}
 			for j, x := range idx {
 				if uint(x) >= uint(len(dict)) {
 					return dictIndexError(x, len(dict))
