@@ -178,6 +178,8 @@ type Tallier struct {
 	rowKind []int32
 	rowArm  []int32
 	rowHash []uint64
+	// partRows[p] lists the batch's kept rows of partition p, in order.
+	partRows [][]int32
 
 	// metricRows[i] counts the rows of event metricNames[i] (see
 	// MetricEventRows).
@@ -357,6 +359,12 @@ func (t *Tallier) Add(rec arrow.RecordBatch) error {
 	t.rowKind = slices.Grow(t.rowKind[:0], n)[:n]
 	t.rowArm = slices.Grow(t.rowArm[:0], n)[:n]
 	t.rowHash = slices.Grow(t.rowHash[:0], n)[:n]
+	if len(t.partRows) != len(t.parts) {
+		t.partRows = make([][]int32, len(t.parts))
+	}
+	for p := range t.partRows {
+		t.partRows[p] = t.partRows[p][:0]
+	}
 	units := 0
 	// The first pass: the rules that do not depend on the unit.
 	for i := 0; i < n; i++ {
@@ -389,7 +397,10 @@ func (t *Tallier) Add(rec arrow.RecordBatch) error {
 			}
 		}
 		t.rowKind[i] = kind
-		t.rowHash[i] = maphash.String(t.seed, users.Value(i))
+		h := maphash.String(t.seed, users.Value(i))
+		t.rowHash[i] = h
+		p := t.partOf(h)
+		t.partRows[p] = append(t.partRows[p], int32(i))
 		units++
 	}
 	if len(t.arms) > maxArms {
@@ -400,11 +411,11 @@ func (t *Tallier) Add(rec arrow.RecordBatch) error {
 	}
 	// The second: each partition's rows, on its own goroutine.
 	if len(t.parts) == 1 {
-		t.addPart(0, users, ts, segs, n)
+		t.addPart(0, users, ts, segs)
 	} else {
 		var wg sync.WaitGroup
 		for p := range t.parts {
-			wg.Go(func() { t.addPart(p, users, ts, segs, n) })
+			wg.Go(func() { t.addPart(p, users, ts, segs) })
 		}
 		wg.Wait()
 	}
@@ -418,36 +429,30 @@ func (t *Tallier) Add(rec arrow.RecordBatch) error {
 	return nil
 }
 
-// addPart applies the rows of partition p that the first pass kept.
+// addPart applies the rows of partition p that the first pass kept
+// (t.partRows[p]).
 //
 // The rows go in groups: the unit index's memory for a whole group is
 // read first (unitIndex.slotOf, unitOf and keyTouch, in two stages), so
 // that the cache misses of the group overlap, then the group is applied
-// in order.
-func (t *Tallier) addPart(p int, users *array.String, ts []arrow.Timestamp, segs []*array.String, n int) {
+// in order. The first stage has no branch that depends on the data, so
+// that nothing the processor guessed wrong cancels its loads.
+func (t *Tallier) addPart(p int, users *array.String, ts []arrow.Timestamp, segs []*array.String) {
 	const group = 32
 	pt := t.parts[p]
-	single := len(t.parts) == 1
-	var (
-		rows  [group]int32
-		slots [group]uint64
-	)
+	var slots [group]uint64
 	var sink uint64
-	for i := 0; i < n; {
-		g := 0
+	all := t.partRows[p]
+	for len(all) > 0 {
+		rows := all[:min(group, len(all))]
+		all = all[len(rows):]
 		// The group's slots first, then the units they name (their key
 		// ends and, for an exposure, first exposures): within a stage no
 		// load waits on another.
-		for ; i < n && g < group; i++ {
-			if t.rowKind[i] == rowSkip || !single && t.partOf(t.rowHash[i]) != p {
-				continue
-			}
-			rows[g] = int32(i)
-			slots[g] = pt.units.slotOf(t.rowHash[i])
-			g++
+		for j, r := range rows {
+			slots[j] = pt.units.slotOf(t.rowHash[r])
 		}
-		for j := range g {
-			r := rows[j]
+		for j, r := range rows {
 			if u := pt.units.unitOf(slots[j], t.rowHash[r]); u >= 0 {
 				sink += pt.units.keyTouch(u)
 				if t.rowKind[r] == kindExposure {
@@ -455,7 +460,7 @@ func (t *Tallier) addPart(p int, users *array.String, ts []arrow.Timestamp, segs
 				}
 			}
 		}
-		for _, r := range rows[:g] {
+		for _, r := range rows {
 			i := int(r)
 			u := pt.unitHashed(users.Value(i), t.rowHash[i])
 			if kind := t.rowKind[i]; kind == kindExposure {
