@@ -14,6 +14,10 @@ import "fmt"
 //	<segment>   utf8, nullable                 one column per segment dimension,
 //	                                           named after the dimension
 //
+// The event, experiment and arm columns may also come dictionary-encoded
+// (dictionary<values=utf8, indices=int32>, as ingest.Options.DictionaryColumns
+// makes them); the tallier then decides once per dictionary value.
+//
 // The producer has already rejected or counted rows that break these rules
 // (null user, unparseable time, exposure without an arm); the tallier trusts
 // them and does not check again.

@@ -78,7 +78,9 @@ func tally(t testing.TB, spec Spec, rows []row, size int) Tally {
 	t.Helper()
 	var first Tally
 	var firstUnits []UnitRecord
-	for i, parts := range []int{1, 2, 7} {
+	for i, parts := range []int{1, 2, 7, -2} {
+		// -2: two partitions, with the event, experiment and arm
+		// columns dictionary-encoded (dictionaryBatch).
 		tl := tallierParts(t, spec, rows, size, parts)
 		out, err := tl.Tally()
 		if err != nil {
@@ -109,10 +111,62 @@ func tallier(t testing.TB, spec Spec, rows []row, size int) *Tallier {
 	return tallierParts(t, spec, rows, size, 3)
 }
 
-// tallierParts is tallier with the given number of hash partitions.
+// dictionaryBatch returns rec with the named utf8 columns dictionary-
+// encoded as ingest.Options.DictionaryColumns encodes them (int32 indices),
+// and releases rec. Each dictionary lists its values in the reverse order
+// of their first row and ends with a value no row uses.
+func dictionaryBatch(t testing.TB, rec arrow.RecordBatch, names ...string) arrow.RecordBatch {
+	t.Helper()
+	defer rec.Release()
+	fields := slices.Clone(rec.Schema().Fields())
+	cols := slices.Clone(rec.Columns())
+	for _, name := range names {
+		i := rec.Schema().FieldIndices(name)[0]
+		col := rec.Column(i).(*array.String)
+		var order []string
+		at := map[string]int{}
+		for r := 0; r < col.Len(); r++ {
+			if v := col.Value(r); col.IsValid(r) && !slices.Contains(order, v) {
+				order = append(order, v)
+			}
+		}
+		slices.Reverse(order)
+		order = append(order, "\x00unused")
+		vb := array.NewStringBuilder(memory.DefaultAllocator)
+		for j, v := range order {
+			at[v] = j
+			vb.Append(v)
+		}
+		ib := array.NewInt32Builder(memory.DefaultAllocator)
+		for r := 0; r < col.Len(); r++ {
+			if col.IsNull(r) {
+				ib.AppendNull()
+			} else {
+				ib.Append(int32(at[col.Value(r)]))
+			}
+		}
+		vals, idx := vb.NewArray(), ib.NewArray()
+		typ := &arrow.DictionaryType{IndexType: arrow.PrimitiveTypes.Int32, ValueType: arrow.BinaryTypes.String}
+		cols[i] = array.NewDictionaryArray(typ, idx, vals)
+		vals.Release()
+		idx.Release()
+		vb.Release()
+		ib.Release()
+		fields[i].Type = typ
+	}
+	out := array.NewRecordBatch(arrow.NewSchema(fields, nil), cols, rec.NumRows())
+	for _, name := range names {
+		cols[rec.Schema().FieldIndices(name)[0]].Release()
+	}
+	return out
+}
+
+// tallierParts is tallier with the given number of hash partitions; a
+// negative number is -parts partitions fed dictionaryBatch's batches.
 func tallierParts(t testing.TB, spec Spec, rows []row, size, parts int) *Tallier {
 	t.Helper()
-	tl, err := newTallier(spec, parts)
+	dict := parts < 0
+	tl, err := newTallier(spec, max(parts, -parts))
 	if err != nil {
 		t.Fatalf("NewTallier: %v", err)
 	}
@@ -122,6 +176,9 @@ func tallierParts(t testing.TB, spec Spec, rows []row, size, parts int) *Tallier
 	for lo := 0; lo < len(rows); lo += size {
 		hi := min(lo+size, len(rows))
 		rec := batch(t, rows[lo:hi], spec.Segments...)
+		if dict {
+			rec = dictionaryBatch(t, rec, ColEvent, ColExperiment, ColArm)
+		}
 		err := tl.Add(rec)
 		rec.Release()
 		if err != nil {

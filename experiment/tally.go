@@ -180,6 +180,14 @@ type Tallier struct {
 	rowHash []uint64
 	// partRows[p] lists the batch's kept rows of partition p, in order.
 	partRows [][]int32
+	// Per batch, of a dictionary-encoded event, experiment or arm column
+	// (textColumn): each dictionary value's role (kindMemo: kind, or
+	// kindUnknown or kindOther), whether it is this experiment's key
+	// (expMemo: 0 unknown, 1 yes, 2 no) and its arm (armMemo, -1
+	// unknown).
+	kindMemo []int32
+	expMemo  []uint8
+	armMemo  []int32
 
 	// metricRows[i] counts the rows of event metricNames[i] (see
 	// MetricEventRows).
@@ -332,15 +340,15 @@ func (t *Tallier) Add(rec arrow.RecordBatch) error {
 	if err != nil {
 		return err
 	}
-	events, err := stringColumn(rec, table, ColEvent, true)
+	events, err := textColumnOf(rec, table, ColEvent, true)
 	if err != nil {
 		return err
 	}
-	exps, err := stringColumn(rec, table, ColExperiment, false)
+	exps, err := textColumnOf(rec, table, ColExperiment, false)
 	if err != nil {
 		return err
 	}
-	arms, err := stringColumn(rec, table, ColArm, false)
+	arms, err := textColumnOf(rec, table, ColArm, false)
 	if err != nil {
 		return err
 	}
@@ -365,6 +373,11 @@ func (t *Tallier) Add(rec arrow.RecordBatch) error {
 	for p := range t.partRows {
 		t.partRows[p] = t.partRows[p][:0]
 	}
+	// Of a dictionary column, each value's role is decided at its first
+	// row: see eventKind, ofExperiment and armOf.
+	t.kindMemo = memo(&events, t.kindMemo, kindUnknown)
+	t.expMemo = memo(&exps, t.expMemo, 0)
+	t.armMemo = memo(&arms, t.armMemo, -1)
 	units := 0
 	// The first pass: the rules that do not depend on the unit.
 	for i := 0; i < n; i++ {
@@ -377,13 +390,13 @@ func (t *Tallier) Add(rec arrow.RecordBatch) error {
 		if !t.hasFresh || at > t.fresh {
 			t.fresh, t.hasFresh = at, true
 		}
-		kind, relevant := t.kind(events.Value(i))
+		kind, relevant := t.eventKind(&events, i)
 		if !relevant {
 			t.diag.NotMetricEvents++
 			continue
 		}
 		if kind == kindExposure {
-			a, ok := t.exposureArm(exps, arms, i, at)
+			a, ok := t.exposureArm(&exps, &arms, i, at)
 			if !ok {
 				continue
 			}
@@ -491,31 +504,91 @@ func (t *Tallier) SetReadShare(share float64) {
 // exposureArm applies the rules of an exposure row that do not depend on
 // the unit: its experiment key and the window. It returns the row's arm,
 // or false when the row is not an in-window exposure of this experiment.
-func (t *Tallier) exposureArm(exps, arms *array.String, i int, at int64) (int32, bool) {
-	if exps != nil {
-		key := ""
-		if exps.IsValid(i) {
-			key = exps.Value(i)
-		}
-		if t.spec.Key == "" {
-			if _, ok := t.expKeys[key]; !ok {
-				t.expKeys[strings.Clone(key)] = struct{}{}
-			}
-		} else if key != t.spec.Key {
-			t.diag.OtherExperimentRows++
-			return 0, false
-		}
+func (t *Tallier) exposureArm(exps, arms *textColumn, i int, at int64) (int32, bool) {
+	if exps.arr != nil && !t.ofExperiment(exps, i) {
+		t.diag.OtherExperimentRows++
+		return 0, false
 	}
 	t.diag.ExposureRows++
 	if (t.hasStart && at < t.start) || (t.hasEnd && at >= t.end) {
 		t.diag.ExposuresOutsideWindow++
 		return 0, false
 	}
-	armName := ""
-	if arms != nil && arms.IsValid(i) {
-		armName = arms.Value(i)
+	return t.armOf(arms, i), true
+}
+
+// kindUnknown marks a dictionary value whose role is not decided yet
+// (kindMemo); kindOther one that is no event of the tally.
+const (
+	kindUnknown = -3
+	kindOther   = -4
+)
+
+// eventKind returns the role of row i's event (see kind).
+func (t *Tallier) eventKind(events *textColumn, i int) (int32, bool) {
+	if events.idx == nil || events.isNull(i) {
+		return t.kind(events.value(i))
 	}
-	return t.arm(armName), true
+	x := events.idx[i]
+	k := t.kindMemo[x]
+	if k == kindUnknown {
+		var ok bool
+		if k, ok = t.kind(events.strs.Value(int(x))); !ok {
+			k = kindOther
+		}
+		t.kindMemo[x] = k
+	}
+	return k, k != kindOther
+}
+
+// ofExperiment reports whether exposure row i is of this experiment; a
+// tally without a key takes every key and records it (experimentKeys).
+func (t *Tallier) ofExperiment(exps *textColumn, i int) bool {
+	if exps.isNull(i) {
+		return t.keyMatches("")
+	}
+	if exps.idx == nil {
+		return t.keyMatches(exps.strs.Value(i))
+	}
+	x := exps.idx[i]
+	if m := t.expMemo[x]; m != 0 {
+		return m == 1
+	}
+	ok := t.keyMatches(exps.strs.Value(int(x)))
+	t.expMemo[x] = 2
+	if ok {
+		t.expMemo[x] = 1
+	}
+	return ok
+}
+
+// keyMatches reports whether an exposure row's experiment key is this
+// experiment's (see ofExperiment).
+func (t *Tallier) keyMatches(key string) bool {
+	if t.spec.Key == "" {
+		if _, ok := t.expKeys[key]; !ok {
+			t.expKeys[strings.Clone(key)] = struct{}{}
+		}
+		return true
+	}
+	return key == t.spec.Key
+}
+
+// armOf returns the arm of exposure row i, adding it when new (arm).
+func (t *Tallier) armOf(arms *textColumn, i int) int32 {
+	switch {
+	case arms.arr == nil || arms.isNull(i):
+		return t.arm("")
+	case arms.idx == nil:
+		return t.arm(arms.strs.Value(i))
+	}
+	x := arms.idx[i]
+	if a := t.armMemo[x]; a >= 0 {
+		return a
+	}
+	a := t.arm(arms.strs.Value(int(x)))
+	t.armMemo[x] = a
+	return a
 }
 
 // Events returns the event names whose rows the tallier uses: the

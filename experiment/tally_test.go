@@ -278,6 +278,24 @@ func TestEventSemantics(t *testing.T) {
 			},
 			diag: counters{Rows: 6, Exposure: 1, OtherExperiment: 1, Metric: 4, NeverExposed: 1, InUnit: 3, OutsideAttribution: []int64{0}, UnitsExposed: 1},
 		},
+		{
+			// Two exposures of another experiment in one batch: neither
+			// exposes its unit, whether the experiment column is utf8 or
+			// dictionary-encoded (a value decided once per batch).
+			name: "other experiment twice",
+			rows: []row{
+				{user: "u1", at: hour, event: "seen", exp: "other", arm: "control"},
+				{user: "u3", at: 2 * hour, event: "seen", exp: "other", arm: "treat"},
+				seen("u2", hour, "treat"),
+				ev("u2", 2*hour, "buy"),
+				ev("u1", 3*hour, "buy"),
+			},
+			arms: []armWant{
+				{"control", 0, []Count{{}}},
+				{"treat", 1, []Count{{Units: 1, Conversions: 1}}},
+			},
+			diag: counters{Rows: 5, Exposure: 1, OtherExperiment: 2, Metric: 2, NeverExposed: 1, InUnit: 1, OutsideAttribution: []int64{0}, UnitsExposed: 1},
+		},
 	}
 	for _, tc := range cases {
 		for _, size := range []int{0, 1} {

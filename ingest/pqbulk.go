@@ -194,6 +194,9 @@ func (r *parquetReader) newWorker(budget bool, stop <-chan struct{}) *rgWorker {
 			bc.verdicts = make([]uint8, bulkWindow)
 		}
 		bc.empties = i == colUser && r.p.events != nil
+		if r.p.dict != nil && r.p.dict[i] {
+			bc.intern = newInterner()
+		}
 		w.cols[i] = bc
 	}
 	w.row.cells = make([]cell, len(r.p.physical))
@@ -552,6 +555,12 @@ type bulkColumn struct {
 	anyEmpty  bool // dictEmpty marks one
 	empties   bool // the column is the user column, see fillUser
 	dictI64   []int64
+	// intern gives the values of a dictionary-encoded column of the
+	// batches (plan.dict) their codes, and codes holds the code plus one
+	// of each value of the dictionary (cell.code); both nil on the other
+	// columns.
+	intern *interner
+	codes  []int32
 }
 
 func (c *bulkColumn) open(pages parquet.Pages) {
@@ -624,7 +633,7 @@ func (c *bulkColumn) fillTextNeeded(k, m int, need []bool) error {
 // row's dictionary index is checked, and its cell filled when it is
 // needed.
 func (c *bulkColumn) fillDictNeeded(cells []cell, need []bool) error {
-	dict := c.dictStr
+	dict, codes := c.dictStr, c.codes
 	need = need[:len(cells)]
 	if c.levels == nil {
 		idx := c.idx[c.vpos : c.vpos+len(cells)]
@@ -633,7 +642,7 @@ func (c *bulkColumn) fillDictNeeded(cells []cell, need []bool) error {
 				return dictIndexError(x, len(dict))
 			}
 			if need[j] {
-				cells[j] = cell{s: dict[x]}
+				cells[j] = cell{s: dict[x], code: codeOf(codes, x)}
 			}
 		}
 		c.pos += len(cells)
@@ -654,7 +663,7 @@ func (c *bulkColumn) fillDictNeeded(cells []cell, need []bool) error {
 			return dictIndexError(x, len(dict))
 		}
 		if need[j] {
-			cells[j] = cell{s: dict[x]}
+			cells[j] = cell{s: dict[x], code: codeOf(codes, x)}
 		}
 	}
 	c.pos += len(cells)
@@ -804,7 +813,7 @@ func (c *bulkColumn) fillText(k, m int) error {
 			if err != nil {
 				return err
 			}
-			cells[j] = cell{s: c.dictStr[x]}
+			cells[j] = cell{s: c.dictStr[x], code: codeOf(c.codes, x)}
 			if verdicts != nil {
 				vd = c.dictVerdict[x]
 			}
@@ -942,6 +951,12 @@ func (c *bulkColumn) readDictionary(d parquet.Dictionary) error {
 		v := b[offs[i]:offs[i+1]]
 		c.dictStr = append(c.dictStr, unsafe.String(unsafe.SliceData(v), len(v)))
 	}
+	if c.intern != nil {
+		c.codes = c.codes[:0]
+		for _, s := range c.dictStr {
+			c.codes = append(c.codes, c.intern.code(s))
+		}
+	}
 	if c.verdicts != nil {
 		c.dictVerdict = c.dictVerdict[:0]
 		for _, s := range c.dictStr {
@@ -1010,4 +1025,13 @@ func b2i(b bool) int {
 		i = 1
 	}
 	return i
+}
+
+// codeOf returns the code of dictionary value x (cell.code), 0 when the
+// column's values have no codes (codes nil).
+func codeOf[I int | int32](codes []int32, x I) int32 {
+	if codes == nil {
+		return 0
+	}
+	return codes[x]
 }

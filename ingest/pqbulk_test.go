@@ -140,6 +140,13 @@ func TestBulkPathMatchesRowByRow(t *testing.T) {
 				// With a budget, a row group's filtered rows are counted
 				// whole or not at all when the budget runs out inside it.
 				matchRowByRow(t, src, v.opts, []int{1, 2, 3, 8}, v.name == "filter-budget-50", wantRows, wantSt, wantErr)
+				// The same rows with the event, experiment and arm
+				// columns dictionary-encoded, on both paths.
+				dict := v.opts
+				dict.DictionaryColumns = true
+				matchRowByRow(t, src, dict, []int{1, 3}, v.name == "filter-budget-50", wantRows, wantSt, wantErr)
+				dict.rowByRow = true
+				matchRowByRow(t, src, dict, []int{1}, false, wantRows, wantSt, wantErr)
 			})
 		}
 	}

@@ -11,7 +11,8 @@ import (
 
 // FuzzParquetReader reads a small Parquet file with bytes overwritten (at
 // is the position, patch the new bytes) through the bulk path with two
-// workers and through the row-by-row path. The properties: neither panics
+// workers, through the row-by-row path and through the bulk path with
+// dictionary columns (Options.DictionaryColumns). The properties: neither panics
 // nor hangs (each read must finish within the test's limit, see within);
 // every error names the file; no Arrow buffer is left allocated (readAll's
 // checked allocator); and every row read is delivered or counted as bad.
@@ -51,15 +52,15 @@ func FuzzParquetReader(f *testing.F) {
 			st   Stats
 			err  error
 		}
-		var got [2]result
-		for i, rowByRow := range []bool{false, true} {
+		var got [3]result
+		for i, rowByRow := range []bool{false, true, false} {
 			within(t, "fuzz input", func() {
 				r, st, err := readAll(t, src, Options{Mapping: m, ExposureEvent: "exposure", MaxBadRows: NoLimit,
-					BatchSize: 16, Workers: 2, rowByRow: rowByRow})
+					BatchSize: 16, Workers: 2, rowByRow: rowByRow, DictionaryColumns: i == 2})
 				got[i] = result{r, st, err}
 			})
 			if err := got[i].err; err != nil && !strings.HasPrefix(err.Error(), "f.parquet") {
-				t.Fatalf("row by row %v: error does not name the file: %v", rowByRow, err)
+				t.Fatalf("path %d: error does not name the file: %v", i, err)
 			}
 		}
 		// Rows per path: every row read is delivered or counted as bad.

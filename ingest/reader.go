@@ -99,6 +99,15 @@ type Options struct {
 	MaxBadRows  int64
 	MaxBadShare float64
 
+	// DictionaryColumns makes the event, experiment and arm columns of
+	// the record batches dictionary-encoded (int32 indices over utf8
+	// values, one dictionary per batch) instead of utf8: their values
+	// are few and repeat on every row, so a consumer can decide once per
+	// value and skip copying the text of every row. The values are the
+	// same either way. The Parquet reader takes the indices from the
+	// file's own dictionary pages.
+	DictionaryColumns bool
+
 	// rowByRow makes Parquet files be read row by row and CSV files by
 	// one encoding/csv reader, on one goroutine, for tests that compare
 	// the paths.
@@ -556,10 +565,16 @@ type plan struct {
 	planned *plannedArms
 	// events is the set of Options.Events; nil keeps every event.
 	events *nameSet
+	// dict marks the logical columns that the batches dictionary-encode
+	// (Options.DictionaryColumns); nil: none.
+	dict []bool
 	// rowByRow and csvChunk are Options.rowByRow and csvChunk.
 	rowByRow bool
 	csvChunk int
 }
+
+// dictionaryType is the type of a dictionary-encoded column of the batches.
+var dictionaryType = &arrow.DictionaryType{IndexType: arrow.PrimitiveTypes.Int32, ValueType: arrow.BinaryTypes.String}
 
 // keep reports whether a valid row goes into the batches: its event is
 // wanted (see Options.Events).
@@ -638,6 +653,15 @@ func newPlan(opts Options) (*plan, error) {
 		fields[i] = arrow.Field{Name: n, Type: arrow.BinaryTypes.String, Nullable: i > colEvent}
 	}
 	fields[colTS].Type = &arrow.TimestampType{Unit: arrow.Nanosecond, TimeZone: "UTC"}
+	if opts.DictionaryColumns {
+		p.dict = make([]bool, len(p.logical))
+		for _, i := range []int{colEvent, p.expCol, p.armCol} {
+			if i >= 0 {
+				p.dict[i] = true
+				fields[i].Type = dictionaryType
+			}
+		}
+	}
 	p.schema = arrow.NewSchema(fields, nil)
 	return p, nil
 }
@@ -647,6 +671,12 @@ func newPlan(opts Options) (*plan, error) {
 type cell struct {
 	s    string
 	null bool
+	// code is s's code in its column's interner plus one, 0 when it has
+	// none: the Parquet bulk path sets it on the values of dictionary
+	// pages of a dictionary-encoded column (see plan.dict), and the batch
+	// builder then finds the value's place in the batch's dictionary
+	// without reading s.
+	code int32
 }
 
 // row is one decoded row, filled by a format reader and then checked by

@@ -31,6 +31,9 @@ func readAll(t *testing.T, sources []Source, opts Options) ([]string, Stats, err
 		if !rec.Schema().Equal(r.Schema()) {
 			t.Fatalf("batch schema %v, want %v", rec.Schema(), r.Schema())
 		}
+		for _, col := range rec.Columns() {
+			checkDictionary(t, col)
+		}
 		for i := 0; i < int(rec.NumRows()); i++ {
 			var cells []string
 			for _, col := range rec.Columns() {
@@ -49,10 +52,40 @@ func cellText(col arrow.Array, i int) string {
 	switch c := col.(type) {
 	case *array.String:
 		return c.Value(i)
+	case *array.Dictionary:
+		return c.Dictionary().(*array.String).Value(c.GetValueIndex(i))
 	case *array.Timestamp:
 		return time.Unix(0, int64(c.Value(i))).UTC().Format(time.RFC3339Nano)
 	}
 	panic(fmt.Sprintf("unexpected column type %v", col.DataType()))
+}
+
+// checkDictionary fails unless a dictionary-encoded column (see
+// Options.DictionaryColumns) is well formed: int32 indices, each valid row's
+// within the dictionary and each null row's 0, and a dictionary of
+// distinct, non-null utf8 values.
+func checkDictionary(t *testing.T, col arrow.Array) {
+	t.Helper()
+	d, ok := col.(*array.Dictionary)
+	if !ok {
+		return
+	}
+	if !arrow.TypeEqual(d.DataType(), dictionaryType) {
+		t.Fatalf("dictionary column of type %v", d.DataType())
+	}
+	vals := d.Dictionary().(*array.String)
+	seen := map[string]bool{}
+	for j := 0; j < vals.Len(); j++ {
+		if vals.IsNull(j) || seen[vals.Value(j)] {
+			t.Fatalf("dictionary value %d null or repeated: %q", j, vals.Value(j))
+		}
+		seen[vals.Value(j)] = true
+	}
+	for i, x := range d.Indices().(*array.Int32).Int32Values() {
+		if d.IsValid(i) && (x < 0 || int(x) >= vals.Len()) || d.IsNull(i) && x != 0 {
+			t.Fatalf("row %d: index %d of a dictionary of %d values (valid %v)", i, x, vals.Len(), d.IsValid(i))
+		}
+	}
 }
 
 func equalRows(t *testing.T, got, want []string) {

@@ -258,7 +258,7 @@ func Run(ctx context.Context, in Input, exps []Experiment, opts Options) (*Resul
 			opts.BeforeRead(sourceBytes(srcs))
 		}
 	}
-	r, err := openReader(in, exps, events, opts.Workers)
+	r, err := openReader(in, exps, events, opts.Workers, opts.MemoryLimit <= 0)
 	if err != nil {
 		return nil, err
 	}
@@ -373,7 +373,7 @@ func runTalliers(ctx context.Context, in Input, exps []Experiment, opts Options,
 	inv := &inventory{ctx: ctx, in: in, exps: exps, workers: opts.Workers}
 	tallies := make([]experiment.Tally, len(exps))
 	if len(in.Sources) > 0 {
-		r, err := openReader(in, exps, events, opts.Workers)
+		r, err := openReader(in, exps, events, opts.Workers, true)
 		if err != nil {
 			return nil, nil, err
 		}

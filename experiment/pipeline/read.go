@@ -46,8 +46,12 @@ func sourceBytes(srcs []ingest.Source) int64 {
 
 // openReader returns the reader of the input. For an event log, events
 // lists the events the talliers use: the reader leaves out the rows of
-// other events and counts them (see ingest.Options.Events).
-func openReader(in Input, exps []Experiment, events []string, workers int) (recordReader, error) {
+// other events and counts them (see ingest.Options.Events). direct says
+// that the batches go straight to the talliers (not to a spill): the
+// reader of Parquet files then dictionary-encodes the event, experiment
+// and arm columns (ingest.Options.DictionaryColumns), which the talliers
+// read once per value.
+func openReader(in Input, exps []Experiment, events []string, workers int, direct bool) (recordReader, error) {
 	m := mappingOf(in)
 	if in.Records != nil {
 		name := in.RecordsName
@@ -73,12 +77,25 @@ func openReader(in Input, exps []Experiment, events []string, workers int) (reco
 		// so its buffers can serve the next batches (recycler).
 		opts := eventOptions(in, m, exps, events, workers)
 		opts.Allocator = new(recycler)
+		opts.DictionaryColumns = direct && allParquet(srcs)
 		r, err = ingest.NewReader(srcs, opts)
 	}
 	if err != nil {
 		return nil, &ConfigError{err}
 	}
 	return r, nil
+}
+
+// allParquet reports whether every source is a Parquet file (and there is
+// one): the CSV reader has no dictionary to take a value's code from, and
+// would look each value up by its text instead.
+func allParquet(srcs []ingest.Source) bool {
+	for _, s := range srcs {
+		if s.Format() != ingest.FormatParquet {
+			return false
+		}
+	}
+	return len(srcs) > 0
 }
 
 // mappingOf returns the input's column mapping: with none of User, TS,
