@@ -324,10 +324,12 @@ func (t *Tallier) arm(name string) int32 {
 	return a
 }
 
-// partOf returns the partition of a key's hash: its top bits, which the
-// unit index does not use.
+// partOf returns the partition of a key's hash, from its top bits, which
+// the unit index does not use: their share of 1<<32 scaled to the number
+// of partitions (a multiplication and a shift, where a remainder would
+// take a division per row).
 func (t *Tallier) partOf(h uint64) int {
-	return int((h >> 32) % uint64(len(t.parts)))
+	return int((h >> 32) * uint64(len(t.parts)) >> 32)
 }
 
 // Add applies one record batch. It reads the user, ts, event, experiment
