@@ -390,8 +390,10 @@ func (w *rgWorker) rowsNeeded(n int) []bool {
 	}
 	need := w.needBuf[:n]
 	times, verdicts := tc.times[:n], ec.verdicts[:n]
+	// One test per row, without a branch: tsOK is 0, so a row is needed
+	// when its verdict's evNeed bit or its ts state is set.
 	for k := range need {
-		need[k] = verdicts[k]&evNeed != 0 || times[k].state != tsOK
+		need[k] = verdicts[k]&evNeed|(times[k].state^tsOK) != 0
 	}
 	return need
 }
