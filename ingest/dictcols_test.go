@@ -1,7 +1,10 @@
 package ingest
 
 import (
+	"bytes"
+	"errors"
 	"fmt"
+	"hash/crc32"
 	"math/rand/v2"
 	"os"
 	"path/filepath"
@@ -204,4 +207,93 @@ func TestInternerLimit(t *testing.T) {
 	if c := n.code("x"); c != 1 {
 		t.Fatalf("a known text after the limit: code %d", c)
 	}
+}
+
+// A dictionary index outside its dictionary, in a column after the user
+// column on rows the reader does not need (their event is filtered out),
+// still stops the bulk path with an error that names the index and the
+// dictionary's size, with and without dictionary columns; the file is written here and the
+// experiment column's eight indices (one bit-packed run of width 2 at the
+// end of its only data page, an uncompressed one) overwritten with 3, one
+// past its three values, and the page's checksum mended.
+func TestBadDictionaryIndexOnSkippedRows(t *testing.T) {
+	type rec struct {
+		User  string `parquet:"user_id"`
+		TS    int64  `parquet:"ts,timestamp(millisecond)"`
+		Event string `parquet:"event,dict"`
+		Exp   string `parquet:"experiment,dict"`
+	}
+	var rows []rec
+	for i := range 8 {
+		rows = append(rows, rec{User: fmt.Sprint("u", i), TS: 1_780_000_000_000 + int64(i), Event: "view", Exp: []string{"x", "y", "z"}[i%3]})
+	}
+	data := writeParquet(t, rows, parquet.Compression(&parquet.Uncompressed))
+	pf, err := parquet.OpenFile(bytes.NewReader(data), int64(len(data)))
+	if err != nil {
+		t.Fatal(err)
+	}
+	md := pf.Metadata().RowGroups[0].Columns[3].MetaData
+	end := chunkStart(&md) + md.TotalCompressedSize
+	bad := bytes.Clone(data)
+	if bad[end-4] != 2 || bad[end-3] != 3 {
+		t.Fatalf("the page does not end with one bit-packed run of width 2: % x", bad[end-4:end])
+	}
+	bad[end-2], bad[end-1] = 0xff, 0xff
+	fixPageChecksum(t, data, bad, md.DataPageOffset, end)
+	m := Mapping{User: "user_id", TS: "ts", Event: "event", Experiment: "experiment"}
+	src := []Source{BytesSource("bad.parquet", bad)}
+	for _, o := range []Options{
+		{Mapping: m, Events: []string{"purchase"}},
+		{Mapping: m, Events: []string{"purchase"}, DictionaryColumns: true},
+		{Mapping: m},
+	} {
+		_, _, err := readAll(t, src, o)
+		if err == nil || !strings.Contains(err.Error(), `column "experiment": corrupt parquet file: dictionary index 3 of a dictionary of 3 values`) ||
+			!strings.HasPrefix(err.Error(), "bad.parquet: row group 0") {
+			t.Errorf("options %+v: error %v", o, err)
+		}
+	}
+	// Row by row, parquet-go itself fails on the index (it panics, and
+	// the reader recovers).
+	if _, _, err := readAll(t, src, Options{Mapping: m, Events: []string{"purchase"}, rowByRow: true}); !errors.Is(err, errPanicked) ||
+		!strings.HasPrefix(err.Error(), "bad.parquet") {
+		t.Errorf("row by row: error %v", err)
+	}
+	// The file as written reads without an error.
+	if _, _, err := readAll(t, []Source{BytesSource("good.parquet", data)}, Options{Mapping: m, Events: []string{"purchase"}}); err != nil {
+		t.Fatal(err)
+	}
+}
+
+// fixPageChecksum mends the CRC in the header of the data page that runs
+// from start to end in bad (a copy of data with bytes of the page's data
+// overwritten). The header is Thrift compact: the CRC is a zigzag varint
+// of the CRC-32 of the page's data, found in the header by its old value
+// (which tells where the data starts); the new one must encode to as many
+// bytes.
+func fixPageChecksum(t *testing.T, data, bad []byte, start, end int64) {
+	t.Helper()
+	varint := func(c uint32) []byte {
+		z := uint32(int32(c)<<1) ^ uint32(int32(c)>>31)
+		var b []byte
+		for z >= 0x80 {
+			b = append(b, byte(z)|0x80)
+			z >>= 7
+		}
+		return append(b, byte(z))
+	}
+	for s := end - 1; s > start; s-- {
+		old := varint(crc32.ChecksumIEEE(data[s:end]))
+		at := bytes.Index(data[start:s], old)
+		if at < 0 {
+			continue
+		}
+		repl := varint(crc32.ChecksumIEEE(bad[s:end]))
+		if len(repl) != len(old) {
+			t.Fatalf("the new checksum takes %d bytes, the old %d", len(repl), len(old))
+		}
+		copy(bad[start+int64(at):], repl)
+		return
+	}
+	t.Fatal("no page checksum found")
 }

@@ -34,6 +34,36 @@ type bulkRowPlain struct {
 	Seg   *string `parquet:"country,optional"`
 }
 
+// bulkRowRequired is bulkRow with every column required (no definition
+// levels): a null becomes an empty string (or ts 0), which the reader
+// reads as null for experiment, arm and segment and as a bad row for user
+// and event.
+type bulkRowRequired struct {
+	User  string `parquet:"user_id,dict"`
+	TS    int64  `parquet:"ts,timestamp(millisecond)"`
+	Event string `parquet:"event,dict"`
+	Exp   string `parquet:"experiment,dict"`
+	Arm   string `parquet:"arm,dict"`
+	Seg   string `parquet:"country,dict"`
+}
+
+func requiredRows(rows []bulkRow) []bulkRowRequired {
+	deref := func(p *string) string {
+		if p == nil {
+			return ""
+		}
+		return *p
+	}
+	out := make([]bulkRowRequired, len(rows))
+	for i, r := range rows {
+		out[i] = bulkRowRequired{User: deref(r.User), Event: deref(r.Event), Exp: deref(r.Exp), Arm: deref(r.Arm), Seg: deref(r.Seg)}
+		if r.TS != nil {
+			out[i].TS = *r.TS
+		}
+	}
+	return out
+}
+
 // randomBulkRows makes n rows with a few percent of each kind of bad row
 // (null or empty user, null ts, a ts out of range, null or empty event,
 // an exposure without an arm or in an arm that is not planned).
@@ -94,11 +124,12 @@ func TestBulkPathMatchesRowByRow(t *testing.T) {
 		plain[i] = bulkRowPlain(r)
 	}
 	files := map[string][]byte{
-		"dict-rg700":    writeParquet(t, rows, parquet.MaxRowsPerRowGroup(700), parquet.PageBufferSize(512)),
-		"dict-one-rg":   writeParquet(t, rows),
-		"plain-rg1000":  writeParquet(t, plain, parquet.MaxRowsPerRowGroup(1000), parquet.PageBufferSize(300)),
-		"plain-rg4097":  writeParquet(t, plain, parquet.MaxRowsPerRowGroup(4097)),
-		"dict-rg1-tiny": writeParquet(t, rows[:40], parquet.MaxRowsPerRowGroup(1)),
+		"dict-rg700":     writeParquet(t, rows, parquet.MaxRowsPerRowGroup(700), parquet.PageBufferSize(512)),
+		"dict-one-rg":    writeParquet(t, rows),
+		"plain-rg1000":   writeParquet(t, plain, parquet.MaxRowsPerRowGroup(1000), parquet.PageBufferSize(300)),
+		"plain-rg4097":   writeParquet(t, plain, parquet.MaxRowsPerRowGroup(4097)),
+		"dict-rg1-tiny":  writeParquet(t, rows[:40], parquet.MaxRowsPerRowGroup(1)),
+		"required-rg900": writeParquet(t, requiredRows(rows), parquet.MaxRowsPerRowGroup(900), parquet.PageBufferSize(400)),
 	}
 	names := make([]string, 0, len(files))
 	for n := range files {
