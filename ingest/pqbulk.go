@@ -390,13 +390,18 @@ func (w *rgWorker) rowsNeeded(n int) []bool {
 	}
 	need := w.needBuf[:n]
 	times, verdicts := tc.times[:n], ec.verdicts[:n]
-	// One test per row, without a branch: tsOK is 0, so a row is needed
-	// when its verdict's evNeed bit or its ts state is set.
+	// One test per row, without a branch: tsOK is 0 (checked below),
+	// so a row is needed when its verdict's evNeed bit or its ts state is
+	// set.
 	for k := range need {
-		need[k] = verdicts[k]&evNeed|(times[k].state^tsOK) != 0
+		need[k] = verdicts[k]&evNeed|times[k].state != 0
 	}
 	return need
 }
+
+// This does not compile unless tsOK is 0, which rowsNeeded
+// relies on.
+var _ = [1]struct{}{}[tsOK]
 
 // selectNeeded lists the needed rows of the window (w.need) in w.sel and
 // returns the count of the others, the valid rows of unwanted events,
