@@ -122,6 +122,8 @@ func compareParallel(t *testing.T, name string, want readOutcome, read func(Opti
 	}
 }
 
+// The CSV test files read the same on every path, and with dictionary
+// columns (Options.DictionaryColumns) as without.
 func TestCSVParallelMatchesSequentialOnFiles(t *testing.T) {
 	for _, path := range csvTestFiles {
 		data, err := os.ReadFile(filepath.FromSlash(path))
@@ -132,6 +134,18 @@ func TestCSVParallelMatchesSequentialOnFiles(t *testing.T) {
 			for _, budget := range []int64{0, NoLimit} {
 				t.Run(fmt.Sprintf("%s/%d/%d", filepath.Base(path), i, budget), func(t *testing.T) {
 					compareCSVPaths(t, filepath.Base(path), data, Options{Mapping: m, MaxBadRows: budget, BatchSize: 5})
+					// CSV rows have no dictionary: with dictionary
+					// columns each value is placed by its text, and the
+					// rows, counts and errors are the same.
+					read := outcomeOf(t, filepath.Base(path), data)
+					for _, rowByRow := range []bool{true, false} {
+						o := Options{Mapping: m, MaxBadRows: budget, BatchSize: 5, Workers: 3, rowByRow: rowByRow}
+						want := read(o)
+						o.DictionaryColumns = true
+						if got := read(o); !reflect.DeepEqual(got, want) {
+							t.Fatalf("dictionary columns, row by row %v:\n got %+v\nwant %+v", rowByRow, got, want)
+						}
+					}
 				})
 			}
 		}

@@ -6,8 +6,6 @@ import (
 	"fmt"
 	"hash/crc32"
 	"math/rand/v2"
-	"os"
-	"path/filepath"
 	"reflect"
 	"strings"
 	"testing"
@@ -106,33 +104,6 @@ func mustPlan(t *testing.T, o Options) *plan {
 		t.Fatal(err)
 	}
 	return p
-}
-
-// CSV rows have no dictionary: each value is placed by its text. The rows,
-// counts and errors are those of the reader without the option, on every
-// CSV test file, sequential and parallel.
-func TestDictionaryColumnsCSV(t *testing.T) {
-	for _, path := range csvTestFiles {
-		data, err := os.ReadFile(filepath.FromSlash(path))
-		if err != nil {
-			t.Fatal(err)
-		}
-		for i, m := range csvMappings(data) {
-			for _, budget := range []int64{0, NoLimit} {
-				t.Run(fmt.Sprintf("%s/%d/%d", filepath.Base(path), i, budget), func(t *testing.T) {
-					read := outcomeOf(t, filepath.Base(path), data)
-					for _, rowByRow := range []bool{true, false} {
-						o := Options{Mapping: m, MaxBadRows: budget, BatchSize: 5, Workers: 3, rowByRow: rowByRow}
-						want := read(o)
-						o.DictionaryColumns = true
-						if got := read(o); !reflect.DeepEqual(got, want) {
-							t.Fatalf("row by row %v:\n got %+v\nwant %+v", rowByRow, got, want)
-						}
-					}
-				})
-			}
-		}
-	}
 }
 
 // The builder's dictionary columns: values with codes, the same values
