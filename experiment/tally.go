@@ -173,8 +173,9 @@ type Tallier struct {
 	hasFresh bool
 	fin      *finished // the attribution of the events, until Add is called again
 
-	// Per batch: each row's role (rowSkip, kindExposure with its arm in
-	// rowArm, or a metric event index) and its key's hash.
+	// Per batch, of each row the first pass keeps (partRows): its role
+	// (kindExposure with its arm in rowArm, or a metric event index) and
+	// its key's hash.
 	rowKind []int32
 	rowArm  []int32
 	rowHash []uint64
@@ -214,10 +215,9 @@ type finished struct {
 	merged *mergeResult
 }
 
-const (
-	kindExposure = -1
-	rowSkip      = -2
-)
+// kindExposure is the role of an exposure row (rowKind); a metric event
+// row's role is the event's index into metricNames.
+const kindExposure = -1
 
 // smallArms is the most arms looked up by a linear scan of their names,
 // which beats a map's hashing when there are few; more use the map.
@@ -380,11 +380,9 @@ func (t *Tallier) Add(rec arrow.RecordBatch) error {
 	t.kindMemo = memo(&events, t.kindMemo, kindUnknown)
 	t.expMemo = memo(&exps, t.expMemo, 0)
 	t.armMemo = memo(&arms, t.armMemo, -1)
-	units := 0
 	// The first pass: the rules that do not depend on the unit.
 	for i := 0; i < n; i++ {
 		at := int64(ts[i])
-		t.rowKind[i] = rowSkip
 		if t.hasAsOf && at >= t.asOf {
 			t.diag.AfterAsOf++
 			continue
@@ -416,12 +414,15 @@ func (t *Tallier) Add(rec arrow.RecordBatch) error {
 		t.rowHash[i] = h
 		p := t.partOf(h)
 		t.partRows[p] = append(t.partRows[p], int32(i))
-		units++
 	}
 	if len(t.arms) > maxArms {
 		return fmt.Errorf("%s: more than %d distinct arm names", table, maxArms)
 	}
-	if units == 0 {
+	kept := 0
+	for _, rows := range t.partRows {
+		kept += len(rows)
+	}
+	if kept == 0 {
 		return nil
 	}
 	// The second: each partition's rows, on its own goroutine.

@@ -161,10 +161,7 @@ func (b *batchBuilder) newRecord() arrow.RecordBatch {
 			cols[i] = b.dictionaryArray(c, n, bitmap)
 			continue
 		}
-		offs := b.buffer(arrow.Int32Traits.BytesRequired(n + 1))
-		copy(arrow.Int32Traits.CastFromBytes(offs.Bytes()), c.offs)
-		data := b.buffer(len(c.data))
-		copy(data.Bytes(), c.data)
+		offs, data := b.textBuffers(c)
 		cols[i] = b.array(arrow.BinaryTypes.String, n, []*memory.Buffer{bitmap, offs, data}, c.nulls)
 	}
 	rec := array.NewRecordBatch(b.p.schema, cols, int64(n))
@@ -179,10 +176,7 @@ func (b *batchBuilder) newRecord() arrow.RecordBatch {
 // its validity bitmap (nil: no nulls).
 func (b *batchBuilder) dictionaryArray(c *textColumn, n int, bitmap *memory.Buffer) arrow.Array {
 	nv := len(c.offs) - 1
-	offs := b.buffer(arrow.Int32Traits.BytesRequired(nv + 1))
-	copy(arrow.Int32Traits.CastFromBytes(offs.Bytes()), c.offs)
-	data := b.buffer(len(c.data))
-	copy(data.Bytes(), c.data)
+	offs, data := b.textBuffers(c)
 	values := array.NewData(arrow.BinaryTypes.String, nv, []*memory.Buffer{nil, offs, data}, nil, 0, 0)
 	offs.Release()
 	data.Release()
@@ -197,6 +191,16 @@ func (b *batchBuilder) dictionaryArray(c *textColumn, n int, bitmap *memory.Buff
 	a := array.MakeFromData(d)
 	d.Release()
 	return a
+}
+
+// textBuffers copies column c's offsets and text (of its rows, or of a
+// dictionary column's values) into buffers from the allocator.
+func (b *batchBuilder) textBuffers(c *textColumn) (offs, data *memory.Buffer) {
+	offs = b.buffer(arrow.Int32Traits.BytesRequired(len(c.offs)))
+	copy(arrow.Int32Traits.CastFromBytes(offs.Bytes()), c.offs)
+	data = b.buffer(len(c.data))
+	copy(data.Bytes(), c.data)
+	return offs, data
 }
 
 // buffer allocates a buffer of size bytes from the allocator.
